@@ -452,8 +452,8 @@ class Tabulated(PairPotential):
         pts = np.linspace(rc, self.r_max, 64)
         i_u = i_w = 0.0
         for a, b in zip(pts[:-1], pts[1:]):
-            i_u += quad(lambda r: float(self.energy(r)) * r * r, a, b)[0]
-            i_w += quad(lambda r: float(self.dudr(r)) * r ** 3, a, b)[0]
+            i_u += quad(lambda r: float(self.energy(r)) * r * r, a, b, epsabs=1e-13, epsrel=1e-11)[0]
+            i_w += quad(lambda r: float(self.dudr(r)) * r ** 3, a, b, epsabs=1e-13, epsrel=1e-11)[0]
         return i_u, i_w
 
     def scaled(self, energy_unit, length_unit):
