@@ -1,0 +1,422 @@
+"""Ideal-gas heat capacity models c_v_ig(T) and their integrals.
+
+A simulation of spherical particles carries only the translational part of
+a molecule's heat capacity (3/2 R); rotations and vibrations come from the
+user as one of these models:
+
+- :class:`ConstantHeatCapacity`: c_v_ig = const (for example 1.5 R, 2.5 R).
+- :class:`PolynomialHeatCapacity`: c_v_ig = sum_k a_k T^k, a_k in
+  J/(mol K^(k+1)), T in K.
+- :class:`TabulatedHeatCapacity`: a table (T, c_v_ig) interpolated by a
+  monotone piecewise cubic (PCHIP, Fritsch and Carlson, SIAM J. Numer. Anal.
+  17, 238, 1980), read from a CSV file with header
+  ``temperature_K, cv_J_molK``.
+
+Each model gives ``cv(T)`` in J/(mol K), ``u(T)`` = int_{T_ref}^T c_v dT in
+J/mol (exact: closed forms for the constant and the polynomial, the exact
+integral of the piecewise cubic for the table), ``s(T)`` =
+int_{T_ref}^T c_v / T dT in J/(mol K), and ``valid_range`` in K.  A
+temperature outside the range raises :class:`~mdsim.errors.StudyError`
+naming the model, the range and what to do.
+
+:func:`heat_capacity_from_spec` builds a model from the raw forms a study
+file holds ("1.5 R", "20.8 J/(mol K)", {polynomial = [...], unit = "J/(mol K)"},
+a CSV path).
+"""
+import abc
+import csv
+import math
+import os
+
+import numpy as np
+from scipy import constants as _const
+from scipy.integrate import quad
+from scipy.interpolate import PchipInterpolator
+
+from mdsim.errors import StudyError
+
+R_GAS = _const.gas_constant  # J/(mol K), exact since the 2019 SI
+
+TABLE_HEADER = ("temperature_K", "cv_J_molK")
+
+_UREG = None
+
+
+def _registry():
+    global _UREG
+    if _UREG is None:
+        import pint
+        _UREG = pint.UnitRegistry()
+    return _UREG
+
+
+def _where(where):
+    return f" (in {where})" if where else ""
+
+
+def parse_molar_heat_capacity(text, where=""):
+    """Read a molar heat capacity such as "1.5 R" or "20.8 J/(mol K)".
+
+    Parameters
+    ----------
+    text : str
+        A number with a unit of molar heat capacity; "R" is the gas constant.
+    where : str
+        Where the value came from, for error messages.
+
+    Returns
+    -------
+    float
+        The value in J/(mol K).
+    """
+    import pint
+    ureg = _registry()
+    try:
+        q = ureg.Quantity(str(text))
+    except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError) as exc:
+        raise StudyError(
+            f"ideal-gas heat capacity{_where(where)}: cannot read {text!r} as a quantity "
+            f"({exc}); write a number with a unit, e.g. \"1.5 R\" or \"20.8 J/(mol K)\".") from exc
+    if q.dimensionless or not q.check("[energy] / [substance] / [temperature]"):
+        raise StudyError(
+            f"ideal-gas heat capacity{_where(where)}: {text!r} is not a molar heat capacity; "
+            "give units of R or J/(mol K), e.g. \"1.5 R\" or \"20.8 J/(mol K)\".")
+    return float(q.to("J/(mol K)").magnitude)
+
+
+class IdealGasHeatCapacity(abc.ABC):
+    """An ideal-gas molar heat capacity at constant volume, c_v_ig(T).
+
+    Attributes
+    ----------
+    valid_range : tuple of float
+        (T_low, T_high) in K where the model may be used.
+    reference_temperature_K : float
+        Lower end of the integrals ``u`` and ``s``.
+    """
+
+    valid_range = (0.0, math.inf)
+    reference_temperature_K = 298.15
+
+    def check_temperature(self, T, what="temperature"):
+        """Raise StudyError unless every T lies in ``valid_range``."""
+        T_arr = np.asarray(T, dtype=np.float64)
+        lo, hi = self.valid_range
+        bad = ~np.isfinite(T_arr) | (T_arr < lo) | (T_arr > hi) | (T_arr <= 0.0)
+        if np.any(bad):
+            value = T_arr[bad].ravel()[0]
+            raise StudyError(
+                f"{what} = {value:g} K is outside the range of the ideal-gas heat capacity "
+                f"model {self.describe()}, valid for {lo:g} K <= T <= {hi:g} K. Extend the "
+                "heat-capacity data (table or polynomial range) to cover it, or choose a "
+                "state inside the range.")
+        return T_arr
+
+    def cv(self, T):
+        """c_v_ig in J/(mol K) at T in K (scalar or array)."""
+        T_arr = self.check_temperature(T)
+        return self._shape(self._cv(T_arr), T)
+
+    def u(self, T):
+        """int_{T_ref}^T c_v_ig dT' in J/mol (an ideal-gas internal energy)."""
+        T_arr = self.check_temperature(T)
+        return self._shape(self._u(T_arr), T)
+
+    def s(self, T):
+        """int_{T_ref}^T c_v_ig / T' dT' in J/(mol K) (ideal-gas entropy at fixed volume)."""
+        T_arr = self.check_temperature(T)
+        return self._shape(self._s(T_arr), T)
+
+    def delta_u(self, T1, T2):
+        """u(T2) - u(T1) in J/mol."""
+        return self.u(T2) - self.u(T1)
+
+    def delta_s(self, T1, T2):
+        """s(T2) - s(T1) in J/(mol K)."""
+        return self.s(T2) - self.s(T1)
+
+    @staticmethod
+    def _shape(value, T):
+        return float(value) if np.ndim(T) == 0 else np.asarray(value, dtype=np.float64)
+
+    @abc.abstractmethod
+    def _cv(self, T):
+        """Vectorised c_v on validated temperatures."""
+
+    @abc.abstractmethod
+    def _u(self, T):
+        """Vectorised u on validated temperatures."""
+
+    @abc.abstractmethod
+    def _s(self, T):
+        """Vectorised s on validated temperatures."""
+
+    @abc.abstractmethod
+    def describe(self):
+        """One-line description of the model."""
+
+    def __repr__(self):
+        return f"<{self.describe()}>"
+
+
+class ConstantHeatCapacity(IdealGasHeatCapacity):
+    """c_v_ig = constant.
+
+    Parameters
+    ----------
+    cv_J_molK : float
+        The heat capacity in J/(mol K), > 0.
+    valid_range : tuple of float, optional
+        (T_low, T_high) in K; any positive temperature by default.
+    """
+
+    def __init__(self, cv_J_molK, valid_range=(0.0, math.inf)):
+        cv_J_molK = float(cv_J_molK)
+        if not (math.isfinite(cv_J_molK) and cv_J_molK > 0.0):
+            raise StudyError(
+                f"ideal-gas heat capacity = {cv_J_molK!r} J/(mol K) must be a positive "
+                "number (1.5 R = 12.47 J/(mol K) for a monatomic gas).")
+        self.cv_J_molK = cv_J_molK
+        self.valid_range = _check_range(valid_range)
+
+    @classmethod
+    def in_units_of_R(cls, multiple, valid_range=(0.0, math.inf)):
+        """c_v_ig = multiple * R (1.5 for atoms, 2.5 for rigid linear molecules)."""
+        return cls(float(multiple) * R_GAS, valid_range)
+
+    def _cv(self, T):
+        return np.full_like(T, self.cv_J_molK)
+
+    def _u(self, T):
+        return self.cv_J_molK * (T - self.reference_temperature_K)
+
+    def _s(self, T):
+        return self.cv_J_molK * np.log(T / self.reference_temperature_K)
+
+    def describe(self):
+        return f"constant c_v_ig = {self.cv_J_molK:.6g} J/(mol K) = {self.cv_J_molK / R_GAS:.6g} R"
+
+
+class PolynomialHeatCapacity(IdealGasHeatCapacity):
+    """c_v_ig(T) = sum_k a_k T^k.
+
+    Parameters
+    ----------
+    coefficients_J_molK : sequence of float
+        a_0, a_1, ... with c_v in J/(mol K) and T in K.
+    valid_range : tuple of float, optional
+        (T_low, T_high) in K where the fit holds; any positive T by default.
+
+    Notes
+    -----
+    u(T) = sum_k a_k (T^(k+1) - T_ref^(k+1)) / (k+1);
+    s(T) = a_0 ln(T / T_ref) + sum_{k>=1} a_k (T^k - T_ref^k) / k.
+    """
+
+    def __init__(self, coefficients_J_molK, valid_range=(0.0, math.inf)):
+        a = np.asarray(coefficients_J_molK, dtype=np.float64).ravel()
+        if a.size == 0 or not np.all(np.isfinite(a)):
+            raise StudyError(
+                f"ideal-gas heat capacity polynomial = {list(coefficients_J_molK)!r}: give at "
+                "least one finite coefficient, a_0 first (c_v in J/(mol K), T in K).")
+        self.coefficients = a
+        self.valid_range = _check_range(valid_range)
+        lo, hi = self.valid_range
+        # c_v must be positive where the model is used; check on a grid of the
+        # range (or, for an open range, near the reference temperature).
+        grid = np.linspace(lo if lo > 0 else 1.0, hi if math.isfinite(hi) else 2000.0, 201)
+        if np.any(self._cv(grid) <= 0.0):
+            raise StudyError(
+                f"ideal-gas heat capacity polynomial {a.tolist()} is not positive everywhere "
+                f"on {grid[0]:g}-{grid[-1]:g} K; check the coefficients (a_0 first, "
+                "J/(mol K), T in K) or narrow 'valid_range_K'.")
+
+    def _cv(self, T):
+        return np.polynomial.polynomial.polyval(T, self.coefficients)
+
+    def _u(self, T):
+        k = np.arange(self.coefficients.size)
+        T0 = self.reference_temperature_K
+        T = np.asarray(T)[..., None]
+        return np.sum(self.coefficients * (T ** (k + 1) - T0 ** (k + 1)) / (k + 1), axis=-1)
+
+    def _s(self, T):
+        T0 = self.reference_temperature_K
+        a = self.coefficients
+        out = a[0] * np.log(T / T0)
+        for k in range(1, a.size):
+            out = out + a[k] * (T ** k - T0 ** k) / k
+        return out
+
+    def describe(self):
+        return (f"polynomial c_v_ig(T) with coefficients {self.coefficients.tolist()} "
+                "J/(mol K), T in K")
+
+
+class TabulatedHeatCapacity(IdealGasHeatCapacity):
+    """c_v_ig(T) from a table, monotone piecewise-cubic (PCHIP) interpolation.
+
+    Parameters
+    ----------
+    temperature_K : array_like, shape=(n_points,)
+        Strictly increasing temperatures, n_points >= 2.
+    cv_J_molK : array_like, shape=(n_points,)
+        Positive heat capacities.
+    source : str
+        Where the table came from (file name), for messages.
+
+    Notes
+    -----
+    The interpolant is scipy's ``PchipInterpolator``; ``u`` integrates its
+    cubic pieces exactly (its antiderivative), ``s`` integrates c_v / T by
+    adaptive quadrature split at the knots (relative error ~1e-12).
+    """
+
+    def __init__(self, temperature_K, cv_J_molK, source=""):
+        T = np.asarray(temperature_K, dtype=np.float64).ravel()
+        cv = np.asarray(cv_J_molK, dtype=np.float64).ravel()
+        label = source or "table"
+        if T.size != cv.size or T.size < 2:
+            raise StudyError(
+                f"ideal-gas heat capacity table {label}: needs at least 2 rows with one "
+                f"temperature and one c_v each; got {T.size} temperatures and {cv.size} values.")
+        if not (np.all(np.isfinite(T)) and np.all(np.isfinite(cv))):
+            raise StudyError(f"ideal-gas heat capacity table {label}: holds non-finite numbers; "
+                             "every row needs a finite temperature_K and cv_J_molK.")
+        if np.any(np.diff(T) <= 0.0) or T[0] <= 0.0:
+            raise StudyError(
+                f"ideal-gas heat capacity table {label}: temperature_K must be positive and "
+                "strictly increasing; sort the rows and remove duplicates.")
+        if np.any(cv <= 0.0):
+            raise StudyError(f"ideal-gas heat capacity table {label}: cv_J_molK must be > 0 "
+                             f"in every row; found {cv[cv <= 0][0]:g}.")
+        self.temperature_K = T
+        self.cv_J_molK = cv
+        self.source = source
+        self.valid_range = (float(T[0]), float(T[-1]))
+        self.reference_temperature_K = float(T[0])
+        self._pchip = PchipInterpolator(T, cv, extrapolate=False)
+        self._pchip_int = self._pchip.antiderivative()
+
+    def _cv(self, T):
+        return self._pchip(T)
+
+    def _u(self, T):
+        return self._pchip_int(T)
+
+    def _s(self, T):
+        T0 = self.reference_temperature_K
+        knots = self.temperature_K
+
+        def one(t):
+            inner = knots[(knots > T0) & (knots < t)]
+            edges = np.concatenate(([T0], inner, [t]))
+            return sum(quad(lambda x: float(self._pchip(x)) / x, a, b,
+                            epsabs=0.0, epsrel=1e-12, limit=200)[0]
+                       for a, b in zip(edges[:-1], edges[1:]))
+
+        return np.vectorize(one, otypes=[np.float64])(T)
+
+    def describe(self):
+        src = f" from {self.source}" if self.source else ""
+        return (f"tabulated c_v_ig{src} ({self.temperature_K.size} points, "
+                f"{self.valid_range[0]:g}-{self.valid_range[1]:g} K, PCHIP)")
+
+
+def _check_range(valid_range):
+    try:
+        lo, hi = (float(v) for v in valid_range)
+    except (TypeError, ValueError) as exc:
+        raise StudyError(f"valid_range_K = {valid_range!r} must be two numbers "
+                         "[T_low, T_high] in K.") from exc
+    if not (lo >= 0.0 and hi > lo):
+        raise StudyError(f"valid_range_K = [{lo:g}, {hi:g}] K must satisfy 0 <= T_low < T_high.")
+    return (lo, hi)
+
+
+def read_heat_capacity_table(path):
+    """Read a c_v_ig table from a CSV file with header ``temperature_K, cv_J_molK``.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file; lines starting with '#' are comments.
+
+    Returns
+    -------
+    TabulatedHeatCapacity
+    """
+    path = os.fspath(path)
+    if not os.path.isfile(path):
+        raise StudyError(f"ideal-gas heat capacity table {path!r} does not exist; give the "
+                         "path of a CSV file with header 'temperature_K, cv_J_molK'.")
+    with open(path, newline="", encoding="utf-8") as fh:
+        rows = [r for r in csv.reader(fh) if r and not r[0].lstrip().startswith("#")]
+    if not rows:
+        raise StudyError(f"ideal-gas heat capacity table {path!r} is empty; it needs the header "
+                         "'temperature_K, cv_J_molK' and at least two rows.")
+    header = tuple(c.strip() for c in rows[0])
+    if header != TABLE_HEADER:
+        raise StudyError(f"ideal-gas heat capacity table {path!r}: header is {', '.join(header)!r}; "
+                         f"it must be exactly '{', '.join(TABLE_HEADER)}'.")
+    try:
+        data = np.array([[float(c) for c in r] for r in rows[1:]], dtype=np.float64)
+    except ValueError as exc:
+        raise StudyError(f"ideal-gas heat capacity table {path!r}: a row is not two numbers "
+                         f"({exc}); each row is 'temperature_K, cv_J_molK'.") from exc
+    if data.ndim != 2 or data.shape[1] != 2:
+        raise StudyError(f"ideal-gas heat capacity table {path!r}: every row needs exactly two "
+                         "numbers, temperature_K and cv_J_molK.")
+    return TabulatedHeatCapacity(data[:, 0], data[:, 1], source=os.path.basename(path))
+
+
+_DICT_KEYS = ("polynomial", "unit", "valid_range_K", "table")
+
+
+def heat_capacity_from_spec(spec, where=""):
+    """Build an ideal-gas heat capacity model from a study's raw value.
+
+    Parameters
+    ----------
+    spec : str, dict, or IdealGasHeatCapacity
+        - a quantity string: "1.5 R", "20.8 J/(mol K)" -> constant;
+        - a path to a CSV file (header ``temperature_K, cv_J_molK``) -> table;
+        - {"polynomial": [a0, a1, ...], "unit": "J/(mol K)" or "R",
+          "valid_range_K": [T_low, T_high]} -> polynomial (T in K; with
+          unit "R" the coefficients are multiples of R);
+        - {"table": path} -> table;
+        - a model object, returned as it is.
+    where : str
+        The study setting it came from, for error messages.
+
+    Returns
+    -------
+    IdealGasHeatCapacity
+    """
+    if isinstance(spec, IdealGasHeatCapacity):
+        return spec
+    if isinstance(spec, os.PathLike):
+        return read_heat_capacity_table(spec)
+    if isinstance(spec, str):
+        text = spec.strip()
+        if text.lower().endswith(".csv") or os.path.isfile(text):
+            return read_heat_capacity_table(text)
+        return ConstantHeatCapacity(parse_molar_heat_capacity(text, where))
+    if isinstance(spec, dict):
+        unknown = sorted(set(spec) - set(_DICT_KEYS))
+        if unknown:
+            raise StudyError(f"ideal-gas heat capacity{_where(where)}: unknown key(s) {unknown}; "
+                             f"allowed keys are {list(_DICT_KEYS)}.")
+        if "table" in spec:
+            return read_heat_capacity_table(spec["table"])
+        if "polynomial" not in spec:
+            raise StudyError(f"ideal-gas heat capacity{_where(where)}: a table of settings needs "
+                             "'polynomial = [a0, a1, ...]' (with 'unit') or 'table = \"file.csv\"'.")
+        unit = str(spec.get("unit", "J/(mol K)"))
+        scale = parse_molar_heat_capacity(f"1 {unit}", where)
+        coeffs = [float(c) * scale for c in spec["polynomial"]]
+        return PolynomialHeatCapacity(coeffs, spec.get("valid_range_K", (0.0, math.inf)))
+    raise StudyError(
+        f"ideal-gas heat capacity{_where(where)} = {spec!r} is not understood; give a quantity "
+        "string (\"1.5 R\", \"20.8 J/(mol K)\"), a CSV path, or {polynomial = [...], "
+        "unit = \"J/(mol K)\"}.")
