@@ -24,40 +24,18 @@ from dataclasses import dataclass, field
 
 from scipy import constants as _const
 from scipy.integrate import quad
-from scipy.optimize import brentq
 
 from mdsim.errors import ConvergenceError, StudyError
 
+from . import _checks
+from ._checks import ORDERS  # noqa: F401  (re-exported: the truncations offered)
+from ._checks import order as _order
+from ._checks import positive as _positive
+from ._checks import volume_ratio as _volume_ratio
+from .expansion import find_root_bracketed
 from .results import Result
 
 R_GAS = _const.gas_constant  # J/(mol K)
-
-ORDERS = (2, 3)
-
-
-def _positive(name, value, hint):
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise StudyError(f"setting '{name}' = {value!r}: must be a number; {hint}") from None
-    if not math.isfinite(value) or value <= 0.0:
-        raise StudyError(f"setting '{name}' = {value!r}: must be a positive finite number; {hint}")
-    return value
-
-
-def _order(order):
-    if order not in ORDERS:
-        raise StudyError(f"setting 'order' = {order!r}: the virial series is truncated after "
-                         "B2 (order 2) or after B3 (order 3); use 2 or 3")
-    return int(order)
-
-
-def _check_cv_model(cv_ig):
-    if not (callable(getattr(cv_ig, "cv", None)) and callable(getattr(cv_ig, "u", None))):
-        raise StudyError(
-            f"ideal-gas heat capacity {cv_ig!r}: expected a heat-capacity model with methods "
-            "cv(T) and u(T) (see analysis.heatcapacity, for example ConstantHeatCapacity)")
-
 
 def internal_energy_J_mol(gas, cv_ig, temperature_K, density_mol_m3, order=2):
     """Molar internal energy u_ig(T) + u_res(T, rho) in J/mol (u_ig from the model's
@@ -97,9 +75,9 @@ def constant_energy_temperature_K(gas, cv_ig, energy_J_mol, density_mol_m3, orde
 
     Notes
     -----
-    The bracket grows geometrically (factor 1.25) from the guess; brentq
-    then solves to xtol = 1e-12 K.  A unique root needs C_V > 0, true
-    wherever the truncated series is usable.
+    The bracket is searched by :func:`analysis.expansion.find_root_bracketed`
+    from the guess; brentq then solves to xtol = 1e-12 K.  A unique root
+    needs C_V > 0, true wherever the truncated series is usable.
     """
     order = _order(order)
     rho = _positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
@@ -112,28 +90,10 @@ def constant_energy_temperature_K(gas, cv_ig, energy_J_mol, density_mol_m3, orde
     def f(t):
         return internal_energy_J_mol(gas, cv_ig, t, rho, order) - target
 
-    lo = hi = min(max(t_guess, lo_limit), hi_limit)
-    f_lo = f_hi = f(lo)
-    if f_lo == 0.0:
-        return lo
-    for _ in range(200):
-        if f_lo < 0.0 < f_hi or f_lo > 0.0 > f_hi:
-            break
-        if f_lo > 0.0 and lo > lo_limit:
-            lo = max(lo / 1.25, lo_limit)
-            f_lo = f(lo)
-        elif f_hi < 0.0 and hi < hi_limit:
-            hi = min(hi * 1.25, hi_limit)
-            f_hi = f(hi)
-        else:
-            break
-    if not (f_lo < 0.0 < f_hi or f_lo > 0.0 > f_hi):
-        raise ConvergenceError(
-            f"constant-energy temperature at {rho:.6g} mol/m^3: no temperature between "
-            f"{lo:.6g} K and {hi:.6g} K gives u = {target:.6g} J/mol (order {order} virial "
-            "series); the truncated series cannot describe this state: simulation is needed",
-            partial={"temperature_K": (lo, hi), "residual_J_mol": (f_lo, f_hi)})
-    return float(brentq(f, lo, hi, xtol=1e-12, rtol=1e-15))
+    return find_root_bracketed(
+        f, min(max(t_guess, lo_limit), hi_limit), lo_limit, hi_limit,
+        f"the constant-energy temperature at {rho:.6g} mol/m^3 and u = {target:.6g} J/mol "
+        f"(order {order} virial series)", xtol=1e-12, rtol=1e-15)
 
 
 @dataclass(frozen=True)
@@ -247,12 +207,9 @@ def free_expansion_entropy(gas, cv_ig, temperature_K, volume_ratio, density_mol_
     Gauss-Kronrod quadrature; T(rho) solves U(T, rho) = U_i at each node.
     """
     order = _order(order)
-    _check_cv_model(cv_ig)
+    _checks.heat_capacity_model(cv_ig)
     t_i = _positive("temperature_K", temperature_K, "the initial temperature in K")
-    r = _positive("volume_ratio", volume_ratio, "V_final / V_initial, greater than 1")
-    if r <= 1.0:
-        raise StudyError(f"setting 'volume_ratio' = {volume_ratio!r}: a free expansion needs "
-                         "V_final / V_initial > 1; give a ratio greater than 1")
+    r = _volume_ratio(volume_ratio)
     n_mol = _positive("amount_mol", amount_mol, "the amount of gas in mol")
     if (density_mol_m3 is None) == (pressure_Pa is None):
         raise StudyError("initial state: give exactly one of 'density_mol_m3' and 'pressure_Pa' "

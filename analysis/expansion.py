@@ -43,11 +43,14 @@ from scipy.special import logsumexp
 from mdsim.errors import ConvergenceError, StudyError
 
 from . import stats
+from ._checks import ORDERS  # noqa: F401  (re-exported: the truncations offered)
+from ._checks import order as _order
+from ._checks import positive as _positive
+from ._checks import volume_ratio as _volume_ratio
 from .results import Result
 
 R_GAS = _const.gas_constant  # J/(mol K), exact since the 2019 SI
 
-ORDERS = (2, 3)
 
 VIRIAL_SPREAD_WARN = 0.10
 """Warn when the B2 and B2 + B3 temperature changes differ by more than this
@@ -80,37 +83,6 @@ def reduced_to_J_mol(u_red, epsilon_K):
     return float(u_red) * scale
 
 
-def _positive(name, value, hint):
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise StudyError(f"setting '{name}' = {value!r} must be a number; {hint}") from None
-    if not (math.isfinite(value) and value > 0.0):
-        raise StudyError(f"setting '{name}' = {value!r} must be a positive finite number; {hint}")
-    return value
-
-
-def _volume_ratio(volume_ratio):
-    try:
-        r = float(volume_ratio)
-    except (TypeError, ValueError):
-        raise StudyError(f"setting 'volume_ratio' = {volume_ratio!r} must be a number > 1 "
-                         "(V_final / V_initial), e.g. 2 for expansion into an equal "
-                         "evacuated volume.") from None
-    if not (math.isfinite(r) and r > 1.0):
-        raise StudyError(f"setting 'volume_ratio' = {volume_ratio!r} must be > 1 (V_final / "
-                         "V_initial; a free expansion only enlarges the volume), e.g. 2 for "
-                         "expansion into an equal evacuated volume.")
-    return r
-
-
-def _order(order):
-    if order not in ORDERS:
-        raise StudyError(f"setting 'order' = {order!r}: the virial series is truncated after "
-                         "B2 (order 2) or after B3 (order 3); use 2 or 3.")
-    return int(order)
-
-
 def _mean_stderr(value, name):
     """(mean, stderr) from a SeriesMean, a (mean, stderr) pair or a number."""
     if isinstance(value, stats.SeriesMean):
@@ -127,7 +99,7 @@ def _mean_stderr(value, name):
     return mean, err
 
 
-def find_root_bracketed(fun, x0, lower, upper, what, first_step=0.02):
+def find_root_bracketed(fun, x0, lower, upper, what, first_step=0.02, xtol=None, rtol=1e-13):
     """Root of a scalar function near x0, bracketed by a growing search.
 
     Parameters
@@ -143,6 +115,9 @@ def find_root_bracketed(fun, x0, lower, upper, what, first_step=0.02):
     first_step : float
         First trial offset, relative to x0; it grows by 1.6 each try,
         downwards and upwards alternately.
+    xtol, rtol : float, optional
+        Tolerances of the final brentq solve; ``xtol`` is 1e-12 * x0 by
+        default.
 
     Returns
     -------
@@ -151,8 +126,11 @@ def find_root_bracketed(fun, x0, lower, upper, what, first_step=0.02):
     Raises
     ------
     ConvergenceError
-        No sign change in [lower, upper].
+        No sign change in [lower, upper]; ``partial`` holds the last
+        (below, above) points and their function values.
     """
+    if xtol is None:
+        xtol = 1e-12 * x0
     f0 = fun(x0)
     if f0 == 0.0:
         return float(x0)
@@ -164,20 +142,21 @@ def find_root_bracketed(fun, x0, lower, upper, what, first_step=0.02):
             nxt = max(lower, below - step)
             f_nxt = fun(nxt)
             if np.sign(f_nxt) != np.sign(f_below):
-                return float(brentq(fun, nxt, below, xtol=1e-12 * x0, rtol=1e-13))
+                return float(brentq(fun, nxt, below, xtol=xtol, rtol=rtol))
             below, f_below = nxt, f_nxt
         if above < upper:
             nxt = min(upper, above + step)
             f_nxt = fun(nxt)
             if np.sign(f_nxt) != np.sign(f_above):
-                return float(brentq(fun, above, nxt, xtol=1e-12 * x0, rtol=1e-13))
+                return float(brentq(fun, above, nxt, xtol=xtol, rtol=rtol))
             above, f_above = nxt, f_nxt
         step *= 1.6
     raise ConvergenceError(
         f"no root of the energy balance for {what} between {lower:g} and {upper:g} K: the "
         "internal energy does not cross its initial value there. The state may lie outside "
         "the model's reach (check the heat-capacity range, the density and the potential), "
-        "or the final state is two-phase; use a simulation route.")
+        "or the final state is two-phase; use a simulation route.",
+        partial={"x": (below, above), "f": (f_below, f_above)})
 
 
 # --- virial route -------------------------------------------------------------

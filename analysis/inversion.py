@@ -38,14 +38,16 @@ from scipy.optimize import brentq
 
 from mdsim.errors import ConvergenceError, StudyError
 
-from . import stats
+from . import _checks, stats
+from ._checks import ORDERS  # noqa: F401  (re-exported: the truncations offered)
+from ._checks import order as _order
+from ._checks import positive as _positive
 from .results import Result
 
 R_GAS = _const.gas_constant  # J/(mol K)
 K_B = _const.Boltzmann       # J/K
 N_A = _const.Avogadro        # 1/mol
 
-ORDERS = (2, 3)
 
 # Temperatures scanned for sign changes, in units of the largest pair well
 # depth epsilon/k: wide enough for the B2 maximum (25 eps/k for LJ, lower for
@@ -57,30 +59,9 @@ _SCAN_POINTS = 240
 
 # --- validation helpers ---------------------------------------------------------
 
-def _positive(name, value, hint):
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise StudyError(f"setting '{name}' = {value!r}: must be a number; {hint}") from None
-    if not math.isfinite(value) or value <= 0.0:
-        raise StudyError(f"setting '{name}' = {value!r}: must be a positive finite number; {hint}")
-    return value
-
-
-def _order(order):
-    if order not in ORDERS:
-        raise StudyError(f"setting 'order' = {order!r}: the virial series is truncated after "
-                         "B2 (order 2) or after B3 (order 3); use 2 or 3")
-    return int(order)
-
-
 def _cv_ig(cv_ig, temperature_K):
     """Ideal-gas molar heat capacity (J/(mol K)) from a model with ``cv(T)``."""
-    if not callable(getattr(cv_ig, "cv", None)):
-        raise StudyError(
-            f"ideal-gas heat capacity {cv_ig!r}: expected a heat-capacity model with a method "
-            "cv(T) in J/(mol K) (see analysis.heatcapacity, for example ConstantHeatCapacity)")
-    return float(cv_ig.cv(temperature_K))
+    return float(_checks.heat_capacity_model(cv_ig, ("cv",)).cv(temperature_K))
 
 
 def _pair_epsilons_K(gas):

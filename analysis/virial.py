@@ -109,6 +109,15 @@ def _check_fractions(fractions, n_species):
     return x
 
 
+def _check_mixture(pairs, fractions, T):
+    """Mole fractions of a mixture, once ``pairs`` and ``T`` are checked too."""
+    if not isinstance(pairs, PairMatrix):
+        raise StudyError(f"'pairs' must be a PairMatrix; got {type(pairs).__name__}")
+    x = _check_fractions(fractions, pairs.n_species)
+    _check_temperature(T)
+    return x
+
+
 def _shape_out(values_kt, T):
     """Tuple of per-order results shaped like the input T (floats for scalars)."""
     if np.ndim(T) == 0:
@@ -283,10 +292,7 @@ def b2_mixture(pairs, fractions, T, n_nodes=DEFAULT_NODES_B2):
     -------
     B2, dB2_dT, d2B2_dT2 : as :func:`b2`
     """
-    if not isinstance(pairs, PairMatrix):
-        raise StudyError(f"'pairs' must be a PairMatrix; got {type(pairs).__name__}")
-    x = _check_fractions(fractions, pairs.n_species)
-    _check_temperature(T)
+    x = _check_mixture(pairs, fractions, T)
     out = [0.0, 0.0, 0.0]
     ns = pairs.n_species
     for a in range(ns):
@@ -520,10 +526,7 @@ def b3_mixture(pairs, fractions, T, n_nodes=DEFAULT_NODES_B3):
     -------
     B3, dB3_dT, d2B3_dT2 : as :func:`b3`
     """
-    if not isinstance(pairs, PairMatrix):
-        raise StudyError(f"'pairs' must be a PairMatrix; got {type(pairs).__name__}")
-    x = _check_fractions(fractions, pairs.n_species)
-    _check_temperature(T)
+    x = _check_mixture(pairs, fractions, T)
     ns = pairs.n_species
     P = pairs.pots
     out = [0.0, 0.0, 0.0]

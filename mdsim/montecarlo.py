@@ -99,6 +99,16 @@ def _wrap(x, box):
 
 
 @njit(cache=True, inline="always")
+def _min_image(d, box, half):
+    """Nearest periodic image of a coordinate difference ``d`` (|d| < 1.5 box)."""
+    if d > half:
+        return d - box
+    if d < -half:
+        return d + box
+    return d
+
+
+@njit(cache=True, inline="always")
 def _nbr(c, k, n, reach):
     # k-th of the min(n, 2 reach + 1) distinct cell coordinates within reach of c
     if n >= 2 * reach + 1:
@@ -194,21 +204,9 @@ def _particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i,
                 j = head_c[c]
                 while j >= 0:
                     if j != i:
-                        dx = x - r_ni[j, 0]
-                        if dx > hx:
-                            dx -= lx
-                        elif dx < -hx:
-                            dx += lx
-                        dy = y - r_ni[j, 1]
-                        if dy > hy:
-                            dy -= ly
-                        elif dy < -hy:
-                            dy += ly
-                        dz = z - r_ni[j, 2]
-                        if dz > hz:
-                            dz -= lz
-                        elif dz < -hz:
-                            dz += lz
+                        dx = _min_image(x - r_ni[j, 0], lx, hx)
+                        dy = _min_image(y - r_ni[j, 1], ly, hy)
+                        dz = _min_image(z - r_ni[j, 2], lz, hz)
                         r2 = dx * dx + dy * dy + dz * dz
                         sj = species_n[j] if mixture else 0
                         if r2 < rc2_ab[si, sj]:
@@ -221,15 +219,6 @@ def _particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i,
                             u += e
                     j = next_n[j]
     return u
-
-
-@njit(cache=True, inline="always")
-def _min_image(d, box, half):
-    if d > half:
-        return d - box
-    if d < -half:
-        return d + box
-    return d
 
 
 @njit(cache=True, inline="always")
@@ -435,21 +424,9 @@ def energy_virial(r_ni, species_n, params_ab, form, table, box_i, ncell_i, head_
                     j = head_c[c]
                     while j >= 0:
                         if j > i:
-                            dx = x - r_ni[j, 0]
-                            if dx > hx:
-                                dx -= lx
-                            elif dx < -hx:
-                                dx += lx
-                            dy = y - r_ni[j, 1]
-                            if dy > hy:
-                                dy -= ly
-                            elif dy < -hy:
-                                dy += ly
-                            dz = z - r_ni[j, 2]
-                            if dz > hz:
-                                dz -= lz
-                            elif dz < -hz:
-                                dz += lz
+                            dx = _min_image(x - r_ni[j, 0], lx, hx)
+                            dy = _min_image(y - r_ni[j, 1], ly, hy)
+                            dz = _min_image(z - r_ni[j, 2], lz, hz)
                             r2 = dx * dx + dy * dy + dz * dz
                             sj = species_n[j] if mixture else 0
                             if r2 < rc2_ab[si, sj]:

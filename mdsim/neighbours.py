@@ -92,6 +92,17 @@ def cell_sort(r_ni, box_i, ncell_i, order_n, cell_start_c):
         fill[c] += 1
 
 
+@njit(cache=True, inline="always")
+def _wrap_cell(j, n, box):
+    """Cell coordinate j (one cell out of range at most) wrapped into 0..n-1, and the
+    shift (0, box or -box) that takes a position in the wrapped cell to its near image."""
+    if j >= n:
+        return j - n, box
+    if j < 0:
+        return j + n, -box
+    return j, 0.0
+
+
 @njit(cache=True)
 def build_half_list_cells(r_ni, box_i, ncell_i, cell_start_c, r_list2, nb_nk, count_n):
     """Half Verlet list from a cell grid (needs >= 3 cells per direction).
@@ -130,25 +141,10 @@ def build_half_list_cells(r_ni, box_i, ncell_i, cell_start_c, r_list2, nb_nk, co
                         t = s + 13  # offsets 14..26 of the 27-cell block
                         dx, dy, dz = t // 9 - 1, (t // 3) % 3 - 1, t % 3 - 1
                     jx, jy, jz = ix + dx, iy + dy, iz + dz
-                    shx = shy = shz = 0.0  # added to r_j to get the near image
-                    if jx >= nx:
-                        jx -= nx
-                        shx = Lx
-                    elif jx < 0:
-                        jx += nx
-                        shx = -Lx
-                    if jy >= ny:
-                        jy -= ny
-                        shy = Ly
-                    elif jy < 0:
-                        jy += ny
-                        shy = -Ly
-                    if jz >= nz:
-                        jz -= nz
-                        shz = Lz
-                    elif jz < 0:
-                        jz += nz
-                        shz = -Lz
+                    # shifts added to r_j to get the near image
+                    jx, shx = _wrap_cell(jx, nx, Lx)
+                    jy, shy = _wrap_cell(jy, ny, Ly)
+                    jz, shz = _wrap_cell(jz, nz, Lz)
                     cj = (jx * ny + jy) * nz + jz
                     b0, b1 = cell_start_c[cj], cell_start_c[cj + 1]
                     for i in range(a0, a1):

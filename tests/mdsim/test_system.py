@@ -83,7 +83,7 @@ def test_rng_is_reproducible_and_uniform():
 
 
 def _xoshiro_python(state, n):
-    """Plain-integer transcription of Blackman and Vigna's published xoshiro256**."""
+    """Plain-integer rewrite of Blackman and Vigna's published xoshiro256**."""
     mask = (1 << 64) - 1
     rotl = lambda x, k: ((x << k) | (x >> (64 - k))) & mask  # noqa: E731
     s = list(state)
