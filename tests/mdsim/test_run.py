@@ -1,0 +1,148 @@
+"""mdsim run / task / status: skipping, kill and resume, the lock, failures, the array script."""
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+
+import pytest
+
+from mdsim.cli import main
+from mdsim.rundir import RunDir
+from mdsim.tasks import read_task_result
+
+from test_tasks import write_study
+
+SWEEP = '[sweep]\ntemperature = ["150 K", "180 K"]'
+
+
+def _results(run_dir):
+    rd = RunDir(run_dir)
+    out = {}
+    for t in rd.read_tasks():
+        _, res, series = read_task_result(rd.task_file(t["index"]))
+        out[t["index"]] = (res["delta_T_K"], res["final_temperature_K"],
+                           {k: v.tolist() for k, v in series.items()})
+    return out
+
+
+def _cli(*args, env_extra=None, **kw):
+    env = dict(os.environ, **(env_extra or {}))
+    return subprocess.run([sys.executable, "-m", "mdsim", *args], capture_output=True, text=True,
+                          env=env, **kw)
+
+
+def test_run_json_then_rerun_skips_complete_tasks(tmp_path, capsys):
+    study = write_study(tmp_path)
+    out = tmp_path / "run"
+    assert main(["run", str(study), "--out", str(out), "--workers", "1", "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    sp = summary["state_points"][0]
+    assert {"virial_b2", "virial_b3", "energy"} <= set(sp["delta_T_K"])
+    assert sp["delta_T_K"]["energy"]["stderr"] <= 0.5
+    for name in ("study.toml", "tasks.json", "results.csv", "results.json", "report.md",
+                 "log.txt", "tasks/0000.h5"):
+        assert (out / name).is_file(), name
+    first = _results(out)
+    assert main(["run", str(study), "--out", str(out), "--workers", "1"]) == 0
+    assert "1 of 1 tasks already complete; skipped" in capsys.readouterr().err
+    assert _results(out) == first
+
+
+def test_the_resolved_study_reads_back_with_the_same_tasks(tmp_path):
+    from mdsim.study import read_study
+    from mdsim.tasks import plan_tasks
+    from mdsim.cmd_run import prepare_run_dir
+    study = read_study(write_study(tmp_path, particles=""))
+    rd, tasks = prepare_run_dir(study, tmp_path / "run")
+    again = read_study(rd.path / "study.toml")
+    assert plan_tasks(again) == tasks
+    assert again.simulation["max_cpu_time"] == pytest.approx(120.0)
+
+
+def test_a_second_run_is_refused_while_the_lock_is_held(tmp_path, capsys):
+    study = write_study(tmp_path)
+    rd = RunDir(tmp_path / "run").create()
+    rd.acquire_lock()  # held by this (living) process
+    try:
+        assert main(["run", str(study), "--out", str(rd.path)]) == 2
+        err = capsys.readouterr().err
+        assert "is in use by process" in err and str(os.getpid()) in err
+    finally:
+        rd.release_lock()
+    assert not (rd.path / ".lock").exists()
+
+
+def test_a_failed_task_shows_its_error_and_status_lists_it(tmp_path, capsys):
+    study = write_study(tmp_path, particles="particles = 32", density="15000 mol/m^3")
+    out = tmp_path / "run"
+    assert main(["run", str(study), "--out", str(out), "--workers", "1"]) == 1
+    err = capsys.readouterr().err
+    assert "task 0000 (energy, state point 0) failed" in err and "Traceback" not in err
+    assert (out / "tasks" / "0000.failed.json").is_file()
+    assert main(["status", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "0 done, 0 running, 1 failed, 0 left" in text
+    assert "at least 47 particles" in text
+
+
+def test_status_counts_done_and_left(tmp_path, capsys):
+    study = write_study(tmp_path, extra=SWEEP, initial_T="")
+    out = tmp_path / "run"
+    assert main(["run", str(study), "--out", str(out), "--executor", "array"]) == 0
+    assert main(["task", str(out), "--index", "1"]) == 0
+    capsys.readouterr()
+    assert main(["status", str(out), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["counts"] == {"done": 1, "running": 0, "failed": 0, "left": 1}
+    assert [r["state"] for r in data["tasks"]] == ["pending", "done"]
+    assert data["cpu_seconds_total"] > 0
+
+
+@pytest.mark.slow
+def test_array_script_elements_run_one_by_one_match_the_local_run(tmp_path):
+    study = write_study(tmp_path, extra=SWEEP, initial_T="")
+    local, array = tmp_path / "local", tmp_path / "array"
+    assert main(["run", str(study), "--out", str(local), "--workers", "1", "--quiet"]) == 0
+    assert main(["run", str(study), "--out", str(array), "--executor", "array", "--quiet"]) == 0
+    script = array / "array.sh"
+    text = script.read_text()
+    assert "#SBATCH --array=0-1" in text and "SLURM_ARRAY_TASK_ID" in text
+    loop = f'for k in 0 1; do SLURM_ARRAY_TASK_ID=$k bash {script} || exit 1; done'
+    done = subprocess.run(["bash", "-c", loop], capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    assert main(["report", str(array)]) == 0
+    assert _results(array) == _results(local)
+    assert json.loads((array / "results.json").read_text())["state_points"][1]["delta_T_K"][
+        "energy"] == json.loads((local / "results.json").read_text())["state_points"][1][
+        "delta_T_K"]["energy"]
+
+
+@pytest.mark.slow
+def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_path):
+    study = write_study(tmp_path, extra=SWEEP, initial_T="", target="0.25 K")
+    whole, killed = tmp_path / "whole", tmp_path / "killed"
+    args = ["run", str(study), "--workers", "1", "--quiet"]
+    proc = subprocess.Popen([sys.executable, "-m", "mdsim", *args, "--out", str(killed)],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    stages = killed / "tasks" / "0000.stages"
+    deadline = time.time() + 120
+    # kill while task 0 is part way: after its first stage file completed
+    while time.time() < deadline and not (stages / "initial-pilot.h5").exists():
+        time.sleep(0.05)
+    os.kill(proc.pid, signal.SIGKILL)
+    proc.wait()
+    assert (stages / "initial-pilot.h5").exists()
+    assert not (killed / "tasks" / "0001.h5").exists()  # it really stopped part way
+    assert (killed / ".lock").exists()  # left behind by the killed process: taken over below
+    again = _cli(*args, "--out", str(killed), timeout=300)
+    assert again.returncode == 0, again.stderr
+    # the uninterrupted reference, task by task in this process (no report needed)
+    from mdsim.cmd_run import prepare_run_dir
+    from mdsim.study import read_study
+    from mdsim.tasks import run_task
+    rd, tasks = prepare_run_dir(read_study(study), whole)
+    for t in tasks:
+        run_task(rd.path, t["index"])
+    assert _results(killed) == _results(whole)

@@ -1,0 +1,176 @@
+"""Tasks: planning, the three simulation routes against the virial limit, task files, failures."""
+import json
+import math
+
+import numpy as np
+import pytest
+
+from mdsim.errors import StudyError
+from mdsim.rundir import RunDir
+from mdsim.study import read_study
+from mdsim.tasks import plan_tasks, read_task_result, run_task, simulation_settings
+
+BASE = """\
+[study]
+name = "{name}"
+[gas]
+molar_mass = "39.948 g/mol"
+ideal_heat_capacity = "{cv}"
+dof_per_particle = {dof}
+[potential]
+form = "lennard-jones"
+epsilon = "119.8 K"
+sigma = "3.405 angstrom"
+cutoff = 2.5
+[initial]
+{initial_T}
+density = "{density}"
+[expansion]
+volume_ratio = 2.0
+[simulation]
+routes = {routes}
+{particles}
+target_stderr = "{target}"
+max_cpu_time = "120 s"
+seed = 3
+{extra}
+"""
+
+
+def write_study(tmp_path, name="tiny", routes='["energy"]', particles="particles = 100",
+                target="0.5 K", cv="1.5 R", dof=3, extra="", initial_T='temperature = "150 K"',
+                density="2000 mol/m^3"):
+    path = tmp_path / f"{name}.toml"
+    path.write_text(BASE.format(name=name, routes=routes, particles=particles, target=target,
+                                cv=cv, dof=dof, extra=extra,
+                                initial_T=initial_T, density=density), encoding="utf-8")
+    return path
+
+
+def make_run_dir(tmp_path, study_path, name="run"):
+    """A run directory as 'mdsim run' makes it, without running anything."""
+    from mdsim.cmd_run import prepare_run_dir
+    rd, tasks = prepare_run_dir(read_study(study_path), tmp_path / name)
+    return rd, tasks
+
+
+def test_plan_one_task_per_state_point_and_route(tmp_path):
+    extra = '[sweep]\ntemperature = ["150 K", "200 K"]'
+    study = read_study(write_study(tmp_path, routes='["energy", "partition"]', extra=extra,
+                                   initial_T=""))
+    tasks = plan_tasks(study)
+    assert len(tasks) == 4  # 2 state points x 2 routes
+    assert [t["index"] for t in tasks] == [0, 1, 2, 3]
+    assert [t["route"] for t in tasks] == ["energy", "partition"] * 2
+    assert [t["state_point"]["index"] for t in tasks] == [0, 0, 1, 1]
+    assert [t["seed"] for t in tasks] == [[3, 0], [3, 1], [3, 2], [3, 3]]
+    assert tasks[2]["state_point"]["temperature_K"] == pytest.approx(200.0)
+    assert tasks[0]["initial_density_mol_m3"] == pytest.approx(2000.0)
+    assert tasks[0]["target_stderr_K"] == pytest.approx(0.5)
+    assert tasks[0]["particles"] == 100
+    json.dumps(tasks)  # JSON-ready
+
+
+def test_settings_defaults_and_units(tmp_path):
+    study = read_study(write_study(tmp_path, particles="", target="20 mK"))
+    s = simulation_settings(study)
+    assert s["particles"] is None
+    assert s["target_stderr_K"] == pytest.approx(0.02)
+    assert s["max_cpu_time_s"] == pytest.approx(120.0)
+    assert s["sampler"] == "mc"
+
+
+def test_microcanonical_route_refuses_a_molecular_heat_capacity(tmp_path):
+    study = read_study(write_study(tmp_path, routes='["microcanonical"]', cv="3.5 R"))
+    with pytest.raises(StudyError, match="microcanonical route assumes a constant classical"):
+        plan_tasks(study)
+
+
+def test_partition_route_refuses_molecules(tmp_path):
+    study = read_study(write_study(tmp_path, routes='["partition"]', cv="2.5 R", dof=5))
+    with pytest.raises(StudyError, match="partition route simulates atoms"):
+        plan_tasks(study)
+
+
+def test_unknown_route_is_a_user_error(tmp_path):
+    with pytest.raises(StudyError, match="energy"):
+        plan_tasks(read_study(write_study(tmp_path, routes='["energi"]')))
+
+
+def test_too_few_particles_fails_the_task_with_its_message(tmp_path):
+    # rho* = 0.357: a cut-off of 2.5 sigma needs a box edge of 5 sigma, so 0.357 * 125 * 1.05
+    # -> at least 47 particles
+    path = write_study(tmp_path, particles="particles = 32", density="15000 mol/m^3")
+    rd, _ = make_run_dir(tmp_path, path)
+    with pytest.raises(StudyError, match="at least 47 particles"):
+        run_task(rd.path, 0)
+    info = json.loads(rd.failure_file(0).read_text())
+    assert "at least 47 particles" in info["error"]
+    assert "traceback" not in info  # a user error keeps its message, not a traceback
+    assert rd.task_state(0) == "failed"
+
+
+@pytest.mark.slow
+def test_three_routes_agree_with_each_other_and_the_virial_limit(tmp_path):
+    """150 K, 2000 mol/m^3 (rho* = 0.079), N = 100: all routes within their errors.
+
+    Reference: at low density the virial series is exact (fact of the trade,
+    common practice, no source); B2 and B3 of LJ are checked against the
+    published tables in tests/analysis/test_virial.py.  Allowance: 3 combined
+    standard errors plus the B2 to B2 + B3 spread as the truncation error.
+    """
+    from analysis.expansion import virial_expansion
+    from mdsim.statepoints import ideal_heat_capacity, virial_gas
+    path = write_study(tmp_path, routes='["energy", "microcanonical", "partition"]',
+                       target="0.3 K")
+    rd, tasks = make_run_dir(tmp_path, path)
+    results = [run_task(rd.path, k) for k in range(len(tasks))]
+    study = read_study(path)
+    v = virial_expansion(virial_gas(study), ideal_heat_capacity(study), 150.0, 2.0,
+                         rho_i=2000.0, order=3)
+    trunc = abs(v.delta_T_B2B3_K - v.delta_T_B2_K)
+    for res in results:
+        d = res["delta_T_K"]
+        assert res["stopped_by"] == "target"
+        assert d["stderr"] <= 0.3
+        assert abs(d["value"] - v.delta_T_K) < 3 * d["stderr"] + trunc, res["route"]
+    for a in results:
+        for b in results:
+            s = math.hypot(a["delta_T_K"]["stderr"], b["delta_T_K"]["stderr"])
+            assert abs(a["delta_T_K"]["value"] - b["delta_T_K"]["value"]) < 3 * s
+    # the task files hold the agreed result keys and plot series
+    keys = {"route", "state_point_index", "delta_T_K", "final_temperature_K",
+            "initial_density_mol_m3", "final_density_mol_m3", "final_pressure_Pa", "stopped_by",
+            "cpu_seconds", "n_particles", "warnings", "notes"}
+    series_keys = {
+        "energy": {"newton_T_K", "newton_u_res_J_mol", "newton_u_res_stderr_J_mol",
+                   "initial_T_K", "initial_u_res_J_mol", "initial_u_res_stderr_J_mol"},
+        "microcanonical": {"kinetic_temperature_K_t"},
+        "partition": {"time_s", "temperature_K_t", "profile_z_fraction", "density_profile_tz"},
+    }
+    for k, t in enumerate(tasks):
+        task, res, series = read_task_result(rd.task_file(k))
+        assert task == t
+        assert keys <= set(res)
+        assert series_keys[t["route"]] <= set(series)
+        assert not rd.partial_file(k).exists()
+        assert res["final_density_mol_m3"] == pytest.approx(1000.0)
+    _, _, s = read_task_result(rd.task_file(2))
+    prof = s["density_profile_tz"]
+    assert prof.shape == (s["profile_time_s"].size, s["profile_z_fraction"].size)
+    # particle number is conserved in every profile: mean density over z is rho_f
+    np.testing.assert_allclose(prof.mean(axis=1), 1000.0, rtol=1e-9)
+    # when the box is opened the new half is empty (r = 2); at the end it is filled
+    assert s["profile_time_s"][0] == 0.0
+    assert np.all(prof[0, 10:] == 0.0)
+    assert prof[-1, 10:].mean() > 0.6 * prof[-1, :10].mean()
+
+
+def test_a_complete_task_is_read_back_not_run_again(tmp_path):
+    rd, _ = make_run_dir(tmp_path, write_study(tmp_path))
+    first = run_task(rd.path, 0)
+    stamp = rd.task_file(0).stat().st_mtime_ns
+    again = run_task(rd.path, 0)
+    assert again == first
+    assert rd.task_file(0).stat().st_mtime_ns == stamp
+    assert first["delta_T_K"]["stderr"] <= 0.5
