@@ -204,6 +204,11 @@ def run_sample(args):
 
 
 
+from . import cmd_report  # noqa: E402,F401  registers 'report' and 'demo'
+from . import cmd_virial  # noqa: E402,F401  registers 'virial' and 'inversion'
+from . import cmd_run  # noqa: E402,F401  registers 'run', 'task' and 'status'
+
+
 # -- entry point ----------------------------------------------------------------------------
 
 def build_parser():

@@ -1,0 +1,251 @@
+"""Run reports: build_report on a small real run, and on the same run with tasks removed."""
+import contextlib
+import csv
+import io
+import json
+import math
+import shutil
+
+import numpy as np
+import pytest
+
+from mdsim.cli import main
+from mdsim.errors import StudyError
+from mdsim.report import CSV_COLUMNS, build_report
+
+EPS_K = 175.0  # epsilon/k of the test gas (K)
+
+TINY_STUDY = f"""
+[study]
+name = "tiny-report"
+description = "a small study for the report tests"
+
+[gas]
+name = "testgas"
+molar_mass = "157 g/mol"
+ideal_heat_capacity = "1.5 R"
+
+[potential]
+form = "lennard-jones"
+epsilon = "{EPS_K} K"
+sigma = "3.9 angstrom"
+cutoff = 2.5
+source = "made-up parameters for a test"
+
+[initial]
+temperature = "295.15 K"
+
+[expansion]
+volume_ratio = 2.0
+
+[sweep]
+pressure = ["10 bar", "30 bar"]
+
+[simulation]
+routes = ["energy", "microcanonical", "partition"]
+particles = 64
+target_stderr = "1 K"
+max_cpu_time = "20 s"
+seed = 3
+"""
+
+ROUTES_PER_POINT = ("virial_b2", "virial_b3", "energy", "microcanonical", "partition")
+N_POINTS = 2
+N_TASKS = 6  # 2 state points x 3 simulation routes, energy-microcanonical-partition
+
+
+@pytest.fixture(scope="module")
+def real_run(tmp_path_factory):
+    """A real run through 'mdsim run' (which ends with build_report); (dir, printed JSON)."""
+    base = tmp_path_factory.mktemp("report")
+    study = base / "tiny.toml"
+    study.write_text(TINY_STUDY, encoding="utf-8")
+    out = base / "run"
+    printed = io.StringIO()
+    with contextlib.redirect_stdout(printed):
+        status = main(["run", str(study), "--out", str(out), "--workers", "1", "--quiet",
+                       "--json"])
+    assert status == 0
+    return out, json.loads(printed.getvalue())
+
+
+@pytest.fixture(scope="module")
+def run_dir(real_run):
+    return real_run[0]
+
+
+@pytest.fixture(scope="module")
+def summary(real_run):
+    return real_run[1]
+
+
+def test_every_file_is_written(run_dir, summary):
+    for name in ("results.csv", "results.json", "report.md", "study.toml", "tasks.json"):
+        assert (run_dir / name).is_file(), name
+    plots = run_dir / "plots"
+    stems = {p.stem for p in plots.glob("*.png")}
+    assert {"delta_T", "inversion"} <= stems
+    assert sum(s.startswith("energy_") for s in stems) == N_POINTS
+    assert sum(s.startswith("partition_") for s in stems) == N_POINTS
+    assert sum(s.startswith("microcanonical_") for s in stems) == N_POINTS
+    for stem in stems:
+        assert (plots / f"{stem}.pdf").is_file(), stem
+    assert set(summary["files"]) >= {"results.csv", "results.json", "report.md",
+                                     "plots/delta_T.png", "plots/delta_T.pdf"}
+
+
+def test_plots_are_nonempty_pngs(run_dir, summary):
+    import matplotlib.image as mpimg
+    for path in sorted((run_dir / "plots").glob("*.png")):
+        raw = path.read_bytes()
+        assert raw[:8] == b"\x89PNG\r\n\x1a\n", path.name
+        img = mpimg.imread(path)
+        assert img.shape[0] > 300 and img.shape[1] > 300, path.name
+        # something is drawn: a blank canvas has one colour
+        assert float(np.std(img[..., :3])) > 0.05, path.name
+    for path in sorted((run_dir / "plots").glob("*.pdf")):
+        assert path.read_bytes()[:5] == b"%PDF-", path.name
+
+
+def test_results_json_has_the_agreed_shape(run_dir, summary):
+    on_disk = json.loads((run_dir / "results.json").read_text(encoding="utf-8"))
+    assert on_disk == summary
+    assert on_disk["study"] == "tiny-report"
+    points = on_disk["state_points"]
+    assert [p["index"] for p in points] == list(range(N_POINTS))
+    for p in points:
+        for end in ("initial", "final"):
+            assert {"temperature_K", "pressure_Pa", "density_mol_m3"} <= set(p[end])
+        assert p["final"]["source"] == "energy"  # the best route that ran
+        assert set(p["delta_T_K"]) == set(ROUTES_PER_POINT)
+        for route, entry in p["delta_T_K"].items():
+            assert set(entry) == {"value", "stderr"}
+            assert math.isfinite(entry["value"])
+            if route.startswith("virial"):
+                assert entry["stderr"] is None
+            else:
+                assert entry["stderr"] > 0
+        assert isinstance(p["entropy_generated_J_molK"], float)
+        assert isinstance(p["warnings"], list)
+    assert on_disk["tasks"]["done"] == list(range(N_TASKS))
+    assert on_disk["tasks"]["failed"] == [] and on_disk["tasks"]["missing"] == []
+
+
+def test_low_pressure_simulation_agrees_with_virial(summary):
+    # Fact of the trade (no source): the virial series is exact at low density, so at
+    # 10 bar (rho* ~ 0.015) the energy route must match B2+B3 within its error bar.
+    p = summary["state_points"][0]
+    sim, vir = p["delta_T_K"]["energy"], p["delta_T_K"]["virial_b3"]
+    # 4 standard errors: a fixed-seed check that is not a coin toss
+    assert abs(sim["value"] - vir["value"]) < 4.0 * sim["stderr"]
+
+
+def test_inversion_temperatures_match_the_published_lj_values(summary):
+    inv = summary["inversion"]
+    # maximum of B2 at T* = 25.15, zero-pressure Joule-Thomson inversion at T* = 6.43
+    # (REFERENCES.md, following from the B2 integral); 0.2 %: both are given to 4 figures
+    assert inv["joule_inversion_zero_density_K"] / EPS_K == pytest.approx(25.15, rel=2e-3)
+    assert inv["joule_thomson_inversion_zero_pressure_K"] / EPS_K == pytest.approx(6.43,
+                                                                                    rel=2e-3)
+
+
+def _read_csv(path):
+    with open(path, newline="", encoding="utf-8") as fh:
+        reader = csv.DictReader(fh)
+        return reader.fieldnames, list(reader)
+
+
+UNIT_SUFFIXES = ("_K", "_Pa", "_mol_m3", "_seconds")
+DIMENSIONLESS = {"volume_ratio", "n_particles", "seed", "task_index", "state_point_index"}
+TEXT = {"route", "status", "stopped_by", "warnings"}
+
+
+def test_csv_columns_carry_units_and_match_the_json(run_dir, summary):
+    header, rows = _read_csv(run_dir / "results.csv")
+    assert tuple(header) == CSV_COLUMNS
+    for col in header:
+        assert col in TEXT or col in DIMENSIONLESS or col.endswith(UNIT_SUFFIXES), col
+    assert len(rows) == N_POINTS * len(ROUTES_PER_POINT)  # one row per state point and route
+    for row in rows:
+        assert row["status"] == "done"
+        rec = summary["state_points"][int(row["state_point_index"])]
+        entry = rec["delta_T_K"][row["route"]]
+        assert float(row["delta_T_K"]) == entry["value"]
+        assert float(row["initial_temperature_K"]) == rec["initial"]["temperature_K"]
+        if entry["stderr"] is None:
+            assert row["delta_T_stderr_K"] == ""
+        else:
+            assert float(row["delta_T_stderr_K"]) == entry["stderr"]
+
+
+def test_report_md_has_cautions_settings_and_results(run_dir, summary):
+    text = (run_dir / "report.md").read_text(encoding="utf-8")
+    for phrase in ("can injure", "not a design basis", "pressure-equipment codes",
+                   "licensed engineering practice"):
+        assert phrase in text, phrase
+    assert "made-up parameters for a test" in text  # the potential's provenance
+    assert "1.5 R" in text  # the c_v_ig assumption
+    assert "[3, 0]" in text and "[3, 5]" in text  # task seeds
+    assert "Versions: python" in text and "numba" in text
+    assert "None: every planned task finished." in text
+    for stem in ("delta_T", "inversion"):
+        assert f"(plots/{stem}.png)" in text
+    # the results table has one line per state point
+    assert sum(line.startswith("| 0 |") or line.startswith("| 1 |")
+               for line in text.splitlines()) == N_POINTS
+
+
+@pytest.fixture()
+def damaged_copy(run_dir, tmp_path):
+    """The run with task 2 (partition, point 0) never run and task 3 (energy, point 1) failed."""
+    copy = tmp_path / "copy"
+    shutil.copytree(run_dir, copy)
+    (copy / "tasks" / "0002.h5").unlink()
+    shutil.rmtree(copy / "tasks" / "0002.stages", ignore_errors=True)  # never started
+    (copy / "tasks" / "0003.h5").unlink()
+    (copy / "tasks" / "0003.failed.json").write_text(
+        json.dumps({"index": 3, "error": "the sampler ran out of memory (made up for a test)"}),
+        encoding="utf-8")
+    return copy
+
+
+def test_missing_and_failed_tasks_are_listed(damaged_copy):
+    out = build_report(damaged_copy, plots=False)
+    assert out["tasks"]["done"] == [0, 1, 4, 5]
+    assert [m["index"] for m in out["tasks"]["missing"]] == [2]
+    assert out["tasks"]["missing"][0]["route"] == "partition"
+    assert [f["index"] for f in out["tasks"]["failed"]] == [3]
+    assert "out of memory" in out["tasks"]["failed"][0]["error"]
+    # the routes without a result are absent from the records, not filled in
+    assert "partition" not in out["state_points"][0]["delta_T_K"]
+    assert "energy" not in out["state_points"][1]["delta_T_K"]
+    text = (damaged_copy / "report.md").read_text(encoding="utf-8")
+    assert "task 2 (partition, state point 0): not run" in text
+    assert "task 3 (energy, state point 1): FAILED: the sampler ran out of memory" in text
+    _, rows = _read_csv(damaged_copy / "results.csv")
+    status = {(r["state_point_index"], r["route"]): r["status"] for r in rows}
+    assert status[("0", "partition")] == "missing (not run)"
+    assert status[("1", "energy")] == "failed"
+    assert status[("1", "partition")] == "done"
+    assert len(rows) == N_POINTS * len(ROUTES_PER_POINT)  # nothing dropped
+
+
+def test_rebuild_from_the_files_gives_the_same_numbers(run_dir, summary, tmp_path):
+    copy = tmp_path / "rebuilt"
+    shutil.copytree(run_dir, copy)
+    again = build_report(copy, plots=False)
+    assert again["state_points"] == summary["state_points"]
+    assert again["tasks"] == summary["tasks"]
+
+
+def test_report_command_rebuilds_and_prints_json(damaged_copy, capsys):
+    assert main(["report", str(damaged_copy), "--json", "--no-plots", "--quiet"]) == 0
+    printed = json.loads(capsys.readouterr().out)
+    assert printed["tasks"]["done"] == [0, 1, 4, 5]
+
+
+def test_not_a_run_directory(tmp_path, capsys):
+    with pytest.raises(StudyError, match="not a run directory"):
+        build_report(tmp_path)
+    assert main(["report", str(tmp_path / "nowhere")]) == 2
+    assert "is not a directory" in capsys.readouterr().err
