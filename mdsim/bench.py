@@ -222,7 +222,8 @@ def main(argv=None):
     args = parser.parse_args(argv)
     print(f"# numba {numba.__version__}, {numba.config.NUMBA_NUM_THREADS} threads available, "
           f"{'quick' if args.quick else 'full'} run")
-    for fn in MD_BENCHMARKS + list(EXTRA_BENCHMARKS):
+    from .bench_mc import bench_rows as mc_rows
+    for fn in MD_BENCHMARKS + [mc_rows] + list(EXTRA_BENCHMARKS):
         for label, value, unit, target in fn(args.quick):
             goal = f"   (target {target})" if target else ""
             print(f"{label:<72s} {value:10.3g} {unit}{goal}", flush=True)

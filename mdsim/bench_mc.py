@@ -87,5 +87,16 @@ def main(argv=None):
     return 0
 
 
+
+def bench_rows(quick=False):
+    """Monte Carlo rows for ``python -m mdsim.bench`` (label, value, unit, target)."""
+    rows = []
+    for name, fig in mc_figures(quick=quick).items():
+        label = (f"MC trial moves, LJ {name} N={fig['particles']} "
+                 f"(step {fig['max_displacement_red']:.3g}, acceptance {fig['acceptance']:.2f}), 1 thread")
+        rows.append((label, fig["moves_per_s"], "moves/s", f">= {fig['target']:.0f}"))
+    return rows
+
+
 if __name__ == "__main__":
     sys.exit(main())
