@@ -478,6 +478,11 @@ def read_table(path, energy_scale=1.0, length_scale=1.0):
         raise StudyError(f"potential table file '{path}' does not exist")
     if os.path.isdir(path):
         raise StudyError(f"potential table file '{path}' is a directory, not a file")
+    if not os.path.isfile(path):  # a device or pipe (/dev/zero) would never end
+        raise StudyError(f"potential table file '{path}' is not a regular file; give a CSV file")
+    if os.path.getsize(path) > 50_000_000:
+        raise StudyError(f"potential table file '{path}' is larger than 50 MB; a pair-potential "
+                         "table needs a few thousand lines at most")
     rows = []
     try:
         with open(path, encoding="utf-8") as fh:

@@ -426,7 +426,11 @@ def _write_csv(path, rows):
 def _atomic_write(path, text):
     path = Path(path)
     tmp = path.with_name(path.name + f".tmp{os.getpid()}")
-    tmp.write_text(text, encoding="utf-8")
+    try:
+        tmp.write_text(text, encoding="utf-8")
+    except BaseException:
+        tmp.unlink(missing_ok=True)  # disk full: leave no half-written file behind
+        raise
     os.replace(tmp, path)
 
 

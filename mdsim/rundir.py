@@ -3,6 +3,7 @@
 Layout (all under one directory, ``runs/NAME`` by default)::
 
     study.toml        the resolved study, every default filled in
+    inputs/           copies of the data files the study names (tables, c_v CSV files)
     tasks.json        the planned tasks, one entry per task (index, kind, state point, seed)
     tasks/NNNN.h5     one file per finished task (written as NNNN.h5.part, renamed when complete)
     tasks/NNNN.stages/  the task's stage files (sampling runs that resume) and CPU ledger
@@ -16,6 +17,7 @@ a lock left by a process that no longer exists on this host is taken over.
 """
 import json
 import os
+import shutil
 import socket
 import time
 from pathlib import Path
@@ -24,6 +26,16 @@ from .errors import StudyError
 
 TASKS_FILE = "tasks.json"
 LOCK_FILE = ".lock"
+SPACE_PER_TASK_BYTES = 4_000_000
+"""Disk space one task needs, generously: its stage files (samples, checkpoints, final
+configurations of a few thousand particles) and its task file are usually well below 1 MB."""
+SPACE_REPORT_BYTES = 8_000_000
+"""Disk space of the report, results and plots of a run."""
+
+
+def space_needed_bytes(n_tasks):
+    """The disk space a run of ``n_tasks`` tasks is expected to need, bytes (an estimate)."""
+    return SPACE_REPORT_BYTES + SPACE_PER_TASK_BYTES * int(n_tasks)
 
 
 class RunDir:
@@ -55,6 +67,38 @@ class RunDir:
         return self.tasks_dir / f"{int(index):04d}.failed.json"
 
     # -- creation ------------------------------------------------------------------
+    def preflight(self, n_tasks):
+        """Refuse, before anything is written, a place that cannot hold the run.
+
+        The nearest existing directory on the way to the run directory must
+        be writable, and its file system must have at least
+        :func:`space_needed_bytes` free.
+
+        Raises
+        ------
+        StudyError
+            Naming the directory, what is wrong and what to do.
+        """
+        base = self.path
+        while not base.exists() and base != base.parent:
+            base = base.parent
+        if self.path.exists() and not self.path.is_dir():
+            raise StudyError(f"run directory '{self.path}' is a file, not a directory; choose "
+                             "another place with --out")
+        if not base.is_dir():
+            raise StudyError(f"run directory '{self.path}': '{base}' is not a directory; choose "
+                             "another place with --out")
+        if not os.access(base, os.W_OK | os.X_OK):
+            raise StudyError(f"run directory '{self.path}' cannot be written ('{base}' is "
+                             "read-only or not yours); choose another place with --out")
+        need = space_needed_bytes(n_tasks)
+        free = shutil.disk_usage(base).free
+        if free < need:
+            raise StudyError(f"run directory '{self.path}': only {free / 1e6:.3g} MB free on its "
+                             f"disk, and {n_tasks} task(s) need about {need / 1e6:.3g} MB "
+                             "(estimate); free some space or choose another place with --out")
+        return self
+
     def create(self):
         """Make the directory tree, failing early if it cannot be written."""
         try:
@@ -120,8 +164,14 @@ class RunDir:
 
     # -- task states -----------------------------------------------------------------
     def task_state(self, index):
-        """'done', 'partial' (a checkpoint exists), 'failed' or 'pending'."""
-        if self.task_file(index).is_file():
+        """'done', 'partial' (a checkpoint exists), 'failed' or 'pending'.
+
+        A task file that is damaged (no completion marker, checksum mismatch,
+        unreadable) is moved aside as ``NNNN.h5.corrupt-<time>`` with a
+        warning, and the task counts as not done.
+        """
+        from .store import check_finished
+        if check_finished(self.task_file(index)):
             return "done"
         if self.failure_file(index).is_file():
             return "failed"
@@ -152,5 +202,9 @@ def _is_stale(owner):
 def _atomic_write_text(path, text):
     path = Path(path)
     tmp = path.with_name(path.name + f".tmp{os.getpid()}")
-    tmp.write_text(text, encoding="utf-8")
+    try:
+        tmp.write_text(text, encoding="utf-8")
+    except BaseException:
+        tmp.unlink(missing_ok=True)  # disk full: leave no half-written file behind
+        raise
     os.replace(tmp, path)

@@ -307,10 +307,9 @@ def sample_state_point(system, method, temperature=None, energy=None, *, n_equil
         return finish(samples, None, False)
 
     path = Path(path)
-    if path.exists():
-        if not _store.is_complete(path):
-            raise StudyError(f"output file '{path}' exists but is not a complete run file; "
-                             "move it away or choose another output name")
+    if path.is_dir():
+        raise StudyError(f"output file '{path}' is a directory; choose another output name")
+    if _store.check_finished(path):  # a damaged file is moved aside and the run done again
         stored = _store.read_attrs(path)
         bad = _settings_match(stored, run_settings)
         if bad:
@@ -321,14 +320,14 @@ def sample_state_point(system, method, temperature=None, energy=None, *, n_equil
     writer = None
     resumed = False
     done = 0
-    if _store.part_path(path).exists():
-        writer = _store.RunWriter.reopen(path)
+    reopened = _store.open_resumable(path)  # a damaged .part is moved aside: start again
+    if reopened is not None:
+        writer, saved = reopened
         bad = _settings_match(writer.attrs, run_settings)
         if bad:
             writer.close()
             raise StudyError(f"interrupted run file '{_store.part_path(path)}' was made with other "
                              f"settings: {'; '.join(bad)}; delete it or choose another output name")
-        saved = writer.read_checkpoint()
         if saved is None:  # stopped during equilibration: nothing to continue from
             writer.close()
             writer = None

@@ -16,23 +16,149 @@ Layout of a run file::
 
 A run is written under ``NAME.h5.part`` with the file kept open, samples
 appended in blocks and the checkpoint rewritten in place; :meth:`RunWriter.complete`
-sets the marker, closes the file and renames it to ``NAME.h5``, so a file
-with the final name is never half-written.
+sets the marker, stores a SHA-256 checksum of every attribute and dataset
+(``checksum_sha256``), closes and syncs the file and renames it to ``NAME.h5``,
+so a file with the final name is never half-written.  The checkpoint group
+carries its own checksum, rewritten with it.
+
+Damage is detected on read: :func:`verify` checks the completion marker and
+the checksum of a finished file, :func:`open_resumable` the checkpoint of an
+interrupted one.  A damaged file is moved aside as ``NAME.corrupt-<time>``
+with a :class:`CorruptFileWarning` (:func:`move_aside`) and its work is done
+again; nothing is deleted.
 
 Everything is stored as plain numbers, strings and arrays (no object or
 pickled data), and the readers only read those.
 """
+import hashlib
 import importlib.metadata
+import logging
 import os
+import time
+import warnings
 from pathlib import Path
 
 import numpy as np
 
 from .errors import SimulationError, StudyError
 
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
 PART_SUFFIX = ".part"
 PACKAGE = "free-expansion"
+CHECKSUM_ATTR = "checksum_sha256"
+CORRUPT_SUFFIX = ".corrupt-"
+
+log = logging.getLogger(__name__)
+
+
+class CorruptFileWarning(UserWarning):
+    """A damaged run, stage, task or checkpoint file was moved aside (its work is redone)."""
+
+
+# -- checksums and damaged files ------------------------------------------------------
+
+def _hash_value(h, value):
+    if isinstance(value, np.ndarray):
+        if value.dtype.kind == "O":
+            value = np.array([v.decode("utf-8") if isinstance(v, bytes) else str(v)
+                              for v in value.ravel()])
+        h.update(f"{value.dtype.str}{value.shape}".encode())
+        h.update(np.ascontiguousarray(value).tobytes())
+    elif isinstance(value, bytes):
+        h.update(b"b" + value)
+    else:
+        h.update(f"{type(value).__name__}:{value!r}".encode("utf-8"))
+
+
+def checksum(group):
+    """SHA-256 (hex) of an open HDF5 group: every attribute and dataset below it.
+
+    The group's own ``checksum_sha256`` attribute is left out; names are
+    taken in sorted order, datasets by dtype, shape and bytes.
+    """
+    h5py = _h5py()
+    h = hashlib.sha256()
+
+    def walk(g, prefix):
+        for key in sorted(g.attrs):
+            if prefix == "" and key == CHECKSUM_ATTR:
+                continue
+            h.update(f"@{prefix}/{key}=".encode("utf-8"))
+            _hash_value(h, _plain(g.attrs[key]) if not isinstance(g.attrs[key], np.ndarray)
+                        else g.attrs[key])
+        for key in sorted(g):
+            item = g[key]
+            if isinstance(item, h5py.Group):
+                h.update(f"<{prefix}/{key}>".encode("utf-8"))
+                walk(item, f"{prefix}/{key}")
+            else:
+                if item.dtype.kind not in "biuf":
+                    raise SimulationError(f"dataset '{item.name}' has dtype {item.dtype}; this "
+                                          "tool writes and reads only numeric datasets")
+                h.update(f"#{prefix}/{key}=".encode("utf-8"))
+                _hash_value(h, np.asarray(item[()]))
+
+    walk(group, "")
+    return h.hexdigest()
+
+
+def verify(path):
+    """Why a finished file at ``path`` cannot be trusted, or None if it is sound.
+
+    Sound means: it opens as HDF5, its ``complete`` marker is set, and its
+    ``checksum_sha256`` matches its contents.
+    """
+    h5py = _h5py()
+    path = Path(path)
+    try:
+        with h5py.File(path, "r") as f:
+            if not bool(_plain(f.attrs.get("complete", False))):
+                return "its completion marker is not set"
+            stored = f.attrs.get(CHECKSUM_ATTR)
+            if stored is None:
+                return "it has no checksum"
+            if _plain(stored) != checksum(f):
+                return "its checksum does not match its contents"
+    except (OSError, KeyError, ValueError, RuntimeError) as exc:
+        return f"it cannot be read as HDF5 ({' '.join(str(exc).split())})"
+    return None
+
+
+def move_aside(path, reason):
+    """Rename a damaged file to ``NAME.corrupt-<time>`` and warn; returns the new path."""
+    path = Path(path)
+    stamp = time.strftime("%Y%m%d-%H%M%S")
+    target = path.with_name(f"{path.name}{CORRUPT_SUFFIX}{stamp}")
+    k = 1
+    while target.exists():
+        target = path.with_name(f"{path.name}{CORRUPT_SUFFIX}{stamp}-{k}")
+        k += 1
+    os.replace(path, target)
+    msg = f"'{path}' is damaged ({reason}); moved aside to '{target.name}', its work is done again"
+    log.warning(msg)
+    warnings.warn(msg, CorruptFileWarning, stacklevel=2)
+    return target
+
+
+def check_finished(path):
+    """True if ``path`` is a sound finished file; a damaged one is moved aside (False)."""
+    path = Path(path)
+    if not path.is_file():
+        return False
+    reason = verify(path)
+    if reason is None:
+        return True
+    move_aside(path, reason)
+    return False
+
+
+def fsync_path(path):
+    """Flush a closed file's data to the disk (before it is renamed into place)."""
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
 
 
 def part_path(path):
@@ -130,6 +256,15 @@ def _write_tree(group, state):
             group.attrs[key] = _attr_value(value, key)
 
 
+def _numeric(dataset):
+    """A dataset's values, refusing anything but numbers (no object or string data)."""
+    if dataset.dtype.kind not in "biuf":
+        raise StudyError(f"dataset '{dataset.name}' in '{dataset.file.filename}' has dtype "
+                         f"{dataset.dtype}; this tool reads only numeric datasets (the file was "
+                         "not written by it)")
+    return np.array(dataset[()])
+
+
 def _read_tree(group):
     h5py = _h5py()
     out = {}
@@ -137,7 +272,7 @@ def _read_tree(group):
         if isinstance(item, h5py.Group):
             out[key] = _read_tree(item)
         else:
-            out[key] = np.array(item[()])
+            out[key] = _numeric(item)
     for key, value in group.attrs.items():
         out[key] = _plain(value)
     return out
@@ -277,17 +412,27 @@ class RunWriter:
                     del g["state"].attrs[key]
         g.attrs["n_samples_done"] = np.int64(n_samples_done)
         _write_attrs(g, info)
-        for key in stale - set(info) - {"state", "n_samples_done"}:
+        for key in stale - set(info) - {"state", "n_samples_done", CHECKSUM_ATTR}:
             if key in g.attrs:
                 del g.attrs[key]
+        g.attrs[CHECKSUM_ATTR] = checksum(g)
         self.file.flush()
 
     def read_checkpoint(self):
-        """The saved (state, info) pair, or None if no checkpoint was written."""
+        """The saved (state, info) pair, or None if no checkpoint was written.
+
+        Raises
+        ------
+        SimulationError
+            If the checkpoint's checksum does not match (it was cut short).
+        """
         if "checkpoint" not in self.file or "state" not in self.file["checkpoint"]:
             return None
         g = self.file["checkpoint"]
-        return _read_tree(g["state"]), _read_attrs(g)
+        _check_checkpoint(g, self.part)
+        info = _read_attrs(g)
+        info.pop(CHECKSUM_ATTR, None)
+        return _read_tree(g["state"]), info
 
     def write_final(self, positions, box, velocities=None):
         """Store the final configuration (and velocities when there are any)."""
@@ -301,10 +446,12 @@ class RunWriter:
         _write_attrs(self.file, attrs)
 
     def complete(self):
-        """Mark the file complete, close it and rename it to its final name."""
+        """Mark the file complete, store its checksum, close, sync and rename it."""
         self.file.attrs["complete"] = True
+        self.file.attrs[CHECKSUM_ATTR] = checksum(self.file)
         self.file.flush()
         self.file.close()
+        fsync_path(self.part)
         os.replace(self.part, self.path)
         return self.path
 
@@ -321,6 +468,49 @@ class RunWriter:
         return False
 
 
+def _check_checkpoint(g, where):
+    stored = g.attrs.get(CHECKSUM_ATTR)
+    if stored is None or _plain(stored) != checksum(g):
+        raise SimulationError(f"the checkpoint in '{where}' is damaged (checksum "
+                              f"{'missing' if stored is None else 'mismatch'})")
+
+
+def open_resumable(path, chunk=256):
+    """Reopen an interrupted ``NAME.h5.part`` with its checkpoint, checked.
+
+    Returns
+    -------
+    (RunWriter, (state, info) or None) or None
+        None when there is no ``.part`` file, or when it was damaged (it is
+        then moved aside with a warning and the run starts again).  The
+        checkpoint is None when the run stopped before its first one.
+    """
+    part = part_path(path)
+    if not part.exists():
+        return None
+    try:
+        writer = RunWriter.reopen(path, chunk)
+    except SimulationError as exc:
+        move_aside(part, f"cannot be opened: {' '.join(str(exc).split())}")
+        return None
+    try:
+        saved = writer.read_checkpoint()
+        if saved is not None:
+            n_done = int(saved[1]["n_samples_done"])
+            g = writer.file["samples"]
+            short = [k for k in g if g[k].shape[0] < n_done]
+            if short:
+                raise SimulationError(f"samples {short} are shorter than the checkpoint's "
+                                      f"{n_done}")
+            for k in g:  # every stored sample must read back
+                np.asarray(g[k][:n_done])
+    except (SimulationError, OSError, KeyError, ValueError) as exc:
+        writer.close()
+        move_aside(part, " ".join(str(exc).split()))
+        return None
+    return writer, saved
+
+
 # -- reading ----------------------------------------------------------------------------
 
 def _open_for_reading(path):
@@ -335,15 +525,9 @@ def _open_for_reading(path):
 
 
 def is_complete(path):
-    """True if ``path`` is a finished run file (its completion marker is set)."""
+    """True if ``path`` is a finished, sound run file (marker set, checksum matches)."""
     path = Path(path)
-    if not path.is_file():
-        return False
-    try:
-        with _open_for_reading(path) as f:
-            return bool(f.attrs.get("complete", False))
-    except StudyError:
-        return False
+    return path.is_file() and verify(path) is None
 
 
 def read_attrs(path):
@@ -355,7 +539,7 @@ def read_attrs(path):
 def read_samples(path):
     """All observables of a run file: {name: ndarray, shape=(n_samples,)}."""
     with _open_for_reading(path) as f:
-        return {k: np.array(v[()]) for k, v in f["samples"].items()}
+        return {k: _numeric(v) for k, v in f["samples"].items()}
 
 
 def read_checkpoint(path):
@@ -363,7 +547,10 @@ def read_checkpoint(path):
     with _open_for_reading(path) as f:
         if "checkpoint" not in f or "state" not in f["checkpoint"]:
             return None
-        return _read_tree(f["checkpoint"]["state"]), _read_attrs(f["checkpoint"])
+        _check_checkpoint(f["checkpoint"], path)
+        info = _read_attrs(f["checkpoint"])
+        info.pop(CHECKSUM_ATTR, None)
+        return _read_tree(f["checkpoint"]["state"]), info
 
 
 def read_final(path):
@@ -383,11 +570,12 @@ def read_run(path):
     """
     with _open_for_reading(path) as f:
         out = {"attrs": _read_attrs(f),
-               "samples": {k: np.array(v[()]) for k, v in f["samples"].items()},
+               "samples": {k: _numeric(v) for k, v in f["samples"].items()},
                "final": _read_tree(f["final"]) if "final" in f else {},
                "checkpoint": None}
         if "checkpoint" in f and "state" in f["checkpoint"]:
-            out["checkpoint"] = (_read_tree(f["checkpoint"]["state"]),
-                                 _read_attrs(f["checkpoint"]))
+            info = _read_attrs(f["checkpoint"])
+            info.pop(CHECKSUM_ATTR, None)
+            out["checkpoint"] = (_read_tree(f["checkpoint"]["state"]), info)
     out["complete"] = bool(out["attrs"].get("complete", False))
     return out

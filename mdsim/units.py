@@ -13,6 +13,7 @@ kelvin), length sigma, mass m = M / N_A.  Physical constants are CODATA values
 from ``scipy.constants`` (k, N_A and R are exact since the 2019 SI).
 """
 import math
+import tokenize
 import numbers
 
 from scipy import constants as _const
@@ -115,7 +116,8 @@ def parse_quantity(text, expected, where=""):
     try:
         q = ureg.Quantity(text.strip())
     except (pint.errors.PintError, ValueError, TypeError, SyntaxError, AttributeError,
-            KeyError, IndexError, ZeroDivisionError) as exc:
+            KeyError, IndexError, ZeroDivisionError, AssertionError, tokenize.TokenError) as exc:
+        # pint's parser raises AssertionError and TokenError on some garbage (":", ")")
         raise StudyError(f"{loc}cannot read {text!r} as a quantity ({exc}); expected a "
                          f"{expected.replace('_', ' ')} such as \"{example}\"") from None
     if not isinstance(q, ureg.Quantity) or q.dimensionless:
