@@ -7,12 +7,20 @@ study (``study.toml``, every default filled in) and the task list
 files, failed ones are tried again), then builds the report.  The run
 directory's lock keeps a second ``mdsim run`` out.  ``mdsim task RUN_DIR
 --index K`` runs one task (what an array-job element does); ``mdsim status
-RUN_DIR`` lists the tasks' states and the time spent.
+RUN_DIR`` lists the tasks' states and the time spent, and, when a job array
+was submitted, the scheduler's view of each element beside them.
+
+``--executor array`` writes the Slurm job array; ``--submit`` submits it
+(the job id goes to ``RUN_DIR/jobs.json``, see :mod:`mdsim.slurm`); a later
+``mdsim run`` on that directory waits for nothing and runs nothing while
+elements are pending or running, and afterwards only gathers and reports;
+``--resubmit-failed`` submits again the elements whose tasks have no result.
 
 JSON goes to stdout, messages and progress to stderr; a user error prints
 one line and exits with status 2.
 """
 import json
+import shutil
 import logging
 import math
 import sys
@@ -55,27 +63,45 @@ def _toml_key(key):
     return json.dumps(key)
 
 
-def resolved_study_document(study):
+INPUTS_DIR = "inputs"
+
+
+def resolved_study_document(study, copies=None):
     """The study file's tables with every pipeline default filled in.
 
-    The simulation settings are written with their units; paths to table
-    and CSV files are made absolute, so ``RUN_DIR/study.toml`` reads the
-    same wherever the run directory is.
+    The simulation settings are written with their units.  Data files the
+    study names (potential tables, heat-capacity CSV files) are referred to
+    as ``inputs/<path relative to the study file>``: ``mdsim run`` copies
+    them there, so ``RUN_DIR/study.toml`` reads the same wherever the run
+    directory is.  ``copies``, a dict, receives {destination relative to the
+    run directory: absolute source path}.
     """
+    copies = {} if copies is None else copies
+    base = Path(study.path).parent.resolve()
+
+    def inputs_name(source):
+        src = Path(source).resolve()
+        rel = Path(INPUTS_DIR) / src.relative_to(base)
+        copies[rel.as_posix()] = str(src)
+        return rel.as_posix()
+
     from .tasks import simulation_settings
     doc = json.loads(json.dumps(study.raw))  # a deep copy of plain data
-    base = Path(study.path).parent
 
-    def absolute(pot):
+    def relocate(pot):
         if isinstance(pot, dict) and isinstance(pot.get("table_file"), str):
-            p = Path(pot["table_file"])
-            pot["table_file"] = str(p if p.is_absolute() else (base / p).resolve())
+            pot["table_file"] = inputs_name(base / pot["table_file"])
 
-    absolute(doc.get("potential"))
+    relocate(doc.get("potential"))
     for sp in doc.get("gas", {}).get("species", []) or []:
-        absolute(sp.get("potential"))
+        relocate(sp.get("potential"))
     gas = doc.setdefault("gas", {})
-    gas["ideal_heat_capacity"] = study.gas.ideal_heat_capacity  # CSV paths already absolute
+    cv = study.gas.ideal_heat_capacity  # CSV paths in it are absolute, inside the study folder
+    if isinstance(cv, str) and cv.strip().lower().endswith(".csv"):
+        cv = inputs_name(cv)
+    elif isinstance(cv, dict) and "table" in cv:
+        cv = {"table": inputs_name(cv["table"])}
+    gas["ideal_heat_capacity"] = cv
     gas.setdefault("quantum_correction", bool(study.gas.quantum_correction))
     gas.setdefault("dof_per_particle", int(study.gas.dof_per_particle))
     doc.setdefault("potential", {})
@@ -144,8 +170,15 @@ def _say(args, text):
 def _run_arguments(p):
     p.add_argument("study", help="study file (TOML)")
     p.add_argument("--out", help="run directory (default runs/<study name>)")
-    p.add_argument("--executor", default="local", choices=("local", "dask", "array"),
-                   help="local process pool (default), a Dask cluster, or a scheduler job array")
+    p.add_argument("--executor", default=None, choices=("local", "dask", "array"),
+                   help="local process pool (default), a Dask cluster, or a scheduler job array "
+                   "(default array when a job array was submitted from the run directory)")
+    p.add_argument("--submit", action="store_true",
+                   help="with --executor array: submit the job array with sbatch and record its "
+                   "job id; run again after it finished to gather and report")
+    p.add_argument("--resubmit-failed", action="store_true",
+                   help="submit again the array elements that failed or were killed (the tasks "
+                   "not done); the others are kept")
     p.add_argument("--workers", type=_positive_int("--workers"),
                    help="tasks at once (local: default the number of cores; dask LocalCluster: "
                    "default 2)")
@@ -164,7 +197,8 @@ def prepare_run_dir(study, out):
     from .tasks import plan_tasks
     rd = RunDir(out)
     tasks = json.loads(json.dumps(plan_tasks(study)))
-    text = dumps_toml(resolved_study_document(study))
+    copies = {}
+    text = dumps_toml(resolved_study_document(study, copies))
     if rd.exists():
         old = rd.read_tasks()
         if old != tasks:
@@ -173,6 +207,10 @@ def prepare_run_dir(study, out):
                              "choose another --out, or delete the directory to start over")
         return rd, tasks
     rd.create()
+    for dest, src in copies.items():  # the data files the study names, next to its copy
+        target = rd.path / dest
+        target.parent.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(src, target)
     (rd.path / "study.toml").write_text(text, encoding="utf-8")
     rd.write_tasks(tasks)
     return rd, tasks
@@ -183,9 +221,13 @@ def prepare_run_dir(study, out):
 def run_run(args):
     from .study import read_study
     from . import executors
+    from .tasks import plan_tasks
     study = read_study(args.study)
     out = Path(args.out) if args.out else Path("runs") / study.name
     rd = RunDir(out)
+    # every setting is checked, and the place too, before anything is written
+    dumps_toml(resolved_study_document(study))
+    rd.preflight(len(plan_tasks(study)))
     rd.create()
     rd.acquire_lock()
     handlers = []
@@ -197,18 +239,15 @@ def run_run(args):
         skipped = len(tasks) - len(todo)
         if skipped:
             _say(args, f"{skipped} of {len(tasks)} tasks already complete; skipped")
-        if args.executor == "array":
-            path = executors.write_array_script(rd.path, len(tasks), study.cluster)
-            _say(args, f"wrote {path} ({len(tasks)} array elements).\n"
-                       f"Submit it with:   sbatch {path}\n"
-                       f"Afterwards gather the results with:   mdsim report {rd.path}\n"
-                       f"Watch it with:    mdsim status {rd.path}")
-            if args.json:
-                print(json.dumps({"run_dir": str(rd.path), "array_script": str(path),
-                                  "tasks": len(tasks)}, indent=2))
-            return 0
-        outcome = execute(rd, todo, len(tasks), args.executor, args.workers, study.cluster,
-                          quiet=args.quiet)
+        executor = _choose_executor(args, rd)
+        if executor == "array":
+            outcome = run_array(args, rd, tasks, study, todo)
+            if outcome is None:  # submitted, or still running, or only the script written
+                return 0
+        else:
+            _refuse_while_array_runs(rd)
+            outcome = execute(rd, todo, len(tasks), executor, args.workers, study.cluster,
+                              quiet=args.quiet)
         failed = {k: e for k, e in outcome.items() if e is not None}
         for k, err in sorted(failed.items()):
             _say(args, f"task {k:04d} ({tasks[k]['route']}, state point "
@@ -224,6 +263,105 @@ def run_run(args):
     finally:
         _teardown_logging(handlers)
         rd.release_lock()
+
+
+# -- the job array (--executor array) ------------------------------------------------------
+
+def _choose_executor(args, rd):
+    """--executor as given; by default array when the directory has a submitted array."""
+    from . import slurm
+    submitted = bool(slurm.read_submissions(rd.path))
+    if args.resubmit_failed:
+        if args.executor not in (None, "array"):
+            raise StudyError(f"option --resubmit-failed goes with --executor array, not "
+                             f"--executor {args.executor}; leave --executor out or give array")
+        if not submitted:
+            raise StudyError(f"option --resubmit-failed: nothing was submitted from '{rd.path}' "
+                             "(no jobs.json); submit first with --executor array --submit")
+        return "array"
+    if args.submit and args.executor not in (None, "array"):
+        raise StudyError(f"option --submit goes with --executor array, not --executor "
+                         f"{args.executor}")
+    if args.executor is None:
+        return "array" if (submitted or args.submit) else "local"
+    return args.executor
+
+
+def _refuse_while_array_runs(rd):
+    """A local or Dask run must not run tasks that elements of a job array are running."""
+    from . import slurm
+    if not slurm.read_submissions(rd.path):
+        return
+    view = slurm.scheduler_view(rd.path)
+    active = sorted(k for k, v in view.items() if v["state"] in slurm.ACTIVE)
+    if active:
+        jobs = ", ".join(sorted({view[k]["job_id"].split("_")[0] for k in active}, key=int))
+        raise StudyError(f"run directory '{rd.path}': {len(active)} element(s) of job array "
+                         f"{jobs} are still pending or running; wait for them (mdsim status "
+                         f"{rd.path}) or cancel them (scancel {jobs}) before running here")
+
+
+def _element_error(rd, k, sched):
+    """Why task k has no result after its array element ended: its own error, or the scheduler's."""
+    path = rd.failure_file(k)
+    if path.is_file():
+        try:
+            return json.loads(path.read_text(encoding="utf-8"))["error"]
+        except (OSError, ValueError, KeyError, UnicodeDecodeError):
+            return "(the failure file cannot be read)"
+    if sched is None:
+        return "not submitted"
+    state = sched.get("slurm_state") or "unknown to the scheduler"
+    code = f", exit code {sched['exit_code']}" if sched.get("exit_code") else ""
+    return f"array element {sched['job_id']} ended {state}{code} without a result"
+
+
+def run_array(args, rd, tasks, study, todo):
+    """``mdsim run --executor array``: write the script; submit, resubmit, or gather.
+
+    Returns None when the command ends here (script written, array
+    submitted, or elements still pending or running), otherwise
+    ``{index: error}`` of the tasks without a result, for the report.
+    """
+    from . import executors, slurm
+    path = executors.write_array_script(rd.path, len(tasks), study.cluster)
+    submitted = slurm.read_submissions(rd.path)
+    view = slurm.scheduler_view(rd.path) if submitted else {}
+    active = sorted(k for k, v in view.items() if v["state"] in slurm.ACTIVE)
+    info = {"run_dir": str(rd.path), "array_script": str(path), "tasks": len(tasks)}
+    if active:
+        jobs = sorted({view[k]["job_id"].split("_")[0] for k in active}, key=int)
+        _say(args, f"{len(active)} of {len(tasks)} array elements (job {', '.join(jobs)}) are "
+                   f"still pending or running; watch them with:   mdsim status {rd.path}\n"
+                   "run this command again when they have finished to gather the results")
+        if args.json:
+            print(json.dumps({**info, "job_ids": jobs, "active": active}, indent=2))
+        return None
+    if (args.resubmit_failed or (args.submit and not submitted)) and todo:
+        job = slurm.submit_tasks(rd.path, todo, path)
+        log.info("submitted array job %s: elements %s", job, slurm.array_spec(todo))
+        what = "resubmitted" if submitted else "submitted"
+        _say(args, f"{what} {len(todo)} array element(s) ({slurm.array_spec(todo)}) as job {job}\n"
+                   f"Watch it with:    mdsim status {rd.path}\n"
+                   f"When it finished, gather the results with the same 'mdsim run' command "
+                   f"(or:   mdsim report {rd.path})")
+        if args.json:
+            print(json.dumps({**info, "job_id": job, "submitted": todo}, indent=2))
+        return None
+    if not submitted:
+        _say(args, f"wrote {path} ({len(tasks)} array elements).\n"
+                   f"Submit it with:   mdsim run {args.study} --out {rd.path} --executor array "
+                   f"--submit   (or: sbatch {path})\n"
+                   f"Afterwards gather the results with:   mdsim report {rd.path}\n"
+                   f"Watch it with:    mdsim status {rd.path}")
+        if args.json:
+            print(json.dumps(info, indent=2))
+        return None
+    outcome = {k: _element_error(rd, k, view.get(k)) for k in todo}
+    if outcome:
+        _say(args, f"{len(outcome)} task(s) have no result; submit them again with:   mdsim run "
+                   f"{args.study} --out {rd.path} --resubmit-failed")
+    return outcome
 
 
 def execute(rd, indices, n_total, executor, workers, cluster, quiet=False):
@@ -295,6 +433,7 @@ def run_status_data(run_dir):
     tasks = rd.read_tasks()
     rows = []
     counts = {"done": 0, "running": 0, "failed": 0, "left": 0}
+    sched, sched_error = _scheduler_view_or_error(rd)
     cpu_total = 0.0
     for t in tasks:
         k = t["index"]
@@ -324,7 +463,8 @@ def run_status_data(run_dir):
                     spent = 0.0
             row["cpu_seconds"] = spent
             cpu_total += spent
-            if info is not None and time.time() - float(info.get("time", 0)) < 120:
+            ended = k in sched and sched[k]["state"] in ("done", "failed")
+            if info is not None and time.time() - float(info.get("time", 0)) < 120 and not ended:
                 row["state"] = "running"
                 row["progress"] = info
                 counts["running"] += 1
@@ -332,7 +472,34 @@ def run_status_data(run_dir):
                 counts["left"] += 1
         rows.append(row)
     return {"run_dir": str(rd.path), "tasks": rows, "counts": counts,
-            "cpu_seconds_total": cpu_total, "locked": (rd.path / ".lock").is_file()}
+            "cpu_seconds_total": cpu_total, "locked": (rd.path / ".lock").is_file(),
+            **_scheduler_fields(rows, sched, sched_error)}
+
+
+def _scheduler_view_or_error(rd):
+    """(scheduler view of the run's array elements, None) or ({}, the error text)."""
+    from . import slurm
+    from .errors import SimulationError
+    try:
+        return slurm.scheduler_view(rd.path), None
+    except (StudyError, SimulationError) as exc:
+        return {}, str(exc)
+
+
+def _scheduler_fields(rows, sched, error):
+    """Add each row's 'scheduler' entry; return the run-level scheduler fields."""
+    from . import slurm
+    if not sched and error is None:
+        return {}
+    counts = {"pending": 0, "running": 0, "done": 0, "failed": 0, "unknown": 0}
+    for row in rows:
+        view = sched.get(row["index"])
+        row["scheduler"] = view
+        if view is not None:
+            counts[view["state"]] += 1
+    jobs = sorted({v["job_id"].split("_")[0] for v in sched.values()}, key=int)
+    return {"scheduler": {"job_ids": jobs, "counts": counts, "error": error,
+                          "active": sum(counts[s] for s in slurm.ACTIVE)}}
 
 
 @command("status", "show the tasks of a run directory: done, running, failed, left; time spent",
@@ -347,6 +514,16 @@ def run_status(args):
     lines = [f"{data['run_dir']}: {len(data['tasks'])} tasks: {c['done']} done, "
              f"{c['running']} running, {c['failed']} failed, {c['left']} left; "
              f"{data['cpu_seconds_total']:.1f} s CPU spent"]
+    sched = data.get("scheduler")
+    if sched is not None:
+        if sched["error"]:
+            lines.append(f"  scheduler: cannot be asked: {sched['error']}")
+        else:
+            s = sched["counts"]
+            lines.append(f"  scheduler (job array {', '.join(sched['job_ids'])}): "
+                         f"{s['pending']} pending, {s['running']} running, {s['done']} done, "
+                         f"{s['failed']} failed" + (f", {s['unknown']} not known"
+                                                   if s["unknown"] else ""))
     for row in data["tasks"]:
         head = f"  {row['index']:04d} {row['route']:<14} point {row['state_point_index']:<3} " \
                f"{row['state']:<8}"
@@ -360,6 +537,11 @@ def run_status(args):
             head += " " + describe_task(row["index"], row["progress"])
         elif row.get("cpu_seconds"):
             head += f" (interrupted; {row['cpu_seconds']:.1f} s CPU so far, resumes)"
+        view = row.get("scheduler")
+        if view is not None:
+            code = f", exit {view['exit_code']}" if view.get("exit_code") else ""
+            head += f"  [scheduler: {view['state']} ({view['slurm_state'] or 'not known'}{code}, " \
+                    f"job {view['job_id']})]"
         lines.append(head)
     print("\n".join(lines))
     return 0

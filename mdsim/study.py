@@ -255,7 +255,29 @@ SCHEMA.update({
     },
 })
 
-TOP_LEVEL = ("study", "gas", "potential") + PIPELINE_TABLES
+# [table]: the grid and sampling of a corresponding-states table (mdsim.cstable), reduced units.
+SCHEMA["table"] = {
+    "temperatures": Key("list", item="number", low=0.3, high=50.0,
+                        example="[1.5, 2.0, 3.0]", help="reduced temperatures kT/epsilon"),
+    "densities": Key("list", item="number", low=0.0, high=1.2,
+                     example="[0.02, 0.05, 0.1, 0.2]",
+                     help="reduced densities rho sigma^3 (0 is added: the exact virial limit)"),
+    "particles": Key("int", default=256, low=32, high=100000, low_inclusive=True, example="256",
+                     help="particles per grid point (raised where the cut-off needs a bigger box)"),
+    "equilibration": Key("int", default=1000, low=0, high=10 ** 8, low_inclusive=True,
+                         example="1000", help="Monte Carlo sweeps discarded at each point"),
+    "samples": Key("int", default=4000, low=20, high=10 ** 8, low_inclusive=True,
+                   example="4000", help="production samples (one per sweep) at each point"),
+    "seed": Key("int", default=1, low=0, high=SEED_MAX, low_inclusive=True, example="1"),
+    "virial_below": Key("number", default=0.02, low=0.0, high=1.0, low_inclusive=True,
+                        example="0.02", help="reduced density below which the table is the "
+                        "exact B2 + B3 series"),
+    "simulation_above": Key("number", default=0.05, low=0.0, high=1.2, example="0.05",
+                            help="reduced density above which the table is the simulation "
+                            "(smooth blend in between)"),
+}
+
+TOP_LEVEL = ("study", "gas", "potential", "table") + PIPELINE_TABLES
 
 # Keys each potential form needs (besides 'form'); exp-6 needs one of r_min/sigma.
 FORM_KEYS = {
@@ -494,15 +516,39 @@ class Gas:
         return len(self.species_names)
 
 
+
+def _contained_file(ctx, table, key, value, base_dir, hint):
+    """Resolve a data-file path given in a study and keep it inside the study's folder.
+
+    A study is data: it must not make the tool read files elsewhere on the
+    machine, so absolute paths and paths that climb out of the study file's
+    folder (``..``, or a link pointing outside) are refused.  ``mdsim run``
+    copies the files it uses into the run directory, so a run directory
+    stays readable wherever it is moved.
+    """
+    path = Path(value)
+    if path.is_absolute():
+        ctx.fail(table, key, value, "absolute paths are not accepted", "a path relative to the "
+                 "study file's folder", "copy the file next to the study file (" + hint + ")")
+    base = Path(base_dir).resolve()
+    full = (base / path).resolve()
+    if not full.is_relative_to(base):
+        ctx.fail(table, key, value, f"the path leads outside the study file's folder '{base}'",
+                 "a path inside that folder", "copy the file next to the study file (" + hint + ")")
+    return full
+
+
 def _table_potential(ctx, table, file_value, base_dir):
-    path = Path(file_value)
-    if not path.is_absolute():
-        path = base_dir / path
+    path = _contained_file(ctx, table, "table_file", file_value, base_dir,
+                           "a two-column r, u table")
     if not path.exists():
         ctx.fail(table, "table_file", file_value, f"file '{path}' does not exist", "",
                  "paths are relative to the study file")
     if path.is_dir():
         ctx.fail(table, "table_file", file_value, f"'{path}' is a directory, not a file")
+    if not path.is_file():  # a device or pipe (/dev/zero) would be read for ever
+        ctx.fail(table, "table_file", file_value, f"'{path}' is not a regular file",
+                 "", "give a CSV file of r, u")
     header = None
     try:
         with open(path, encoding="utf-8") as fh:
@@ -577,9 +623,8 @@ HEAT_CAPACITY_DICT_KEYS = ("polynomial", "unit", "valid_range_K", "table")
 def _check_heat_capacity_csv(ctx, value, base_dir, allowed):
     """Check a c_v table file and return its absolute path."""
     table, key = "gas", "ideal_heat_capacity"
-    path = Path(value.strip())
-    if not path.is_absolute():
-        path = base_dir / path
+    path = _contained_file(ctx, table, key, value.strip(), base_dir,
+                           "a CSV of temperature_K, cv_J_molK")
     if not path.is_file():
         what = "is a directory" if path.is_dir() else "does not exist"
         ctx.fail(table, key, value, f"file '{path}' {what}", allowed,
@@ -956,6 +1001,9 @@ def read_study(path):
                          "(example studies are in configs/)")
     if path.is_dir():
         raise StudyError(f"study file '{path}' is a directory; give the path of a .toml file")
+    if not path.is_file():  # a device or pipe (/dev/zero) would be read for ever
+        raise StudyError(f"study file '{path}' is not a regular file; give the path of a .toml "
+                         "file")
     try:
         text = path.read_bytes().decode("utf-8")
     except UnicodeDecodeError as exc:

@@ -57,6 +57,7 @@ results are in SI.  Array suffix ``_t``: a time series; ``_tz``: time by
 bin along z.
 """
 import dataclasses
+import errno
 import json
 import logging
 import math
@@ -96,6 +97,8 @@ PARTITION_SNAPSHOTS = 16
 PARTITION_CROSSINGS = 4.0
 """Length of the filling stage, in crossing times L_z,f / sqrt(kT/m)."""
 FORMAT = "mdsim-task-1"
+DISK_ERRNOS = (errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EACCES, errno.EPERM, errno.EFBIG)
+"""OS errors of a full, read-only or forbidden disk: reported as one clear line."""
 
 
 # -- settings and planning ------------------------------------------------------------
@@ -220,6 +223,17 @@ def plan_tasks(study):
         if not settings["routes"]:
             break
         rho_i, how = resolve_initial_density(study, sp)
+        n = settings["particles"]
+        if n is not None:  # the same rule as _Task._n_for_cutoff, checked before any work
+            rc = float(study.reduced_pairs().rc_max)
+            n_cut = int(math.floor(study.units.density_to_reduced(rho_i) * (2.0 * rc) ** 3
+                                   * 1.05)) + 1
+            if n < n_cut:
+                raise StudyError(f"study file '{study.path}', [simulation] key 'particles' = {n}: "
+                                 f"too few at {rho_i:.6g} mol/m^3 (state point {sp.index}): the "
+                                 f"cut-off {rc:g} sigma must stay below half the box edge; use at "
+                                 "least {n_cut} particles, or a smaller [potential] cutoff"
+                                 .replace("{n_cut}", str(n_cut)))
         for route in settings["routes"]:
             _check_route_applies(study, route, cv_ig, sp.temperature_K)
             k = len(tasks)
@@ -335,7 +349,11 @@ class _Task:
     def _record(self, name, kind, cpu_s, units):
         self.ledger[name] = {"kind": kind, "cpu_s": float(cpu_s), "units": float(units)}
         tmp = self.ledger_path.with_name("cpu.json.tmp")
-        tmp.write_text(json.dumps(self.ledger), encoding="utf-8")
+        try:
+            tmp.write_text(json.dumps(self.ledger), encoding="utf-8")
+        except BaseException:
+            tmp.unlink(missing_ok=True)  # disk full: no half-written file
+            raise
         os.replace(tmp, self.ledger_path)
 
     # -- one stage ------------------------------------------------------------------------
@@ -920,7 +938,7 @@ def run_task(run_dir, index, progress=None):
         raise StudyError(f"task index {index!r}: '{rd.path}' has tasks 0 to {len(tasks) - 1}")
     index = int(index)
     done_path = rd.task_file(index)
-    if done_path.is_file():
+    if _store.check_finished(done_path):  # a damaged task file is moved aside and re-run
         return read_task_result(done_path)[1]
     rd.failure_file(index).unlink(missing_ok=True)
     task = tasks[index]
@@ -965,6 +983,20 @@ def run_task(run_dir, index, progress=None):
     except (StudyError, SimulationError, ConvergenceError) as exc:
         _write_failure(rd, index, exc, user=True)
         raise
+    except OSError as exc:
+        if exc.errno not in DISK_ERRNOS:
+            _write_failure(rd, index, exc, user=False)
+            raise
+        err = SimulationError(
+            f"task {index:04d}: cannot write '{exc.filename or rd.tasks_dir}': "
+            f"{exc.strerror or os.strerror(exc.errno)}; free space in (or permission on) "
+            f"'{rd.path}' and run again: finished stages are kept and the task resumes from its "
+            "last checkpoint")
+        try:
+            _write_failure(rd, index, err, user=True)
+        except OSError:
+            log.error("%s (the failure file could not be written either)", err)
+        raise err from None
     except Exception as exc:
         _write_failure(rd, index, exc, user=False)
         raise
@@ -978,23 +1010,39 @@ def _write_failure(rd, index, exc, user):
     path = rd.failure_file(index)
     path.parent.mkdir(parents=True, exist_ok=True)
     tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text(json.dumps(info, indent=1), encoding="utf-8")
+    try:
+        tmp.write_text(json.dumps(info, indent=1), encoding="utf-8")
+    except BaseException:
+        tmp.unlink(missing_ok=True)  # disk full: no half-written file
+        raise
     os.replace(tmp, path)
 
 
 def _write_task_file(rd, index, task, result, series):
+    """Write ``NNNN.h5.part``, mark it complete with its checksum, sync, rename to ``NNNN.h5``.
+
+    If writing fails (disk full), the ``.part`` file is removed: no
+    half-written task file is left, and the stage files keep the work.
+    """
     import h5py
     final = rd.task_file(index)
     part = rd.partial_file(index)
-    with h5py.File(part, "w") as f:
-        f.attrs["format"] = FORMAT
-        f.attrs["task_json"] = json.dumps(_plain(task))
-        f.attrs["result_json"] = json.dumps(_plain(result))
-        for k, v in _store.package_versions().items():
-            f.attrs[f"version_{k}"] = v
-        g = f.create_group("series")
-        for name, arr in series.items():
-            g.create_dataset(name, data=np.asarray(arr, dtype=np.float64))
+    try:
+        with h5py.File(part, "w") as f:
+            f.attrs["format"] = FORMAT
+            f.attrs["task_json"] = json.dumps(_plain(task))
+            f.attrs["result_json"] = json.dumps(_plain(result))
+            for k, v in _store.package_versions().items():
+                f.attrs[f"version_{k}"] = v
+            g = f.create_group("series")
+            for name, arr in series.items():
+                g.create_dataset(name, data=np.asarray(arr, dtype=np.float64))
+            f.attrs["complete"] = True
+            f.attrs[_store.CHECKSUM_ATTR] = _store.checksum(f)
+        _store.fsync_path(part)
+    except BaseException:
+        part.unlink(missing_ok=True)
+        raise
     os.replace(part, final)
 
 
@@ -1017,6 +1065,10 @@ def read_task_result(path):
     if not path.is_file():
         raise StudyError(f"task file '{path}' does not exist; run the task with "
                          "'mdsim task RUN_DIR --index K'")
+    reason = _store.verify(path)
+    if reason is not None:
+        raise StudyError(f"task file '{path}' is damaged ({reason}); run 'mdsim run' or "
+                         "'mdsim task' again: it is moved aside and the task re-run")
     try:
         with h5py.File(path, "r") as f:
             if f.attrs.get("format") != FORMAT:

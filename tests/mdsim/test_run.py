@@ -75,7 +75,8 @@ def test_a_second_run_is_refused_while_the_lock_is_held(tmp_path, capsys):
 
 
 def test_a_failed_task_shows_its_error_and_status_lists_it(tmp_path, capsys):
-    study = write_study(tmp_path, particles="particles = 32", density="15000 mol/m^3")
+    from test_tasks import cv_range_study
+    study = cv_range_study(tmp_path)
     out = tmp_path / "run"
     assert main(["run", str(study), "--out", str(out), "--workers", "1"]) == 1
     err = capsys.readouterr().err
@@ -84,7 +85,7 @@ def test_a_failed_task_shows_its_error_and_status_lists_it(tmp_path, capsys):
     assert main(["status", str(out)]) == 0
     text = capsys.readouterr().out
     assert "0 done, 0 running, 1 failed, 0 left" in text
-    assert "at least 47 particles" in text
+    assert "outside the range of the ideal-gas heat capacity" in text
 
 
 def test_status_counts_done_and_left(tmp_path, capsys):
@@ -146,3 +147,20 @@ def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_pa
     for t in tasks:
         run_task(rd.path, t["index"])
     assert _results(killed) == _results(whole)
+
+
+def test_run_directory_keeps_copies_of_the_data_files_it_needs(tmp_path):
+    from pathlib import Path
+    from mdsim.study import read_study
+    configs = Path(__file__).resolve().parents[2] / "configs"
+    out = tmp_path / "moved-later"
+    # plan only (array executor), so nothing is simulated
+    assert main(["run", str(configs / "argon_table.toml"), "--out", str(out),
+                 "--executor", "array", "--quiet"]) == 0
+    copy = out / "inputs" / "argon_lj_table.csv"
+    assert copy.read_bytes() == (configs / "argon_lj_table.csv").read_bytes()
+    moved = tmp_path / "elsewhere"
+    out.rename(moved)
+    again = read_study(moved / "study.toml")  # reads the copy, relative to the run directory
+    original = read_study(configs / "argon_table.toml")
+    assert again.gas.pairs_K_angstrom.pots[0][0].epsilon == original.gas.pairs_K_angstrom.pots[0][0].epsilon

@@ -411,11 +411,25 @@ def test_potential_source_key(tmp_path):
     assert study.raw["potential"]["source"] == "HCB 1954, second-virial fit"
 
 
-def test_absolute_table_path_is_accepted(tmp_path):
-    table = (CONFIGS / "argon_lj_table.csv").resolve()
+@pytest.mark.parametrize("where", ["absolute", "parent", "subfolder"])
+def test_table_files_must_stay_inside_the_study_folder(tmp_path, where):
+    # a study is data: it must not make the tool read files elsewhere (issue rule)
+    source = (CONFIGS / "argon_lj_table.csv").read_text()
+    study_dir = tmp_path / "study"
+    (study_dir / "tables").mkdir(parents=True)
+    (study_dir / "tables" / "lj.csv").write_text(source)
+    (tmp_path / "outside.csv").write_text(source)
+    value = {"absolute": str((tmp_path / "outside.csv").resolve()), "parent": "../outside.csv",
+             "subfolder": "tables/lj.csv"}[where]
     text = PURE.replace('form = "lennard-jones"\nepsilon = "119.8 K"\nsigma = "3.405 angstrom"',
-                        f'form = "table"\ntable_file = "{table}"')
-    assert read_study(write(tmp_path, text)).gas.pairs_K_angstrom.pots[0][0].name == "table"
+                        f'form = "table"\ntable_file = "{value}"')
+    path = study_dir / "study.toml"
+    path.write_text(text)
+    if where == "subfolder":
+        assert read_study(path).gas.pairs_K_angstrom.pots[0][0].name == "table"
+    else:
+        with pytest.raises(StudyError, match="table_file.*(absolute|outside)"):
+            read_study(path)
 
 
 def test_every_example_validates():

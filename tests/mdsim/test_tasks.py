@@ -97,15 +97,27 @@ def test_unknown_route_is_a_user_error(tmp_path):
         plan_tasks(read_study(write_study(tmp_path, routes='["energi"]')))
 
 
-def test_too_few_particles_fails_the_task_with_its_message(tmp_path):
+def test_too_few_particles_is_refused_when_planning(tmp_path):
     # rho* = 0.357: a cut-off of 2.5 sigma needs a box edge of 5 sigma, so 0.357 * 125 * 1.05
     # -> at least 47 particles
     path = write_study(tmp_path, particles="particles = 32", density="15000 mol/m^3")
-    rd, _ = make_run_dir(tmp_path, path)
     with pytest.raises(StudyError, match="at least 47 particles"):
+        plan_tasks(read_study(path))
+
+
+def cv_range_study(tmp_path):
+    """A study whose expansion cools below the range of its c_v table: a user error
+    that shows only when the task solves for T_f (150 K -> about 135 K)."""
+    (tmp_path / "cv.csv").write_text("temperature_K, cv_J_molK\n140, 12.471566\n400, 12.471566\n")
+    return write_study(tmp_path, cv="cv.csv")
+
+
+def test_a_user_error_in_a_task_keeps_its_message(tmp_path):
+    rd, _ = make_run_dir(tmp_path, cv_range_study(tmp_path))
+    with pytest.raises(StudyError, match="outside the range of the ideal-gas heat capacity"):
         run_task(rd.path, 0)
     info = json.loads(rd.failure_file(0).read_text())
-    assert "at least 47 particles" in info["error"]
+    assert "outside the range" in info["error"]
     assert "traceback" not in info  # a user error keeps its message, not a traceback
     assert rd.task_state(0) == "failed"
 
