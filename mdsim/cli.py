@@ -7,6 +7,7 @@ bad argument) prints one line ``mdsim: error: ...`` to stderr and exits with
 status 2; a simulation that cannot go on prints one line and exits with 1.
 """
 import argparse
+import errno
 import json
 import math
 import sys
@@ -207,6 +208,8 @@ def run_sample(args):
 from . import cmd_report  # noqa: E402,F401  registers 'report' and 'demo'
 from . import cmd_virial  # noqa: E402,F401  registers 'virial' and 'inversion'
 from . import cmd_run  # noqa: E402,F401  registers 'run', 'task' and 'status'
+from . import cmd_check  # noqa: E402,F401  registers 'check'
+from . import cmd_table  # noqa: E402,F401  registers 'table'
 
 
 # -- entry point ----------------------------------------------------------------------------
@@ -242,6 +245,13 @@ def main(argv=None):
         return EXIT_USAGE
     except (SimulationError, ConvergenceError) as exc:
         print(f"{PROG}: error: {_one_line(exc)}", file=sys.stderr)
+        return EXIT_FAILED
+    except OSError as exc:
+        if exc.errno not in (errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EFBIG):
+            raise
+        # a full or read-only disk part way through: finished work is kept and resumes
+        print(f"{PROG}: error: cannot write '{exc.filename or '?'}': {exc.strerror}; free space "
+              "and run the same command again to resume", file=sys.stderr)
         return EXIT_FAILED
     except KeyboardInterrupt:
         print(f"{PROG}: interrupted; run the same command again to resume from the last "

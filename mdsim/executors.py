@@ -120,7 +120,7 @@ def run_dask(run_dir, indices, address=None, workers=2, cluster_settings=None, o
     if address:
         client = Client(address)
     elif cluster_settings and cluster_settings.get("system"):
-        cluster = _jobqueue_cluster(cluster_settings)
+        cluster = _jobqueue_cluster(cluster_settings, log_directory=Path(run_dir) / "logs")
         cluster.scale(jobs=int(cluster_settings.get("jobs", 1)))
         client = Client(cluster)
     else:
@@ -150,7 +150,14 @@ def run_dask(run_dir, indices, address=None, workers=2, cluster_settings=None, o
     return outcome
 
 
-def _jobqueue_cluster(settings):
+def _jobqueue_cluster(settings, log_directory=None):
+    """A dask-jobqueue cluster from a study's [cluster] table (SLURMCluster or PBSCluster).
+
+    Workers are batch jobs of ``cores``, ``memory`` and ``walltime`` in
+    ``partition``, talking over ``interface``; their job logs go to
+    ``log_directory`` (the run directory's ``logs/``), not the working
+    directory.  The scheduler's dashboard takes any free port.
+    """
     try:
         import dask_jobqueue
     except ImportError:
@@ -168,6 +175,9 @@ def _jobqueue_cluster(settings):
         kw["queue"] = str(settings["partition"])
     if settings.get("interface"):
         kw["interface"] = str(settings["interface"])
+    if log_directory is not None:
+        kw["log_directory"] = str(log_directory)
+    kw["scheduler_options"] = {"dashboard_address": ":0"}
     return cls(**kw)
 
 
