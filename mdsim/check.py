@@ -932,7 +932,13 @@ def run_check(study, data, virial_data=None, table=None, runs_dir=None, fit=Fals
     predictor = None
     if table is not None:
         predictor = TablePredictor(table, model, float(study.gas.molar_masses_kg_mol[0]))
-    runs = run_predictions(runs_dir, study) if runs_dir is not None else []
+    if runs_dir is None:
+        runs_dirs = []
+    elif isinstance(runs_dir, (list, tuple)):
+        runs_dirs = list(runs_dir)
+    else:
+        runs_dirs = [runs_dir]
+    runs = [run for d in runs_dirs for run in run_predictions(d, study)]
 
     n = len(data)
     pred = np.full(n, np.nan)
@@ -1018,7 +1024,7 @@ def run_check(study, data, virial_data=None, table=None, runs_dir=None, fit=Fals
     out = {"study": study.name, "study_file": str(study.path), "data_file": str(data.path),
            "virial_data_file": str(virial_data.path) if virial_data is not None else None,
            "table_file": str(getattr(table, "path", "")) or None if table is not None else None,
-           "runs_dir": str(runs_dir) if runs_dir is not None else None,
+           "runs_dir": ([str(d) for d in runs_dirs] if runs_dirs else None),
            "potential": dict(desc, epsilon_K=pot.epsilon, sigma_angstrom=pot.sigma),
            "potential_source": study.raw.get("potential", {}).get("source", ""),
            "level": level, "rows": rows, "check": stats, "verdict": verdict,

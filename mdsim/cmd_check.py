@@ -24,6 +24,7 @@ same state points) give a better prediction; see :mod:`mdsim.check`.
 """
 import csv
 import json
+import sys
 from pathlib import Path
 
 from .cli import _nonnegative_int, _positive_int, command
@@ -49,6 +50,12 @@ def _arguments(p):
                    "to predict and fit through instead of the virial route")
     p.add_argument("--runs", help="run directory (or a directory of them) whose finished "
                    "simulations of the same gas are reused where they hold a measured state")
+    p.add_argument("--no-simulate", action="store_true", help="do not run the study's simulation "
+                   "routes at measured states that no run directory holds (by default they run "
+                   "when the study's [simulation] table lists routes)")
+    p.add_argument("--workers", type=_positive_int("--workers"), help="processes for those "
+                   "simulations (default: the cores)")
+    p.add_argument("--quiet", action="store_true", help="no progress messages on stderr")
     p.add_argument("--fit", action="store_true", help="fit epsilon and sigma by weighted least "
                    "squares")
     p.add_argument("--fit-shape", action="store_true", help="with --fit: also fit the Mie "
@@ -194,7 +201,8 @@ def format_check(result):
 @command("check", "check a study's potential against measured free expansions; fit, "
          "sensitivities and next experiments", _arguments)
 def run_check_command(args):
-    from .check import load_table, run_check
+    from .check import _match_run, load_table, run_check, run_predictions
+    from .check_simulate import simulate_rows, study_asks_for_simulation
     from .measurements import read_expansion_data, read_virial_data
     from .study import read_study
     from .units import parse_quantity
@@ -221,10 +229,26 @@ def run_check_command(args):
         raise StudyError("the --suggest-* options need --suggest")
     posterior = ({"steps": args.posterior_steps, "walkers": args.posterior_walkers,
                   "seed": args.seed} if args.posterior else None)
-    result = run_check(study, data, virial, table=table, runs_dir=args.runs, fit=args.fit,
-                       fit_shape=args.fit_shape, posterior=posterior, suggest=suggest,
-                       level=args.level)
     out_dir = Path(args.out) if args.out else Path("runs") / f"{study.name}-check"
+    runs_dirs = [args.runs] if args.runs else []
+    if study_asks_for_simulation(study) and not args.no_simulate:
+        known = run_predictions(args.runs, study) if args.runs else []
+        p_n, rho_n = data.pressure_Pa, data.density_mol_m3
+        missing = [k for k in range(len(data)) if _match_run(
+            known, data.temperature_K[k], None if p_n is None else p_n[k],
+            None if rho_n is None else rho_n[k], data.volume_ratio[k]) is None]
+        if missing:
+            sims = simulate_rows(study, data, missing, out_dir / "simulations",
+                                 workers=args.workers, quiet=args.quiet)
+            for k, err in sims["failed"].items():
+                print(f"mdsim check: measurement on line {int(data.line_n[k])} not simulated "
+                      f"({err}); it is predicted by the next route available",
+                      file=sys.stderr)
+            if sims["done"]:
+                runs_dirs.append(out_dir / "simulations")
+    result = run_check(study, data, virial, table=table, runs_dir=runs_dirs or None,
+                       fit=args.fit, fit_shape=args.fit_shape, posterior=posterior,
+                       suggest=suggest, level=args.level)
     paths = write_outputs(result, out_dir)
     if args.json:
         print(json.dumps(_plain_json(result), indent=2))

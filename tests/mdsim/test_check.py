@@ -221,3 +221,65 @@ def test_table_route_through_cstable(monkeypatch, study, data):
         form, shape = "mie", {}
     with pytest.raises(StudyError, match="table is for the 'mie' form"):
         run_check(study, data, table=Mie())
+
+
+SIM_STUDY = """
+[study]
+name = "chk"
+[gas]
+molar_mass = "39.948 g/mol"
+ideal_heat_capacity = "1.5 R"
+[potential]
+form = "lennard-jones"
+epsilon = "119.8 K"
+sigma = "3.405 angstrom"
+cutoff = 2.5
+[initial]
+temperature = "150 K"
+density = "2000 mol/m^3"
+[expansion]
+volume_ratio = 2.0
+[simulation]
+routes = ["energy"]
+particles = 100
+target_stderr = "0.5 K"
+seed = 3
+"""
+
+
+@pytest.mark.slow
+def test_check_simulates_measured_states_when_the_study_asks(tmp_path, capsys):
+    import json as _json
+    from analysis.expansion import virial_expansion
+    from mdsim.cli import main
+    from mdsim.statepoints import ideal_heat_capacity, virial_gas
+    from mdsim.study import read_study
+    study_path = tmp_path / "s.toml"
+    study_path.write_text(SIM_STUDY)
+    data = tmp_path / "d.csv"
+    data.write_text("initial_temperature_K,initial_density_mol_m3,volume_ratio,delta_T_K,"
+                    "delta_T_uncertainty_K\n150,2000,2,-14.6,0.3\n")
+    out = tmp_path / "out"
+    assert main(["check", str(study_path), "--data", str(data), "--out", str(out), "--json",
+                 "--quiet"]) == 0
+    row = _json.loads(capsys.readouterr().out)["rows"][0]
+    assert row["route"].startswith("simulation (energy route")
+    assert (out / "simulations" / "row-0002" / "results.json").is_file()
+    # the simulated prediction agrees with the B2+B3 route at this low density (rho* = 0.08)
+    # within 4 of its standard errors plus the B2 to B2+B3 spread (common practice, no source)
+    study = read_study(study_path)
+    v = virial_expansion(virial_gas(study), ideal_heat_capacity(study), 150.0, 2.0,
+                         rho_i=2000.0, order=3)
+    spread = abs(v.delta_T_B2_K - v.delta_T_B2B3_K)
+    assert abs(row["predicted_delta_T_K"] - v.delta_T_K) < 4 * row["prediction_stderr_K"] + spread
+    # a second check reuses the finished run directory instead of simulating again
+    before = (out / "simulations" / "row-0002" / "tasks" / "0000.h5").stat().st_mtime_ns
+    assert main(["check", str(study_path), "--data", str(data), "--out", str(out), "--json",
+                 "--quiet"]) == 0
+    again = _json.loads(capsys.readouterr().out)["rows"][0]
+    assert again["predicted_delta_T_K"] == row["predicted_delta_T_K"]
+    assert (out / "simulations" / "row-0002" / "tasks" / "0000.h5").stat().st_mtime_ns == before
+    # --no-simulate falls back to the virial route
+    assert main(["check", str(study_path), "--data", str(data), "--out", str(tmp_path / "o2"),
+                 "--json", "--quiet", "--no-simulate"]) == 0
+    assert "virial" in _json.loads(capsys.readouterr().out)["rows"][0]["route"]
