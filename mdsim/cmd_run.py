@@ -220,7 +220,6 @@ def prepare_run_dir(study, out):
          _run_arguments)
 def run_run(args):
     from .study import read_study
-    from . import executors
     from .tasks import plan_tasks
     study = read_study(args.study)
     out = Path(args.out) if args.out else Path("runs") / study.name

@@ -54,6 +54,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import StudyError
+from .rundir import atomic_write_text
 
 FORMAT_NAME = "mdsim-corresponding-states-table"
 FORMAT_VERSION = 1
@@ -236,9 +237,7 @@ def _write_plan(points_dir, settings, study):
                              f"({', '.join(changed)} differ); give another --out or delete "
                              "that directory")
     else:
-        tmp = path.with_name("plan.json.tmp")
-        tmp.write_text(json.dumps(plan, indent=1), encoding="utf-8")
-        os.replace(tmp, path)
+        atomic_write_text(path, json.dumps(plan, indent=1))
     return plan
 
 

@@ -220,7 +220,7 @@ def write_array_script(run_dir, n_tasks, settings=None):
         "set -euo pipefail",
         "# element k of the array runs task k of the run directory",
         'index="${SLURM_ARRAY_TASK_ID:?run this script as a job array, or set SLURM_ARRAY_TASK_ID}"',
-        f"export NUMBA_NUM_THREADS=\"${{SLURM_CPUS_PER_TASK:-1}}\"",
+        'export NUMBA_NUM_THREADS="${SLURM_CPUS_PER_TASK:-1}"',
         f"exec {exe} -m mdsim task {shlex.quote(str(run_dir))} --index \"$index\"",
         "",
     ]

@@ -38,7 +38,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import ConvergenceError, StudyError
-from .rundir import RunDir
+from .rundir import RunDir, atomic_write_text
 
 log = logging.getLogger(__name__)
 
@@ -420,18 +420,9 @@ def _write_csv(path, rows):
     writer = csv.DictWriter(buf, fieldnames=CSV_COLUMNS, lineterminator="\n")
     writer.writeheader()
     writer.writerows(rows)
-    _atomic_write(path, buf.getvalue())
+    atomic_write_text(path, buf.getvalue())
 
 
-def _atomic_write(path, text):
-    path = Path(path)
-    tmp = path.with_name(path.name + f".tmp{os.getpid()}")
-    try:
-        tmp.write_text(text, encoding="utf-8")
-    except BaseException:
-        tmp.unlink(missing_ok=True)  # disk full: leave no half-written file behind
-        raise
-    os.replace(tmp, path)
 
 
 def _versions():
@@ -670,7 +661,7 @@ def write_report_md(path, study, points, records, gathered, plot_files, plot_not
           "(its settings, result and series)",
           "- `results.csv`, `results.json`, `plots/`, this `report.md`, `log.txt`", ""]
     text = "\n".join(L)
-    _atomic_write(path, text)
+    atomic_write_text(path, text)
     return text
 
 
@@ -756,7 +747,7 @@ def build_report(run_dir, *, plots=True):
     write_report_md(rd.path / "report.md", study, points, records, gathered, plot_files,
                     plot_notes, inversion, cv, rd.path, summary.get("warnings", []))
     summary = _plain(summary)
-    _atomic_write(rd.path / "results.json", json.dumps(summary, indent=2) + "\n")
+    atomic_write_text(rd.path / "results.json", json.dumps(summary, indent=2) + "\n")
     log.info("report written to %s (%d state points, %d of %d tasks done)", rd.path,
              len(points), len(gathered["results"]), len(gathered["planned"]))
     return summary

@@ -116,7 +116,7 @@ class RunDir:
         return (self.path / TASKS_FILE).is_file()
 
     def write_tasks(self, tasks):
-        _atomic_write_text(self.path / TASKS_FILE, json.dumps(tasks, indent=1))
+        atomic_write_text(self.path / TASKS_FILE, json.dumps(tasks, indent=1))
 
     def read_tasks(self):
         path = self.path / TASKS_FILE
@@ -199,7 +199,12 @@ def _is_stale(owner):
     return False
 
 
-def _atomic_write_text(path, text):
+def atomic_write_text(path, text):
+    """Write a text file under a temporary name and rename it into place.
+
+    A reader never sees a half-written file; if the write fails (a full
+    disk), the temporary file is removed and the error raised.
+    """
     path = Path(path)
     tmp = path.with_name(path.name + f".tmp{os.getpid()}")
     try:

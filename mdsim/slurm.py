@@ -18,7 +18,6 @@ fails when the scheduler does not answer raises
 :class:`~mdsim.errors.SimulationError`.
 """
 import json
-import os
 import re
 import shutil
 import subprocess
@@ -26,6 +25,7 @@ import time
 from pathlib import Path
 
 from .errors import SimulationError, StudyError
+from .rundir import atomic_write_text
 
 SUBMISSIONS_FILE = "jobs.json"
 CLIENT_TIMEOUT_S = 60.0
@@ -227,9 +227,7 @@ def record_submission(run_dir, job_id, indices, script):
     subs = read_submissions(run_dir)
     subs.append({"job_id": str(job_id), "indices": sorted(int(k) for k in indices),
                  "script": str(script), "submitted": time.time()})
-    tmp = path.with_name(path.name + f".tmp{os.getpid()}")
-    tmp.write_text(json.dumps(subs, indent=1), encoding="utf-8")
-    os.replace(tmp, path)
+    atomic_write_text(path, json.dumps(subs, indent=1))
 
 
 def submit_tasks(run_dir, indices, script=None):

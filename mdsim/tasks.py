@@ -69,7 +69,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import ConvergenceError, SimulationError, StudyError
-from .rundir import RunDir
+from .rundir import RunDir, atomic_write_text
 from . import store as _store
 
 log = logging.getLogger(__name__)
@@ -348,13 +348,7 @@ class _Task:
 
     def _record(self, name, kind, cpu_s, units):
         self.ledger[name] = {"kind": kind, "cpu_s": float(cpu_s), "units": float(units)}
-        tmp = self.ledger_path.with_name("cpu.json.tmp")
-        try:
-            tmp.write_text(json.dumps(self.ledger), encoding="utf-8")
-        except BaseException:
-            tmp.unlink(missing_ok=True)  # disk full: no half-written file
-            raise
-        os.replace(tmp, self.ledger_path)
+        atomic_write_text(self.ledger_path, json.dumps(self.ledger))
 
     # -- one stage ------------------------------------------------------------------------
     def stage(self, name, system, method, T_red=None, E_red=None, *, n_eq, n_samples,
@@ -757,7 +751,7 @@ def _partition(job):
     nve = _Chain(job, "nve", 1, make_f, "md-nve", md_settings={"time_step": dt},
                  key="temperature_inst")
     nve.interval = interval
-    snapshots = []   # (time_red, profile)
+
     e_canonical = None
     for k in range(PARTITION_SNAPSHOTS):
         name = f"nve-fill{k:02d}"
@@ -1009,13 +1003,7 @@ def _write_failure(rd, index, exc, user):
         info["traceback"] = traceback.format_exc()
     path = rd.failure_file(index)
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(path.name + ".tmp")
-    try:
-        tmp.write_text(json.dumps(info, indent=1), encoding="utf-8")
-    except BaseException:
-        tmp.unlink(missing_ok=True)  # disk full: no half-written file
-        raise
-    os.replace(tmp, path)
+    atomic_write_text(path, json.dumps(info, indent=1))
 
 
 def _write_task_file(rd, index, task, result, series):
