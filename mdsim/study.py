@@ -696,11 +696,32 @@ def _check_heat_capacity(ctx, value, base_dir):
     ctx.fail(table, key, value, "not a heat-capacity specification", allowed, "")
 
 
-def _check_k_ij(ctx, value, n_species):
+def _check_k_ij(ctx, value, n_species, names=None):
+    """k_ij as a number (two species), a symmetric matrix, or pairs of species names:
+    ``k_ij = { "nitrogen-oxygen" = 0.01, "nitrogen-argon" = 0.0 }``."""
     table, key = "potential", "k_ij"
     if n_species < 2:
         ctx.fail(table, key, value, "k_ij applies to mixtures only", "", "remove it for a pure gas")
-    if isinstance(value, numbers.Real) and not isinstance(value, bool):
+    if isinstance(value, dict):
+        names = list(names or [])
+        k = np.zeros((n_species, n_species))
+        for pair, kv in value.items():
+            parts = [t.strip() for t in str(pair).split("-")]
+            if len(parts) != 2 or parts[0] == parts[1]:
+                ctx.fail(table, key, value, f"pair '{pair}' is not two species names joined "
+                         "by '-'", '{ "nitrogen-oxygen" = 0.01 }', "")
+            for part in parts:
+                if part not in names:
+                    close = difflib.get_close_matches(part, names, n=1, cutoff=0.5)
+                    ctx.fail(table, key, value, f"unknown species '{part}' in pair '{pair}'",
+                             ", ".join(f"'{n}'" for n in names),
+                             f"did you mean '{close[0]}'?" if close else
+                             "use the names of the [[gas.species]] blocks")
+            if isinstance(kv, bool) or not isinstance(kv, numbers.Real):
+                ctx.fail(table, key, value, f"the value of '{pair}' must be a number", "", "")
+            a, b = names.index(parts[0]), names.index(parts[1])
+            k[a, b] = k[b, a] = float(kv)
+    elif isinstance(value, numbers.Real) and not isinstance(value, bool):
         if n_species != 2:
             ctx.fail(table, key, value, f"a single number needs exactly 2 species (found {n_species})",
                      f"a symmetric {n_species}x{n_species} matrix", "")
@@ -766,7 +787,7 @@ def _read_gas(ctx, doc, base_dir):
         if len(forms) > 1:
             ctx.fail("gas.species", "potential", sorted(forms),
                      "all species of a mixture must use the same potential form", "", "")
-        k_ij = _check_k_ij(ctx, mix["k_ij"], len(pots)) if "k_ij" in mix else None
+        k_ij = _check_k_ij(ctx, mix["k_ij"], len(pots), names) if "k_ij" in mix else None
         cutoff = mix["cutoff"]
     else:
         if "molar_mass" not in gas:

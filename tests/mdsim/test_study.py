@@ -443,3 +443,15 @@ def test_every_example_validates():
         if study.gas.n_species > 1:
             forms.add("mixture")
     assert {"lennard-jones", "mie", "exp-6", "table", "mixture"} <= forms
+
+
+def test_k_ij_by_species_names(tmp_path):
+    named = MIXTURE.replace("k_ij = 0.02", 'k_ij = { "oxygen-nitrogen" = 0.02 }')
+    cross = read_study(write(tmp_path, named)).gas.pairs_K_angstrom.pots[0][1]
+    # the same Lorentz-Berthelot cross term as the plain number (DESIGN.md 2.6)
+    assert cross.epsilon == pytest.approx(0.98 * math.sqrt(95.05 * 118.0), rel=1e-13)
+    with pytest.raises(StudyError, match="unknown species 'oxygn'.*did you mean 'oxygen'"):
+        read_study(write(tmp_path, MIXTURE.replace("k_ij = 0.02",
+                                                   'k_ij = { "oxygn-nitrogen" = 0.02 }')))
+    with pytest.raises(StudyError, match="not two species names"):
+        read_study(write(tmp_path, MIXTURE.replace("k_ij = 0.02", 'k_ij = { "oxygen" = 0.02 }')))
