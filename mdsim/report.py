@@ -738,6 +738,15 @@ def build_report(run_dir, *, plots=True):
                           "expansions"}, rd.plots_dir / "inversion")))
         for _, paths in plot_files:
             written += paths
+    elif rd.plots_dir.is_dir():
+        # not redrawn this time: keep pointing at the figures an earlier build made
+        for png in sorted(rd.plots_dir.glob("*.png")):
+            pdf = png.with_suffix(".pdf")
+            plot_files.append((f"{png.stem} (from an earlier build; not redrawn)",
+                               [png] + ([pdf] if pdf.is_file() else [])))
+        if plot_files:
+            plot_notes.append("plots were not redrawn in this rebuild (--no-plots); the figures "
+                              "shown are those of an earlier build and may predate new results")
     rows = csv_rows(points, records, gathered)
     _write_csv(rd.path / "results.csv", rows)
     written.append(rd.path / "results.csv")

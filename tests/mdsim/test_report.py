@@ -236,6 +236,9 @@ def test_rebuild_from_the_files_gives_the_same_numbers(run_dir, summary, tmp_pat
     again = build_report(copy, plots=False)
     assert again["state_points"] == summary["state_points"]
     assert again["tasks"] == summary["tasks"]
+    # a rebuild without drawing keeps showing the figures that are there, and says so
+    text = (copy / "report.md").read_text()
+    assert "](plots/delta_T.png)" in text and "not redrawn" in text
 
 
 def test_report_command_rebuilds_and_prints_json(damaged_copy, capsys):
