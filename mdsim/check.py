@@ -966,8 +966,14 @@ def run_check(study, data, virial_data=None, table=None, runs_dir=None, fit=Fals
         elif tab is not None:
             if tab[2][k]:
                 pred[k], pred_err[k], route[k] = tab[0][k], tab[1][k], "table"
+            elif virial_ok:
+                pred[k], route[k] = res.delta_T_K, "virial B2+B3"
+                row_notes[k].append("outside the corresponding-states table: predicted by the "
+                                    "virial B2+B3 route (a fit through the table leaves it out)")
             else:
-                row_notes[k].append("outside the corresponding-states table")
+                row_notes[k].append(f"outside the corresponding-states table, and the virial "
+                                    f"route fails ({virial_why}); give --runs with a simulation "
+                                    "of this state")
         elif virial_ok:
             pred[k], route[k] = res.delta_T_K, "virial B2+B3"
         else:

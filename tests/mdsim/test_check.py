@@ -212,9 +212,12 @@ def test_table_route_through_cstable(monkeypatch, study, data):
     class Table:
         form, shape = "lennard-jones", {}
     out = run_check(study, data, table=Table())
-    used = [r for r in out["rows"] if r["used"]]
-    assert all(r["route"] == "table" and r["prediction_stderr_K"] == 0.02 for r in used)
-    assert len(used) == sum(1 for T in data.temperature_K if T <= 400.0)
+    inside = [r for r, T in zip(out["rows"], data.temperature_K) if T <= 400.0]
+    outside = [r for r, T in zip(out["rows"], data.temperature_K) if T > 400.0]
+    assert all(r["route"] == "table" and r["prediction_stderr_K"] == 0.02 for r in inside)
+    # a state the table does not cover falls back to the virial route, and says so
+    assert outside and all(r["route"] == "virial B2+B3" and r["used"] for r in outside)
+    assert all("outside the corresponding-states table" in " ".join(r["notes"]) for r in outside)
     assert calls[0][:3] == (182.0, 3.98, pytest.approx(0.157))
 
     class Mie:
