@@ -40,28 +40,26 @@ class _Parser(argparse.ArgumentParser):
         raise StudyError(f"{message} (see '{self.prog} --help')")
 
 
-def _positive_int(name):
+def _int_at_least(name, minimum):
+    """argparse type: a whole number >= minimum, with a message naming the option."""
     def parse(text):
         try:
             value = int(text)
         except ValueError:
             raise argparse.ArgumentTypeError(f"{name} = {text!r} is not a whole number") from None
-        if value < 1:
-            raise argparse.ArgumentTypeError(f"{name} = {value} must be at least 1")
+        if value < minimum:
+            limit = "must be at least 1" if minimum == 1 else f"must be {minimum} or more"
+            raise argparse.ArgumentTypeError(f"{name} = {value} {limit}")
         return value
     return parse
+
+
+def _positive_int(name):
+    return _int_at_least(name, 1)
 
 
 def _nonnegative_int(name):
-    def parse(text):
-        try:
-            value = int(text)
-        except ValueError:
-            raise argparse.ArgumentTypeError(f"{name} = {text!r} is not a whole number") from None
-        if value < 0:
-            raise argparse.ArgumentTypeError(f"{name} = {value} must be 0 or more")
-        return value
-    return parse
+    return _int_at_least(name, 0)
 
 
 # -- mdsim sample -----------------------------------------------------------------------
