@@ -24,7 +24,7 @@ import numpy as np
 from numba import njit
 
 from mdsim.errors import StudyError
-from mdsim.potentials import FORM_TABLE, PairMatrix, PairPotential
+from mdsim.engine.potentials import FORM_TABLE, PairMatrix, PairPotential
 
 # Avogadro constant, Boltzmann and Planck constants (exact in the 2019 SI).
 from scipy.constants import N_A, h as PLANCK_J_S, k as BOLTZMANN_J_K
@@ -78,7 +78,7 @@ class QuantumCorrectionWarning(UserWarning):
 
 def _check_pot(pot, name="pot"):
     if not isinstance(pot, PairPotential):
-        raise StudyError(f"'{name}' must be a pair potential from mdsim.potentials "
+        raise StudyError(f"'{name}' must be a pair potential from mdsim.engine.potentials "
                          f"(LennardJones, Mie, Exp6, Tabulated); got {type(pot).__name__}")
     return pot
 

@@ -17,7 +17,7 @@ import numpy as np
 from scipy.constants import N_A, R as R_J_MOLK
 
 from mdsim.errors import StudyError
-from mdsim.potentials import PairMatrix, PairPotential
+from mdsim.engine.potentials import PairMatrix, PairPotential
 
 from . import virial as _virial
 

@@ -13,8 +13,8 @@ from pathlib import Path
 import numpy as np
 
 from analysis.heatcapacity import ConstantHeatCapacity
-from mdsim.check import ExpansionModel
-from mdsim.measurements import write_expansion_data, write_virial_data
+from mdsim.check.predict import ExpansionModel
+from mdsim.check.measurements import write_expansion_data, write_virial_data
 
 HERE = Path(__file__).resolve().parent
 TRUE_EPSILON_K = 171.0       # hidden "true" parameters of the invented gas

@@ -1,7 +1,7 @@
 """``python -m mdsim``: the same command line as the ``mdsim`` script."""
 import sys
 
-from .cli import main
+from mdsim.cli import main
 
 if __name__ == "__main__":
     sys.exit(main())

@@ -18,7 +18,7 @@ import numbers
 
 from scipy import constants as _const
 
-from .errors import StudyError
+from mdsim.errors import StudyError
 
 K_B = _const.Boltzmann          # J/K
 N_A = _const.Avogadro           # 1/mol

@@ -226,7 +226,7 @@ CSV_CASES = [
 
 @pytest.mark.parametrize("content, word", [c[1:] for c in CSV_CASES], ids=[c[0] for c in CSV_CASES])
 def test_bad_measurement_files_are_refused_by_the_reader(content, word, tmp_path):
-    measurements = pytest.importorskip("mdsim.measurements")
+    measurements = pytest.importorskip("mdsim.check.measurements")
     from mdsim.errors import StudyError
     path = tmp_path / "data.csv"
     path.write_bytes(content)

@@ -70,8 +70,8 @@ seed = {seed}
        seed=st.integers(0, 2 ** 31))
 def test_random_valid_studies_validate_and_round_trip(tmp_path, T, rho, ratio, eps, sigma, cutoff,
                                                       seed):
-    from mdsim.cmd_run import dumps_toml, resolved_study_document
-    from mdsim.study import read_study
+    from mdsim.cli.cmd_run import dumps_toml, resolved_study_document
+    from mdsim.study.reader import read_study
     path = tmp_path / "prop.toml"
     path.write_text(_study(T, rho, ratio, eps, sigma, cutoff, seed), encoding="utf-8")
     study = read_study(path)
@@ -86,7 +86,7 @@ def test_random_valid_studies_validate_and_round_trip(tmp_path, T, rho, ratio, e
 @FAST
 @given(blob=st.one_of(st.binary(max_size=200), st.text(max_size=200)))
 def test_random_garbage_studies_never_give_a_traceback(tmp_path, blob):
-    from mdsim.study import read_study
+    from mdsim.study.reader import read_study
     path = tmp_path / "garbage.toml"
     if isinstance(blob, str):
         path.write_text(blob, encoding="utf-8")
@@ -110,7 +110,7 @@ def test_product_code_never_unpickles_or_evaluates():
 
 
 def test_an_hdf5_file_with_object_data_is_refused(tmp_path):
-    from mdsim import store
+    from mdsim.sampling import store
     path = tmp_path / "odd.h5"
     with h5py.File(path, "w") as f:
         f.attrs["complete"] = True

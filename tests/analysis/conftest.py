@@ -6,7 +6,7 @@ import pytest
 
 from analysis.heatcapacity import ConstantHeatCapacity
 from analysis.virial_eos import VirialGas
-from mdsim.potentials import LennardJones
+from mdsim.engine.potentials import LennardJones
 
 ARGON_MOLAR_MASS_KG_MOL = 0.039948  # IUPAC standard atomic weight of Ar (common practice, no source)
 

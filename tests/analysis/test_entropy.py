@@ -18,7 +18,7 @@ from analysis.expansion import virial_expansion
 from analysis.heatcapacity import ConstantHeatCapacity, PolynomialHeatCapacity
 from analysis.virial_eos import VirialGas
 from mdsim.errors import StudyError
-from mdsim.potentials import LennardJones
+from mdsim.engine.potentials import LennardJones
 
 R = constants.gas_constant
 ARGON = (119.8, 3.405, 0.039948)       # HCB 1954 B2 fit (REFERENCES.md, from memory)

@@ -22,7 +22,7 @@ from analysis import stats
 from analysis.heatcapacity import TabulatedHeatCapacity
 from analysis.virial_eos import VirialGas, VirialSeriesError
 from mdsim.errors import ConvergenceError, StudyError
-from mdsim.potentials import LennardJones
+from mdsim.engine.potentials import LennardJones
 
 R = constants.gas_constant
 N_A = constants.Avogadro

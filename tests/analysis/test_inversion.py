@@ -18,7 +18,7 @@ from analysis import inversion as inv
 from analysis.heatcapacity import ConstantHeatCapacity
 from analysis.virial_eos import VirialGas
 from mdsim.errors import StudyError
-from mdsim.potentials import LennardJones
+from mdsim.engine.potentials import LennardJones
 
 R = constants.gas_constant
 

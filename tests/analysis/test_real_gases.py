@@ -22,7 +22,7 @@ import pytest
 from analysis import expansion as ex
 from analysis.heatcapacity import ConstantHeatCapacity
 from analysis.virial_eos import VirialGas
-from mdsim.potentials import LennardJones
+from mdsim.engine.potentials import LennardJones
 
 CP = pytest.importorskip("CoolProp.CoolProp")
 

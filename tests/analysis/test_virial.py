@@ -11,7 +11,7 @@ from scipy.optimize import brentq
 
 from analysis import virial
 from mdsim.errors import StudyError
-from mdsim.potentials import Exp6, LennardJones, Mie, PairMatrix, Tabulated
+from mdsim.engine.potentials import Exp6, LennardJones, Mie, PairMatrix, Tabulated
 
 B0 = 2.0 * math.pi / 3.0  # b0 = 2 pi sigma^3 / 3, the reduced unit of the tables
 LJ = LennardJones(1.0, 1.0)

@@ -11,7 +11,7 @@ from scipy.integrate import quad
 from analysis import virial
 from analysis.virial_eos import VirialGas, VirialSeriesError
 from mdsim.errors import StudyError
-from mdsim.potentials import LennardJones, PairMatrix
+from mdsim.engine.potentials import LennardJones, PairMatrix
 
 # argon: LJ fitted to second-virial data, HCB 1954 (REFERENCES.md, from memory);
 # molar mass 39.948 g/mol (IUPAC)

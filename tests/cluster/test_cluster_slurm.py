@@ -14,10 +14,10 @@ import time
 
 import pytest
 
-from mdsim import slurm
+from mdsim.execute import slurm
 from mdsim.cli import main
-from mdsim.rundir import RunDir
-from mdsim.tasks import read_task_result
+from mdsim.pipeline.rundir import RunDir
+from mdsim.pipeline.tasks import read_task_result
 
 from test_tasks import write_study
 
@@ -56,9 +56,9 @@ def _wait_until_finished(run_dir, cluster, timeout=WAIT_S):
 
 def _local_pool(tmp_path, study, name="local"):
     """The same study on the local process pool (no report): the uninterrupted local numbers."""
-    from mdsim.cmd_run import prepare_run_dir
-    from mdsim.executors import run_local
-    from mdsim.study import read_study
+    from mdsim.cli.cmd_run import prepare_run_dir
+    from mdsim.execute.executors import run_local
+    from mdsim.study.reader import read_study
     rd, tasks = prepare_run_dir(read_study(study), tmp_path / name)
     indices = [t["index"] for t in tasks]
     assert run_local(rd.path, indices, workers=min(2, len(indices))) == {k: None for k in indices}

@@ -1,4 +1,4 @@
-"""mdsim.slurm without a cluster: Slurm's id and state syntax, the submission record, clear errors.
+"""mdsim.execute.slurm without a cluster: Slurm's id and state syntax, the submission record, clear errors.
 
 The syntax checked here is Slurm's own (sbatch --array lists, array job ids
 '12_3' and pending ranges '12_[4-6%2]' as squeue and sacct print them, the
@@ -8,7 +8,7 @@ import json
 
 import pytest
 
-from mdsim import slurm
+from mdsim.execute import slurm
 from mdsim.cli import main
 from mdsim.errors import StudyError
 

@@ -3,8 +3,8 @@ NumPy all-pairs reference for the force kernels."""
 import numpy as np
 import pytest
 
-from mdsim.potentials import RC, SHIFT, Exp6, LennardJones, Mie, PairMatrix, Tabulated
-from mdsim.system import System
+from mdsim.engine.potentials import RC, SHIFT, Exp6, LennardJones, Mie, PairMatrix, Tabulated
+from mdsim.engine.system import System
 
 
 def _allpairs(r_ni, box_i, species_n, pairs):

@@ -9,13 +9,13 @@ from scipy.stats import chi2 as chi2_dist
 from analysis.expansion import virial_expansion
 from analysis.heatcapacity import ConstantHeatCapacity
 from analysis.virial_eos import VirialGas
-from mdsim.check import (ExpansionModel, chi2_test, model_for_study, rank_candidates,
+from mdsim.check.predict import (ExpansionModel, chi2_test, model_for_study, rank_candidates,
                          run_check)
 from mdsim.cli import main
 from mdsim.errors import StudyError
-from mdsim.measurements import read_expansion_data, read_virial_data
-from mdsim.potentials import LennardJones
-from mdsim.study import read_study
+from mdsim.check.measurements import read_expansion_data, read_virial_data
+from mdsim.engine.potentials import LennardJones
+from mdsim.study.reader import read_study
 
 CONFIGS = Path(__file__).resolve().parents[2] / "configs"
 STUDY = CONFIGS / "demo_check.toml"
@@ -199,7 +199,7 @@ def test_runs_directory_reused(tmp_path, study, data):
 
 
 def test_table_route_through_cstable(monkeypatch, study, data):
-    import mdsim.cstable as cst
+    import mdsim.cstable.table as cst
     calls = []
 
     def fake(table, eps, sig, M, cv, T, r, p_i_Pa=None, rho_i_mol_m3=None):
@@ -255,8 +255,8 @@ def test_check_simulates_measured_states_when_the_study_asks(tmp_path, capsys):
     import json as _json
     from analysis.expansion import virial_expansion
     from mdsim.cli import main
-    from mdsim.statepoints import ideal_heat_capacity, virial_gas
-    from mdsim.study import read_study
+    from mdsim.study.statepoints import ideal_heat_capacity, virial_gas
+    from mdsim.study.reader import read_study
     study_path = tmp_path / "s.toml"
     study_path.write_text(SIM_STUDY)
     data = tmp_path / "d.csv"

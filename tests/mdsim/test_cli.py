@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from mdsim import store
+from mdsim.sampling import store
 from mdsim.cli import COMMANDS, main
 
 ROOT = Path(__file__).resolve().parents[2]

@@ -11,7 +11,7 @@ from analysis.expansion import virial_expansion
 from analysis.heatcapacity import heat_capacity_from_spec
 from analysis.virial_eos import VirialGas
 from mdsim.cli import main
-from mdsim.study import read_study
+from mdsim.study.reader import read_study
 
 CONFIGS = Path(__file__).resolve().parents[2] / "configs"
 EXAMPLES = sorted(CONFIGS.glob("*.toml"))
@@ -121,7 +121,7 @@ def test_inversion_options(capsys, tmp_path):
 @pytest.mark.slow
 def test_inversion_simulated_points_agree_with_virial(capsys):
     from analysis.inversion import joule_sign_virial_Pa
-    from mdsim.statepoints import virial_gas
+    from mdsim.study.statepoints import virial_gas
     out = run_json(capsys, "inversion", str(CONFIGS / "argon.toml"), "--json", "--simulate",
                    "--sim-densities", "1", "--sim-temperatures", "2", "--particles", "64",
                    "--samples", "2000", "--seed", "5")

@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from mdsim.cstable import (CorrespondingStatesTable, build_table, points_dir_for, run_point,
+from mdsim.cstable.table import (CorrespondingStatesTable, build_table, points_dir_for, run_point,
                            table_delta_T, table_delta_T_full, table_settings)
 from mdsim.errors import StudyError
 
@@ -55,7 +55,7 @@ def tiny(tmp_path_factory):
 def _virial(T, rho):
     """B2 + B3 series of reduced LJ straight from the quadratures (no table code)."""
     from analysis.virial import b2, b3
-    from mdsim.potentials import LennardJones
+    from mdsim.engine.potentials import LennardJones
     pot = LennardJones(1.0, 1.0)
     B, dB, d2B = b2(pot, T)
     C, dC, d2C = b3(pot, T)
@@ -137,8 +137,8 @@ def test_matches_teqp_within_uncertainties(tiny):
 
 
 def test_held_out_states_match_direct_simulation(tiny):
-    from mdsim.cstable import METHOD, _system_for
-    from mdsim.sampling import sample_state_point
+    from mdsim.cstable.table import METHOD, _system_for
+    from mdsim.sampling.state_point import sample_state_point
     import json
     study, table = tiny
     plan = json.loads((points_dir_for(study.with_name("tiny.h5")) / "plan.json").read_text())
@@ -177,8 +177,8 @@ def test_build_resumes_after_interruption(tiny, tmp_path):
     with pytest.raises(KeyboardInterrupt):
         def interrupt(done, total):
             raise KeyboardInterrupt
-        from mdsim.cstable import _write_plan
-        from mdsim.study import read_study
+        from mdsim.cstable.table import _write_plan
+        from mdsim.study.reader import read_study
         st = read_study(tmp_path / "tiny.toml")
         _write_plan(points, table_settings(st), st)
         run_point(points, 0)
@@ -207,7 +207,7 @@ def test_delta_T_agrees_with_virial_route_when_dilute(tiny):
     from analysis.expansion import virial_expansion
     from analysis.heatcapacity import ConstantHeatCapacity
     from analysis.virial_eos import VirialGas
-    from mdsim.potentials import LennardJones, PairMatrix
+    from mdsim.engine.potentials import LennardJones, PairMatrix
     _, table = tiny
     cv = ConstantHeatCapacity.in_units_of_R(1.5)
     gas = VirialGas(PairMatrix([LennardJones(119.8, 3.405)], 3.0), [1.0], [0.039948])
@@ -263,7 +263,7 @@ def test_delta_T_bad_input(tiny):
 
 
 def test_refuses_shapeless_form_and_missing_grid(tmp_path):
-    from mdsim.study import read_study
+    from mdsim.study.reader import read_study
     exp6 = TINY.format(form="exp-6", extra='r_min = "3.8 angstrom"\nsteepness = 14.0')
     with pytest.raises(StudyError, match="fixed shape"):
         table_settings(read_study(_write(tmp_path / "e.toml", exp6)))

@@ -14,8 +14,8 @@ from scipy.constants import Avogadro as N_A
 from scipy.optimize import brentq
 
 from mdsim.cli import build_parser, main
-from mdsim.cmd_report import DEFAULT_DEMO_OUT, demo_run_argv, demo_study_path
-from mdsim.study import read_study
+from mdsim.cli.cmd_report import DEFAULT_DEMO_OUT, demo_run_argv, demo_study_path
+from mdsim.study.reader import read_study
 
 DEMO_PRESSURES_BAR = [10.0, 20.0, 40.0, 60.0]
 

@@ -2,8 +2,8 @@
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.executors import _slurm_memory, run_dask, run_local, write_array_script
-from mdsim.tasks import read_task_result
+from mdsim.execute.executors import _slurm_memory, run_dask, run_local, write_array_script
+from mdsim.pipeline.tasks import read_task_result
 
 from test_tasks import make_run_dir, write_study
 

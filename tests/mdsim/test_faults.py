@@ -18,10 +18,10 @@ import h5py
 import numpy as np
 import pytest
 
-from mdsim import store
+from mdsim.sampling import store
 from mdsim.errors import SimulationError
-from mdsim.rundir import RunDir, space_needed_bytes
-from mdsim.tasks import read_task_result, run_task
+from mdsim.pipeline.rundir import RunDir, space_needed_bytes
+from mdsim.pipeline.tasks import read_task_result, run_task
 
 from test_tasks import make_run_dir, write_study
 
@@ -159,8 +159,8 @@ def test_sigkill_while_sampling_resumes_to_the_same_numbers(reference, tmp_path)
 
 KILL_IN_CHECKPOINT = """
 import os, signal, sys
-import mdsim.store as st
-from mdsim.tasks import run_task
+import mdsim.sampling.store as st
+from mdsim.pipeline.tasks import run_task
 orig = st._write_tree
 calls = [0]
 def dying(group, state):
@@ -178,7 +178,7 @@ run_task(sys.argv[1], 0)
 KILL_IN_TASK_FILE = """
 import os, signal, sys
 import h5py
-from mdsim.tasks import run_task
+from mdsim.pipeline.tasks import run_task
 orig = h5py.Group.create_dataset
 def dying(self, name, *a, **kw):
     out = orig(self, name, *a, **kw)
@@ -255,7 +255,7 @@ def test_a_second_run_is_refused_and_a_dead_owners_lock_taken_over(reference, tm
 def test_a_killed_dask_worker_s_task_is_retried_to_the_same_numbers(reference, tmp_path):
     pytest.importorskip("distributed")
     from dask.distributed import Client, LocalCluster
-    from mdsim.executors import run_dask
+    from mdsim.execute.executors import run_dask
     study, expected, _ = reference
     rd, _ = make_run_dir(tmp_path, study)
     cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,

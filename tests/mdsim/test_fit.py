@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 
 from analysis.heatcapacity import ConstantHeatCapacity
-from mdsim.check import (TWO_SIGMA, ExpansionModel, Objective, delta_chi2_for, fit_parameters,
+from mdsim.check.predict import (TWO_SIGMA, ExpansionModel, Objective, delta_chi2_for, fit_parameters,
                          inside_region, invented_measurements, sample_posterior)
 from mdsim.errors import StudyError
-from mdsim.measurements import ExpansionData, VirialData
+from mdsim.check.measurements import ExpansionData, VirialData
 
 CV_MONATOMIC = ConstantHeatCapacity.in_units_of_R(1.5)
 

@@ -3,10 +3,10 @@ import numpy as np
 import pytest
 
 from mdsim.errors import SimulationError
-from mdsim.forces import compute_forces
-from mdsim.neighbours import NeighbourList
-from mdsim.potentials import Exp6, PairMatrix
-from mdsim.system import System
+from mdsim.engine.forces import compute_forces
+from mdsim.engine.neighbours import NeighbourList
+from mdsim.engine.potentials import Exp6, PairMatrix
+from mdsim.engine.system import System
 
 FORMS = ["lj-mixture", "mie-mixture", "exp6-mixture", "table", "lj"]
 

@@ -12,10 +12,10 @@ import math
 import pytest
 
 from analysis.stats import mean_and_stderr
-from mdsim.md import MDSampler
-from mdsim.montecarlo import MCSampler
-from mdsim.potentials import LennardJones, PairMatrix
-from mdsim.system import System
+from mdsim.engine.md import MDSampler
+from mdsim.engine.montecarlo import MCSampler
+from mdsim.engine.potentials import LennardJones, PairMatrix
+from mdsim.engine.system import System
 
 
 @pytest.mark.slow

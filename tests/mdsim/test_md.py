@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 
 from mdsim.errors import SimulationError, StudyError
-from mdsim.md import MDSampler, csvr_scale, energy_drift, gamma_variate
-from mdsim.potentials import Exp6, LennardJones, PairMatrix
-from mdsim.rng import make_state
-from mdsim.system import System
+from mdsim.engine.md import MDSampler, csvr_scale, energy_drift, gamma_variate
+from mdsim.engine.potentials import Exp6, LennardJones, PairMatrix
+from mdsim.engine.rng import make_state
+from mdsim.engine.system import System
 
 
 def block_error(x, n_blocks=20):

@@ -2,7 +2,7 @@
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.measurements import MAX_REPORTED, read_expansion_data, read_virial_data
+from mdsim.check.measurements import MAX_REPORTED, read_expansion_data, read_virial_data
 
 HEADER = "initial_temperature_K,initial_pressure_bar,volume_ratio,delta_T_K,delta_T_uncertainty_K\n"
 

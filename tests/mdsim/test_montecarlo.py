@@ -9,9 +9,9 @@ import pytest
 from scipy.integrate import quad
 
 from mdsim.errors import StudyError
-from mdsim.montecarlo import MCSampler, cell_grid, nve_temperature
-from mdsim.potentials import Exp6, LennardJones, Mie, PairMatrix, Tabulated
-from mdsim.system import System
+from mdsim.engine.montecarlo import MCSampler, cell_grid, nve_temperature
+from mdsim.engine.potentials import Exp6, LennardJones, Mie, PairMatrix, Tabulated
+from mdsim.engine.system import System
 
 
 # --- helpers -----------------------------------------------------------------
@@ -389,7 +389,7 @@ def test_dilute_gas_takes_large_steps():
 
 
 def test_benchmark_quick_runs():
-    from mdsim.bench_mc import mc_figures
+    from mdsim.bench.montecarlo import mc_figures
     figures = mc_figures(quick=True)
     assert set(figures) == {"liquid", "gas"}
     for fig in figures.values():

@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.neighbours import NeighbourList, choose_skin
+from mdsim.engine.neighbours import NeighbourList, choose_skin
 
 
 def brute_pairs(r_ni, box_i, r_cut):

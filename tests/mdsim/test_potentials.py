@@ -6,7 +6,7 @@ import pytest
 from scipy.integrate import quad
 
 from mdsim.errors import StudyError
-from mdsim.potentials import (EPS, RC, SHIFT, SIG, Exp6, LennardJones, Mie, PairMatrix,
+from mdsim.engine.potentials import (EPS, RC, SHIFT, SIG, Exp6, LennardJones, Mie, PairMatrix,
                               Tabulated, combine, read_table)
 
 R_GRID = np.linspace(0.85, 4.0, 41)

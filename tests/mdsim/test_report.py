@@ -11,7 +11,7 @@ import pytest
 
 from mdsim.cli import main
 from mdsim.errors import StudyError
-from mdsim.report import CSV_COLUMNS, build_report
+from mdsim.pipeline.report import CSV_COLUMNS, build_report
 
 EPS_K = 175.0  # epsilon/k of the test gas (K)
 

@@ -9,8 +9,8 @@ import time
 import pytest
 
 from mdsim.cli import main
-from mdsim.rundir import RunDir
-from mdsim.tasks import read_task_result
+from mdsim.pipeline.rundir import RunDir
+from mdsim.pipeline.tasks import read_task_result
 
 from test_tasks import write_study
 
@@ -51,9 +51,9 @@ def test_run_json_then_rerun_skips_complete_tasks(tmp_path, capsys):
 
 
 def test_the_resolved_study_reads_back_with_the_same_tasks(tmp_path):
-    from mdsim.study import read_study
-    from mdsim.tasks import plan_tasks
-    from mdsim.cmd_run import prepare_run_dir
+    from mdsim.study.reader import read_study
+    from mdsim.pipeline.tasks import plan_tasks
+    from mdsim.cli.cmd_run import prepare_run_dir
     study = read_study(write_study(tmp_path, particles=""))
     rd, tasks = prepare_run_dir(study, tmp_path / "run")
     again = read_study(rd.path / "study.toml")
@@ -140,9 +140,9 @@ def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_pa
     again = _cli(*args, "--out", str(killed), timeout=300)
     assert again.returncode == 0, again.stderr
     # the uninterrupted reference, task by task in this process (no report needed)
-    from mdsim.cmd_run import prepare_run_dir
-    from mdsim.study import read_study
-    from mdsim.tasks import run_task
+    from mdsim.cli.cmd_run import prepare_run_dir
+    from mdsim.study.reader import read_study
+    from mdsim.pipeline.tasks import run_task
     rd, tasks = prepare_run_dir(read_study(study), whole)
     for t in tasks:
         run_task(rd.path, t["index"])
@@ -151,7 +151,7 @@ def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_pa
 
 def test_run_directory_keeps_copies_of_the_data_files_it_needs(tmp_path):
     from pathlib import Path
-    from mdsim.study import read_study
+    from mdsim.study.reader import read_study
     configs = Path(__file__).resolve().parents[2] / "configs"
     out = tmp_path / "moved-later"
     # plan only (array executor), so nothing is simulated

@@ -8,10 +8,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from mdsim import store
+from mdsim.sampling import store
 from mdsim.errors import StudyError
-from mdsim.sampling import sample_state_point, summarise
-from mdsim.study import read_study
+from mdsim.sampling.state_point import sample_state_point, summarise
+from mdsim.study.reader import read_study
 
 ROOT = Path(__file__).resolve().parents[2]
 ARGON = ROOT / "configs" / "argon.toml"
@@ -61,10 +61,10 @@ def test_part_file_with_other_settings_is_refused(tmp_path):
 KILL_SCRIPT = """
 import os, signal, sys
 from pathlib import Path
-import mdsim.store as store
-import mdsim.montecarlo as mc
-from mdsim.sampling import sample_state_point
-from mdsim.study import read_study
+import mdsim.sampling.store as store
+import mdsim.engine.montecarlo as mc
+from mdsim.sampling.state_point import sample_state_point
+from mdsim.study.reader import read_study
 
 where, out = sys.argv[1], Path(sys.argv[2])
 

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.statepoints import StatePoint, resolve_initial_density, virial_gas
-from mdsim.study import read_study
+from mdsim.study.statepoints import StatePoint, resolve_initial_density, virial_gas
+from mdsim.study.reader import read_study
 
 CONFIGS = Path(__file__).resolve().parents[2] / "configs"
 R = 1.380649e-23 * 6.02214076e23  # CODATA 2018, exact

@@ -3,7 +3,7 @@ import h5py
 import numpy as np
 import pytest
 
-from mdsim import store
+from mdsim.sampling import store
 from mdsim.errors import SimulationError, StudyError
 
 

@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.potentials import Exp6, LennardJones
-from mdsim.study import read_study
+from mdsim.engine.potentials import Exp6, LennardJones
+from mdsim.study.reader import read_study
 
 CONFIGS = Path(__file__).resolve().parents[2] / "configs"
 K_B, N_A = 1.380649e-23, 6.02214076e23  # CODATA 2018, exact

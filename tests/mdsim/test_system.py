@@ -2,10 +2,10 @@
 import numpy as np
 import pytest
 
-from mdsim import rng
+from mdsim.engine import rng
 from mdsim.errors import StudyError
-from mdsim.potentials import Exp6, LennardJones, PairMatrix
-from mdsim.system import System
+from mdsim.engine.potentials import Exp6, LennardJones, PairMatrix
+from mdsim.engine.system import System
 
 
 @pytest.fixture

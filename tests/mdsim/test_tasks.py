@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.rundir import RunDir
-from mdsim.study import read_study
-from mdsim.tasks import plan_tasks, read_task_result, run_task, simulation_settings
+from mdsim.pipeline.rundir import RunDir
+from mdsim.study.reader import read_study
+from mdsim.pipeline.tasks import plan_tasks, read_task_result, run_task, simulation_settings
 
 BASE = """\
 [study]
@@ -49,7 +49,7 @@ def write_study(tmp_path, name="tiny", routes='["energy"]', particles="particles
 
 def make_run_dir(tmp_path, study_path, name="run"):
     """A run directory as 'mdsim run' makes it, without running anything."""
-    from mdsim.cmd_run import prepare_run_dir
+    from mdsim.cli.cmd_run import prepare_run_dir
     rd, tasks = prepare_run_dir(read_study(study_path), tmp_path / name)
     return rd, tasks
 
@@ -132,7 +132,7 @@ def test_three_routes_agree_with_each_other_and_the_virial_limit(tmp_path):
     standard errors plus the B2 to B2 + B3 spread as the truncation error.
     """
     from analysis.expansion import virial_expansion
-    from mdsim.statepoints import ideal_heat_capacity, virial_gas
+    from mdsim.study.statepoints import ideal_heat_capacity, virial_gas
     path = write_study(tmp_path, routes='["energy", "microcanonical", "partition"]',
                        target="0.3 K")
     rd, tasks = make_run_dir(tmp_path, path)

@@ -1,0 +1,7 @@
+"""Benchmarks that print figures for this machine (not tests).
+
+``python -m mdsim.bench`` times the engine (:mod:`mdsim.bench.engine`, with
+the Monte Carlo rows of :mod:`mdsim.bench.montecarlo`);
+``python -m mdsim.bench_job`` times one whole study (:mod:`mdsim.bench.job`).
+"""
+__all__ = []

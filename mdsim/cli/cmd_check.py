@@ -1,0 +1,259 @@
+"""``mdsim check``: a study's potential against measured free expansions.
+
+    mdsim check STUDY --data FILE.csv [--virial-data FILE.csv] [--table FILE.h5]
+                [--runs DIR] [--fit [--fit-shape] [--posterior]] [--suggest ...]
+                [--level 0.05] [--out DIR] [--json]
+
+Prints, per measurement, the prediction, its uncertainty, the residual and
+the z-score, then chi-square per degree of freedom, its p-value and a
+verdict sentence; writes into ``--out`` (default ``runs/NAME-check``):
+
+    check.csv     one row per measurement; columns carry their units
+    check.json    everything (what ``--json`` prints): ``rows``, ``check``
+                  (chi2, dof, chi2_per_dof, p_value, level, consistent),
+                  ``verdict``, ``second_virial``, ``fit`` (``epsilon_K`` and
+                  ``sigma_angstrom`` each {value, stderr, stderr_scaled},
+                  ``correlation``, ``chi2_per_dof``, ``points_used``, ...),
+                  ``posterior``, ``suggestions``, ``notes``
+    plots/check_parity.png|pdf, plots/check_residuals.png|pdf,
+    plots/fit_region.png|pdf (with --fit), plots/posterior_corner.png|pdf (with --posterior)
+
+The check itself predicts through the B2 + B3 virial route unless ``--table``
+(the corresponding-states table) or ``--runs`` (finished simulations of the
+same state points) give a better prediction; see :mod:`mdsim.check.predict`.
+"""
+import csv
+import json
+import sys
+from pathlib import Path
+
+from mdsim.cli import _nonnegative_int, _positive_int, command
+from mdsim.errors import StudyError
+
+CSV_COLUMNS = ("line", "label", "initial_temperature_K", "initial_pressure_Pa",
+               "initial_density_mol_m3", "volume_ratio", "measured_delta_T_K",
+               "measured_uncertainty_K", "predicted_delta_T_K", "prediction_stderr_K", "route",
+               "predicted_delta_T_B2_only_K", "residual_K", "z", "used",
+               "d_delta_T_d_epsilon_K_per_K", "d_delta_T_d_sigma_K_per_angstrom",
+               "fit_predicted_delta_T_K", "fit_z", "notes")
+
+
+def _arguments(p):
+    p.add_argument("study", help="study file (TOML): its gas, potential and ideal-gas heat "
+                   "capacity are checked")
+    p.add_argument("--data", required=True, help="CSV of free-expansion measurements (header "
+                   "with units, e.g. initial_temperature_K, initial_pressure_bar, volume_ratio, "
+                   "delta_T_K, delta_T_uncertainty_K; '#' lines are comments)")
+    p.add_argument("--virial-data", help="CSV of second-virial measurements (temperature_K, "
+                   "B_cm3_mol, B_uncertainty_cm3_mol): checked, and fitted jointly with --fit")
+    p.add_argument("--table", help="corresponding-states table (HDF5, from 'mdsim table build') "
+                   "to predict and fit through instead of the virial route")
+    p.add_argument("--runs", help="run directory (or a directory of them) whose finished "
+                   "simulations of the same gas are reused where they hold a measured state")
+    p.add_argument("--no-simulate", action="store_true", help="do not run the study's simulation "
+                   "routes at measured states that no run directory holds (by default they run "
+                   "when the study's [simulation] table lists routes)")
+    p.add_argument("--workers", type=_positive_int("--workers"), help="processes for those "
+                   "simulations (default: the cores)")
+    p.add_argument("--quiet", action="store_true", help="no progress messages on stderr")
+    p.add_argument("--fit", action="store_true", help="fit epsilon and sigma by weighted least "
+                   "squares")
+    p.add_argument("--fit-shape", action="store_true", help="with --fit: also fit the Mie "
+                   "repulsive exponent (a Lennard-Jones study becomes Mie n-6)")
+    p.add_argument("--posterior", action="store_true", help="with --fit: sample the posterior "
+                   "with emcee (the 'fit' extra) and draw a corner plot")
+    p.add_argument("--posterior-steps", type=_positive_int("--posterior-steps"), default=600,
+                   help="MCMC steps per walker (default 600, the first 200 discarded)")
+    p.add_argument("--posterior-walkers", type=_positive_int("--posterior-walkers"), default=16,
+                   help="MCMC walkers (default 16)")
+    p.add_argument("--seed", type=_nonnegative_int("--seed"), default=1,
+                   help="random seed of the posterior sampler (default 1)")
+    p.add_argument("--suggest", action="store_true", help="rank candidate next experiments by "
+                   "how much one more measurement would shrink the parameter uncertainty")
+    p.add_argument("--suggest-temperature", nargs=2, metavar=("LOW", "HIGH"),
+                   help='candidate initial temperatures, e.g. "250 K" "400 K" (default: the '
+                   "data's range)")
+    p.add_argument("--suggest-pressure", nargs=2, metavar=("LOW", "HIGH"),
+                   help='candidate initial pressures, e.g. "5 bar" "100 bar" (default: the '
+                   "data's range)")
+    p.add_argument("--suggest-ratio", nargs=2, type=float, metavar=("LOW", "HIGH"),
+                   help="candidate volume ratios, e.g. 1.5 4 (default: the data's range)")
+    p.add_argument("--suggest-uncertainty", help='standard uncertainty of the new measurement, '
+                   'e.g. "0.05 K" (default: the median of the data\'s)')
+    p.add_argument("--suggest-count", type=_positive_int("--suggest-count"), default=5,
+                   help="how many candidates to print (default 5)")
+    p.add_argument("--suggest-criterion", choices=("det", "trace"), default="det",
+                   help="det: area of the confidence region (default); trace: sum of the "
+                   "parameter variances")
+    p.add_argument("--level", type=float, default=0.05,
+                   help="significance level of the verdicts (default 0.05)")
+    p.add_argument("--out", help="output directory (default runs/NAME-check)")
+    p.add_argument("--json", action="store_true", help="print check.json to stdout")
+
+
+def _pair(values, kind, option):
+    from mdsim.units import parse_quantity
+    if values is None:
+        return None
+    lo, hi = (parse_quantity(v, kind, f"option {option}") for v in values)
+    if not hi >= lo:
+        raise StudyError(f"option {option} = {values[0]!r} {values[1]!r}: give LOW then HIGH "
+                         "with LOW <= HIGH")
+    return (lo, hi)
+
+
+def _plain_json(result):
+    return {k: v for k, v in result.items() if not k.startswith("_")}
+
+
+def write_check_csv(result, path):
+    """check.csv: one row per measurement, the columns of :data:`CSV_COLUMNS`."""
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(CSV_COLUMNS)
+        for row in result["rows"]:
+            vals = []
+            for c in CSV_COLUMNS:
+                v = row.get(c)
+                if c == "notes":
+                    v = "; ".join(v or [])
+                vals.append("" if v is None else (f"{v:.10g}" if isinstance(v, float) else v))
+            w.writerow(vals)
+
+
+def write_outputs(result, out_dir):
+    """check.csv, check.json and the plots; returns the list of paths written."""
+    from mdsim.check import plots as check_plots
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    paths = [out / "check.csv", out / "check.json"]
+    write_check_csv(result, paths[0])
+    paths[1].write_text(json.dumps(_plain_json(result), indent=2) + "\n", encoding="utf-8")
+    plots = out / "plots"
+    if any(r["used"] for r in result["rows"]):
+        paths += check_plots.plot_parity(result, plots / "check_parity")
+        paths += check_plots.plot_residuals(result, plots / "check_residuals")
+    chain = result.get("_posterior_chain")
+    if "_fit" in result:
+        paths += check_plots.plot_confidence_region(result["_fit"], plots / "fit_region",
+                                                    posterior_chain=chain)
+    if chain is not None:
+        paths += check_plots.plot_corner(chain, list(result["_fit"]["names"]),
+                                         plots / "posterior_corner")
+    return paths
+
+
+def _g(x, fmt=".4g"):
+    return "-" if x is None else f"{x:{fmt}}"
+
+
+def format_check(result):
+    """The plain-text report of ``mdsim check``."""
+    lines = [f"study {result['study']}: check against {result['data_file']}",
+             f"  {'line':>5} {'T_i [K]':>8} {'state':>14} {'r':>5} {'measured [K]':>16} "
+             f"{'predicted [K]':>16} {'resid [K]':>9} {'z':>7}  dDT/deps dDT/dsig  route"]
+    for r in result["rows"]:
+        state = (f"{r['initial_pressure_Pa'] / 1e5:.5g} bar" if r["initial_pressure_Pa"]
+                 is not None else f"{r['initial_density_mol_m3']:.5g} mol/m3")
+        pred = ("not predicted" if r["predicted_delta_T_K"] is None else
+                f"{r['predicted_delta_T_K']:.4f}" + (f" +/- {r['prediction_stderr_K']:.2g}"
+                                                     if r["prediction_stderr_K"] else ""))
+        lines.append(f"  {r['line']:>5} {r['initial_temperature_K']:8.5g} {state:>14} "
+                     f"{r['volume_ratio']:5.3g} {r['measured_delta_T_K']:9.4f} +/- "
+                     f"{r['measured_uncertainty_K']:<4.2g} {pred:>16} {_g(r['residual_K'], '.3f'):>9} "
+                     f"{_g(r['z'], '.2f'):>7}  {_g(r['d_delta_T_d_epsilon_K_per_K'], '8.3g')} "
+                     f"{_g(r['d_delta_T_d_sigma_K_per_angstrom'], '8.3g')}  {r['route'] or ''}")
+    lines.append("  (sensitivities: K per K of epsilon/k, K per angstrom of sigma)")
+    lines.append("")
+    lines.append(result["verdict"])
+    if "second_virial" in result:
+        lines.append(result["second_virial"]["verdict"])
+    f = result.get("fit")
+    if f:
+        lines.append("")
+        lines.append(f"fit ({f['form']}, through {f['route']}, {f['points_used']} points):")
+        for name in f["parameters"]:
+            e = f[name]
+            lines.append(f"  {name:<20} {e['value']:.6g} +/- {e['stderr']:.2g}   "
+                         f"(scaled by sqrt(chi2/dof): +/- {e['stderr_scaled']:.2g})")
+        lines.append(f"  correlation(epsilon, sigma) {f['correlation']:.4f}; chi2/dof "
+                     f"{f['chi2_per_dof']:.3g} ({f['dof']} dof), p = {f['p_value']:.2g}")
+        lines.append(f"  {f['verdict']}")
+    post = result.get("posterior")
+    if post:
+        lines.append("posterior (emcee, flat priors): " + "; ".join(
+            f"{n} {q50:.5g} (16-84 %: {q16:.5g} to {q84:.5g})" for n, q16, q50, q84 in
+            zip(post["parameters"], *post["quantiles_16_50_84"])))
+    s = result.get("suggestions")
+    if s:
+        lines.append("")
+        lines.append(f"next experiments at the {s['at']} (one measurement with uncertainty "
+                     f"{s['uncertainty_K']:.3g} K; {s['meaning']}):")
+        for c in s["candidates"]:
+            lines.append(f"  T = {c['temperature_K']:.5g} K, p = {c['pressure_Pa'] / 1e5:.4g} "
+                         f"bar, r = {c['volume_ratio']:.3g}: predicted Delta T "
+                         f"{c['predicted_delta_T_K']:.3f} K, shrink {c['shrink']:.3f}")
+    for n in result["notes"]:
+        lines.append(f"note: {n}")
+    return lines
+
+
+@command("check", "check a study's potential against measured free expansions; fit, "
+         "sensitivities and next experiments", _arguments)
+def run_check_command(args):
+    from mdsim.check.predict import _match_run, load_table, run_check, run_predictions
+    from mdsim.check.simulate import simulate_rows, study_asks_for_simulation
+    from mdsim.check.measurements import read_expansion_data, read_virial_data
+    from mdsim.study.reader import read_study
+    from mdsim.units import parse_quantity
+
+    study = read_study(args.study)
+    data = read_expansion_data(args.data)
+    virial = read_virial_data(args.virial_data) if args.virial_data else None
+    table = load_table(args.table) if args.table else None
+    suggest = None
+    if args.suggest:
+        u = (parse_quantity(args.suggest_uncertainty, "temperature", "option --suggest-uncertainty")
+             if args.suggest_uncertainty else None)
+        ratio = tuple(args.suggest_ratio) if args.suggest_ratio else None
+        if ratio is not None and not (1.0 < ratio[0] <= ratio[1]):
+            raise StudyError(f"option --suggest-ratio = {ratio[0]:g} {ratio[1]:g}: need "
+                             "1 < LOW <= HIGH (volume ratios of an expansion)")
+        suggest = {"temperature_K": _pair(args.suggest_temperature, "temperature",
+                                          "--suggest-temperature"),
+                   "pressure_Pa": _pair(args.suggest_pressure, "pressure", "--suggest-pressure"),
+                   "volume_ratio": ratio, "uncertainty_K": u,
+                   "criterion": args.suggest_criterion, "count": args.suggest_count}
+    elif any(v is not None for v in (args.suggest_temperature, args.suggest_pressure,
+                                     args.suggest_ratio, args.suggest_uncertainty)):
+        raise StudyError("the --suggest-* options need --suggest")
+    posterior = ({"steps": args.posterior_steps, "walkers": args.posterior_walkers,
+                  "seed": args.seed} if args.posterior else None)
+    out_dir = Path(args.out) if args.out else Path("runs") / f"{study.name}-check"
+    runs_dirs = [args.runs] if args.runs else []
+    if study_asks_for_simulation(study) and not args.no_simulate:
+        known = run_predictions(args.runs, study) if args.runs else []
+        p_n, rho_n = data.pressure_Pa, data.density_mol_m3
+        missing = [k for k in range(len(data)) if _match_run(
+            known, data.temperature_K[k], None if p_n is None else p_n[k],
+            None if rho_n is None else rho_n[k], data.volume_ratio[k]) is None]
+        if missing:
+            sims = simulate_rows(study, data, missing, out_dir / "simulations",
+                                 workers=args.workers, quiet=args.quiet)
+            for k, err in sims["failed"].items():
+                print(f"mdsim check: measurement on line {int(data.line_n[k])} not simulated "
+                      f"({err}); it is predicted by the next route available",
+                      file=sys.stderr)
+            if sims["done"]:
+                runs_dirs.append(out_dir / "simulations")
+    result = run_check(study, data, virial, table=table, runs_dir=runs_dirs or None,
+                       fit=args.fit, fit_shape=args.fit_shape, posterior=posterior,
+                       suggest=suggest, level=args.level)
+    paths = write_outputs(result, out_dir)
+    if args.json:
+        print(json.dumps(_plain_json(result), indent=2))
+    else:
+        print("\n".join(format_check(result)))
+        print(f"wrote {out_dir}/ ({', '.join(p.name for p in paths[:2])} and "
+              f"{len(paths) - 2} plot files)")
+    return 0

@@ -1,0 +1,645 @@
+"""Molecular dynamics: velocity Verlet, with or without a thermostat.
+
+``MDSampler`` follows the sampler protocol of the project (see the class
+docstring).  The dynamics use the truncated-and-shifted pair potential
+(what velocity Verlet conserves); the recorded energies also give the
+truncated energy and the full-potential energy with the analytic tail.
+
+Thermostat: stochastic velocity rescaling (Bussi, Donadio and Parrinello,
+J. Chem. Phys. 126, 014101, 2007).  After each step the kinetic energy K is
+replaced by a draw from the canonical kinetic-energy distribution relaxing
+with time constant tau,
+
+    K' = c K + (1 - c) K_t (R_1^2 + S_{nf-1}) / nf + 2 R_1 sqrt(c (1 - c) K K_t / nf),
+
+c = exp(-dt / tau), K_t = nf T / 2, R_1 a standard normal, S_{nf-1} a sum
+of nf - 1 squared standard normals (drawn as 2 Gamma((nf - 1)/2)); the
+velocities are scaled by sqrt(K'/K).  The energy the thermostat puts in is
+accumulated, so ``e_conserved`` is conserved in NVT runs too.
+
+Degrees of freedom: nf = 3N - 3 (total momentum is removed at the start
+and conserved by the dynamics and the thermostat).
+
+Internally the particles are kept in the neighbour list's cell-sorted
+order; ``id_n`` maps it to the original order of the ``System``.
+
+Array suffixes: ``_n`` particle, ``_i`` coordinate, ``_c`` chunk.
+"""
+import math
+
+import numba
+import numpy as np
+from numba import njit
+
+from mdsim.engine import rng as _rng
+from mdsim.errors import StudyError
+from mdsim.engine.forces import check_finite, forces_half, forces_half_parallel
+from mdsim.engine.neighbours import NeighbourList, choose_skin, wrap_positions
+
+METHODS = ("md-nvt", "md-nve")
+
+#: default time step at T* <= 1 and unit mass (reduced), common practice for LJ fluids
+BASE_TIME_STEP = 0.005
+
+
+# --- kernels -----------------------------------------------------------------------
+
+@njit(cache=True)
+def gamma_variate(s, shape):
+    """Gamma(shape, 1) variate (Marsaglia and Tsang, ACM TOMS 26, 363, 2000)."""
+    boost = 1.0
+    if shape < 1.0:
+        # Gamma(a) = Gamma(a + 1) U^(1/a)
+        u = _rng.uniform(s)
+        while u <= 0.0:
+            u = _rng.uniform(s)
+        boost = u ** (1.0 / shape)
+        shape += 1.0
+    d = shape - 1.0 / 3.0
+    c = 1.0 / math.sqrt(9.0 * d)
+    while True:
+        x = _rng.normal(s)
+        v = 1.0 + c * x
+        if v <= 0.0:
+            continue
+        v = v * v * v
+        u = _rng.uniform(s)
+        if u > 0.0 and math.log(u) < 0.5 * x * x + d - d * v + d * math.log(v):
+            return d * v * boost
+
+
+@njit(cache=True)
+def csvr_scale(kinetic, kinetic_target, nf, c, s):
+    """Velocity scale factor of one stochastic-velocity-rescaling step.
+
+    Parameters
+    ----------
+    kinetic : float
+        Current kinetic energy K (> 0).
+    kinetic_target : float
+        nf T / 2.
+    nf : int
+        Degrees of freedom.
+    c : float
+        exp(-dt / tau).
+    s : ndarray, shape=(4,), uint64
+        Random state, advanced.
+
+    Returns
+    -------
+    alpha : float
+        Multiply all velocities by alpha (K' = alpha^2 K).
+    """
+    r1 = _rng.normal(s)
+    rest = 2.0 * gamma_variate(s, 0.5 * (nf - 1)) if nf > 1 else 0.0
+    k_new = (c * kinetic + (1.0 - c) * kinetic_target * (r1 * r1 + rest) / nf
+             + 2.0 * r1 * math.sqrt(c * (1.0 - c) * kinetic * kinetic_target / nf))
+    alpha = math.sqrt(k_new / kinetic)
+    # sign as in the paper's appendix (matters only for time correlations)
+    if r1 + math.sqrt(c * nf * kinetic / ((1.0 - c) * kinetic_target)) < 0.0:
+        alpha = -alpha
+    return alpha
+
+
+@njit(cache=True)
+def maxwell_boltzmann(s, mass_n, kT, v_ni):
+    """Draw velocities at temperature kT, remove the total momentum, and scale
+    them so that the kinetic temperature over 3N - 3 dof is exactly kT."""
+    n = mass_n.size
+    _rng.fill_normal(s, v_ni)
+    p = np.zeros(3)
+    m_tot = 0.0
+    for k in range(n):
+        sd = math.sqrt(kT / mass_n[k])
+        for d in range(3):
+            v_ni[k, d] *= sd
+            p[d] += mass_n[k] * v_ni[k, d]
+        m_tot += mass_n[k]
+    kin = 0.0
+    for k in range(n):
+        for d in range(3):
+            v_ni[k, d] -= p[d] / m_tot
+            kin += 0.5 * mass_n[k] * v_ni[k, d] ** 2
+    scale = math.sqrt(0.5 * (3 * n - 3) * kT / kin)
+    v_ni *= scale
+
+
+@njit(cache=True)
+def kinetic_energy(v_ni, mass_n):
+    k = 0.0
+    for n in range(mass_n.size):
+        k += 0.5 * mass_n[n] * (v_ni[n, 0] ** 2 + v_ni[n, 1] ** 2 + v_ni[n, 2] ** 2)
+    return k
+
+
+@njit(cache=True)
+def kick_drift(dt, r_ni, v_ni, f_ni, mass_n, r_ref_ni):
+    """First half of a velocity-Verlet step: half kick, drift.
+
+    Returns
+    -------
+    float
+        Largest squared displacement since the list build (positions are
+        not wrapped between builds, so a plain difference).
+    """
+    half = 0.5 * dt
+    moved = 0.0
+    for k in range(r_ni.shape[0]):
+        a = half / mass_n[k]
+        d2 = 0.0
+        for d in range(3):
+            v_ni[k, d] += a * f_ni[k, d]
+            r_ni[k, d] += dt * v_ni[k, d]
+            x = r_ni[k, d] - r_ref_ni[k, d]
+            d2 += x * x
+        moved = max(moved, d2)
+    return moved
+
+
+@njit(cache=True)
+def kick_thermostat(dt, v_ni, f_ni, mass_n, thermostat, kT, nf, c_thermostat, s, obs):
+    """Second half of a step: half kick, then the thermostat if on.
+
+    ``obs[3]`` accumulates minus the energy the thermostat adds; ``obs[4]``
+    receives the kinetic energy.
+    """
+    half = 0.5 * dt
+    kin = 0.0
+    for k in range(v_ni.shape[0]):
+        a = half / mass_n[k]
+        for d in range(3):
+            v_ni[k, d] += a * f_ni[k, d]
+        kin += 0.5 * mass_n[k] * (v_ni[k, 0] ** 2 + v_ni[k, 1] ** 2 + v_ni[k, 2] ** 2)
+    if thermostat:
+        alpha = csvr_scale(kin, 0.5 * nf * kT, nf, c_thermostat, s)
+        v_ni *= alpha
+        k_new = alpha * alpha * kin
+        obs[3] -= k_new - kin
+        kin = k_new
+    obs[4] = kin
+
+
+@njit(cache=True)
+def verlet_block(n_steps, resume, dt, r_ni, v_ni, f_ni, mass_n, r_ref_ni, half_skin2, box_i,
+                 species_n, params_ab, form, table, nb_nk, count_n,
+                 thermostat, kT, nf, c_thermostat, s, obs):
+    """Up to ``n_steps`` velocity-Verlet steps with the serial force kernel;
+    stop early when the list is stale.
+
+    The parallel force kernel is not called from here: a jitted function
+    calling a cached ``parallel=True`` function crashed (segmentation fault)
+    when one of the two came from the cache and the other was freshly
+    compiled; the parallel path loops in Python instead (see
+    ``MDSampler._advance``).
+
+    Parameters
+    ----------
+    n_steps : int
+    resume : bool
+        The previous call stopped after the drift of a step (status 1);
+        finish that step first (forces, second half kick, thermostat).
+    dt : float
+    r_ni, v_ni, f_ni : ndarray, shape=(n, 3), float64, in/out
+    mass_n : ndarray, shape=(n,)
+    r_ref_ni : ndarray, shape=(n, 3)
+        Positions at the last list build.
+    half_skin2 : float
+        (skin / 2)^2.
+    thermostat : bool
+    kT, nf, c_thermostat : float, int, float
+        Target temperature, degrees of freedom, exp(-dt / tau).
+    s : ndarray, shape=(4,), uint64
+    obs : ndarray, shape=(5,), float64, in/out
+        u_trunc, shift_sum, virial (of the latest force evaluation), energy
+        given to the thermostat (accumulated, negative when the thermostat
+        heats), kinetic energy.
+
+    Returns
+    -------
+    done : int
+        Completed steps.
+    status : int
+        0 all done; 1 a particle moved more than skin/2: rebuild the list
+        and call again with ``resume=True``; 2 the energy is not finite.
+    """
+    done = 0
+    while done < n_steps:
+        if not resume:
+            if kick_drift(dt, r_ni, v_ni, f_ni, mass_n, r_ref_ni) > half_skin2:
+                return done, 1
+        resume = False
+        u, sh, w = forces_half(r_ni, box_i, species_n, params_ab, form, table,
+                               nb_nk, count_n, f_ni)
+        obs[0], obs[1], obs[2] = u, sh, w
+        if not np.isfinite(u):
+            return done, 2
+        kick_thermostat(dt, v_ni, f_ni, mass_n, thermostat, kT, nf, c_thermostat, s, obs)
+        done += 1
+    return done, 0
+
+
+# --- Python side -----------------------------------------------------------------------
+
+def energy_drift(e_conserved_t, interval, time_step):
+    """Drift of the conserved energy: least-squares slope per unit time.
+
+    Parameters
+    ----------
+    e_conserved_t : ndarray, shape=(n_samples,)
+        ``run(...)["e_conserved"]``, per particle, epsilon.
+    interval : int
+        Steps between samples.
+    time_step : float
+        Reduced time step.
+
+    Returns
+    -------
+    float
+        d e_conserved / dt, epsilon per particle per reduced time unit.
+    """
+    e = np.asarray(e_conserved_t, dtype=float)
+    if e.size < 2:
+        raise StudyError(f"energy drift needs at least 2 samples, got {e.size}")
+    t = np.arange(e.size) * interval * time_step
+    return float(np.polyfit(t, e, 1)[0])
+
+
+def default_time_step(temperature, masses_a):
+    """0.005 at T* <= 1 for unit mass, shortened as 1/sqrt(T*) above (the
+    closing speed of a collision grows as sqrt(T), the wall stays as steep)
+    and as sqrt(m) for light species."""
+    t = 1.0 if temperature is None else float(temperature)
+    return BASE_TIME_STEP * math.sqrt(float(np.min(masses_a))) * min(1.0, 1.0 / math.sqrt(t))
+
+
+def _positive_float(name, value, allowed, fix):
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise StudyError(f"setting '{name}' = {value!r}: must be a number {allowed}; "
+                         f"{fix}") from None
+    if not math.isfinite(x) or x <= 0.0:
+        raise StudyError(f"setting '{name}' = {value!r}: must be {allowed}; {fix}")
+    return x
+
+
+def _count(name, value, minimum=1):
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
+        raise StudyError(f"setting '{name}' = {value!r}: must be an integer >= {minimum}")
+    return int(value)
+
+
+class MDSampler:
+    """Molecular dynamics sampler (velocity Verlet; NVT by stochastic velocity rescaling).
+
+    Parameters
+    ----------
+    system : mdsim.engine.system.System
+        With positions set; its pair matrix gives the potentials and cut-offs.
+    temperature : float, optional
+        kT/epsilon.  Required for "md-nvt".  For "md-nve" it is optional:
+        when given it sets the Maxwell-Boltzmann start (unless
+        ``velocities`` are given) and the thermostat :meth:`equilibrate`
+        uses; without it the start velocities are ``velocities`` or the
+        system's ``v_ni`` (written by :meth:`sync_system`).
+    energy : None
+        Not used by MD (the protocol's microcanonical Monte Carlo input);
+        giving it is an error.
+    seed : int or list of int
+        Seeds the random stream (start velocities, thermostat).
+    method : {"md-nvt", "md-nve"}
+    time_step : float, optional
+        Reduced time step; default :func:`default_time_step`.
+    thermostat_time : float
+        Relaxation time tau of the thermostat, reduced (default 0.5 = 100
+        steps of 0.005).
+    skin : float, optional
+        Verlet skin in sigma; default :func:`mdsim.engine.neighbours.choose_skin`.
+    n_threads : int
+        1: serial force kernel.  More: the parallel kernel with this many
+        chunks (results depend on n_threads, and are reproducible for it).
+    velocities : ndarray, shape=(n, 3), optional
+        Start velocities (original particle order); they take precedence
+        over a Maxwell-Boltzmann draw at ``temperature``.
+
+    Notes
+    -----
+    The sampler keeps its own copies of the particle arrays and writes
+    positions, velocities (``v_ni``) and box back into ``system`` at the end
+    of :meth:`equilibrate`, :meth:`run` and :meth:`expand_box`.
+
+    ``run`` returns per-particle "u_trunc", "u_full", "u_model", "kinetic",
+    "e_conserved", and "temperature_inst", "pressure", "pressure_conf":
+    u_full = u_trunc + u_tail, u_model = u_trunc - shifts,
+    T_inst = 2 K / (3N - 3), P_conf = W / (3V) + P_tail,
+    P = rho T_inst + P_conf, e_conserved = (K + U_model + E_thermostat) / N.
+    """
+
+    def __init__(self, system, *, temperature=None, energy=None, seed, method="md-nvt",
+                 time_step=None, thermostat_time=0.5, skin=None, n_threads=1, velocities=None):
+        if method not in METHODS:
+            raise StudyError(f"setting 'method' = {method!r}: MD offers {', '.join(METHODS)}")
+        if energy is not None:
+            raise StudyError(f"setting 'energy' = {energy!r}: molecular dynamics takes a "
+                             "temperature (md-nvt) or start velocities (md-nve), not an energy; "
+                             "use method 'mc-nve' for a fixed total energy")
+        if system.r_ni is None:
+            raise StudyError("the system has no positions: call place_on_lattice() or "
+                             "place_at_random() before making a sampler")
+        self.method = method
+        self.system = system
+        self.pairs = system.pairs
+        n = system.n_particles
+        self.n = n
+        self.nf = 3 * n - 3
+        if temperature is not None:
+            temperature = _positive_float("temperature", temperature, "a positive number (kT/eps)",
+                                          "typically 0.7 to 10 in reduced units")
+        elif method == "md-nvt":
+            raise StudyError("setting 'temperature' is missing: md-nvt needs a target "
+                             "temperature (kT/epsilon, typically 0.7 to 10)")
+        self.temperature = temperature
+        self.seed = seed
+        self.rng = _rng.make_state(seed)
+        self.box_i = np.array(system.box_i, dtype=float)
+        # internal, cell-sorted copies
+        self.r_ni = np.ascontiguousarray(system.r_ni, dtype=float).copy()
+        self.species_n = system.species_n.astype(np.int64).copy()
+        self.mass_n = system.mass_n.astype(float).copy()
+        self.id_n = np.arange(n, dtype=np.int64)
+        self.v_ni = np.zeros((n, 3))
+        v = velocities
+        if v is None and temperature is None:
+            v = getattr(system, "v_ni", None)
+            if v is None:
+                raise StudyError("md-nve needs start velocities: give 'temperature' (Maxwell-"
+                                 "Boltzmann start) or 'velocities', or a system with v_ni")
+        if v is None:
+            maxwell_boltzmann(self.rng, self.mass_n, temperature, self.v_ni)
+        else:
+            v = np.asarray(v, dtype=float)
+            if v.shape != (n, 3) or not np.all(np.isfinite(v)):
+                raise StudyError(f"setting 'velocities': shape {v.shape}, expected ({n}, 3) "
+                                 "finite numbers")
+            self.v_ni[:] = v
+            if temperature is not None and not np.any(v):
+                raise StudyError("setting 'velocities': all zero; the thermostat rescales "
+                                 "velocities and cannot start from rest; give nonzero "
+                                 "velocities or leave them out for a Maxwell-Boltzmann start")
+        # a state-dependent time step and skin; without a set temperature,
+        # that of the start velocities
+        t_state = temperature if temperature is not None else \
+            max(2.0 * kinetic_energy(self.v_ni, self.mass_n) / self.nf, 1e-12)
+        self.time_step = (default_time_step(t_state, system.masses_a) if time_step is None
+                          else _positive_float("time_step", time_step, "in (0, 0.05]",
+                                               "0.005 is usual for LJ"))
+        if self.time_step > 0.05:
+            raise StudyError(f"setting 'time_step' = {time_step!r}: must be in (0, 0.05] "
+                             "(reduced); 0.005 is usual for LJ")
+        self.thermostat_time = _positive_float("thermostat_time", thermostat_time,
+                                               "a positive time (reduced)",
+                                               "typically 0.1 to 2")
+        self.n_threads = _count("n_threads", n_threads)
+        if self.n_threads > numba.config.NUMBA_NUM_THREADS:
+            raise StudyError(f"setting 'n_threads' = {n_threads}: at most "
+                             f"{numba.config.NUMBA_NUM_THREADS} threads on this machine")
+        rc = self.pairs.rc_max
+        if skin is None:
+            skin = choose_skin(system.density, t_state, rc)
+        self.skin = _positive_float("skin", skin, "a positive length in sigma",
+                                    "0.3 for a liquid to 1.0 for a dilute gas")
+        self.f_ni = np.zeros((n, 3))
+        # per-chunk force buffers of the parallel kernel (a dummy when serial)
+        self.f_cni = np.zeros((self.n_threads, n, 3) if self.n_threads > 1 else (1, 1, 3))
+        self.nlist = NeighbourList(n, self.box_i, rc, self.skin)
+        self.obs = np.zeros(5)
+        self.step = 0
+        self._resume = False
+        self._update_tail()
+        self._rebuild()
+        self._forces(" in the start configuration")
+        self.obs[4] = kinetic_energy(self.v_ni, self.mass_n)
+
+    # -- internals ---------------------------------------------------------------
+    def _update_tail(self):
+        self.volume = float(np.prod(self.box_i))
+        self.u_tail, self.p_tail = self.pairs.tail_corrections(self.n / self.volume,
+                                                               self.system.fractions_a)
+
+    def _rebuild(self):
+        order = self.nlist.sort_order(self.r_ni)
+        if not np.array_equal(order, np.arange(self.n)):
+            for name in ("r_ni", "v_ni", "f_ni", "species_n", "mass_n", "id_n"):
+                setattr(self, name, np.ascontiguousarray(getattr(self, name)[order]))
+        self.nlist.build(self.r_ni)
+
+    def _forces(self, where):
+        if self.n_threads > 1:
+            u, s, w = self._with_threads(forces_half_parallel, self.r_ni, self.box_i,
+                                         self.species_n, self.pairs.params_ab, self.pairs.form,
+                                         self.pairs.table, self.nlist.nb_nk, self.nlist.count_n,
+                                         self.f_ni, self.f_cni)
+        else:
+            u, s, w = forces_half(self.r_ni, self.box_i, self.species_n, self.pairs.params_ab,
+                                  self.pairs.form, self.pairs.table, self.nlist.nb_nk,
+                                  self.nlist.count_n, self.f_ni)
+        check_finite(u, where)
+        self.obs[0], self.obs[1], self.obs[2] = u, s, w
+
+    def _with_threads(self, fn, *args):
+        old = numba.get_num_threads()
+        try:
+            numba.set_num_threads(self.n_threads)
+            return fn(*args)
+        finally:
+            numba.set_num_threads(old)
+
+    def _advance(self, n_steps, thermostat):
+        """n_steps velocity-Verlet steps, rebuilding the list when needed."""
+        kT = self.temperature if self.temperature is not None else 1.0
+        c = math.exp(-self.time_step / self.thermostat_time)
+        half_skin2 = 0.25 * self.skin ** 2
+        pairs, nl = self.pairs, self.nlist
+        left = int(n_steps)
+        if self.n_threads > 1:
+            for _ in range(left):
+                if kick_drift(self.time_step, self.r_ni, self.v_ni, self.f_ni, self.mass_n,
+                              nl.r_ref_ni) > half_skin2:
+                    self._rebuild()
+                u, sh, w = forces_half_parallel(self.r_ni, self.box_i, self.species_n,
+                                                pairs.params_ab, pairs.form, pairs.table,
+                                                nl.nb_nk, nl.count_n, self.f_ni, self.f_cni)
+                self.obs[0], self.obs[1], self.obs[2] = u, sh, w
+                check_finite(u, f" at MD step {self.step + 1}")
+                kick_thermostat(self.time_step, self.v_ni, self.f_ni, self.mass_n, thermostat,
+                                kT, self.nf, c, self.rng, self.obs)
+                self.step += 1
+            return
+        while left > 0 or self._resume:
+            done, status = verlet_block(
+                left, self._resume, self.time_step, self.r_ni, self.v_ni, self.f_ni,
+                self.mass_n, nl.r_ref_ni, half_skin2, self.box_i, self.species_n,
+                pairs.params_ab, pairs.form, pairs.table, nl.nb_nk, nl.count_n,
+                thermostat, kT, self.nf, c, self.rng, self.obs)
+            left -= done
+            self.step += done
+            self._resume = False
+            if status == 1:
+                self._rebuild()
+                self._resume = True  # the interrupted step is still counted in `left`
+            elif status == 2:
+                check_finite(self.obs[0], f" at MD step {self.step + 1}")
+
+    def _run_steps(self, n_steps, thermostat):
+        if self.n_threads > 1:
+            self._with_threads(self._advance, n_steps, thermostat)
+        else:
+            self._advance(n_steps, thermostat)
+
+    # -- protocol ------------------------------------------------------------------
+    def equilibrate(self, n_steps):
+        """Run ``n_steps`` unrecorded steps, thermostat on when a temperature is set."""
+        n_steps = _count("equilibration steps", n_steps, 0)
+        self._run_steps(n_steps, self.temperature is not None)
+        self.sync_system()
+
+    def run(self, n_samples, interval):
+        """Production: ``n_samples`` samples, one every ``interval`` steps.
+
+        Returns
+        -------
+        dict of str -> ndarray, shape=(n_samples,), float64
+            See the class Notes; energies per particle, reduced.
+        """
+        n_samples = _count("n_samples", n_samples)
+        interval = _count("interval", interval)
+        keys = ("u_trunc", "u_full", "u_model", "kinetic", "temperature_inst", "pressure",
+                "pressure_conf", "e_conserved")
+        out = {k: np.empty(n_samples) for k in keys}
+        thermostat = self.method == "md-nvt"
+        n, vol = self.n, self.volume
+        for t in range(n_samples):
+            self._run_steps(interval, thermostat)
+            u, sh, w, e_th, kin = self.obs
+            out["u_trunc"][t] = u / n
+            out["u_full"][t] = u / n + self.u_tail
+            out["u_model"][t] = (u - sh) / n
+            out["kinetic"][t] = kin / n
+            t_inst = 2.0 * kin / self.nf
+            out["temperature_inst"][t] = t_inst
+            p_conf = w / (3.0 * vol) + self.p_tail
+            out["pressure_conf"][t] = p_conf
+            out["pressure"][t] = n / vol * t_inst + p_conf
+            out["e_conserved"][t] = (kin + u - sh + e_th) / n
+        self.sync_system()
+        return out
+
+    def expand_box(self, axis, ratio):
+        """Enlarge the box ``ratio``-fold along ``axis`` (0, 1, 2), particles left in place.
+
+        The new space is empty: the gas then fills it in an NVE run (the
+        partition route).  Forces and the tail correction are recomputed.
+        """
+        if isinstance(axis, bool) or axis not in (0, 1, 2):
+            raise StudyError(f"setting 'axis' = {axis!r}: must be 0, 1 or 2 (x, y or z)")
+        ratio = _positive_float("ratio", ratio, "a volume ratio > 1", "for example 2")
+        if ratio <= 1.0:
+            raise StudyError(f"setting 'ratio' = {ratio!r}: the box can only grow (ratio > 1)")
+        wrap_positions(self.r_ni, self.box_i)  # in the old box, so nobody jumps across
+        self.box_i = self.box_i.copy()
+        self.box_i[axis] *= ratio
+        self.nlist.set_box(self.box_i)
+        self._update_tail()
+        self._rebuild()
+        self._forces(" after enlarging the box")
+        self.sync_system()
+
+    def set_method(self, method):
+        """Switch between "md-nvt" and "md-nve" (e.g. NVE after an NVT start)."""
+        if method not in METHODS:
+            raise StudyError(f"setting 'method' = {method!r}: MD offers {', '.join(METHODS)}")
+        if method == "md-nvt" and self.temperature is None:
+            raise StudyError("md-nvt needs a temperature; this sampler was made without one")
+        self.method = method
+
+    # -- state -------------------------------------------------------------------------
+    def positions(self):
+        """Positions in the system's original particle order, wrapped into the box."""
+        r = self.r_ni.copy()
+        wrap_positions(r, self.box_i)
+        out = np.empty_like(r)
+        out[self.id_n] = r
+        return out
+
+    def velocities(self):
+        """Velocities in the system's original particle order."""
+        out = np.empty_like(self.v_ni)
+        out[self.id_n] = self.v_ni
+        return out
+
+    def sync_system(self):
+        """Copy positions, velocities (``v_ni``) and box into the wrapped System."""
+        self.system.r_ni = self.positions()
+        self.system.v_ni = self.velocities()
+        self.system.box_i = self.box_i.copy()
+
+    def get_state(self):
+        """Everything needed to continue bit for bit (copies)."""
+        return {
+            "method": self.method,
+            "r_ni": self.r_ni.copy(), "v_ni": self.v_ni.copy(), "f_ni": self.f_ni.copy(),
+            "species_n": self.species_n.copy(), "mass_n": self.mass_n.copy(),
+            "id_n": self.id_n.copy(), "r_ref_ni": self.nlist.r_ref_ni.copy(),
+            "box_i": self.box_i.copy(), "rng": self.rng.copy(), "step": int(self.step),
+            "observables": self.obs.copy(), "time_step": float(self.time_step),
+            "skin": float(self.skin),
+        }
+
+    def set_state(self, state):
+        """Continue from :meth:`get_state` output (same system and settings)."""
+        need = ("r_ni", "v_ni", "f_ni", "species_n", "mass_n", "id_n", "r_ref_ni", "box_i",
+                "rng", "step", "observables")
+        missing = [k for k in need if k not in state]
+        if missing:
+            raise StudyError(f"MD state is missing {', '.join(missing)}; it was not written "
+                             "by MDSampler.get_state")
+        if np.shape(state["r_ni"]) != (self.n, 3):
+            raise StudyError(f"MD state holds {np.shape(state['r_ni'])[0]} particles; this "
+                             f"sampler has {self.n}")
+        for name in ("r_ni", "v_ni", "f_ni", "mass_n"):
+            setattr(self, name, np.array(state[name], dtype=float))
+        self.species_n = np.array(state["species_n"], dtype=np.int64)
+        self.id_n = np.array(state["id_n"], dtype=np.int64)
+        self.box_i = np.array(state["box_i"], dtype=float)
+        self.rng = np.array(state["rng"], dtype=np.uint64)
+        self.step = int(state["step"])
+        self.obs = np.array(state["observables"], dtype=float)
+        if "method" in state:
+            self.method = str(state["method"])
+        if "time_step" in state:
+            self.time_step = float(state["time_step"])
+        self.nlist.set_box(self.box_i)
+        self._update_tail()
+        # Rebuild the list exactly as it was: from the build-time positions,
+        # which are already cell-sorted, so the order comes out unchanged.
+        r_ref = np.array(state["r_ref_ni"], dtype=float)
+        order = self.nlist.sort_order(r_ref)
+        if not np.array_equal(order, np.arange(self.n)):
+            raise StudyError("MD state: the stored list positions are not in cell order for "
+                             "this box; the state does not belong to this sampler's settings")
+        self.nlist.build(r_ref)
+        self._resume = False
+        self.sync_system()
+
+    def settings(self):
+        """Settings as plain numbers and strings (for file attributes)."""
+        return {
+            "method": self.method,
+            "temperature": float("nan") if self.temperature is None else self.temperature,
+            "time_step": self.time_step, "thermostat": "stochastic velocity rescaling",
+            "thermostat_time": self.thermostat_time, "skin": self.skin,
+            "n_threads": self.n_threads, "n_particles": self.n, "dof": self.nf,
+            "box_x": float(self.box_i[0]), "box_y": float(self.box_i[1]),
+            "box_z": float(self.box_i[2]), "cutoff_max": float(self.pairs.rc_max),
+            "seed": repr(self.seed), "dynamics_potential": "truncated and shifted",
+        }

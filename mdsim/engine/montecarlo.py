@@ -1,0 +1,809 @@
+"""Monte Carlo samplers: canonical Metropolis and microcanonical (Ray 1991).
+
+Both samplers move one particle at a time: a random particle is displaced
+uniformly inside a cube of half-width ``max_displacement`` and the move is
+accepted or rejected from the change of the configurational energy.  The
+energy change comes from the particle's neighbours found with a small
+linked-cell structure (cells of edge >= the largest cut-off), so one trial
+move costs O(1) at fixed density, from a dilute gas to a dense liquid.
+
+Methods
+-------
+"mc-nvt"
+    Metropolis acceptance min(1, exp(-dU / kT)).
+"mc-nve"
+    Microcanonical Monte Carlo (J. R. Ray, Phys. Rev. A 44, 4061, 1991):
+    at fixed total energy E the configurations carry the weight
+    (E - U)^(F/2 - 1) for U < E, F = f N kinetic degrees of freedom; the
+    acceptance is min(1, ((E - U_new) / (E - U_old))^(F/2 - 1)) and a move
+    to U_new >= E is rejected.  The temperature follows from
+    1/kT = (F/2 - 1) <1 / (E - U)> (see :func:`nve_temperature`).
+
+The energy is the truncated (not shifted) pair potential inside each pair's
+cut-off; the analytic long-range tail (constant at fixed volume, so it does
+not enter the acceptance) is added to the observables.  The step size is
+tuned toward ``target_acceptance`` in :meth:`MCSampler.equilibrate` only
+and frozen during :meth:`MCSampler.run`, which keeps detailed balance.
+
+Everything is in the reduced units of :class:`mdsim.engine.system.System`.
+
+Array suffixes: ``_n`` particle, ``_i`` Cartesian coordinate, ``_c`` cell,
+``_t`` sample (time series).
+
+Cell structure
+--------------
+``ncell_i`` (int64, length 4) holds the cells per box edge and the reach
+k: cells have edge >= rc_max / k, and the neighbours of a particle lie in
+the (2k + 1)^3 cells around its own (k = 2 in dense fluids, where it halves
+the volume searched; k = 1 in gases, where most cells are empty).  When an
+edge has fewer than 2k + 1 cells every cell along it is searched once.
+Cell (cx, cy, cz) has the flat index
+(cx * ncell_y + cy) * ncell_z + cz.  ``head_c[c]`` is the first particle
+of cell c (-1 if empty), ``next_n[j]`` the particle after j in its cell
+(-1 at the end), ``cell_n[j]`` the cell of particle j.  Each cell's list
+is kept in increasing particle order, so that a list rebuilt from the
+positions alone is identical to one updated move by move: sums over
+neighbours then run in the same order after a checkpoint is reloaded,
+which makes a resumed run identical bit for bit.
+
+Speed
+-----
+A move that leaves the particle in its cell (most moves in a liquid) gets
+its old and new energies from one pass over the neighbours, inlined into
+the move kernel; the other moves make two passes.  In the inner loops the
+Lennard-Jones form calls ``pair_eval`` with the form as a constant, so the
+compiler drops the other forms' branches (about a third faster); every
+form still evaluates through the one ``pair_eval``.
+"""
+import math
+
+import numpy as np
+from numba import njit
+
+from mdsim.engine import rng as _rng
+from mdsim.errors import SimulationError, StudyError
+from mdsim.engine.potentials import FORM_LJ, RC2, pair_eval
+from mdsim.engine.system import System
+
+MODE_NVT, MODE_NVE = 0, 1
+METHODS = {"mc-nvt": MODE_NVT, "mc-nve": MODE_NVE}
+
+# Tuning: acceptance is measured over blocks of at least this many trial moves.
+_TUNE_BLOCK_MOVES = 200
+# Smallest step the tuner may choose (reduced length); a state that needs
+# less than this is jammed, not fluid.
+_MIN_DISPLACEMENT = 1e-5
+# Upper bound on the number of cells, relative to the number of particles:
+# in a very dilute gas, cells of edge rc would far outnumber the particles.
+_MAX_CELLS_PER_PARTICLE = 4
+
+
+# --- kernels -------------------------------------------------------------------
+
+@njit(cache=True, inline="always")
+def _cell_coord(x, box, ncell):
+    c = int(x * ncell / box)
+    if c >= ncell:
+        c = ncell - 1
+    elif c < 0:
+        c = 0
+    return c
+
+
+@njit(cache=True, inline="always")
+def _wrap(x, box):
+    x -= box * math.floor(x / box)
+    if x >= box:  # rounding of a tiny negative x + box
+        x -= box
+    return x
+
+
+@njit(cache=True, inline="always")
+def _min_image(d, box, half):
+    """Nearest periodic image of a coordinate difference ``d`` (|d| < 1.5 box)."""
+    if d > half:
+        return d - box
+    if d < -half:
+        return d + box
+    return d
+
+
+@njit(cache=True, inline="always")
+def _nbr(c, k, n, reach):
+    # k-th of the min(n, 2 reach + 1) distinct cell coordinates within reach of c
+    if n >= 2 * reach + 1:
+        return (c - reach + k + n) % n
+    return k
+
+
+@njit(cache=True)
+def _cell_insert(j, c, head_c, next_n, cell_n):
+    """Insert particle j into cell c, keeping the list in increasing order."""
+    cell_n[j] = c
+    k = head_c[c]
+    if k < 0 or k > j:
+        next_n[j] = k
+        head_c[c] = j
+        return
+    while next_n[k] >= 0 and next_n[k] < j:
+        k = next_n[k]
+    next_n[j] = next_n[k]
+    next_n[k] = j
+
+
+@njit(cache=True)
+def _cell_remove(j, head_c, next_n, cell_n):
+    """Remove particle j from its cell."""
+    c = cell_n[j]
+    k = head_c[c]
+    if k == j:
+        head_c[c] = next_n[j]
+    else:
+        while next_n[k] != j:
+            k = next_n[k]
+        next_n[k] = next_n[j]
+    next_n[j] = -1
+
+
+@njit(cache=True)
+def build_cells(r_ni, box_i, ncell_i, head_c, next_n, cell_n):
+    """Fill the cell lists from the positions (in increasing particle order).
+
+    Parameters
+    ----------
+    r_ni : ndarray, shape=(n, 3), float64, positions in [0, box)
+    box_i : ndarray, shape=(3,), float64
+    ncell_i : ndarray, shape=(4,), int64, cells per edge and reach
+    head_c : ndarray, shape=(n_cells,), int64 (output)
+    next_n, cell_n : ndarray, shape=(n,), int64 (output)
+    """
+    head_c[:] = -1
+    last_c = np.full(head_c.size, -1, dtype=np.int64)
+    for j in range(r_ni.shape[0]):
+        cx = _cell_coord(r_ni[j, 0], box_i[0], ncell_i[0])
+        cy = _cell_coord(r_ni[j, 1], box_i[1], ncell_i[1])
+        cz = _cell_coord(r_ni[j, 2], box_i[2], ncell_i[2])
+        c = (cx * ncell_i[1] + cy) * ncell_i[2] + cz
+        cell_n[j] = c
+        next_n[j] = -1
+        if last_c[c] < 0:
+            head_c[c] = j
+        else:
+            next_n[last_c[c]] = j
+        last_c[c] = j
+
+
+@njit(cache=True, inline="always")
+def _particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i, ncell_i,
+                    head_c, next_n):
+    """Truncated pair energy of particle i placed at (x, y, z) with all others.
+
+    Particle i itself (at its stored position) is skipped.  Returns +inf as
+    soon as one pair is inside a hard core.
+    """
+    si = species_n[i]
+    rc2_ab = params_ab[:, :, RC2]
+    mixture = params_ab.shape[0] > 1  # one species: skip reading species_n[j]
+    p_row = params_ab[si]
+    lx, ly, lz = box_i[0], box_i[1], box_i[2]
+    hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
+    nx, ny, nz = ncell_i[0], ncell_i[1], ncell_i[2]
+    cx = _cell_coord(x, lx, nx)
+    cy = _cell_coord(y, ly, ny)
+    cz = _cell_coord(z, lz, nz)
+    reach = ncell_i[3]
+    width = 2 * reach + 1
+    mx, my, mz = min(nx, width), min(ny, width), min(nz, width)
+    u = 0.0
+    for a in range(mx):
+        ax = _nbr(cx, a, nx, reach)
+        for b in range(my):
+            by = _nbr(cy, b, ny, reach)
+            for d in range(mz):
+                c = (ax * ny + by) * nz + _nbr(cz, d, nz, reach)
+                j = head_c[c]
+                while j >= 0:
+                    if j != i:
+                        dx = _min_image(x - r_ni[j, 0], lx, hx)
+                        dy = _min_image(y - r_ni[j, 1], ly, hy)
+                        dz = _min_image(z - r_ni[j, 2], lz, hz)
+                        r2 = dx * dx + dy * dy + dz * dz
+                        sj = species_n[j] if mixture else 0
+                        if r2 < rc2_ab[si, sj]:
+                            if form == FORM_LJ:  # a constant form prunes pair_eval
+                                e, _ = pair_eval(FORM_LJ, p_row[sj], table, r2)
+                            else:
+                                e, _ = pair_eval(form, p_row[sj], table, r2)
+                            if e == np.inf:
+                                return np.inf
+                            u += e
+                    j = next_n[j]
+    return u
+
+
+@njit(cache=True, inline="always")
+def _particle_energy_moved(i, c0, xo, yo, zo, xn, yn, zn, r_ni, species_n, params_ab, form, table,
+                          box_i, ncell_i, head_c, next_n):
+    """Truncated energies of particle i at its old and at a new position.
+
+    Both positions must lie in the same cell ``c0``: one pass over the
+    neighbouring cells then serves both.  Returns (u_old, u_new); u_new is
+    +inf (and u_old then meaningless) as soon as the new position is
+    inside a hard core.
+    """
+    si = species_n[i]
+    rc2_ab = params_ab[:, :, RC2]
+    mixture = params_ab.shape[0] > 1
+    p_row = params_ab[si]
+    lx, ly, lz = box_i[0], box_i[1], box_i[2]
+    hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
+    nx, ny, nz = ncell_i[0], ncell_i[1], ncell_i[2]
+    cz = c0 % nz
+    cy = (c0 // nz) % ny
+    cx = c0 // (nz * ny)
+    reach = ncell_i[3]
+    width = 2 * reach + 1
+    mx, my, mz = min(nx, width), min(ny, width), min(nz, width)
+    u_old = 0.0
+    u_new = 0.0
+    for a in range(mx):
+        ax = _nbr(cx, a, nx, reach)
+        for b in range(my):
+            by = _nbr(cy, b, ny, reach)
+            for d in range(mz):
+                c = (ax * ny + by) * nz + _nbr(cz, d, nz, reach)
+                j = head_c[c]
+                while j >= 0:
+                    if j != i:
+                        rjx, rjy, rjz = r_ni[j, 0], r_ni[j, 1], r_ni[j, 2]
+                        sj = species_n[j] if mixture else 0
+                        rc2 = rc2_ab[si, sj]
+                        dx = _min_image(xn - rjx, lx, hx)
+                        dy = _min_image(yn - rjy, ly, hy)
+                        dz = _min_image(zn - rjz, lz, hz)
+                        r2 = dx * dx + dy * dy + dz * dz
+                        if r2 < rc2:
+                            if form == FORM_LJ:  # a constant form prunes pair_eval
+                                e, _ = pair_eval(FORM_LJ, p_row[sj], table, r2)
+                            else:
+                                e, _ = pair_eval(form, p_row[sj], table, r2)
+                            if e == np.inf:
+                                return 0.0, np.inf
+                            u_new += e
+                        dx = _min_image(xo - rjx, lx, hx)
+                        dy = _min_image(yo - rjy, ly, hy)
+                        dz = _min_image(zo - rjz, lz, hz)
+                        r2 = dx * dx + dy * dy + dz * dz
+                        if r2 < rc2:
+                            if form == FORM_LJ:  # a constant form prunes pair_eval
+                                e, _ = pair_eval(FORM_LJ, p_row[sj], table, r2)
+                            else:
+                                e, _ = pair_eval(form, p_row[sj], table, r2)
+                            u_old += e
+                    j = next_n[j]
+    return u_old, u_new
+
+
+@njit(cache=True, error_model="numpy")
+def mc_moves(r_ni, species_n, params_ab, form, table, box_i, ncell_i, head_c, next_n, cell_n,
+             state, n_moves, max_displacement, mode, beta, u_budget, exponent, u_trunc):
+    """Perform ``n_moves`` single-particle trial moves in place.
+
+    Parameters
+    ----------
+    r_ni : ndarray, shape=(n, 3), float64
+        Positions, updated in place (kept inside the box).
+    species_n : ndarray, shape=(n,), int64
+    params_ab : ndarray, shape=(n_species, n_species, N_PARAM), float64
+    form : int
+    table : ndarray, shape=(n_intervals, 4), float64
+    box_i : ndarray, shape=(3,), float64
+    ncell_i, head_c, next_n, cell_n : int64 arrays
+        Cell structure (see the module docstring), updated in place.
+    state : ndarray, shape=(4,), uint64
+        Random stream, advanced in place.
+    n_moves : int
+    max_displacement : float
+        Half-width of the cube of displacements.
+    mode : int
+        MODE_NVT or MODE_NVE.
+    beta : float
+        1/kT (NVT only).
+    u_budget : float
+        NVE only: total energy minus the tail energy, the bound on the
+        truncated energy (E - U = u_budget - u_trunc).
+    exponent : float
+        NVE only: F/2 - 1.
+    u_trunc : float
+        Current total truncated energy.
+
+    Returns
+    -------
+    n_accepted : int
+    u_trunc : float
+        Total truncated energy after the moves (updated incrementally).
+    """
+    n = r_ni.shape[0]
+    n_acc = 0
+    for _ in range(n_moves):
+        i = int(_rng.uniform(state) * n)
+        if i >= n:
+            i = n - 1
+        x = _wrap(r_ni[i, 0] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[0])
+        y = _wrap(r_ni[i, 1] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[1])
+        z = _wrap(r_ni[i, 2] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[2])
+        c = (_cell_coord(x, box_i[0], ncell_i[0]) * ncell_i[1]
+             + _cell_coord(y, box_i[1], ncell_i[1])) * ncell_i[2] \
+            + _cell_coord(z, box_i[2], ncell_i[2])
+        if c == cell_n[i]:
+            u_old, u_new = _particle_energy_moved(
+                i, c, r_ni[i, 0], r_ni[i, 1], r_ni[i, 2], x, y, z, r_ni, species_n, params_ab,
+                form, table, box_i, ncell_i, head_c, next_n)
+            if u_new == np.inf:
+                continue
+        else:
+            # new position first (a move into a core stops there); one call site,
+            # so the inlined pass is compiled once
+            u_new = 0.0
+            u_old = 0.0
+            for which in range(2):
+                if which == 0:
+                    px, py, pz = x, y, z
+                else:
+                    px, py, pz = r_ni[i, 0], r_ni[i, 1], r_ni[i, 2]
+                e = _particle_energy(i, px, py, pz, r_ni, species_n, params_ab, form, table,
+                                     box_i, ncell_i, head_c, next_n)
+                if which == 0:
+                    u_new = e
+                    if e == np.inf:
+                        break
+                else:
+                    u_old = e
+            if u_new == np.inf:
+                continue
+        du = u_new - u_old
+        if mode == MODE_NVT:
+            if du > 0.0 and _rng.uniform(state) >= math.exp(-beta * du):
+                continue
+        else:
+            k_new = u_budget - (u_trunc + du)
+            if k_new <= 0.0:
+                continue
+            if du > 0.0:
+                k_old = u_budget - u_trunc
+                if _rng.uniform(state) >= math.exp(exponent * math.log(k_new / k_old)):
+                    continue
+        n_acc += 1
+        u_trunc += du
+        r_ni[i, 0] = x
+        r_ni[i, 1] = y
+        r_ni[i, 2] = z
+        if c != cell_n[i]:
+            _cell_remove(i, head_c, next_n, cell_n)
+            _cell_insert(i, c, head_c, next_n, cell_n)
+    return n_acc, u_trunc
+
+
+@njit(cache=True, error_model="numpy")
+def energy_virial(r_ni, species_n, params_ab, form, table, box_i, ncell_i, head_c, next_n,
+                  cell_n):
+    """Total truncated energy and pair virial, recomputed over the cells.
+
+    Returns
+    -------
+    u_trunc : float
+        sum over pairs within their cut-off of u(r_ij) (+inf in a core).
+    virial : float
+        sum over the same pairs of -r u'(r) (pressure_conf = virial / (3 V)).
+    """
+    n = r_ni.shape[0]
+    rc2_ab = params_ab[:, :, RC2]
+    mixture = params_ab.shape[0] > 1
+    lx, ly, lz = box_i[0], box_i[1], box_i[2]
+    hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
+    nx, ny, nz = ncell_i[0], ncell_i[1], ncell_i[2]
+    reach = ncell_i[3]
+    width = 2 * reach + 1
+    mx, my, mz = min(nx, width), min(ny, width), min(nz, width)
+    u = 0.0
+    w = 0.0
+    for i in range(n):
+        si = species_n[i]
+        p_row = params_ab[si]
+        c0 = cell_n[i]
+        cz = c0 % nz
+        cy = (c0 // nz) % ny
+        cx = c0 // (nz * ny)
+        x, y, z = r_ni[i, 0], r_ni[i, 1], r_ni[i, 2]
+        for a in range(mx):
+            ax = _nbr(cx, a, nx, reach)
+            for b in range(my):
+                by = _nbr(cy, b, ny, reach)
+                for d in range(mz):
+                    c = (ax * ny + by) * nz + _nbr(cz, d, nz, reach)
+                    j = head_c[c]
+                    while j >= 0:
+                        if j > i:
+                            dx = _min_image(x - r_ni[j, 0], lx, hx)
+                            dy = _min_image(y - r_ni[j, 1], ly, hy)
+                            dz = _min_image(z - r_ni[j, 2], lz, hz)
+                            r2 = dx * dx + dy * dy + dz * dz
+                            sj = species_n[j] if mixture else 0
+                            if r2 < rc2_ab[si, sj]:
+                                if form == FORM_LJ:  # a constant form prunes pair_eval
+                                    e, f = pair_eval(FORM_LJ, p_row[sj], table, r2)
+                                else:
+                                    e, f = pair_eval(form, p_row[sj], table, r2)
+                                u += e
+                                w += f * r2
+                        j = next_n[j]
+    return u, w
+
+
+# --- helpers -------------------------------------------------------------------
+
+def nve_temperature(kinetic_t, n_particles, dof_per_particle=3):
+    """Temperature estimate of a microcanonical Monte Carlo run.
+
+    Parameters
+    ----------
+    kinetic_t : array_like, shape=(n_samples,), float64
+        Per-particle kinetic energy (E - U) / N of each sample (the
+        sampler's "kinetic" series), reduced units.
+    n_particles : int
+    dof_per_particle : int or float
+        f, kinetic degrees of freedom per particle (F = f N in all).
+
+    Returns
+    -------
+    float
+        kT in reduced units.
+
+    Notes
+    -----
+    1/kT = (F/2 - 1) <1 / (E - U)> (J. R. Ray, Phys. Rev. A 44, 4061,
+    1991), with E - U = N * kinetic.  Its uncertainty is left to the
+    analysis package (statistical inefficiency of 1/kinetic).
+    """
+    k_t = np.asarray(kinetic_t, dtype=float)
+    if k_t.ndim != 1 or k_t.size == 0 or np.any(~np.isfinite(k_t)) or np.any(k_t <= 0.0):
+        raise StudyError("nve_temperature: 'kinetic_t' must be a non-empty 1-D series of "
+                         "positive finite per-particle kinetic energies")
+    n = int(n_particles)
+    f_total = float(dof_per_particle) * n
+    if n < 1 or f_total <= 2.0:
+        raise StudyError(f"nve_temperature: n_particles = {n_particles!r} with dof_per_particle = "
+                         f"{dof_per_particle!r} gives F = {f_total}; need F > 2")
+    mean_inv = float(np.mean(1.0 / (n * k_t)))
+    return 1.0 / ((0.5 * f_total - 1.0) * mean_inv)
+
+
+def cell_grid(box_i, rc_max, n_particles):
+    """Cells per edge and reach (see the module docstring).
+
+    The reach is 2 when a cell of edge rc_max / 2 holds on average at least
+    half a particle, else 1; cells have edge >= rc_max / reach, and there
+    are at most about 4 cells per particle (a dilute gas gets larger cells).
+
+    Returns
+    -------
+    ndarray, shape=(4,), int64
+        (n_x, n_y, n_z, reach).
+    """
+    box = np.asarray(box_i, dtype=float)
+    rho = n_particles / float(np.prod(box))
+    reach = 2 if rho * (0.5 * rc_max) ** 3 >= 0.5 else 1
+    ncell = np.maximum(1, np.floor(box * reach / rc_max).astype(np.int64))
+    limit = max(27, _MAX_CELLS_PER_PARTICLE * int(n_particles))
+    while int(np.prod(ncell)) > limit:
+        k = int(np.argmax(ncell))
+        ncell[k] = max(1, (ncell[k] * 4) // 5)
+    return np.append(ncell, reach).astype(np.int64)
+
+
+def _number(name, value, lo, hi, hint, *, lo_open=True):
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise StudyError(f"Monte Carlo setting '{name}' = {value!r}: must be a number "
+                         f"({hint})") from None
+    bad_lo = v <= lo if lo_open else v < lo
+    if not math.isfinite(v) or bad_lo or v > hi:
+        left = "(" if lo_open else "["
+        raise StudyError(f"Monte Carlo setting '{name}' = {value!r}: must lie in "
+                         f"{left}{lo:g}, {hi:g}] ({hint})")
+    return v
+
+
+def _count(name, value, lo, hint):
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or int(value) < lo:
+        raise StudyError(f"Monte Carlo setting '{name}' = {value!r}: must be an integer >= {lo} "
+                         f"({hint})")
+    return int(value)
+
+
+# --- sampler -------------------------------------------------------------------
+
+class MCSampler:
+    """Single-particle-move Monte Carlo in the canonical or microcanonical ensemble.
+
+    Parameters
+    ----------
+    system : System
+        Box, species, interactions and the start positions (``r_ni`` set,
+        for example by ``place_on_lattice``); the positions are copied.
+    temperature : float, optional
+        kT in reduced units (method "mc-nvt").
+    energy : float, optional
+        Total energy per particle E/N in reduced units, kinetic plus full
+        configurational (truncated + tail) energy (method "mc-nve").
+    seed : int or list of int
+        Seed of the random stream (``mdsim.engine.rng.make_state``).
+    method : str, optional
+        "mc-nvt" or "mc-nve"; by default taken from which of
+        ``temperature`` and ``energy`` is given.
+    max_displacement : float, optional
+        Initial half-width of the displacement cube (default 0.2, or
+        larger in a dilute gas); tuned in ``equilibrate``, capped at half
+        the shortest box edge.
+    target_acceptance : float, optional
+        Acceptance ratio the tuner aims at (default 0.45, allowed 0.2 to 0.8).
+    dof_per_particle : int, optional
+        f, kinetic degrees of freedom per particle for "mc-nve" (default
+        ``system.dof_per_particle``: 3 for atoms, 5 for rigid linear molecules).
+
+    Attributes
+    ----------
+    method : str
+    max_displacement : float
+    """
+
+    def __init__(self, system, *, temperature=None, energy=None, seed, method=None,
+                 max_displacement=None, target_acceptance=0.45, dof_per_particle=None):
+        if not isinstance(system, System):
+            raise TypeError("system must be an mdsim.engine.system.System")
+        if system.r_ni is None:
+            raise StudyError("Monte Carlo: the system has no positions; call "
+                             "system.place_on_lattice(seed) or place_at_random(seed) first")
+        if method is None:
+            if (temperature is None) == (energy is None):
+                raise StudyError("Monte Carlo: give exactly one of 'temperature' (method "
+                                 "'mc-nvt') or 'energy' (method 'mc-nve')")
+            method = "mc-nvt" if temperature is not None else "mc-nve"
+        if method not in METHODS:
+            raise StudyError(f"Monte Carlo setting 'method' = {method!r}: must be one of "
+                             f"{sorted(METHODS)}")
+        self.method = method
+        self.mode = METHODS[method]
+        self.system = system
+        n = system.n_particles
+        self.n_particles = n
+        self.u_tail, self.p_tail = system.tail()
+        self.box_i = np.ascontiguousarray(system.box_i, dtype=np.float64)
+        half_box = 0.5 * float(self.box_i.min())
+        self._max_step = half_box
+
+        if self.mode == MODE_NVT:
+            if energy is not None:
+                raise StudyError("Monte Carlo method 'mc-nvt' takes 'temperature', not 'energy'")
+            self.temperature = _number("temperature", temperature, 0.0, 1e6,
+                                       "reduced kT/epsilon, typically 0.5 to 10")
+            self.energy = float("nan")
+            self.dof_per_particle = 0
+        else:
+            if temperature is not None:
+                raise StudyError("Monte Carlo method 'mc-nve' takes 'energy' (total energy per "
+                                 "particle), not 'temperature'")
+            if energy is None:
+                raise StudyError("Monte Carlo method 'mc-nve' needs 'energy' (total energy per "
+                                 "particle, reduced)")
+            self.energy = _number("energy", energy, -1e6, 1e6,
+                                  "total energy per particle, reduced")
+            f = system.dof_per_particle if dof_per_particle is None else dof_per_particle
+            self.dof_per_particle = _count("dof_per_particle", f, 1,
+                                           "3 for atoms, 5 for rigid linear molecules")
+            if self.dof_per_particle * n <= 2:
+                raise StudyError(f"Monte Carlo 'mc-nve': F = dof_per_particle * particles = "
+                                 f"{self.dof_per_particle * n}; need F > 2 (use more particles)")
+            self.temperature = float("nan")
+        self.target_acceptance = _number("target_acceptance", target_acceptance, 0.2, 0.8,
+                                         "typically 0.4 to 0.5", lo_open=False)
+        if max_displacement is None:
+            # a fraction of the mean spacing, at least 0.2 sigma
+            spacing = (system.volume / n) ** (1.0 / 3.0)
+            max_displacement = min(half_box, max(0.2, 0.3 * (spacing - 1.0)))
+        self.max_displacement = _number("max_displacement", max_displacement, 0.0, half_box,
+                                        f"half the shortest box edge is {half_box:.4g}")
+        if isinstance(seed, (list, tuple)):
+            seed = [int(s) for s in seed]
+        self.seed = seed
+        self.state = _rng.make_state(seed)
+
+        self.pairs = system.pairs
+        self.params_ab = np.ascontiguousarray(system.pairs.params_ab)
+        self.table = np.ascontiguousarray(system.pairs.table)
+        self.form = int(system.pairs.form)
+        self.species_n = np.ascontiguousarray(system.species_n, dtype=np.int64)
+        self.ncell_i = cell_grid(self.box_i, system.pairs.rc_max, n)
+        self.head_c = np.empty(int(np.prod(self.ncell_i[:3])), dtype=np.int64)
+        self.next_n = np.empty(n, dtype=np.int64)
+        self.cell_n = np.empty(n, dtype=np.int64)
+        self.n_moves = 0
+        self.n_accepted = 0
+        self._load_positions(system.r_ni)
+        if self.mode == MODE_NVE and self.u_trunc + n * self.u_tail >= n * self.energy:
+            raise StudyError(
+                f"Monte Carlo 'mc-nve': 'energy' = {self.energy!r} per particle is not above the "
+                f"start configuration's potential energy {self.u_trunc / n + self.u_tail:.6g} per "
+                "particle; raise the energy or start from a lower-energy configuration")
+
+    # -- internals --------------------------------------------------------------
+    def _load_positions(self, r_ni):
+        r = np.ascontiguousarray(np.asarray(r_ni, dtype=np.float64)).copy()
+        if r.shape != (self.n_particles, 3) or not np.all(np.isfinite(r)):
+            raise StudyError(f"Monte Carlo: positions must be finite with shape "
+                             f"({self.n_particles}, 3); got shape {r.shape}")
+        self.r_ni = np.mod(r, self.box_i)
+        self.r_ni[self.r_ni >= self.box_i] = 0.0
+        build_cells(self.r_ni, self.box_i, self.ncell_i, self.head_c, self.next_n, self.cell_n)
+        u, _ = self._energy_virial()
+        if not math.isfinite(u):
+            raise StudyError("Monte Carlo: the start configuration has infinite energy (two "
+                             "particles inside a hard core); use place_on_lattice or "
+                             "place_at_random with a larger minimum distance")
+        self.u_trunc = u
+
+    def _energy_virial(self):
+        return energy_virial(self.r_ni, self.species_n, self.params_ab, self.form, self.table,
+                             self.box_i, self.ncell_i, self.head_c, self.next_n, self.cell_n)
+
+    def _moves(self, n_moves):
+        beta = 1.0 / self.temperature if self.mode == MODE_NVT else 0.0
+        n = self.n_particles
+        if self.mode == MODE_NVE:
+            u_budget = n * (self.energy - self.u_tail)
+            exponent = 0.5 * self.dof_per_particle * n - 1.0
+        else:
+            u_budget = exponent = 0.0
+        n_acc, self.u_trunc = mc_moves(
+            self.r_ni, self.species_n, self.params_ab, self.form, self.table, self.box_i,
+            self.ncell_i, self.head_c, self.next_n, self.cell_n, self.state, int(n_moves),
+            float(self.max_displacement), self.mode, beta, u_budget, exponent, self.u_trunc)
+        self.n_moves += int(n_moves)
+        self.n_accepted += int(n_acc)
+        return n_acc
+
+    # -- protocol ---------------------------------------------------------------
+    def equilibrate(self, n_steps):
+        """Run ``n_steps`` sweeps (N trial moves each), tuning the step size.
+
+        The acceptance is measured over blocks of at least 200 trial moves
+        and the step multiplied by exp(acceptance - target) after each
+        block, capped at half the shortest box edge (a dilute gas accepts
+        nearly every move and ends at the cap).  Nothing is recorded.
+        """
+        n_steps = _count("equilibration_sweeps", n_steps, 0, "sweeps of N trial moves")
+        total = n_steps * self.n_particles
+        block = max(_TUNE_BLOCK_MOVES, self.n_particles)
+        done = 0
+        while done < total:
+            m = min(block, total - done)
+            acc = self._moves(m) / m
+            if m >= _TUNE_BLOCK_MOVES:
+                step = self.max_displacement * math.exp(acc - self.target_acceptance)
+                self.max_displacement = min(self._max_step, max(_MIN_DISPLACEMENT, step))
+            done += m
+        self._check_budget()
+
+    def _check_budget(self):
+        if not math.isfinite(self.u_trunc):
+            raise SimulationError("Monte Carlo: the running energy is no longer finite")
+
+    def run(self, n_samples, interval):
+        """Production: ``n_samples`` samples, one every ``interval`` sweeps.
+
+        Returns
+        -------
+        dict of ndarray, each shape=(n_samples,), float64
+            "u_trunc", "u_full" (per particle), "pressure_conf", "pressure"
+            (NaN for mc-nve), "acceptance" (fraction accepted since the
+            previous sample), and for mc-nve "kinetic" = (E - U_full) / N.
+
+        Notes
+        -----
+        The energy and virial are recomputed over all pairs at each sample;
+        the running energy the acceptance uses is reset to the recomputed
+        value, so round-off cannot accumulate.  pressure_conf =
+        W / (3 V) + p_tail with W = sum -r u'(r); pressure = rho kT + pressure_conf.
+        """
+        n_samples = _count("samples", n_samples, 1, "number of recorded samples")
+        interval = _count("sample_interval", interval, 1, "sweeps between samples")
+        n = self.n_particles
+        vol = self.system.volume
+        rho = n / vol
+        out = {k: np.empty(n_samples) for k in ("u_trunc", "u_full", "pressure_conf",
+                                               "pressure", "acceptance")}
+        if self.mode == MODE_NVE:
+            out["kinetic"] = np.empty(n_samples)
+        for t in range(n_samples):
+            m = interval * n
+            acc = self._moves(m)
+            u, w = self._energy_virial()
+            self.u_trunc = u
+            self._check_budget()
+            out["u_trunc"][t] = u / n
+            out["u_full"][t] = u / n + self.u_tail
+            out["pressure_conf"][t] = w / (3.0 * vol) + self.p_tail
+            out["acceptance"][t] = acc / m
+            if self.mode == MODE_NVT:
+                out["pressure"][t] = rho * self.temperature + out["pressure_conf"][t]
+            else:
+                out["pressure"][t] = np.nan
+                out["kinetic"][t] = self.energy - out["u_full"][t]
+        return out
+
+    def get_state(self):
+        """Everything needed to continue bit for bit (arrays are copies)."""
+        return {
+            "method_code": int(self.mode),   # METHODS[method]
+            "positions": self.r_ni.copy(),
+            "rng_state": self.state.copy(),
+            "max_displacement": float(self.max_displacement),
+            "u_trunc_total": float(self.u_trunc),
+            "trial_moves": int(self.n_moves),
+            "accepted_moves": int(self.n_accepted),
+        }
+
+    def set_state(self, state):
+        """Continue from a dictionary made by :meth:`get_state`."""
+        need = ("method_code", "positions", "rng_state", "max_displacement", "u_trunc_total",
+                "trial_moves", "accepted_moves")
+        missing = [k for k in need if k not in state]
+        if missing:
+            raise StudyError(f"Monte Carlo state is missing {missing}; it must come from "
+                             "MCSampler.get_state")
+        code = int(state["method_code"])
+        if code != self.mode:
+            names = {v: k for k, v in METHODS.items()}
+            raise StudyError(f"Monte Carlo state is for method {names.get(code, code)!r}, this "
+                             f"sampler runs {self.method!r}; resume with the method that saved it")
+        rs = np.asarray(state["rng_state"])
+        if rs.shape != (_rng.STATE_WORDS,):
+            raise StudyError(f"Monte Carlo state: 'rng_state' has shape {rs.shape}; expected (4,)")
+        self._load_positions(state["positions"])
+        self.state = rs.astype(np.uint64).copy()
+        self.max_displacement = _number("max_displacement", state["max_displacement"], 0.0,
+                                        self._max_step, "from the saved state")
+        self.u_trunc = float(state["u_trunc_total"])
+        self.n_moves = int(state["trial_moves"])
+        self.n_accepted = int(state["accepted_moves"])
+        n = self.n_particles
+        if self.mode == MODE_NVE and self.u_trunc + n * self.u_tail >= n * self.energy:
+            raise StudyError(
+                f"Monte Carlo 'mc-nve': the saved configuration's potential energy "
+                f"{self.u_trunc / n + self.u_tail:.6g} per particle is not below 'energy' = "
+                f"{self.energy!r}; resume with the energy the state was saved with")
+
+    def settings(self):
+        """Settings as plain numbers and strings (for HDF5 attributes)."""
+        return {
+            "method": self.method,
+            "temperature_red": float(self.temperature),
+            "energy_per_particle_red": float(self.energy),
+            "dof_per_particle": int(self.dof_per_particle),
+            "n_particles": int(self.n_particles),
+            "density_red": float(self.system.density),
+            "max_displacement_red": float(self.max_displacement),
+            "target_acceptance": float(self.target_acceptance),
+            "cutoff_max_red": float(self.pairs.rc_max),
+            "u_tail_red": float(self.u_tail),
+            "p_tail_red": float(self.p_tail),
+            "cells_per_edge": "x".join(str(int(c)) for c in self.ncell_i[:3]),
+            "cell_reach": int(self.ncell_i[3]),
+            "seed": str(self.seed),
+        }
+
+    @property
+    def acceptance(self):
+        """Fraction of all trial moves so far that were accepted."""
+        return self.n_accepted / self.n_moves if self.n_moves else float("nan")

@@ -1,0 +1,201 @@
+"""The run directory: its layout, its task list and its lock.
+
+Layout (all under one directory, ``runs/NAME`` by default)::
+
+    study.toml        the resolved study, every default filled in
+    inputs/           copies of the data files the study names (tables, c_v CSV files)
+    tasks.json        the planned tasks, one entry per task (index, kind, state point, seed)
+    tasks/NNNN.h5     one file per finished task (written as NNNN.h5.part, renamed when complete)
+    tasks/NNNN.stages/  the task's stage files (sampling runs that resume) and CPU ledger
+    tasks/NNNN.failed.json, tasks/NNNN.progress.json  a failed task's error; a running task's progress
+    results.csv, results.json, report.md, plots/, log.txt
+    .lock             present while an ``mdsim run`` owns the directory
+
+The lock file holds the owner's host name and process id.  A second
+``mdsim run`` on the same directory refuses with a message naming the owner;
+a lock left by a process that no longer exists on this host is taken over.
+"""
+import json
+import os
+import shutil
+import socket
+import time
+from pathlib import Path
+
+from mdsim.errors import StudyError
+from mdsim.files import atomic_write_text
+
+TASKS_FILE = "tasks.json"
+LOCK_FILE = ".lock"
+SPACE_PER_TASK_BYTES = 4_000_000
+"""Disk space one task needs, generously: its stage files (samples, checkpoints, final
+configurations of a few thousand particles) and its task file are usually well below 1 MB."""
+SPACE_REPORT_BYTES = 8_000_000
+"""Disk space of the report, results and plots of a run."""
+
+
+def space_needed_bytes(n_tasks):
+    """The disk space a run of ``n_tasks`` tasks is expected to need, bytes (an estimate)."""
+    return SPACE_REPORT_BYTES + SPACE_PER_TASK_BYTES * int(n_tasks)
+
+
+class RunDir:
+    """Paths and bookkeeping of one run directory."""
+
+    def __init__(self, path):
+        self.path = Path(path)
+
+    # -- paths -------------------------------------------------------------------
+    @property
+    def tasks_dir(self):
+        return self.path / "tasks"
+
+    @property
+    def plots_dir(self):
+        return self.path / "plots"
+
+    def task_file(self, index):
+        return self.tasks_dir / f"{int(index):04d}.h5"
+
+    def partial_file(self, index):
+        return self.tasks_dir / f"{int(index):04d}.h5.part"
+
+    def stages_dir(self, index):
+        """Where a task keeps its stage files (checkpointed sampling runs)."""
+        return self.tasks_dir / f"{int(index):04d}.stages"
+
+    def failure_file(self, index):
+        return self.tasks_dir / f"{int(index):04d}.failed.json"
+
+    # -- creation ------------------------------------------------------------------
+    def preflight(self, n_tasks):
+        """Refuse, before anything is written, a place that cannot hold the run.
+
+        The nearest existing directory on the way to the run directory must
+        be writable, and its file system must have at least
+        :func:`space_needed_bytes` free.
+
+        Raises
+        ------
+        StudyError
+            Naming the directory, what is wrong and what to do.
+        """
+        base = self.path
+        while not base.exists() and base != base.parent:
+            base = base.parent
+        if self.path.exists() and not self.path.is_dir():
+            raise StudyError(f"run directory '{self.path}' is a file, not a directory; choose "
+                             "another place with --out")
+        if not base.is_dir():
+            raise StudyError(f"run directory '{self.path}': '{base}' is not a directory; choose "
+                             "another place with --out")
+        if not os.access(base, os.W_OK | os.X_OK):
+            raise StudyError(f"run directory '{self.path}' cannot be written ('{base}' is "
+                             "read-only or not yours); choose another place with --out")
+        need = space_needed_bytes(n_tasks)
+        free = shutil.disk_usage(base).free
+        if free < need:
+            raise StudyError(f"run directory '{self.path}': only {free / 1e6:.3g} MB free on its "
+                             f"disk, and {n_tasks} task(s) need about {need / 1e6:.3g} MB "
+                             "(estimate); free some space or choose another place with --out")
+        return self
+
+    def create(self):
+        """Make the directory tree, failing early if it cannot be written."""
+        try:
+            self.tasks_dir.mkdir(parents=True, exist_ok=True)
+            self.plots_dir.mkdir(exist_ok=True)
+            probe = self.path / ".write-test"
+            probe.write_text("ok")
+            probe.unlink()
+        except OSError as exc:
+            raise StudyError(f"run directory '{self.path}' cannot be written: {exc.strerror}; "
+                             "choose another place with --out") from None
+        return self
+
+    def exists(self):
+        return (self.path / TASKS_FILE).is_file()
+
+    def write_tasks(self, tasks):
+        atomic_write_text(self.path / TASKS_FILE, json.dumps(tasks, indent=1))
+
+    def read_tasks(self):
+        path = self.path / TASKS_FILE
+        if not path.is_file():
+            raise StudyError(f"'{self.path}' is not a run directory (no {TASKS_FILE}); "
+                             "make one with 'mdsim run STUDY --out DIR'")
+        try:
+            return json.loads(path.read_text(encoding="utf-8"))
+        except (ValueError, UnicodeDecodeError):
+            raise StudyError(f"'{path}' is damaged (not JSON); re-plan with 'mdsim run'") from None
+
+    # -- the lock ------------------------------------------------------------------
+    def acquire_lock(self):
+        """Take the directory's lock or raise StudyError naming its owner."""
+        path = self.path / LOCK_FILE
+        me = {"host": socket.gethostname(), "pid": os.getpid(), "since": time.time()}
+        for _ in range(2):
+            try:
+                fd = os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
+            except FileExistsError:
+                owner = _read_lock(path)
+                if owner is not None and _is_stale(owner):
+                    # the owner is gone: take over (rename is atomic, so only one taker wins)
+                    stale = path.with_name(f"{LOCK_FILE}.stale.{os.getpid()}")
+                    try:
+                        os.replace(path, stale)
+                        stale.unlink()
+                    except FileNotFoundError:
+                        pass
+                    continue
+                who = (f"process {owner['pid']} on host {owner['host']}" if owner
+                       else "another process")
+                raise StudyError(f"run directory '{self.path}' is in use by {who}; wait for it "
+                                 f"to finish, or remove '{path}' if that process is gone") from None
+            with os.fdopen(fd, "w") as fh:
+                json.dump(me, fh)
+            return
+        raise StudyError(f"could not take the lock '{path}'; try again")
+
+    def release_lock(self):
+        path = self.path / LOCK_FILE
+        owner = _read_lock(path)
+        if owner and owner.get("pid") == os.getpid() and owner.get("host") == socket.gethostname():
+            path.unlink(missing_ok=True)
+
+    # -- task states -----------------------------------------------------------------
+    def task_state(self, index):
+        """'done', 'partial' (a checkpoint exists), 'failed' or 'pending'.
+
+        A task file that is damaged (no completion marker, checksum mismatch,
+        unreadable) is moved aside as ``NNNN.h5.corrupt-<time>`` with a
+        warning, and the task counts as not done.
+        """
+        from mdsim.sampling.store import check_finished
+        if check_finished(self.task_file(index)):
+            return "done"
+        if self.failure_file(index).is_file():
+            return "failed"
+        if self.partial_file(index).is_file() or self.stages_dir(index).is_dir():
+            return "partial"
+        return "pending"
+
+
+def _read_lock(path):
+    try:
+        return json.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, ValueError, UnicodeDecodeError):
+        return None
+
+
+def _is_stale(owner):
+    if owner.get("host") != socket.gethostname():
+        return False  # cannot see processes on other hosts: never assume they are dead
+    try:
+        os.kill(int(owner["pid"]), 0)
+    except ProcessLookupError:
+        return True
+    except (PermissionError, KeyError, ValueError, TypeError):
+        return False
+    return False
+

@@ -1,0 +1,303 @@
+"""Per-state-point summaries: the virial routes and THE JSON record of a state point.
+
+One record shape serves ``mdsim run --json``, ``results.json`` and
+``mdsim virial --json`` (:func:`state_point_record`)::
+
+    {
+      "index": 0,
+      "state_point": {StatePoint as a dict},
+      "volume_ratio": 2.0,
+      "initial": {"temperature_K", "pressure_Pa", "density_mol_m3", "density_from"},
+      "final": {"temperature_K", "temperature_stderr_K", "pressure_Pa",
+                "density_mol_m3", "source"},
+      "delta_T_K": {"virial_b2": {"value", "stderr": null}, "virial_b3": {...},
+                    "energy": {"value", "stderr"}, "microcanonical": ..., "partition": ...},
+      "entropy_generated_J_molK": float or null,
+      "virial": {"B2_m3_mol", "dB2_dT_m3_molK", "B3_m6_mol2", "dB3_dT_m6_mol2K",
+                 "temperature_K", "quantum_correction"},
+      "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method"}},
+      "warnings": [str, ...]
+    }
+
+Routes not run (or not available, such as a virial route where the series
+does not converge) are absent from ``delta_T_K``, and a warning says why.
+``final`` comes from the best route available, in the order
+:data:`FINAL_PREFERENCE`; ``final.source`` names it.
+
+All numbers are SI: K, Pa, mol/m^3, J/(mol K), m^3/mol, m^6/mol^2.
+Non-finite numbers become null.
+"""
+import math
+
+from mdsim.errors import ConvergenceError, StudyError
+from mdsim.study.statepoints import ideal_heat_capacity, resolve_initial_density, virial_gas, virial_warnings
+
+SIMULATION_ROUTES = ("energy", "microcanonical", "partition")
+VIRIAL_ROUTES = ("virial_b2", "virial_b3")
+# The route whose final state is reported, best first.
+FINAL_PREFERENCE = ("energy", "microcanonical", "partition", "virial_b3")
+# A virial B2+B3 result further than this many combined standard errors from
+# the best simulation route gets a warning (and more than the target itself).
+DISAGREEMENT_Z = 3.0
+
+
+def _num(x):
+    """A finite float, or None."""
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _one_line(exc):
+    return " ".join(str(exc).split())
+
+
+def virial_coefficients(study, temperature_K):
+    """B2, dB2/dT, B3, dB3/dT of the study's gas at one temperature (SI).
+
+    B2 carries the first-order quantum correction when the study asks for
+    it (``[gas] quantum_correction = true``); B3 is classical.
+
+    Returns
+    -------
+    dict
+        ``temperature_K``, ``B2_m3_mol``, ``dB2_dT_m3_molK``, ``B3_m6_mol2``,
+        ``dB3_dT_m6_mol2K``, ``quantum_correction`` (bool).
+    """
+    gas = virial_gas(study)
+    T = float(temperature_K)
+    return {"temperature_K": T,
+            "B2_m3_mol": _num(gas.B(T)), "dB2_dT_m3_molK": _num(gas.dB_dT(T)),
+            "B3_m6_mol2": _num(gas.C(T)), "dB3_dT_m6_mol2K": _num(gas.dC_dT(T)),
+            "quantum_correction": bool(study.gas.quantum_correction)}
+
+
+def virial_summary(study, sp):
+    """The virial routes of one state point.
+
+    Parameters
+    ----------
+    study : Study
+    sp : StatePoint
+
+    Returns
+    -------
+    dict
+        ``index``; ``initial`` (``temperature_K``, ``pressure_Pa``,
+        ``density_mol_m3``, ``density_from``: "given" or "virial B2+B3");
+        ``final`` (the B2+B3 final state, or None); ``final_b2`` (the B2-only
+        final state, or None); ``delta_T_K`` with ``virial_b2`` and
+        ``virial_b3`` entries ``{value, stderr: None}`` (absent when the
+        series does not hold); ``entropy_generated_J_molK`` (B2+B3, else
+        B2, else None); ``virial`` (coefficients at T_i, see
+        :func:`virial_coefficients`); ``warnings``.
+
+    Raises
+    ------
+    StudyError
+        When the initial pressure cannot be turned into a density (see
+        :func:`mdsim.study.statepoints.resolve_initial_density`).
+
+    Notes
+    -----
+    Both truncations start from the same initial density (the one given,
+    or the B2+B3 solution of the given pressure) so that every route of a
+    state point describes one initial state; they differ only in u_res.
+    The solver is :func:`analysis.expansion.virial_expansion`.
+    """
+    from analysis.expansion import virial_expansion
+    from analysis.virial_eos import VirialSeriesError
+
+    gas = virial_gas(study)
+    cv_ig = ideal_heat_capacity(study)
+    rho_i, how = resolve_initial_density(study, sp)
+    T_i, r = sp.temperature_K, sp.volume_ratio
+    warnings = list(virial_warnings(study))
+    results = {}
+    for order, route in ((3, "virial_b3"), (2, "virial_b2")):
+        try:
+            res = virial_expansion(gas, cv_ig, T_i, r, rho_i=rho_i, order=order)
+        except (VirialSeriesError, ConvergenceError) as exc:
+            warnings.append(f"{route}: not available at this state ({_one_line(exc)})")
+            continue
+        results[route] = res
+        for w in res.warnings:
+            if w not in warnings:
+                warnings.append(w)
+    p_i = sp.pressure_Pa
+    if p_i is None and "virial_b3" in results:
+        p_i = results["virial_b3"].initial_pressure_Pa
+
+    def final(res):
+        if res is None:
+            return None
+        return {"temperature_K": _num(res.final_temperature_K),
+                "pressure_Pa": _num(res.final_pressure_Pa),
+                "density_mol_m3": _num(res.final_density_mol_m3)}
+
+    best = results.get("virial_b3") or results.get("virial_b2")
+    return {
+        "index": sp.index,
+        "initial": {"temperature_K": T_i, "pressure_Pa": _num(p_i), "density_mol_m3": rho_i,
+                    "density_from": how},
+        "final": final(results.get("virial_b3")),
+        "final_b2": final(results.get("virial_b2")),
+        "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": None}
+                      for route, res in sorted(results.items())},
+        "entropy_generated_J_molK": _num(best.entropy_generated_J_molK) if best else None,
+        "virial": virial_coefficients(study, T_i),
+        "warnings": warnings,
+    }
+
+
+def _value(entry):
+    """(value, stderr) from a {value, stderr} dict, a number or None."""
+    if entry is None:
+        return None, None
+    if isinstance(entry, dict):
+        return _num(entry.get("value")), _num(entry.get("stderr"))
+    return _num(entry), None
+
+
+def state_point_record(study, sp, route_results, virial=None):
+    """THE JSON record of one state point (see the module docstring).
+
+    Parameters
+    ----------
+    study : Study
+    sp : StatePoint
+    route_results : dict of str to dict
+        Simulation route name ("energy", "microcanonical", "partition") to
+        its task result (``result_json`` of the task file: ``delta_T_K``,
+        ``final_temperature_K``, ``final_density_mol_m3``,
+        ``final_pressure_Pa``, ``stopped_by``, ``cpu_seconds``,
+        ``n_particles``, ``warnings``; optional ``initial_pressure_Pa``).
+        Routes not run are left out (or None).
+    virial : dict, optional
+        The :func:`virial_summary` of this state point, if already computed.
+
+    Returns
+    -------
+    dict
+        JSON-ready.
+    """
+    unknown = set(route_results) - set(SIMULATION_ROUTES)
+    if unknown:
+        raise StudyError(f"route_results: unknown route(s) {sorted(unknown)}; allowed "
+                         f"{', '.join(SIMULATION_ROUTES)}")
+    warnings = []
+    try:
+        vs = virial if virial is not None else virial_summary(study, sp)
+    except StudyError as exc:
+        # a dense state given by pressure: simulation results (if any) still stand
+        vs = None
+        warnings.append(f"virial routes: {_one_line(exc)}")
+    if vs is not None:
+        warnings.extend(vs["warnings"])
+    delta = dict(vs["delta_T_K"]) if vs else {}
+    finals = {}
+    if vs and vs["final"]:
+        finals["virial_b3"] = dict(vs["final"], temperature_stderr_K=None)
+    simulation = {}
+    initial_pressure = None
+    for route in SIMULATION_ROUTES:
+        res = route_results.get(route)
+        if res is None:
+            continue
+        value, stderr = _value(res.get("delta_T_K"))
+        delta[route] = {"value": value, "stderr": stderr}
+        T_f, T_f_err = _value(res.get("final_temperature_K"))
+        p_f, _ = _value(res.get("final_pressure_Pa"))
+        rho_f = _num(res.get("final_density_mol_m3"))
+        if T_f is not None:
+            finals[route] = {"temperature_K": T_f, "temperature_stderr_K": T_f_err,
+                             "pressure_Pa": p_f, "density_mol_m3": rho_f}
+        if initial_pressure is None:
+            initial_pressure, _ = _value(res.get("initial_pressure_Pa"))
+        simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
+                                                      "method")}
+        for w in res.get("warnings") or []:
+            warnings.append(f"{route}: {w}")
+    if vs is not None:
+        initial = dict(vs["initial"])
+        if initial["pressure_Pa"] is None:
+            initial["pressure_Pa"] = initial_pressure
+    else:
+        initial = {"temperature_K": sp.temperature_K, "pressure_Pa": sp.pressure_Pa
+                   if sp.pressure_Pa is not None else initial_pressure,
+                   "density_mol_m3": None, "density_from": None}
+        for res in route_results.values():
+            if res is not None and _num(res.get("initial_density_mol_m3")) is not None:
+                initial["density_mol_m3"] = _num(res["initial_density_mol_m3"])
+                initial["density_from"] = "simulation task"
+                break
+    source = next((route for route in FINAL_PREFERENCE if route in finals), None)
+    if source is None:
+        rho_f = (initial["density_mol_m3"] / sp.volume_ratio
+                 if initial["density_mol_m3"] is not None else None)
+        final = {"temperature_K": None, "temperature_stderr_K": None, "pressure_Pa": None,
+                 "density_mol_m3": rho_f, "source": None}
+        warnings.append("no route gave a final state")
+    else:
+        final = dict(finals[source], source=source)
+        if final["density_mol_m3"] is None and initial["density_mol_m3"] is not None:
+            final["density_mol_m3"] = initial["density_mol_m3"] / sp.volume_ratio
+    sim = next((route for route in SIMULATION_ROUTES if route in delta
+                and delta[route]["value"] is not None), None)
+    if sim is not None and "virial_b3" in delta and delta["virial_b3"]["value"] is not None:
+        d = delta["virial_b3"]["value"] - delta[sim]["value"]
+        s = delta[sim]["stderr"]
+        if s is not None and s > 0 and abs(d) > DISAGREEMENT_Z * s:
+            warnings.append(f"virial B2+B3 gives Delta T {delta['virial_b3']['value']:.4g} K, "
+                            f"the {sim} route {delta[sim]['value']:.4g} +/- {s:.2g} K "
+                            f"({abs(d) / s:.1f} standard errors apart): the virial estimate "
+                            "is not good enough at this state")
+    return {
+        "index": sp.index,
+        "state_point": sp.as_dict(),
+        "volume_ratio": sp.volume_ratio,
+        "initial": initial,
+        "final": final,
+        "delta_T_K": {route: delta[route] for route in VIRIAL_ROUTES + SIMULATION_ROUTES
+                      if route in delta},
+        "entropy_generated_J_molK": vs["entropy_generated_J_molK"] if vs else None,
+        "virial": vs["virial"] if vs else virial_coefficients(study, sp.temperature_K),
+        "simulation": simulation,
+        "warnings": warnings,
+    }
+
+
+def run_summary(study, records):
+    """The summary of a study's run: its state-point records and what was assumed.
+
+    Parameters
+    ----------
+    study : Study
+    records : list of dict
+        :func:`state_point_record` outputs.
+
+    Returns
+    -------
+    dict
+        ``study`` (name), ``description``, ``study_file``, ``gas`` (name,
+        species, mole fractions, molar masses in kg/mol, potential form,
+        ideal heat capacity as given, quantum correction), ``routes``
+        (the simulation routes of the study), ``state_points`` (the
+        records, by index), ``warnings`` (study-wide: the quantum checks).
+    """
+    g = study.gas
+    return {
+        "study": study.name,
+        "description": study.description,
+        "study_file": str(study.path),
+        "gas": {"name": g.name, "species": list(g.species_names),
+                "mole_fractions": [float(x) for x in g.fractions],
+                "molar_masses_kg_mol": [float(m) for m in g.molar_masses_kg_mol],
+                "potential_form": g.pairs_K_angstrom.pots[0][0].name,
+                "ideal_heat_capacity": g.ideal_heat_capacity,
+                "quantum_correction": bool(g.quantum_correction)},
+        "routes": list(study.simulation.get("routes", [])),
+        "state_points": sorted(records, key=lambda rec: rec["index"]),
+        "warnings": virial_warnings(study),
+    }

@@ -1,0 +1,209 @@
+"""State points of a study: the initial states and volume ratios to expand.
+
+A study gives one initial state in ``[initial]`` (temperature and one of
+pressure or density) and one ``[expansion]`` volume ratio, or lists of any
+of them in ``[sweep]``.  :func:`state_points` expands the lists into every
+combination, in a fixed order::
+
+    for temperature in temperatures:          # outermost
+        for pressure_or_density in states:
+            for volume_ratio in ratios:       # innermost, varies fastest
+                StatePoint(index, ...)
+
+each list in the order written in the file; indices count from 0.
+
+When the initial state is given by pressure, :func:`resolve_initial_density`
+finds the density from the model's own equation of state: the B2 + B3
+virial series, where it converges.  Dense states must be given by density.
+
+The virial equation of state (:func:`virial_gas`) and the ideal-gas heat
+capacity model (:func:`ideal_heat_capacity`) of a study are built once per
+study object and kept on it.
+"""
+import dataclasses
+import itertools
+import warnings
+
+from mdsim.errors import ConvergenceError, StudyError
+
+# Largest number of state points one study may expand to.
+MAX_STATE_POINTS = 10000
+
+# Order of the virial series used to turn an initial pressure into a density.
+PRESSURE_TO_DENSITY_ORDER = 3
+
+
+@dataclasses.dataclass(frozen=True)
+class StatePoint:
+    """One initial state and volume ratio of a study.
+
+    Attributes
+    ----------
+    index : int
+        Position in the study's list of state points (from 0).
+    temperature_K : float
+        Initial temperature, K.
+    volume_ratio : float
+        V_final / V_initial, > 1.
+    pressure_Pa : float or None
+        Initial pressure, Pa, when the study gives pressures.
+    density_mol_m3 : float or None
+        Initial molar density, mol/m^3, when the study gives densities.
+        Exactly one of ``pressure_Pa`` and ``density_mol_m3`` is set.
+    """
+
+    index: int
+    temperature_K: float
+    volume_ratio: float
+    pressure_Pa: float | None
+    density_mol_m3: float | None
+
+    def as_dict(self):
+        """The state point as a JSON-ready dict (field names as keys)."""
+        return dataclasses.asdict(self)
+
+    @classmethod
+    def from_dict(cls, data):
+        """The inverse of :meth:`as_dict`."""
+        return cls(index=int(data["index"]), temperature_K=float(data["temperature_K"]),
+                   volume_ratio=float(data["volume_ratio"]),
+                   pressure_Pa=None if data.get("pressure_Pa") is None else float(data["pressure_Pa"]),
+                   density_mol_m3=(None if data.get("density_mol_m3") is None
+                                   else float(data["density_mol_m3"])))
+
+    def label(self):
+        """A short text such as 'T = 295.15 K, p = 22 bar, r = 2'."""
+        state = (f"p = {self.pressure_Pa / 1e5:.6g} bar" if self.pressure_Pa is not None
+                 else f"rho = {self.density_mol_m3:.6g} mol/m^3")
+        return f"T = {self.temperature_K:.6g} K, {state}, r = {self.volume_ratio:.6g}"
+
+
+def _missing(study, table, key, example):
+    raise StudyError(f"study file '{study.path}', [{table}] key '{key}': missing; the study "
+                     f"needs it to define its state points; add {key} = {example} to "
+                     f"[{table}], or a list in [sweep]")
+
+
+def state_points(study):
+    """Every state point of a study, in the documented order.
+
+    Parameters
+    ----------
+    study : Study
+
+    Returns
+    -------
+    list of StatePoint
+
+    Raises
+    ------
+    StudyError
+        When a temperature, a pressure or density, or the volume ratio is
+        given neither in [initial]/[expansion] nor in [sweep], or the sweep
+        has more than ``MAX_STATE_POINTS`` combinations.
+    """
+    initial, sweep = study.initial, study.sweep
+    temperatures = sweep.get("temperature") or (
+        [initial["temperature"]] if "temperature" in initial else None)
+    if temperatures is None:
+        _missing(study, "initial", "temperature", '"295.15 K"')
+    if "pressure" in sweep or "pressure" in initial:
+        kind = "pressure"
+    elif "density" in sweep or "density" in initial:
+        kind = "density"
+    else:
+        raise StudyError(f"study file '{study.path}', [initial]: neither 'pressure' nor 'density' "
+                         'is given; add pressure = "22 bar" or density = "500 mol/m^3" '
+                         "(or a list of either in [sweep])")
+    states = sweep.get(kind) or [initial[kind]]
+    ratios = sweep.get("volume_ratio") or (
+        [study.expansion["volume_ratio"]] if "volume_ratio" in study.expansion else None)
+    if ratios is None:
+        _missing(study, "expansion", "volume_ratio", "2.0")
+    n = len(temperatures) * len(states) * len(ratios)
+    if n > MAX_STATE_POINTS:
+        raise StudyError(f"study file '{study.path}', [sweep]: {n} state points; allowed at most "
+                         f"{MAX_STATE_POINTS}; shorten the lists or split the study")
+    points = []
+    for index, (T, state, r) in enumerate(itertools.product(temperatures, states, ratios)):
+        points.append(StatePoint(index=index, temperature_K=float(T), volume_ratio=float(r),
+                                 pressure_Pa=float(state) if kind == "pressure" else None,
+                                 density_mol_m3=float(state) if kind == "density" else None))
+    return points
+
+
+def virial_gas(study):
+    """The study's virial equation of state (a :class:`analysis.virial_eos.VirialGas`).
+
+    Built once per study object; the de Boer check's warnings are kept in
+    ``study._virial_warnings`` (see :func:`virial_warnings`).
+    """
+    gas = getattr(study, "_virial_gas", None)
+    if gas is None:
+        from analysis.virial_eos import VirialGas
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            gas = VirialGas(study.gas.pairs_K_angstrom, study.gas.fractions,
+                            study.gas.molar_masses_kg_mol,
+                            quantum_correction=study.gas.quantum_correction)
+        study._virial_gas = gas
+        study._virial_warnings = [str(w.message) for w in caught]
+    return gas
+
+
+def virial_warnings(study):
+    """Warnings issued when the study's virial gas was built (quantum checks)."""
+    virial_gas(study)
+    return list(study._virial_warnings)
+
+
+def ideal_heat_capacity(study):
+    """The study's ideal-gas heat capacity model (``analysis.heatcapacity``), built once."""
+    model = getattr(study, "_cv_ig", None)
+    if model is None:
+        from analysis.heatcapacity import heat_capacity_from_spec
+        model = heat_capacity_from_spec(study.gas.ideal_heat_capacity,
+                                        where=f"study file '{study.path}', [gas] "
+                                        "key 'ideal_heat_capacity'")
+        study._cv_ig = model
+    return model
+
+
+def resolve_initial_density(study, sp):
+    """The initial molar density of a state point, and how it was obtained.
+
+    Parameters
+    ----------
+    study : Study
+    sp : StatePoint
+
+    Returns
+    -------
+    rho_i_mol_m3 : float
+        Initial density, mol/m^3.
+    how : str
+        "given" (the study gives the density) or "virial B2+B3" (solved
+        from the given pressure with the model's B2 + B3 virial series).
+
+    Raises
+    ------
+    StudyError
+        When the pressure is given and the B2 + B3 series does not converge
+        at that state (``VirialGas.check_converged``) or cannot reach that
+        pressure: the message asks for the density instead.
+    """
+    if sp.density_mol_m3 is not None:
+        return float(sp.density_mol_m3), "given"
+    from analysis.virial_eos import VirialSeriesError
+    gas = virial_gas(study)
+    T, p = sp.temperature_K, sp.pressure_Pa
+    try:
+        rho = float(gas.density_from_pressure(T, p, order=PRESSURE_TO_DENSITY_ORDER))
+        gas.check_converged(T, rho)
+    except (VirialSeriesError, ConvergenceError) as exc:
+        raise StudyError(
+            f"study file '{study.path}', state point {sp.index} ({sp.label()}): the initial "
+            f"density cannot be found from the pressure with the B2 + B3 virial series "
+            f"({' '.join(str(exc).split())}); for dense states give the initial density "
+            'instead, [initial] density = "... mol/m^3" (or a [sweep] density list)') from None
+    return rho, "virial B2+B3"
