@@ -1,0 +1,45 @@
+"""Run the Examples sections of the public docstrings (numpydoc ``Examples`` with ``>>>``).
+
+Every module of ``mdsim`` and ``analysis`` is searched, so an example added
+to a docstring is tested without registering it here.  The benchmarks are
+left out (they time things; their examples would be slow).
+"""
+import doctest
+import importlib
+import pkgutil
+
+import pytest
+
+import analysis
+import mdsim
+
+
+def _modules():
+    names = []
+    for pkg in (mdsim, analysis):
+        names.append(pkg.__name__)
+        for info in pkgutil.walk_packages(pkg.__path__, prefix=pkg.__name__ + "."):
+            if ".bench" in info.name or info.name.endswith("__main__") or info.name == "mdsim.bench_job":
+                continue
+            names.append(info.name)
+    return sorted(names)
+
+
+MODULES = _modules()
+
+
+def _tests_in(name):
+    module = importlib.import_module(name)
+    finder = doctest.DocTestFinder(exclude_empty=True)
+    return [t for t in finder.find(module, name) if t.examples and t.name.startswith(name)]
+
+
+@pytest.mark.parametrize("name", MODULES)
+def test_examples_in_docstrings_run(name):
+    tests = _tests_in(name)
+    runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE)
+    for t in tests:
+        runner.run(t)
+    result = runner.summarize(verbose=False)
+    assert result.failed == 0, f"{result.failed} of {result.attempted} examples failed in {name}"
+
