@@ -17,13 +17,13 @@ routes solve it:
 - :func:`microcanonical_route`: the temperature estimator of a
   microcanonical Monte Carlo run at the final volume (J. R. Ray, Phys. Rev.
   A 44, 4061, 1991).
-- :func:`partition_route`: the relaxed tail of an NVE MD run after the box
+- :func:`direct_route`: the relaxed tail of an NVE MD run after the box
   was enlarged, corrected from the model (truncated and shifted) potential
   to the full one.
 
 Units.  The virial and energy routes work in SI: temperatures in K,
 densities in mol/m^3, pressures in Pa, molar energies in J/mol, heat
-capacities in J/(mol K).  The microcanonical and partition routes take the
+capacities in J/(mol K).  The microcanonical and direct routes take the
 engine's reduced per-particle series (energies in epsilon, temperatures
 kT/epsilon) with the reference well depth ``epsilon_K`` (epsilon/k in K) and
 report kelvin; :func:`reduced_to_J_mol` converts a reduced per-particle
@@ -403,7 +403,7 @@ class SampledExpansionResult(Result):
     Attributes
     ----------
     route : str
-        "energy", "microcanonical" or "partition".
+        "energy", "microcanonical" or "direct".
     method : str
         How T_f was obtained ("newton", "mbar", "ray estimator",
         "relaxed tail").
@@ -686,12 +686,12 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
         notes=notes)
 
 
-# --- partition route -----------------------------------------------------------
+# --- direct route -----------------------------------------------------------
 
-def partition_route(temperature_t_red, u_model_t_red, u_full_t_red, u_model_initial_t_red,
+def direct_route(temperature_t_red, u_model_t_red, u_full_t_red, u_model_initial_t_red,
                     u_full_initial_t_red, T_i_red, n_particles, epsilon_K, cv_red=None,
                     kinetic_dof=None, rho_f=None):
-    """Final temperature from NVE MD after the box was enlarged (partition route).
+    """Final temperature from NVE MD after the box was enlarged (direct route).
 
     Parameters
     ----------
@@ -744,11 +744,11 @@ def partition_route(temperature_t_red, u_model_t_red, u_full_t_red, u_model_init
     um_i = stats.check_series(u_model_initial_t_red, "u_model_initial_t_red")
     uf_i = stats.check_series(u_full_initial_t_red, "u_full_initial_t_red")
     if not (T_t.size == um_t.size == uf_t.size):
-        raise StudyError("partition route: 'temperature_t_red', 'u_model_t_red' and "
+        raise StudyError("direct route: 'temperature_t_red', 'u_model_t_red' and "
                          f"'u_full_t_red' must have one value per sample; got {T_t.size}, "
                          f"{um_t.size}, {uf_t.size}.")
     if um_i.size != uf_i.size:
-        raise StudyError("partition route: the initial-state series 'u_model_initial_t_red' and "
+        raise StudyError("direct route: the initial-state series 'u_model_initial_t_red' and "
                          f"'u_full_initial_t_red' differ in length ({um_i.size}, {uf_i.size}).")
     N = int(_positive("n_particles", n_particles, "the number of particles."))
     eps = _positive("epsilon_K", epsilon_K, "epsilon/k of the reduced units, in K.")
@@ -773,7 +773,7 @@ def partition_route(temperature_t_red, u_model_t_red, u_full_t_red, u_model_init
                         + (d_i.stderr ** 2 + d_f.stderr ** 2) / cv ** 2)
     warnings = []
     if e_drift > 1e-3 * abs(e_traj) + 1e-6:
-        warnings.append(f"partition route: the model energy per particle scatters by "
+        warnings.append(f"direct route: the model energy per particle scatters by "
                         f"{e_drift:.3g} epsilon during the NVE run (mean {e_traj:.6g}); "
                         "reduce the time step.")
     notes = ["T_f is the mean of the relaxed tail of the NVE temperature (equilibration detection)",
@@ -785,7 +785,7 @@ def partition_route(temperature_t_red, u_model_t_red, u_full_t_red, u_model_init
     T_i = T_i_red * eps
     T_f = T_f_red * eps
     return SampledExpansionResult(
-        route="partition", method="relaxed tail", initial_temperature_K=T_i,
+        route="direct", method="relaxed tail", initial_temperature_K=T_i,
         final_temperature_K=T_f, final_temperature_stderr_K=err_red * eps,
         delta_T_K=T_f - T_i, delta_T_stderr_K=err_red * eps,
         final_density_mol_m3=None if rho_f is None else float(rho_f),

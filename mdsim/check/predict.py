@@ -45,6 +45,7 @@ from pathlib import Path
 import numpy as np
 from scipy.constants import N_A, R as R_GAS
 
+from mdsim.study.routes import SIMULATION_ROUTES
 from mdsim.errors import ConvergenceError, StudyError
 
 # Reduced-temperature range of the spline tables of B2* and B3*.
@@ -372,7 +373,6 @@ def load_table(path):
 
 # -- predictions from run directories ----------------------------------------------------
 
-SIM_ROUTES_BEST_FIRST = ("energy", "microcanonical", "partition")
 
 
 def _same(a, b, rel=1e-6):
@@ -421,7 +421,7 @@ def run_predictions(runs_dir, study):
             continue
         for rec in summary.get("state_points", []):
             ini = rec.get("initial", {})
-            for route in SIM_ROUTES_BEST_FIRST:
+            for route in SIMULATION_ROUTES:
                 e = rec.get("delta_T_K", {}).get(route)
                 if e and e.get("value") is not None and e.get("stderr") is not None:
                     out.append({"temperature_K": ini.get("temperature_K"),

@@ -61,7 +61,9 @@ def simulate_rows(study, data, rows, sim_dir, workers=None, quiet=False):
     dict
         ``done`` (rows with a finished run directory), ``failed`` ({row: error}).
     """
-    from mdsim.execute import executors
+    import functools
+    from mdsim.execute.local import run_local
+    from mdsim.pipeline.jobs import task_job
     from mdsim.cli.cmd_run import dumps_toml, prepare_run_dir
     from mdsim.pipeline.report import build_report
     from mdsim.study.reader import read_study
@@ -87,7 +89,8 @@ def simulate_rows(study, data, rows, sim_dir, workers=None, quiet=False):
             rd.acquire_lock()
             try:
                 pending = [t["index"] for t in tasks if rd.task_state(t["index"]) != "done"]
-                outcome = executors.run_local(rd.path, pending, workers=workers)
+                outcome = run_local(functools.partial(task_job, str(rd.path)), pending,
+                                    workers=workers)
                 errors = {i: e for i, e in outcome.items() if e}
                 build_report(rd.path, plots=False)
             finally:

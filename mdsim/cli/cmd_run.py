@@ -322,8 +322,9 @@ def run_array(args, rd, tasks, study, todo):
     submitted, or elements still pending or running), otherwise
     ``{index: error}`` of the tasks without a result, for the report.
     """
-    from mdsim.execute import executors, slurm
-    path = executors.write_array_script(rd.path, len(tasks), study.cluster)
+    from mdsim.execute import slurm
+    from mdsim.execute.array import write_array_script
+    path = write_array_script(rd.path, len(tasks), study.cluster)
     submitted = slurm.read_submissions(rd.path)
     view = slurm.scheduler_view(rd.path) if submitted else {}
     active = sorted(k for k, v in view.items() if v["state"] in slurm.ACTIVE)
@@ -365,19 +366,24 @@ def run_array(args, rd, tasks, study, todo):
 
 def execute(rd, indices, n_total, executor, workers, cluster, quiet=False):
     """Run task indices on an executor with a progress line; return {index: error or None}."""
-    from mdsim.execute import executors
+    import functools
+    from mdsim.execute.dask import run_dask
+    from mdsim.execute.local import run_local
     from mdsim.execute.progress import ProgressLine
+    from mdsim.pipeline.jobs import task_job
+    job = functools.partial(task_job, str(rd.path))
     n_workers = workers or (2 if executor == "dask" else None)
     line = ProgressLine(rd, indices, n_total, enabled=False if quiet else None,
                         workers=n_workers or 1)
     try:
         if executor == "local":
-            return executors.run_local(rd.path, indices, workers=workers, on_done=line.done,
-                                       on_tick=line.draw)
+            return run_local(job, indices, workers=workers, on_done=line.done,
+                             on_tick=line.draw)
         if executor == "dask":
-            return executors.run_dask(rd.path, indices, address=(cluster or {}).get("address"),
-                                      workers=n_workers, cluster_settings=cluster,
-                                      on_done=line.done, on_tick=line.draw)
+            return run_dask(job, indices, address=(cluster or {}).get("address"),
+                            workers=n_workers, cluster_settings=cluster,
+                            log_directory=rd.path / "logs", on_done=line.done,
+                            on_tick=line.draw)
         raise StudyError(f"option --executor = {executor!r}: allowed local, dask, array")
     finally:
         line.close()

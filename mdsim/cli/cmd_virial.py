@@ -82,7 +82,7 @@ def format_virial_table(summary):
                      f"{_g(v['dB2_dT_m3_molK'], '.5g')} m^3/(mol K){q}")
         lines.append(f"  B3, dB3/dT at T_i      {_g(v['B3_m6_mol2'], '.5g')} m^6/mol^2, "
                      f"{_g(v['dB3_dT_m6_mol2K'], '.5g')} m^6/(mol^2 K)")
-        for route, label in (("virial_b2", "Delta T, B2 only"), ("virial_b3", "Delta T, B2 + B3")):
+        for route, label in (("virial_b2", "Delta T, B2 only"), ("virial_b2b3", "Delta T, B2 + B3")):
             entry = rec["delta_T_K"].get(route)
             lines.append(f"  {label:<22} {_g(entry['value'] if entry else None, '.5g', 'K')}")
         if fin["source"] is not None:

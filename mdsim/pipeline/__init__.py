@@ -1,1 +1,17 @@
-"""pipeline."""
+"""The pipeline: plan a study's tasks, run them into a run directory, report.
+
+One task is one state point by one simulation route; it does all its
+sampling in resumable stage files and writes one task file.  The run
+directory (``docs/run-directory.md``) holds the plan, the task files and
+what is built from them: results.json, results.csv, plots and report.md.
+
+The names below are the pipeline's interface to the layers above it (the
+command line, the checks); import them from here.
+"""
+from mdsim.pipeline.rundir import RunDir
+from mdsim.pipeline.tasks import plan_tasks, read_task_result, run_task, simulation_settings
+from mdsim.pipeline.jobs import task_job
+from mdsim.pipeline.report import build_report
+
+__all__ = ["RunDir", "plan_tasks", "read_task_result", "run_task", "simulation_settings",
+           "task_job", "build_report"]

@@ -18,10 +18,10 @@ import numpy as np
 # route -> (legend label, colour, marker); the one place a route gets its looks
 ROUTE_STYLE = {
     "virial_b2": ("virial, B2 only", "tab:gray", "s"),
-    "virial_b3": ("virial, B2 + B3", "tab:blue", "D"),
+    "virial_b2b3": ("virial, B2 + B3", "tab:blue", "D"),
     "energy": ("energy route (NVT + Newton steps)", "tab:red", "o"),
     "microcanonical": ("microcanonical MC at V_f", "tab:green", "^"),
-    "partition": ("partition route (NVE MD)", "tab:purple", "v"),
+    "direct": ("direct route (NVE MD)", "tab:purple", "v"),
 }
 
 DPI = 130
@@ -56,9 +56,9 @@ def plot_delta_T(panels, stem):
     panels : list of dict
         Each with ``title`` (str), ``x_label`` (str), ``points``: {route:
         (x, value_K, stderr_K)} with arrays of equal length (stderr NaN or 0
-        where there is none), ``curves``: {"virial_b2" | "virial_b3":
+        where there is none), ``curves``: {"virial_b2" | "virial_b2b3":
         (x_g, delta_T_g_K)} (NaN where the series does not hold), and
-        optionally ``residuals``: {"virial_b2" | "virial_b3": (x, diff_K,
+        optionally ``residuals``: {"virial_b2" | "virial_b2b3": (x, diff_K,
         stderr_K)}, the virial Delta T minus the simulation's, with the
         simulation's standard error, drawn in a panel below.
     stem : str or Path
@@ -176,8 +176,8 @@ def plot_energy_route(data, stem):
     return _save(fig, stem)
 
 
-def plot_partition(data, stem):
-    """Partition route: temperature and density profile against time.
+def plot_direct(data, stem):
+    """Direct route: temperature and density profile against time.
 
     Parameters
     ----------

@@ -16,7 +16,7 @@ failed tasks), computes the virial routes, and writes
     PNG and PDF: Delta T against the initial pressure or density per
     route with the virial curves; for each energy-route task the residual
     energy against temperature at both densities with the constant-U
-    construction; for each partition-route task the temperature and the
+    construction; for each direct-route task the temperature and the
     density profile against time; microcanonical convergence; the Joule
     inversion curve (virial route).
 ``report.md``
@@ -40,19 +40,10 @@ import numpy as np
 from mdsim.errors import ConvergenceError, StudyError
 from mdsim.files import atomic_write_text
 from mdsim.pipeline.rundir import RunDir
+from mdsim.study.routes import ROUTE_LABELS as ROUTE_NAMES, ROUTES, SIMULATION_ROUTES, VIRIAL_ROUTES
 
 log = logging.getLogger(__name__)
 
-VIRIAL_ROUTES = ("virial_b2", "virial_b3")
-SIMULATION_ROUTES = ("energy", "microcanonical", "partition")
-ROUTES = VIRIAL_ROUTES + SIMULATION_ROUTES
-ROUTE_NAMES = {
-    "virial_b2": "virial B2",
-    "virial_b3": "virial B2+B3",
-    "energy": "energy",
-    "microcanonical": "microcanonical",
-    "partition": "partition",
-}
 
 CSV_COLUMNS = (
     "state_point_index", "route", "status",
@@ -193,7 +184,7 @@ def _delta_T_panels(study, points, records, vg, cv):
                                         for _, e in rows], float))
         x_g = np.linspace(0.0, 1.15 * float(xs.max()), CURVE_POINTS + 1)[1:]
         curves = {}
-        for route, order in (("virial_b2", 2), ("virial_b3", 3)):
+        for route, order in (("virial_b2", 2), ("virial_b2b3", 3)):
             y_g = []
             for x in x_g:
                 kw = {"p_i": x * 1e5} if by_pressure else {"rho_i": x}
@@ -262,7 +253,7 @@ def _energy_plot_data(study, sp, result, series, vg, cv):
     return data, None
 
 
-def _partition_plot_data(sp, result, series):
+def _direct_plot_data(sp, result, series):
     need = ("time_s", "temperature_K_t", "profile_z_fraction", "density_profile_tz")
     absent = [k for k in need if k not in series]
     if absent:
@@ -276,7 +267,7 @@ def _partition_plot_data(sp, result, series):
                       f"{profile_t.size} points")
     final = result.get("final_temperature_K") or {}
     return {
-        "title": f"partition route, state point {sp.index}: the box enlarged "
+        "title": f"direct route, state point {sp.index}: the box enlarged "
                  f"{sp.volume_ratio:g}-fold along z at t = 0",
         "time_s": _arr(series, "time_s"),
         "temperature_K_t": _arr(series, "temperature_K_t"),
@@ -304,10 +295,10 @@ def _task_plots(study, points_by_index, gathered, vg, cv, plots_dir):
             data, why = _energy_plot_data(study, sp, result, series, vg, cv)
             if data is not None:
                 made[k] = plots.plot_energy_route(data, stem)
-        elif route == "partition":
-            data, why = _partition_plot_data(sp, result, series)
+        elif route == "direct":
+            data, why = _direct_plot_data(sp, result, series)
             if data is not None:
-                made[k] = plots.plot_partition(data, stem)
+                made[k] = plots.plot_direct(data, stem)
         else:
             one_d = {name: np.asarray(v, float) for name, v in series.items()
                      if np.ndim(v) == 1 and np.size(v) > 1}
@@ -537,7 +528,7 @@ def _assumptions(study, cv):
                                  "classical statistics throughout (no quantum correction asked "
                                  "for)."),
         "- Long-range part: the potential is cut at the cut-off and the analytic tail correction "
-        "of the full potential added to energies and pressures; the partition route (NVE MD of "
+        "of the full potential added to energies and pressures; the direct route (NVE MD of "
         "the truncated and shifted potential) is corrected to the full potential by the change "
         "of <U_full - U_model> between the end states over the heat capacity.",
         "- The virial routes truncate the series after B2 and after B3; where the two differ "
@@ -597,7 +588,7 @@ def write_report_md(path, study, points, records, gathered, plot_files, plot_not
     L += ["Versions: " + ", ".join(f"{k} {v}" for k, v in versions.items()), ""]
     L += ["## Results", "",
           "Delta T = T_f - T_i (negative: the gas cools), one standard error after ±. "
-          "T_f is from the best route available (energy, then microcanonical, then partition, "
+          "T_f is from the best route available (energy, then microcanonical, then direct, "
           "then virial B2+B3). Δs is the entropy generated per mole.", ""]
     L += _results_table(points, records) + [""]
     L += ["Every state point and route, with the final states and the task settings, is in "

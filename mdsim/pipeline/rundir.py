@@ -125,9 +125,11 @@ class RunDir:
             raise StudyError(f"'{self.path}' is not a run directory (no {TASKS_FILE}); "
                              "make one with 'mdsim run STUDY --out DIR'")
         try:
-            return json.loads(path.read_text(encoding="utf-8"))
+            tasks = json.loads(path.read_text(encoding="utf-8"))
         except (ValueError, UnicodeDecodeError):
             raise StudyError(f"'{path}' is damaged (not JSON); re-plan with 'mdsim run'") from None
+        _refuse_older_layout(path, tasks)
+        return tasks
 
     # -- the lock ------------------------------------------------------------------
     def acquire_lock(self):
@@ -199,3 +201,28 @@ def _is_stale(owner):
         return False
     return False
 
+
+
+# Task fields and route names that only earlier versions of the tool wrote.
+OLDER_LAYOUT_FIELDS = {"initial_density_how": "initial_density_from"}
+
+
+def _refuse_older_layout(path, tasks):
+    """Raise StudyError when ``tasks.json`` was written by an earlier layout of the tool.
+
+    Such a directory names routes and fields by their old names and keeps
+    its stage files under old names, so it cannot be resumed; it is refused
+    whole, naming what is old, rather than mixed with new results.
+    """
+    from mdsim.study.routes import RENAMED_ROUTES
+    for task in tasks if isinstance(tasks, list) else []:
+        if not isinstance(task, dict):
+            continue
+        old = [f"field '{k}' (now '{v}')" for k, v in OLDER_LAYOUT_FIELDS.items() if k in task]
+        if task.get("route") in RENAMED_ROUTES:
+            old.append(f"route '{task['route']}' (now '{RENAMED_ROUTES[task['route']]}')")
+        if old:
+            raise StudyError(f"'{path}' was written by an earlier version of the tool ("
+                             f"{', '.join(old)}): that run directory cannot be resumed or "
+                             "reported by this version; run the study again into a new run "
+                             "directory (its finished results stay readable as files)")

@@ -10,8 +10,8 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
       "initial": {"temperature_K", "pressure_Pa", "density_mol_m3", "density_from"},
       "final": {"temperature_K", "temperature_stderr_K", "pressure_Pa",
                 "density_mol_m3", "source"},
-      "delta_T_K": {"virial_b2": {"value", "stderr": null}, "virial_b3": {...},
-                    "energy": {"value", "stderr"}, "microcanonical": ..., "partition": ...},
+      "delta_T_K": {"virial_b2": {"value", "stderr": null}, "virial_b2b3": {...},
+                    "energy": {"value", "stderr"}, "microcanonical": ..., "direct": ...},
       "entropy_generated_J_molK": float or null,
       "virial": {"B2_m3_mol", "dB2_dT_m3_molK", "B3_m6_mol2", "dB3_dT_m6_mol2K",
                  "temperature_K", "quantum_correction"},
@@ -30,12 +30,9 @@ Non-finite numbers become null.
 import math
 
 from mdsim.errors import ConvergenceError, StudyError
+from mdsim.study.routes import FINAL_PREFERENCE, SIMULATION_ROUTES, VIRIAL_ROUTES
 from mdsim.study.statepoints import ideal_heat_capacity, resolve_initial_density, virial_gas, virial_warnings
 
-SIMULATION_ROUTES = ("energy", "microcanonical", "partition")
-VIRIAL_ROUTES = ("virial_b2", "virial_b3")
-# The route whose final state is reported, best first.
-FINAL_PREFERENCE = ("energy", "microcanonical", "partition", "virial_b3")
 # A virial B2+B3 result further than this many combined standard errors from
 # the best simulation route gets a warning (and more than the target itself).
 DISAGREEMENT_Z = 3.0
@@ -88,7 +85,7 @@ def virial_summary(study, sp):
         ``density_mol_m3``, ``density_from``: "given" or "virial B2+B3");
         ``final`` (the B2+B3 final state, or None); ``final_b2`` (the B2-only
         final state, or None); ``delta_T_K`` with ``virial_b2`` and
-        ``virial_b3`` entries ``{value, stderr: None}`` (absent when the
+        ``virial_b2b3`` entries ``{value, stderr: None}`` (absent when the
         series does not hold); ``entropy_generated_J_molK`` (B2+B3, else
         B2, else None); ``virial`` (coefficients at T_i, see
         :func:`virial_coefficients`); ``warnings``.
@@ -115,7 +112,7 @@ def virial_summary(study, sp):
     T_i, r = sp.temperature_K, sp.volume_ratio
     warnings = list(virial_warnings(study))
     results = {}
-    for order, route in ((3, "virial_b3"), (2, "virial_b2")):
+    for order, route in ((3, "virial_b2b3"), (2, "virial_b2")):
         try:
             res = virial_expansion(gas, cv_ig, T_i, r, rho_i=rho_i, order=order)
         except (VirialSeriesError, ConvergenceError) as exc:
@@ -126,8 +123,8 @@ def virial_summary(study, sp):
             if w not in warnings:
                 warnings.append(w)
     p_i = sp.pressure_Pa
-    if p_i is None and "virial_b3" in results:
-        p_i = results["virial_b3"].initial_pressure_Pa
+    if p_i is None and "virial_b2b3" in results:
+        p_i = results["virial_b2b3"].initial_pressure_Pa
 
     def final(res):
         if res is None:
@@ -136,12 +133,12 @@ def virial_summary(study, sp):
                 "pressure_Pa": _num(res.final_pressure_Pa),
                 "density_mol_m3": _num(res.final_density_mol_m3)}
 
-    best = results.get("virial_b3") or results.get("virial_b2")
+    best = results.get("virial_b2b3") or results.get("virial_b2")
     return {
         "index": sp.index,
         "initial": {"temperature_K": T_i, "pressure_Pa": _num(p_i), "density_mol_m3": rho_i,
                     "density_from": how},
-        "final": final(results.get("virial_b3")),
+        "final": final(results.get("virial_b2b3")),
         "final_b2": final(results.get("virial_b2")),
         "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": None}
                       for route, res in sorted(results.items())},
@@ -168,7 +165,7 @@ def state_point_record(study, sp, route_results, virial=None):
     study : Study
     sp : StatePoint
     route_results : dict of str to dict
-        Simulation route name ("energy", "microcanonical", "partition") to
+        Simulation route name ("energy", "microcanonical", "direct") to
         its task result (``result_json`` of the task file: ``delta_T_K``,
         ``final_temperature_K``, ``final_density_mol_m3``,
         ``final_pressure_Pa``, ``stopped_by``, ``cpu_seconds``,
@@ -198,7 +195,7 @@ def state_point_record(study, sp, route_results, virial=None):
     delta = dict(vs["delta_T_K"]) if vs else {}
     finals = {}
     if vs and vs["final"]:
-        finals["virial_b3"] = dict(vs["final"], temperature_stderr_K=None)
+        finals["virial_b2b3"] = dict(vs["final"], temperature_stderr_K=None)
     simulation = {}
     initial_pressure = None
     for route in SIMULATION_ROUTES:
@@ -245,11 +242,11 @@ def state_point_record(study, sp, route_results, virial=None):
             final["density_mol_m3"] = initial["density_mol_m3"] / sp.volume_ratio
     sim = next((route for route in SIMULATION_ROUTES if route in delta
                 and delta[route]["value"] is not None), None)
-    if sim is not None and "virial_b3" in delta and delta["virial_b3"]["value"] is not None:
-        d = delta["virial_b3"]["value"] - delta[sim]["value"]
+    if sim is not None and "virial_b2b3" in delta and delta["virial_b2b3"]["value"] is not None:
+        d = delta["virial_b2b3"]["value"] - delta[sim]["value"]
         s = delta[sim]["stderr"]
         if s is not None and s > 0 and abs(d) > DISAGREEMENT_Z * s:
-            warnings.append(f"virial B2+B3 gives Delta T {delta['virial_b3']['value']:.4g} K, "
+            warnings.append(f"virial B2+B3 gives Delta T {delta['virial_b2b3']['value']:.4g} K, "
                             f"the {sim} route {delta[sim]['value']:.4g} +/- {s:.2g} K "
                             f"({abs(d) / s:.1f} standard errors apart): the virial estimate "
                             "is not good enough at this state")

@@ -24,11 +24,11 @@ Routes (DESIGN.md 2.3):
     microcanonical Monte Carlo at rho_f (Ray 1991) gives T_f
     (:func:`analysis.expansion.microcanonical_route`).  Assumes a constant
     classical c_v_ig = (f/2) R; the plan refuses other heat capacities.
-``partition``
+``direct``
     MD NVT at (T_i, rho_i); the box enlarged r-fold along z with the
     particles left in place; MD NVE while the gas fills the box, in short
     stages whose end configurations give the density profile along z over
-    time (:func:`analysis.expansion.partition_route`; model-to-full
+    time (:func:`analysis.expansion.direct_route`; model-to-full
     potential correction).  Atoms only.
 
 How a task chooses its numbers.  The user sets ``target_stderr`` (the
@@ -68,6 +68,7 @@ from pathlib import Path
 
 import numpy as np
 
+from mdsim.study.routes import SIMULATION_ROUTES as ROUTES
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
 from mdsim.files import atomic_write_text, fsync_path
 from mdsim.pipeline.rundir import RunDir
@@ -75,7 +76,6 @@ from mdsim.sampling import store as _store
 
 log = logging.getLogger(__name__)
 
-ROUTES = ("energy", "microcanonical", "partition")
 SAMPLERS = {"mc": "mc-nvt", "md": "md-nvt"}
 DEFAULTS = {"routes": ["energy"], "particles": None, "target_stderr_K": 0.05,
             "max_cpu_time_s": 600.0, "seed": 1, "sampler": "mc"}
@@ -94,8 +94,8 @@ EQUILIBRATION_MC_SWEEPS = 200
 EQUILIBRATION_MD_STEPS = 2000
 MD_PILOT_INTERVAL = 10
 PROFILE_BINS = 20
-PARTITION_SNAPSHOTS = 16
-PARTITION_CROSSINGS = 4.0
+DIRECT_SNAPSHOTS = 16
+DIRECT_CROSSINGS = 4.0
 """Length of the filling stage, in crossing times L_z,f / sqrt(kT/m)."""
 FORMAT = "mdsim-task-1"
 DISK_ERRNOS = (errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EACCES, errno.EPERM, errno.EFBIG)
@@ -133,7 +133,7 @@ def simulation_settings(study):
     if not isinstance(routes, (list, tuple)) or not all(isinstance(r, str) for r in routes):
         raise StudyError(f"{where} key 'routes' = {routes!r}: must be a list of route names; "
                          f"allowed {', '.join(ROUTES)}; for example routes = [\"energy\"]")
-    routes = [r for r in routes if r not in ("virial", "virial_b2", "virial_b3")]
+    routes = [r for r in routes if r not in ("virial", "virial_b2", "virial_b2b3")]
     for r in routes:
         if r not in ROUTES:
             raise StudyError(f"{where} key 'routes': unknown route {r!r}; allowed "
@@ -173,8 +173,8 @@ def simulation_settings(study):
 def _check_route_applies(study, route, cv_ig, T_i):
     """Refuse a route whose assumptions the study breaks (before any work)."""
     f = study.gas.dof_per_particle
-    if route == "partition" and f != 3:
-        raise StudyError(f"study file '{study.path}', [simulation] key 'routes': the partition "
+    if route == "direct" and f != 3:
+        raise StudyError(f"study file '{study.path}', [simulation] key 'routes': the direct "
                          f"route simulates atoms (3 degrees of freedom), but [gas] "
                          f"dof_per_particle = {f}; use the energy route for molecules")
     if route == "microcanonical":
@@ -205,7 +205,7 @@ def plan_tasks(study):
         JSON-ready, in the order of ``study.state_points()`` then of the
         study's routes.  Keys: ``index``, ``state_point`` (the StatePoint
         as a dict), ``route``, ``seed`` ([study seed, index]),
-        ``initial_density_mol_m3`` and ``initial_density_how`` (from
+        ``initial_density_mol_m3`` and ``initial_density_from`` (from
         :func:`mdsim.study.statepoints.resolve_initial_density`), ``particles``
         (int or None: chosen at run time), ``target_stderr_K``,
         ``max_cpu_time_s``, ``sampler``.
@@ -241,7 +241,7 @@ def plan_tasks(study):
             tasks.append({
                 "index": k, "state_point": dataclasses.asdict(sp), "route": route,
                 "seed": [settings["seed"], k],
-                "initial_density_mol_m3": float(rho_i), "initial_density_how": str(how),
+                "initial_density_mol_m3": float(rho_i), "initial_density_from": str(how),
                 "particles": settings["particles"],
                 "target_stderr_K": settings["target_stderr_K"],
                 "max_cpu_time_s": settings["max_cpu_time_s"],
@@ -370,7 +370,7 @@ class _Task:
                                         n_samples=n_samples, interval=interval, seed=seed,
                                         path=path, attrs=attrs, progress=progress, **settings)
         except ConvergenceError:
-            # a short stage of a relaxing run (the partition route's filling stages) has no
+            # a short stage of a relaxing run (the direct route's filling stages) has no
             # settled mean of its own; the file is complete and its samples are all we need
             if not path.is_file():
                 raise
@@ -716,8 +716,8 @@ def _solve_or_extend(chain, solve):
                 raise
 
 
-def _partition(job):
-    from analysis.expansion import partition_route
+def _direct(job):
+    from analysis.expansion import direct_route
     from analysis.stats import mean_and_stderr
     from mdsim.engine.system import System
     u = job.units
@@ -746,15 +746,15 @@ def _partition(job):
 
     m_min = float(np.min(base.masses_a))
     crossing = box_f[2] / math.sqrt(T_i_red / m_min)
-    fill_steps = int(math.ceil(PARTITION_CROSSINGS * crossing / dt))
+    fill_steps = int(math.ceil(DIRECT_CROSSINGS * crossing / dt))
     per = 25
-    interval = max(1, fill_steps // (PARTITION_SNAPSHOTS * per))
+    interval = max(1, fill_steps // (DIRECT_SNAPSHOTS * per))
     nve = _Chain(job, "nve", 1, make_f, "md-nve", md_settings={"time_step": dt},
                  key="temperature_inst")
     nve.interval = interval
 
     e_canonical = None
-    for k in range(PARTITION_SNAPSHOTS):
+    for k in range(DIRECT_SNAPSHOTS):
         name = f"nve-fill{k:02d}"
         prev = nve.results[-1] if nve.results else start
         final = _store.read_final(prev.path)
@@ -807,16 +807,16 @@ def _partition(job):
     kin = (3 * n - 3) / (2.0 * n)
     cv_res_i = init.summary()["c_v_res"]
     cv_red = kin + (max(0.0, cv_res_i.value) / job.r if cv_res_i.available else 0.0)
-    job.notes.append(f"partition route: c_v at the final state taken as the kinetic part plus the "
+    job.notes.append(f"direct route: c_v at the final state taken as the kinetic part plus the "
                      f"initial state's sampled residual part divided by r (dilute-gas scaling): "
                      f"{cv_red:.4g} k per particle")
-    job.notes.append("partition route: the NVE run starts with the velocities scaled so that its "
+    job.notes.append("direct route: the NVE run starts with the velocities scaled so that its "
                      "energy is the canonical mean energy of the initial state")
 
     def solve():
         s_i = init.samples()
         s_f = nve.samples()
-        return partition_route(s_f["temperature_inst"], s_f["u_model"], s_f["u_full"],
+        return direct_route(s_f["temperature_inst"], s_f["u_model"], s_f["u_full"],
                                s_i["u_model"], s_i["u_full"], T_i_red, base.n_particles,
                                job.eps_K, cv_red=cv_red, rho_f=job.rho_f)
 
@@ -856,7 +856,7 @@ def _partition(job):
         pressure = {"value": u.pressure_to_Pa(p.mean), "stderr": u.pressure_to_Pa(p.stderr)}
     except ConvergenceError:
         pressure = None
-    job.notes.append("partition route: MD conserves the truncated-and-shifted model energy; T_f "
+    job.notes.append("direct route: MD conserves the truncated-and-shifted model energy; T_f "
                      "is corrected to the full potential (see the notes of the solver)")
     extra = {"time_step_red": dt, "fill_steps": fill_steps, "sample_interval_steps": interval,
              "nve_samples": int(s_f["temperature_inst"].size)}
@@ -888,13 +888,13 @@ def _start_at_canonical_energy(system, start, T_i_red, dt):
     k_now = float(probe.obs[4])
     k_target = n * e_canonical - (u - shifts)
     if not (k_target > 0 and k_now > 0):
-        raise SimulationError(f"partition route: the expanded configuration's model energy "
+        raise SimulationError(f"direct route: the expanded configuration's model energy "
                               f"{(u - shifts) / n:.6g} per particle is above the initial state's "
                               f"mean energy {e_canonical:.6g}; use more particles")
     return np.asarray(system.v_ni, dtype=float) * math.sqrt(k_target / k_now), e_canonical
 
 
-ROUTE_RUNNERS = {"energy": _energy, "microcanonical": _microcanonical, "partition": _partition}
+ROUTE_RUNNERS = {"energy": _energy, "microcanonical": _microcanonical, "direct": _direct}
 
 
 # -- task files -----------------------------------------------------------------------------

@@ -41,7 +41,7 @@ Tables read here:
 ``[expansion]``
     ``volume_ratio`` (V_f / V_i, a plain number > 1).
 ``[simulation]``
-    ``routes`` (any of "energy", "microcanonical", "partition"; default
+    ``routes`` (any of "energy", "microcanonical", "direct"; default
     ["energy"]; [] for the virial routes only), ``particles`` (optional:
     chosen by the tool from the target when absent), ``target_stderr``
     ("0.05 K"), ``max_cpu_time`` ("10 min"), ``seed`` (int, default 1),
@@ -52,8 +52,8 @@ Tables read here:
     (:mod:`mdsim.study.statepoints`).
 ``[cluster]``
     For the dask and array executors: ``system`` ("slurm", "pbs"),
-    ``partition``, ``cores``, ``memory`` ("4GB"), ``walltime``
-    ("HH:MM:SS" or "D-HH:MM:SS"), ``interface``, ``jobs``, ``address``
+    ``partition``, ``cpus_per_job``, ``memory_per_job`` ("4GB"), ``time_limit``
+    ("HH:MM:SS" or "D-HH:MM:SS"), ``network_interface``, ``batch_jobs``, ``address``
     (an existing Dask scheduler, "tcp://host:8786").
 
 The run tables are validated here and kept as dictionaries of converted
@@ -83,6 +83,7 @@ from pathlib import Path
 
 import numpy as np
 
+from mdsim.study.routes import DEFAULT_ROUTES, RENAMED_ROUTES, SIMULATION_ROUTES as ROUTES
 from mdsim.errors import StudyError
 from mdsim.engine.potentials import Exp6, LennardJones, Mie, PairMatrix, read_table
 from mdsim.units import ReducedUnits, parse_epsilon_K, parse_quantity, R_GAS
@@ -173,10 +174,8 @@ SCHEMA = {
     },
 }
 
-ROUTES = ("energy", "microcanonical", "partition")
 SAMPLERS = ("mc", "md")
 CLUSTER_SYSTEMS = ("slurm", "pbs")
-DEFAULT_ROUTES = ("energy",)
 # Densest state accepted: close-packed spheres of diameter sigma, rho sigma^3 = sqrt(2).
 CLOSE_PACKED_DENSITY_RED = math.sqrt(2.0)
 TEMPERATURE_RANGE_K = (1e-3, 1e5)
@@ -237,17 +236,18 @@ SCHEMA.update({
                       help="the batch scheduler of the cluster"),
         "partition": Key("string", pattern=r"^[A-Za-z0-9_.\-]+$", example='"compute"',
                          help="the scheduler's partition or queue"),
-        "cores": Key("int", default=1, low=1, high=1024, low_inclusive=True, example="4",
-                     help="cores per job"),
-        "memory": Key("string", default="2GB",
+        "cpus_per_job": Key("int", default=1, low=1, high=1024, low_inclusive=True, example="4",
+                            help="CPU cores of each batch job"),
+        "memory_per_job": Key("string", default="2GB",
                       pattern=r"^\d+(\.\d+)?\s*([KMGT]i?B)$", example='"4GB"',
-                      help="memory per job: a number and KB, MB, GB, TB (or KiB, MiB, ...)"),
-        "walltime": Key("string", default="01:00:00",
+                      help="memory of each batch job: a number and KB, MB, GB, TB (or KiB, "
+                      "MiB, ...)"),
+        "time_limit": Key("string", default="01:00:00",
                         pattern=r"^(\d+-)?\d{1,3}:[0-5]\d:[0-5]\d$", example='"02:00:00"',
-                        help="HH:MM:SS or D-HH:MM:SS"),
-        "interface": Key("string", pattern=r"^[A-Za-z0-9_.\-]+$", example='"ib0"',
-                         help="network interface of the workers"),
-        "jobs": Key("int", default=1, low=1, high=10000, low_inclusive=True, example="4",
+                        help="the time limit of each batch job, HH:MM:SS or D-HH:MM:SS"),
+        "network_interface": Key("string", pattern=r"^[A-Za-z0-9_.\-]+$", example='"ib0"',
+                         help="network interface the workers talk over"),
+        "batch_jobs": Key("int", default=1, low=1, high=10000, low_inclusive=True, example="4",
                     help="number of batch jobs (Dask workers) to start"),
         "address": Key("string", pattern=r"^(tcp|tls|ucx|inproc|ws|wss)://\S+$",
                        example='"tcp://10.0.0.1:8786"',
@@ -369,6 +369,10 @@ def _check_value(ctx, table, key, value, spec):
             ctx.fail(table, key, value, "must be a list of route names",
                      ", ".join(f'"{c}"' for c in spec.choices), ex)
         for v in value:
+            if v in RENAMED_ROUTES and RENAMED_ROUTES[v] in spec.choices:
+                ctx.fail(table, key, value, f"the route '{v}' is now called "
+                         f"'{RENAMED_ROUTES[v]}'", ", ".join(f'"{c}"' for c in spec.choices),
+                         f"write \"{RENAMED_ROUTES[v]}\" instead")
             if v not in spec.choices:
                 close = difflib.get_close_matches(v, spec.choices, n=1, cutoff=0.4)
                 hint = f"did you mean '{close[0]}'?" if close else ex
@@ -413,6 +417,13 @@ def _check_value(ctx, table, key, value, spec):
     return out
 
 
+#: Keys that earlier versions of the tool read, by table, and their names now.
+RENAMED_KEYS = {
+    "cluster": {"cores": "cpus_per_job", "memory": "memory_per_job", "walltime": "time_limit",
+                "interface": "network_interface", "jobs": "batch_jobs"},
+}
+
+
 def _check_table(ctx, table, data, schema, allowed=None):
     """Check the keys of one table; return {key: converted value} with defaults."""
     if not isinstance(data, dict):
@@ -421,6 +432,10 @@ def _check_table(ctx, table, data, schema, allowed=None):
     out = {}
     for key, value in data.items():
         if key not in valid:
+            new = RENAMED_KEYS.get(table, {}).get(key)
+            if new in valid:
+                ctx.fail(table, key, value, f"the key '{key}' is now called '{new}'", "",
+                         f"write {new} = {value!r}".replace("'", '"'))
             hint = _suggest(key, valid)
             if key in schema:
                 hint = f"'{key}' does not belong here; {hint}"
@@ -899,7 +914,7 @@ class Study:
         ``simulation`` ``routes``, ``particles`` (absent: the tool
         chooses), ``target_stderr`` (K), ``max_cpu_time`` (s), ``seed``,
         ``sampler``; ``sweep`` lists of SI values; ``cluster`` the
-        scheduler settings (``cores``, ``memory``, ``walltime``, ``jobs``
+        scheduler settings (``cpus_per_job``, ``memory_per_job``, ``time_limit``, ``batch_jobs``
         always present).
     raw : dict
         The whole parsed file.

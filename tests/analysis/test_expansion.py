@@ -169,9 +169,9 @@ def test_microcanonical_exact_harmonic_check():
         math.hypot(res.final_temperature_stderr_K, 0.002 / 1.5 * eps_K), rel=1e-12)
 
 
-# --- partition route ------------------------------------------------------------------
+# --- direct route ------------------------------------------------------------------
 
-def test_partition_route_bookkeeping():
+def test_direct_route_bookkeeping():
     # a synthetic NVE run: the temperature relaxes from 2.0 to 1.95 and the model
     # energy E = K + u_model stays constant, 0.01 above the canonical mean of the
     # initial state; <u_full - u_model> goes from -0.02 (initial) to -0.01 (final).
@@ -182,7 +182,7 @@ def test_partition_route_bookkeeping():
     T_t = 1.95 + 0.05 * np.exp(-np.arange(3000) / 100.0) + 0.01 * rng.normal(size=3000)
     E = kin * 2.0 + u_model_i.mean() + 0.01
     u_model_t = E - kin * T_t
-    res = ex.partition_route(T_t, u_model_t, u_model_t - 0.01, u_model_i, u_model_i - 0.02,
+    res = ex.direct_route(T_t, u_model_t, u_model_t - 0.01, u_model_i, u_model_i - 0.02,
                              T_i_red=2.0, n_particles=N, epsilon_K=eps_K)
     # closed form: T_f = 1.95 - 0.01 / kin (anchor) - (-0.01 + 0.02) / kin (full potential)
     expected = (1.95 - 0.01 / kin - 0.01 / kin) * eps_K
@@ -192,10 +192,10 @@ def test_partition_route_bookkeeping():
     assert res.warnings == []
 
 
-def test_partition_route_ideal_gas():
+def test_direct_route_ideal_gas():
     N = 64
     zeros = np.zeros(100)
-    res = ex.partition_route(np.full(100, 1.3), zeros, zeros, zeros, zeros, 1.3, N, 100.0)
+    res = ex.direct_route(np.full(100, 1.3), zeros, zeros, zeros, zeros, 1.3, N, 100.0)
     assert res.delta_T_K == pytest.approx(0.0, abs=1e-12)  # ideal gas: no change (closed form)
 
 

@@ -57,11 +57,15 @@ def _wait_until_finished(run_dir, cluster, timeout=WAIT_S):
 def _local_pool(tmp_path, study, name="local"):
     """The same study on the local process pool (no report): the uninterrupted local numbers."""
     from mdsim.cli.cmd_run import prepare_run_dir
-    from mdsim.execute.executors import run_local
+    import functools
+
+    from mdsim.execute.local import run_local
+    from mdsim.pipeline.jobs import task_job
     from mdsim.study.reader import read_study
     rd, tasks = prepare_run_dir(read_study(study), tmp_path / name)
     indices = [t["index"] for t in tasks]
-    assert run_local(rd.path, indices, workers=min(2, len(indices))) == {k: None for k in indices}
+    assert run_local(functools.partial(task_job, str(rd.path)), indices,
+                     workers=min(2, len(indices))) == {k: None for k in indices}
     return _results(rd.path)
 
 
@@ -198,8 +202,9 @@ def test_a_dask_job_queue_cluster_on_slurm_gives_the_numbers_of_the_local_pool(
         slurm_cluster, tmp_path, monkeypatch):
     pytest.importorskip("dask_jobqueue")
     monkeypatch.chdir(tmp_path)
-    cluster = ('[cluster]\nsystem = "slurm"\npartition = "debug"\ncores = 1\n'
-               'memory = "1GB"\nwalltime = "00:10:00"\ninterface = "lo"\njobs = 2\n')
+    cluster = ('[cluster]\nsystem = "slurm"\npartition = "debug"\ncpus_per_job = 1\n'
+               'memory_per_job = "1GB"\ntime_limit = "00:10:00"\nnetwork_interface = "lo"\n'
+               'batch_jobs = 2\n')
     study = write_study(tmp_path, extra=SWEEP + "\n" + cluster, initial_T="")
     dask = tmp_path / "dask"
     proc = _cli("run", str(study), "--out", str(dask), "--executor", "dask", "--quiet",

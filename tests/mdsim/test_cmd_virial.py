@@ -30,12 +30,12 @@ def test_virial_runs_on_every_example(capsys, path):
     assert out["study"] == study.name
     assert len(out["state_points"]) == len(study.state_points())
     for rec in out["state_points"]:
-        assert set(rec["delta_T_K"]) == {"virial_b2", "virial_b3"}
+        assert set(rec["delta_T_K"]) == {"virial_b2", "virial_b2b3"}
         for entry in rec["delta_T_K"].values():
             assert entry["stderr"] is None and np.isfinite(entry["value"])
         assert set(rec["virial"]) >= {"B2_m3_mol", "dB2_dT_m3_molK", "B3_m6_mol2",
                                       "dB3_dT_m6_mol2K"}
-        assert rec["final"]["source"] == "virial_b3"
+        assert rec["final"]["source"] == "virial_b2b3"
         assert isinstance(rec["warnings"], list)
     assert main(["virial", str(path)]) == 0
     assert "Delta T, B2 + B3" in capsys.readouterr().out
@@ -53,12 +53,12 @@ def test_virial_numbers_against_analysis(capsys):
         res = virial_expansion(gas, cv, T, sp.volume_ratio, rho_i=rho, order=3)
         assert rec["initial"]["temperature_K"] == T and rec["initial"]["pressure_Pa"] == p
         # same functions, same inputs: round-off only
-        assert rec["delta_T_K"]["virial_b3"]["value"] == pytest.approx(res.delta_T_K, rel=1e-10)
+        assert rec["delta_T_K"]["virial_b2b3"]["value"] == pytest.approx(res.delta_T_K, rel=1e-10)
         assert rec["delta_T_K"]["virial_b2"]["value"] == pytest.approx(res.delta_T_B2_K, rel=1e-10)
         assert rec["virial"]["B2_m3_mol"] == pytest.approx(gas.B(T), rel=1e-12)
         assert rec["virial"]["B3_m6_mol2"] == pytest.approx(gas.C(T), rel=1e-12)
     # the cooling grows with the fill pressure (ordering of the sweep: pressure inner)
-    dT = [rec["delta_T_K"]["virial_b3"]["value"] for rec in out["state_points"][:4]]
+    dT = [rec["delta_T_K"]["virial_b2b3"]["value"] for rec in out["state_points"][:4]]
     assert dT == sorted(dT, reverse=True)
 
 
@@ -67,7 +67,7 @@ def test_table_potential_reproduces_lennard_jones(capsys):
     tab = run_json(capsys, "virial", str(CONFIGS / "argon_table.toml"), "--json")["state_points"][0]
     # the table holds the same LJ potential from 0.85 to 12 sigma; beyond 12 sigma it is cut
     # (B2 misses ~0.2 % there, dB2/dT less); 0.2 % on Delta T covers it
-    for route in ("virial_b2", "virial_b3"):
+    for route in ("virial_b2", "virial_b2b3"):
         assert tab["delta_T_K"][route]["value"] == pytest.approx(
             lj["delta_T_K"][route]["value"], rel=2e-3)
 

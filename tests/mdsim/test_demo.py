@@ -59,7 +59,7 @@ def test_demo_virial_part(virial_json):
     points = virial_json["state_points"]
     assert len(points) == len(DEMO_PRESSURES_BAR)
     b2 = np.array([p["delta_T_K"]["virial_b2"]["value"] for p in points])
-    b3 = np.array([p["delta_T_K"]["virial_b3"]["value"] for p in points])
+    b3 = np.array([p["delta_T_K"]["virial_b2b3"]["value"] for p in points])
     assert np.all(b2 < 0) and np.all(b3 < 0)  # room temperature is far below the Joule inversion
     assert np.all(np.diff(b3) < 0)  # more cooling from a higher fill pressure
     # the B2-only estimate drifts away from B2+B3 as the fill pressure rises
@@ -91,9 +91,9 @@ def test_demo_sweep_reaches_where_b2_fails(demo, virial_json):
     refs = [_reference_delta_T_K(p["initial"]["temperature_K"], p["initial"]["density_mol_m3"],
                                  pot.epsilon, pot.sigma * 1e-10) for p in (first, last)]
     # 10 bar (rho* ~ 0.015): 0.5 %, the reference EOS's own dilute-gas accuracy (its B2 fit)
-    assert first["delta_T_K"]["virial_b3"]["value"] == pytest.approx(refs[0], rel=5e-3)
+    assert first["delta_T_K"]["virial_b2b3"]["value"] == pytest.approx(refs[0], rel=5e-3)
     assert first["delta_T_K"]["virial_b2"]["value"] == pytest.approx(refs[0], rel=5e-3)
     # 60 bar (rho* ~ 0.11): B2+B3 still within 2 % (the omitted B4 term), B2 alone is off by
     # more than 3 % (4.5 % here): the demo's sweep reaches the range where B2 is not enough
-    assert last["delta_T_K"]["virial_b3"]["value"] == pytest.approx(refs[1], rel=0.02)
+    assert last["delta_T_K"]["virial_b2b3"]["value"] == pytest.approx(refs[1], rel=0.02)
     assert abs(last["delta_T_K"]["virial_b2"]["value"] / refs[1] - 1.0) > 0.03

@@ -255,7 +255,10 @@ def test_a_second_run_is_refused_and_a_dead_owners_lock_taken_over(reference, tm
 def test_a_killed_dask_worker_s_task_is_retried_to_the_same_numbers(reference, tmp_path):
     pytest.importorskip("distributed")
     from dask.distributed import Client, LocalCluster
-    from mdsim.execute.executors import run_dask
+    import functools
+
+    from mdsim.execute.dask import run_dask
+    from mdsim.pipeline.jobs import task_job
     study, expected, _ = reference
     rd, _ = make_run_dir(tmp_path, study)
     cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
@@ -264,7 +267,8 @@ def test_a_killed_dask_worker_s_task_is_retried_to_the_same_numbers(reference, t
     try:
         outcome = {}
         runner = threading.Thread(target=lambda: outcome.update(
-            run_dask(rd.path, [0], address=cluster.scheduler_address)))
+            run_dask(functools.partial(task_job, str(rd.path)), [0],
+                     address=cluster.scheduler_address)))
         runner.start()
         stages = rd.stages_dir(0)
         deadline = time.time() + 120

@@ -42,16 +42,16 @@ volume_ratio = 2.0
 pressure = ["10 bar", "30 bar"]
 
 [simulation]
-routes = ["energy", "microcanonical", "partition"]
+routes = ["energy", "microcanonical", "direct"]
 particles = 64
 target_stderr = "1 K"
 max_cpu_time = "20 s"
 seed = 3
 """
 
-ROUTES_PER_POINT = ("virial_b2", "virial_b3", "energy", "microcanonical", "partition")
+ROUTES_PER_POINT = ("virial_b2", "virial_b2b3", "energy", "microcanonical", "direct")
 N_POINTS = 2
-N_TASKS = 6  # 2 state points x 3 simulation routes, energy-microcanonical-partition
+N_TASKS = 6  # 2 state points x 3 simulation routes, energy-microcanonical-direct
 
 
 @pytest.fixture(scope="module")
@@ -86,7 +86,7 @@ def test_every_file_is_written(run_dir, summary):
     stems = {p.stem for p in plots.glob("*.png")}
     assert {"delta_T", "inversion"} <= stems
     assert sum(s.startswith("energy_") for s in stems) == N_POINTS
-    assert sum(s.startswith("partition_") for s in stems) == N_POINTS
+    assert sum(s.startswith("direct_") for s in stems) == N_POINTS
     assert sum(s.startswith("microcanonical_") for s in stems) == N_POINTS
     for stem in stems:
         assert (plots / f"{stem}.pdf").is_file(), stem
@@ -135,7 +135,7 @@ def test_low_pressure_simulation_agrees_with_virial(summary):
     # Fact of the trade (no source): the virial series is exact at low density, so at
     # 10 bar (rho* ~ 0.015) the energy route must match B2+B3 within its error bar.
     p = summary["state_points"][0]
-    sim, vir = p["delta_T_K"]["energy"], p["delta_T_K"]["virial_b3"]
+    sim, vir = p["delta_T_K"]["energy"], p["delta_T_K"]["virial_b2b3"]
     # 4 standard errors: a fixed-seed check that is not a coin toss
     assert abs(sim["value"] - vir["value"]) < 4.0 * sim["stderr"]
 
@@ -197,7 +197,7 @@ def test_report_md_has_cautions_settings_and_results(run_dir, summary):
 
 @pytest.fixture()
 def damaged_copy(run_dir, tmp_path):
-    """The run with task 2 (partition, point 0) never run and task 3 (energy, point 1) failed."""
+    """The run with task 2 (direct, point 0) never run and task 3 (energy, point 1) failed."""
     copy = tmp_path / "copy"
     shutil.copytree(run_dir, copy)
     (copy / "tasks" / "0002.h5").unlink()
@@ -213,20 +213,20 @@ def test_missing_and_failed_tasks_are_listed(damaged_copy):
     out = build_report(damaged_copy, plots=False)
     assert out["tasks"]["done"] == [0, 1, 4, 5]
     assert [m["index"] for m in out["tasks"]["missing"]] == [2]
-    assert out["tasks"]["missing"][0]["route"] == "partition"
+    assert out["tasks"]["missing"][0]["route"] == "direct"
     assert [f["index"] for f in out["tasks"]["failed"]] == [3]
     assert "out of memory" in out["tasks"]["failed"][0]["error"]
     # the routes without a result are absent from the records, not filled in
-    assert "partition" not in out["state_points"][0]["delta_T_K"]
+    assert "direct" not in out["state_points"][0]["delta_T_K"]
     assert "energy" not in out["state_points"][1]["delta_T_K"]
     text = (damaged_copy / "report.md").read_text(encoding="utf-8")
-    assert "task 2 (partition, state point 0): not run" in text
+    assert "task 2 (direct, state point 0): not run" in text
     assert "task 3 (energy, state point 1): FAILED: the sampler ran out of memory" in text
     _, rows = _read_csv(damaged_copy / "results.csv")
     status = {(r["state_point_index"], r["route"]): r["status"] for r in rows}
-    assert status[("0", "partition")] == "missing (not run)"
+    assert status[("0", "direct")] == "missing (not run)"
     assert status[("1", "energy")] == "failed"
-    assert status[("1", "partition")] == "done"
+    assert status[("1", "direct")] == "done"
     assert len(rows) == N_POINTS * len(ROUTES_PER_POINT)  # nothing dropped
 
 

@@ -308,8 +308,9 @@ def test_run_tables_converted_with_defaults(tmp_path):
     sim = study.simulation
     assert sim["routes"] == ["energy"] and sim["particles"] == 500 and sim["sampler"] == "md"
     assert sim["max_cpu_time"] == 7200.0 and sim["target_stderr"] == 0.05 and sim["seed"] == 1
-    assert study.cluster == {"system": "slurm", "address": "tcp://10.0.0.1:8786", "cores": 1,
-                             "memory": "2GB", "walltime": "01:00:00", "jobs": 1}
+    assert study.cluster == {"system": "slurm", "address": "tcp://10.0.0.1:8786",
+                             "cpus_per_job": 1, "memory_per_job": "2GB",
+                             "time_limit": "01:00:00", "batch_jobs": 1}
     # particles left out: absent, so the tool chooses
     assert "particles" not in read_study(write(tmp_path, RUN)).simulation
 
@@ -331,7 +332,8 @@ def test_empty_routes_means_virial_only(tmp_path):
     ("expansion", "volume_ratio = 1.0", "'volume_ratio'.*out of range"),
     ("expansion", "volume_ratio = 0.5", "'volume_ratio'.*out of range"),
     ("expansion", 'volume_ratio = "2"', "'volume_ratio'.*plain number"),
-    ("simulation", 'routes = ["energy", "partiton"]', "'routes'.*did you mean 'partition'"),
+    ("simulation", 'routes = ["energy", "direkt"]', "'routes'.*did you mean 'direct'"),
+    ("simulation", 'routes = ["partition"]', "'routes'.*'partition' is now called 'direct'"),
     ("simulation", 'routes = "energy"', "'routes'.*list of route names"),
     ("simulation", 'routes = ["energy", "energy"]', "'routes'.*listed twice"),
     ("simulation", "particles = 10", "'particles'.*out of range"),
@@ -343,13 +345,18 @@ def test_empty_routes_means_virial_only(tmp_path):
     ("simulation", "seed = -1", "'seed'.*out of range"),
     ("simulation", 'sampler = "bd"', "'sampler'.*unknown choice"),
     ("cluster", 'system = "sge"', "'system'.*unknown choice"),
-    ("cluster", 'memory = "lots"', "'memory'.*expected format"),
-    ("cluster", 'walltime = "2 hours"', "'walltime'.*expected format"),
-    ("cluster", "cores = 0", "'cores'.*out of range"),
-    ("cluster", "jobs = 0", "'jobs'.*out of range"),
+    ("cluster", 'memory_per_job = "lots"', "'memory_per_job'.*expected format"),
+    ("cluster", 'time_limit = "2 hours"', "'time_limit'.*expected format"),
+    ("cluster", "cpus_per_job = 0", "'cpus_per_job'.*out of range"),
+    ("cluster", "batch_jobs = 0", "'batch_jobs'.*out of range"),
+    ("cluster", "cores = 4", "'cores' is now called 'cpus_per_job'"),
+    ("cluster", 'memory = "4GB"', "'memory' is now called 'memory_per_job'"),
+    ("cluster", 'walltime = "01:00:00"', "'walltime' is now called 'time_limit'"),
+    ("cluster", 'interface = "ib0"', "'interface' is now called 'network_interface'"),
+    ("cluster", "jobs = 2", "'jobs' is now called 'batch_jobs'"),
     ("cluster", 'address = "10.0.0.1"', "'address'.*expected format"),
     ("cluster", 'partition = "a b"', "'partition'.*expected format"),
-    ("cluster", 'interface = ""', "'interface'.*expected format"),
+    ("cluster", 'network_interface = ""', "'network_interface'.*expected format"),
     ("cluster", 'sytem = "slurm"', "did you mean 'system'"),
 ])
 def test_run_table_errors(tmp_path, table, line, fragment):

@@ -33,7 +33,7 @@ def test_virial_summary_matches_the_analysis_package(argon):
     tight = dict(rel=1e-10)  # same computation, round-off only
     assert vs["initial"]["density_mol_m3"] == pytest.approx(rho, **tight)
     assert vs["initial"]["pressure_Pa"] == 22e5
-    assert vs["delta_T_K"]["virial_b3"] == {"value": pytest.approx(b3.delta_T_K, **tight),
+    assert vs["delta_T_K"]["virial_b2b3"] == {"value": pytest.approx(b3.delta_T_K, **tight),
                                            "stderr": None}
     assert vs["delta_T_K"]["virial_b2"]["value"] == pytest.approx(b2.delta_T_K, **tight)
     assert vs["final"]["temperature_K"] == pytest.approx(b3.final_temperature_K, **tight)
@@ -45,7 +45,7 @@ def test_virial_summary_matches_the_analysis_package(argon):
     # argon cools in a free expansion at room temperature (fact of the trade, no source), and
     # the entropy generated is near the ideal-gas R ln 2 (closed form; 2 %: the residual part
     # at 22 bar is about 1 %)
-    assert vs["delta_T_K"]["virial_b3"]["value"] < 0
+    assert vs["delta_T_K"]["virial_b2b3"]["value"] < 0
     assert vs["entropy_generated_J_molK"] == pytest.approx(8.314462618 * math.log(2), rel=0.02)
 
 
@@ -54,7 +54,7 @@ def test_air_cools_by_about_three_kelvin():
     # about 3 K (common practice, no source); "about" taken as +/- 1 K.
     study = read_study(CONFIGS / "air.toml")
     vs = virial_summary(study, study.state_points()[0])
-    assert -4.0 < vs["delta_T_K"]["virial_b3"]["value"] < -2.0
+    assert -4.0 < vs["delta_T_K"]["virial_b2b3"]["value"] < -2.0
 
 
 def result(dT, s, T_f, rho_f, route_warn=()):
@@ -70,7 +70,7 @@ def test_record_shape_and_route_preference(argon):
     vs = virial_summary(argon, sp)
     rho_f = vs["initial"]["density_mol_m3"] / 2
     T_b3 = vs["final"]["temperature_K"]
-    routes = {"partition": result(-5.3, 0.1, 295.15 - 5.3, rho_f),
+    routes = {"direct": result(-5.3, 0.1, 295.15 - 5.3, rho_f),
               "microcanonical": result(-5.5, 0.05, 295.15 - 5.5, rho_f, ["slow"])}
     rec = state_point_record(argon, sp, routes)
     json.dumps(rec)  # JSON-ready
@@ -78,9 +78,9 @@ def test_record_shape_and_route_preference(argon):
                         "warnings", "virial"}
     for key in ("temperature_K", "pressure_Pa", "density_mol_m3"):
         assert key in rec["initial"] and key in rec["final"]
-    assert list(rec["delta_T_K"]) == ["virial_b2", "virial_b3", "microcanonical", "partition"]
-    assert rec["delta_T_K"]["partition"] == {"value": -5.3, "stderr": 0.1}
-    # microcanonical is preferred over partition, and over the virial route
+    assert list(rec["delta_T_K"]) == ["virial_b2", "virial_b2b3", "microcanonical", "direct"]
+    assert rec["delta_T_K"]["direct"] == {"value": -5.3, "stderr": 0.1}
+    # microcanonical is preferred over direct, and over the virial route
     assert rec["final"]["source"] == "microcanonical"
     assert rec["final"]["temperature_K"] == pytest.approx(295.15 - 5.5)
     assert "microcanonical: slow" in rec["warnings"]
@@ -89,9 +89,9 @@ def test_record_shape_and_route_preference(argon):
     assert state_point_record(argon, sp, routes)["final"]["source"] == "energy"
     # no simulation: the virial B2+B3 final state
     rec = state_point_record(argon, sp, {})
-    assert rec["final"]["source"] == "virial_b3"
+    assert rec["final"]["source"] == "virial_b2b3"
     assert rec["final"]["temperature_K"] == pytest.approx(T_b3, rel=1e-12)
-    assert set(rec["delta_T_K"]) == {"virial_b2", "virial_b3"}
+    assert set(rec["delta_T_K"]) == {"virial_b2", "virial_b2b3"}
     with pytest.raises(StudyError, match="unknown route"):
         state_point_record(argon, sp, {"virial": {}})
 
@@ -100,7 +100,7 @@ def test_disagreement_with_simulation_is_a_warning(argon):
     sp = argon.state_points()[0]
     vs = virial_summary(argon, sp)
     rho_f = vs["initial"]["density_mol_m3"] / 2
-    dT = vs["delta_T_K"]["virial_b3"]["value"]
+    dT = vs["delta_T_K"]["virial_b2b3"]["value"]
     agree = state_point_record(argon, sp, {"energy": result(dT + 0.01, 0.02, 290, rho_f)},
                                virial=vs)
     assert not any("standard errors apart" in w for w in agree["warnings"])
@@ -118,8 +118,8 @@ def test_dense_state_keeps_simulation_results(tmp_path):
     study = read_study(path)
     sp = study.state_points()[0]
     rec = state_point_record(study, sp, {"energy": result(-40.0, 0.5, 255.0, 15000.0)})
-    assert "virial_b3" not in rec["delta_T_K"] and "virial_b2" not in rec["delta_T_K"]
-    assert any("virial_b3: not available" in w for w in rec["warnings"])
+    assert "virial_b2b3" not in rec["delta_T_K"] and "virial_b2" not in rec["delta_T_K"]
+    assert any("virial_b2b3: not available" in w for w in rec["warnings"])
     assert rec["final"]["source"] == "energy"
     assert rec["entropy_generated_J_molK"] is None
     assert rec["initial"]["density_mol_m3"] == 30000.0

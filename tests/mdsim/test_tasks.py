@@ -56,12 +56,12 @@ def make_run_dir(tmp_path, study_path, name="run"):
 
 def test_plan_one_task_per_state_point_and_route(tmp_path):
     extra = '[sweep]\ntemperature = ["150 K", "200 K"]'
-    study = read_study(write_study(tmp_path, routes='["energy", "partition"]', extra=extra,
+    study = read_study(write_study(tmp_path, routes='["energy", "direct"]', extra=extra,
                                    initial_T=""))
     tasks = plan_tasks(study)
     assert len(tasks) == 4  # 2 state points x 2 routes
     assert [t["index"] for t in tasks] == [0, 1, 2, 3]
-    assert [t["route"] for t in tasks] == ["energy", "partition"] * 2
+    assert [t["route"] for t in tasks] == ["energy", "direct"] * 2
     assert [t["state_point"]["index"] for t in tasks] == [0, 0, 1, 1]
     assert [t["seed"] for t in tasks] == [[3, 0], [3, 1], [3, 2], [3, 3]]
     assert tasks[2]["state_point"]["temperature_K"] == pytest.approx(200.0)
@@ -86,9 +86,9 @@ def test_microcanonical_route_refuses_a_molecular_heat_capacity(tmp_path):
         plan_tasks(study)
 
 
-def test_partition_route_refuses_molecules(tmp_path):
-    study = read_study(write_study(tmp_path, routes='["partition"]', cv="2.5 R", dof=5))
-    with pytest.raises(StudyError, match="partition route simulates atoms"):
+def test_direct_route_refuses_molecules(tmp_path):
+    study = read_study(write_study(tmp_path, routes='["direct"]', cv="2.5 R", dof=5))
+    with pytest.raises(StudyError, match="direct route simulates atoms"):
         plan_tasks(study)
 
 
@@ -133,7 +133,7 @@ def test_three_routes_agree_with_each_other_and_the_virial_limit(tmp_path):
     """
     from analysis.expansion import virial_expansion
     from mdsim.study.statepoints import ideal_heat_capacity, virial_gas
-    path = write_study(tmp_path, routes='["energy", "microcanonical", "partition"]',
+    path = write_study(tmp_path, routes='["energy", "microcanonical", "direct"]',
                        target="0.3 K")
     rd, tasks = make_run_dir(tmp_path, path)
     results = [run_task(rd.path, k) for k in range(len(tasks))]
@@ -158,7 +158,7 @@ def test_three_routes_agree_with_each_other_and_the_virial_limit(tmp_path):
         "energy": {"newton_T_K", "newton_u_res_J_mol", "newton_u_res_stderr_J_mol",
                    "initial_T_K", "initial_u_res_J_mol", "initial_u_res_stderr_J_mol"},
         "microcanonical": {"kinetic_temperature_K_t"},
-        "partition": {"time_s", "temperature_K_t", "profile_z_fraction", "density_profile_tz"},
+        "direct": {"time_s", "temperature_K_t", "profile_z_fraction", "density_profile_tz"},
     }
     for k, t in enumerate(tasks):
         task, res, series = read_task_result(rd.task_file(k))
@@ -186,3 +186,22 @@ def test_a_complete_task_is_read_back_not_run_again(tmp_path):
     assert again == first
     assert rd.task_file(0).stat().st_mtime_ns == stamp
     assert first["delta_T_K"]["stderr"] <= 0.5
+
+
+@pytest.mark.parametrize("old_field, old_route, words", [
+    ("initial_density_how", "energy", "field 'initial_density_how' (now 'initial_density_from')"),
+    ("initial_density_from", "partition", "route 'partition' (now 'direct')"),
+])
+def test_a_run_directory_of_an_earlier_layout_is_refused_by_name(tmp_path, old_field, old_route,
+                                                                   words):
+    """A tasks.json written by an earlier version names old routes or fields: refused, not mixed."""
+    import json
+    rd, tasks = make_run_dir(tmp_path, write_study(tmp_path))
+    old = [dict(t) for t in tasks]
+    for t in old:
+        t[old_field] = t.pop("initial_density_from")
+        t["route"] = old_route
+    (rd.path / "tasks.json").write_text(json.dumps(old))
+    with pytest.raises(StudyError, match="earlier version of the tool") as err:
+        rd.read_tasks()
+    assert words in str(err.value)
