@@ -311,8 +311,11 @@ def test_run_tables_converted_with_defaults(tmp_path):
     assert study.cluster == {"system": "slurm", "address": "tcp://10.0.0.1:8786",
                              "cpus_per_job": 1, "memory_per_job": "2GB",
                              "time_limit": "01:00:00", "batch_jobs": 1}
-    # particles left out: absent, so the tool chooses
-    assert "particles" not in read_study(write(tmp_path, RUN)).simulation
+    # no [simulation] table: every key present with its schema default (particles None:
+    # the tool chooses); "10 min" is 600 s
+    assert read_study(write(tmp_path, RUN)).simulation == {
+        "routes": ["energy"], "particles": None, "target_stderr": 0.05, "max_cpu_time": 600.0,
+        "seed": 1, "sampler": "mc"}
 
 
 def test_empty_routes_means_virial_only(tmp_path):
