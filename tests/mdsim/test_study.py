@@ -1,5 +1,6 @@
 """Study files: schema validation, potentials in K and angstrom, systems in reduced units."""
 import math
+import os
 import textwrap
 from pathlib import Path
 
@@ -465,3 +466,17 @@ def test_k_ij_by_species_names(tmp_path):
                                                    'k_ij = { "oxygn-nitrogen" = 0.02 }')))
     with pytest.raises(StudyError, match="not two species names"):
         read_study(write(tmp_path, MIXTURE.replace("k_ij = 0.02", 'k_ij = { "oxygen" = 0.02 }')))
+
+
+@pytest.mark.parametrize("kind, fragment", [("directory", "is a directory"),
+                                            ("fifo", "not a regular file"),
+                                            ("missing", "does not exist")])
+def test_heat_capacity_file_must_be_a_regular_file(tmp_path, kind, fragment):
+    # a pipe would be read for ever; each case names the key, the value and the problem
+    target = tmp_path / "cv.csv"
+    if kind == "directory":
+        target.mkdir()
+    elif kind == "fifo":
+        os.mkfifo(target)
+    with pytest.raises(StudyError, match=f"ideal_heat_capacity' = 'cv.csv'.*{fragment}"):
+        read_study(write(tmp_path, PURE.replace('"1.5 R"', '"cv.csv"')))
