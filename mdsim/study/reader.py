@@ -56,8 +56,8 @@ Tables read here:
     ("HH:MM:SS" or "D-HH:MM:SS"), ``network_interface``, ``batch_jobs``, ``address``
     (an existing Dask scheduler, "tcp://host:8786").
 
-The run tables are validated here and kept as dictionaries of converted
-values in SI (K, Pa, mol/m^3, s), with every default filled in:
+The run tables are validated (:mod:`mdsim.study.runtables`) and kept as
+dictionaries of converted values in SI (K, Pa, mol/m^3, s), with every default filled in:
 ``Study.initial``, ``.expansion``, ``.simulation``, ``.sweep`` (lists),
 ``.cluster``.  Absent ``[initial]``/``[expansion]`` tables are allowed
 (``mdsim sample`` needs neither); :meth:`Study.state_points` then says what
@@ -73,9 +73,11 @@ units of species 0.
 
 The reading is split along its ideas: :mod:`mdsim.study.schema` (every key,
 its kind, range and default), :mod:`mdsim.study.values` (checking a value,
-the error messages), :mod:`mdsim.study.gas` (the gas and its heat
-capacity), :mod:`mdsim.study.potential` (the pair potentials) and this
-module (the run tables, :class:`Study`, :func:`read_study`).
+the error messages), :mod:`mdsim.study.datafiles` (data files kept in the
+study's folder), :mod:`mdsim.study.potential` (the pair potentials),
+:mod:`mdsim.study.gas` (the gas and its heat capacity),
+:mod:`mdsim.study.runtables` (the run tables checked together) and this
+module (:class:`Study`, :func:`read_study`).
 """
 import dataclasses
 import os
