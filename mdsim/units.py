@@ -18,7 +18,11 @@ import numbers
 
 from scipy import constants as _const
 
+from mdsim.checks import positive
 from mdsim.errors import StudyError
+
+__all__ = ["K_B", "N_A", "R_GAS", "KINDS", "registry", "parse_quantity", "parse_epsilon_K",
+           "ReducedUnits"]
 
 K_B = _const.Boltzmann          # J/K
 N_A = _const.Avogadro           # 1/mol
@@ -176,6 +180,11 @@ class ReducedUnits:
     molar_mass_kg_mol : float
         Molar mass of the reference species, kg/mol.
 
+    Raises
+    ------
+    mdsim.errors.SettingError
+        When a scale is not a positive finite number.
+
     Notes
     -----
     T* = T / (eps/k);  rho* = rho_mol N_A sigma^3;  p* = p sigma^3 / eps;
@@ -185,13 +194,10 @@ class ReducedUnits:
     """
 
     def __init__(self, epsilon_K, sigma_m, molar_mass_kg_mol):
-        for name, v in (("epsilon_K", epsilon_K), ("sigma_m", sigma_m),
-                        ("molar_mass_kg_mol", molar_mass_kg_mol)):
-            if not isinstance(v, numbers.Real) or not math.isfinite(v) or v <= 0:
-                raise StudyError(f"reduced units: '{name}' = {v!r} must be a positive finite number")
-        self.epsilon_K = float(epsilon_K)
-        self.sigma_m = float(sigma_m)
-        self.molar_mass_kg_mol = float(molar_mass_kg_mol)
+        self.epsilon_K = positive("epsilon_K", epsilon_K, "the well depth epsilon/k in K")
+        self.sigma_m = positive("sigma_m", sigma_m, "the length unit sigma in m")
+        self.molar_mass_kg_mol = positive("molar_mass_kg_mol", molar_mass_kg_mol,
+                                          "the molar mass in kg/mol")
 
     # -- derived scales ------------------------------------------------------------
     @property

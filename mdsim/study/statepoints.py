@@ -26,6 +26,9 @@ import warnings
 
 from mdsim.errors import ConvergenceError, StudyError
 
+__all__ = ["StatePoint", "state_points", "resolve_initial_density", "virial_gas", "virial_warnings",
+           "ideal_heat_capacity", "MAX_STATE_POINTS", "PRESSURE_TO_DENSITY_ORDER"]
+
 # Largest number of state points one study may expand to.
 MAX_STATE_POINTS = 10000
 
@@ -67,7 +70,8 @@ class StatePoint:
         """The inverse of :meth:`as_dict`."""
         return cls(index=int(data["index"]), temperature_K=float(data["temperature_K"]),
                    volume_ratio=float(data["volume_ratio"]),
-                   pressure_Pa=None if data.get("pressure_Pa") is None else float(data["pressure_Pa"]),
+                   pressure_Pa=(None if data.get("pressure_Pa") is None
+                                else float(data["pressure_Pa"])),
                    density_mol_m3=(None if data.get("density_mol_m3") is None
                                    else float(data["density_mol_m3"])))
 

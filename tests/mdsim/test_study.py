@@ -1,5 +1,6 @@
 """Study files: schema validation, potentials in K and angstrom, systems in reduced units."""
 import math
+import os
 import textwrap
 from pathlib import Path
 
@@ -311,8 +312,11 @@ def test_run_tables_converted_with_defaults(tmp_path):
     assert study.cluster == {"system": "slurm", "address": "tcp://10.0.0.1:8786",
                              "cpus_per_job": 1, "memory_per_job": "2GB",
                              "time_limit": "01:00:00", "batch_jobs": 1}
-    # particles left out: absent, so the tool chooses
-    assert "particles" not in read_study(write(tmp_path, RUN)).simulation
+    # no [simulation] table: every key present with its schema default (particles None:
+    # the tool chooses); "10 min" is 600 s
+    assert read_study(write(tmp_path, RUN)).simulation == {
+        "routes": ["energy"], "particles": None, "target_stderr": 0.05, "max_cpu_time": 600.0,
+        "seed": 1, "sampler": "mc"}
 
 
 def test_empty_routes_means_virial_only(tmp_path):
@@ -462,3 +466,17 @@ def test_k_ij_by_species_names(tmp_path):
                                                    'k_ij = { "oxygn-nitrogen" = 0.02 }')))
     with pytest.raises(StudyError, match="not two species names"):
         read_study(write(tmp_path, MIXTURE.replace("k_ij = 0.02", 'k_ij = { "oxygen" = 0.02 }')))
+
+
+@pytest.mark.parametrize("kind, fragment", [("directory", "is a directory"),
+                                            ("fifo", "not a regular file"),
+                                            ("missing", "does not exist")])
+def test_heat_capacity_file_must_be_a_regular_file(tmp_path, kind, fragment):
+    # a pipe would be read for ever; each case names the key, the value and the problem
+    target = tmp_path / "cv.csv"
+    if kind == "directory":
+        target.mkdir()
+    elif kind == "fifo":
+        os.mkfifo(target)
+    with pytest.raises(StudyError, match=f"ideal_heat_capacity' = 'cv.csv'.*{fragment}"):
+        read_study(write(tmp_path, PURE.replace('"1.5 R"', '"cv.csv"')))
