@@ -13,7 +13,8 @@ from pathlib import Path
 
 import numpy as np
 
-from mdsim.cstable.plan import METHOD, is_point_complete, point_path, read_plan
+from mdsim.cstable.plan import (METHOD, is_point_complete, point_path, read_plan,
+                                reduced_potential)
 from mdsim.cstable.series import VirialSeries, virial_nodes
 from mdsim.cstable.table import FORMAT_NAME, FORMAT_VERSION, QUANTITIES, CorrespondingStatesTable
 from mdsim.errors import StudyError
@@ -40,14 +41,6 @@ def read_point(points_dir, index, T):
     u, p, cv = s["u_full"], s["pressure"], s["c_v_res"]
     return {"u_res": (u.value, u.stderr), "Z": (p.value / (rho * T), p.stderr / (rho * T)),
             "cv_res": (cv.value, cv.stderr), "g": u.g, "n_particles": int(attrs["n_particles"])}
-
-
-def _reduced_potential(plan):
-    from mdsim.engine.potentials import LennardJones, Mie
-    if plan["form"] == "mie":
-        return Mie(1.0, 1.0, plan["shape"]["repulsive_exponent"],
-                   plan["shape"]["attractive_exponent"])
-    return LennardJones(1.0, 1.0)
 
 
 def _gather(points_dir, plan, T_t, rho_d, vir_nodes):
@@ -94,7 +87,7 @@ def assemble_table(points_dir, out_path):
     if missing:
         raise StudyError(f"table build in '{points_dir}': {len(missing)} points are not complete "
                          f"(first: {missing[0]}); run 'mdsim table build' again to finish them")
-    vir_nodes = virial_nodes(_reduced_potential(plan), T_t[0], T_t[-1])
+    vir_nodes = virial_nodes(reduced_potential(plan), T_t[0], T_t[-1])
     data, err, g_td, n_td = _gather(points_dir, plan, T_t, rho_d, vir_nodes)
     table = CorrespondingStatesTable(T_t, rho_d, data, err, vir_nodes, plan["form"],
                                      plan["shape"], plan["cutoff"], plan["virial_below"],

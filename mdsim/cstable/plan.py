@@ -15,7 +15,7 @@ from mdsim.errors import StudyError
 from mdsim.files import atomic_write_text
 
 __all__ = ["table_settings", "plan_points", "write_plan", "read_plan", "points_dir_for",
-           "point_path", "is_point_complete", "SHAPE_FORMS", "METHOD"]
+           "point_path", "is_point_complete", "reduced_potential", "SHAPE_FORMS", "METHOD"]
 
 SHAPE_FORMS = ("lennard-jones", "mie")
 # The sampling method of every grid point (NVT Monte Carlo).
@@ -153,6 +153,15 @@ def write_plan(points_dir, settings, study):
 def read_plan(points_dir):
     """The plan of the build in ``points_dir`` (as :func:`write_plan` wrote it)."""
     return json.loads((Path(points_dir) / "plan.json").read_text(encoding="utf-8"))
+
+
+def reduced_potential(plan):
+    """The plan's pair potential in reduced units (epsilon = sigma = 1)."""
+    from mdsim.engine.potentials import LennardJones, Mie
+    if plan["form"] == "mie":
+        return Mie(1.0, 1.0, plan["shape"]["repulsive_exponent"],
+                   plan["shape"]["attractive_exponent"])
+    return LennardJones(1.0, 1.0)
 
 
 def is_point_complete(points_dir, index):

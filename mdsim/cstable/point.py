@@ -6,7 +6,7 @@ cut-off plus the analytic tail) into its own run file, checkpointed, so that
 an interrupted build continues where it stopped and a complete point is
 never run twice.
 """
-from mdsim.cstable.plan import METHOD, point_path, read_plan
+from mdsim.cstable.plan import METHOD, point_path, read_plan, reduced_potential
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
 
 __all__ = ["system_for", "run_point", "point_job"]
@@ -31,14 +31,9 @@ def system_for(plan, point):
     mdsim.engine.system.System
     """
     import numpy as np
-    from mdsim.engine.potentials import LennardJones, Mie, PairMatrix
+    from mdsim.engine.potentials import PairMatrix
     from mdsim.engine.system import System
-    if plan["form"] == "mie":
-        pot = Mie(1.0, 1.0, plan["shape"]["repulsive_exponent"],
-                  plan["shape"]["attractive_exponent"])
-    else:
-        pot = LennardJones(1.0, 1.0)
-    pairs = PairMatrix([pot], plan["cutoff"])
+    pairs = PairMatrix([reduced_potential(plan)], plan["cutoff"])
     system = System.cubic(pairs, [point["particles"]], point["density_red"])
     seed = int(np.sum(np.asarray(point["seed"]) * np.array([1000003, 1009, 1])))
     if point["density_red"] < RANDOM_START_MAX_DENSITY:
