@@ -1,6 +1,6 @@
 """Figures of ``mdsim check``: parity, residuals, the fit's confidence region, the posterior.
 
-Each function takes the result of :func:`mdsim.check.predict.run_check` (or parts of
+Each function takes the result of :func:`mdsim.check.run.run_check` (or parts of
 it), draws one figure on its own Agg canvas (the helpers of
 :mod:`mdsim.pipeline.plots`; pyplot is never used) and writes ``STEM.png`` and
 ``STEM.pdf``, returning the paths.

@@ -6,8 +6,8 @@ gets a study of its own: the checked study with ``[initial]`` and
 ``[expansion]`` set to that measurement's state.  It is run through the
 normal pipeline (``prepare_run_dir``, the local process pool,
 ``build_report``) into ``OUT/simulations/row-LLLL`` (LLLL the measurement's
-line in its file), so the runs are resumable, reusable with ``--runs`` and
-readable with ``mdsim report`` like any other.
+line in its file), so the runs are resumable, reusable as ``runs_dir`` of a
+check and readable with ``mdsim report`` like any other.
 """
 import json
 import logging

@@ -20,7 +20,7 @@ verdict sentence; writes into ``--out`` (default ``runs/NAME-check``):
 
 The check itself predicts through the B2 + B3 virial route unless ``--table``
 (the corresponding-states table) or ``--runs`` (finished simulations of the
-same state points) give a better prediction; see :mod:`mdsim.check.predict`.
+same state points) give a better prediction; see :mod:`mdsim.check`.
 """
 import csv
 import json
@@ -201,8 +201,8 @@ def format_check(result):
 @command("check", "check a study's potential against measured free expansions; fit, "
          "sensitivities and next experiments", _arguments)
 def run_check_command(args):
-    from mdsim.check.predict import _match_run, load_table, run_check, run_predictions
-    from mdsim.check.simulate import simulate_rows, study_asks_for_simulation
+    from mdsim.check import (load_table, match_run, run_check, run_predictions, simulate_rows,
+                             study_asks_for_simulation)
     from mdsim.check.measurements import read_expansion_data, read_virial_data
     from mdsim.study.reader import read_study
     from mdsim.units import parse_quantity
@@ -234,7 +234,7 @@ def run_check_command(args):
     if study_asks_for_simulation(study) and not args.no_simulate:
         known = run_predictions(args.runs, study) if args.runs else []
         p_n, rho_n = data.pressure_Pa, data.density_mol_m3
-        missing = [k for k in range(len(data)) if _match_run(
+        missing = [k for k in range(len(data)) if match_run(
             known, data.temperature_K[k], None if p_n is None else p_n[k],
             None if rho_n is None else rho_n[k], data.volume_ratio[k]) is None]
         if missing:

@@ -34,7 +34,7 @@ def _arguments(p):
 
 @command("table", "build or show a corresponding-states table u_res*(T*, rho*)", _arguments)
 def run_table(args):
-    from mdsim.cstable.table import CorrespondingStatesTable, build_table
+    from mdsim.cstable import CorrespondingStatesTable, build_table
     action = getattr(args, "table_action", None)
     if action is None:
         raise StudyError("give an action: 'mdsim table build STUDY' or 'mdsim table show "
@@ -47,7 +47,7 @@ def run_table(args):
             from mdsim.study.reader import read_study
             out = Path("runs") / f"{read_study(args.study).name}_table.h5"
             out.parent.mkdir(parents=True, exist_ok=True)
-        path = build_table(args.study, out, executor=args.executor, workers=args.workers,
+        path = build_table(args.study, out, on=args.executor, workers=args.workers,
                            progress=not args.quiet, dask_address=args.address)
         print(path)
         return 0

@@ -9,7 +9,7 @@ from scipy.stats import chi2 as chi2_dist
 from analysis.expansion import virial_expansion
 from analysis.heatcapacity import ConstantHeatCapacity
 from analysis.virial_eos import VirialGas
-from mdsim.check.predict import (ExpansionModel, chi2_test, model_for_study, rank_candidates,
+from mdsim.check import (ExpansionModel, chi2_test, model_for_study, rank_candidates,
                          run_check)
 from mdsim.cli import main
 from mdsim.errors import StudyError
@@ -100,7 +100,7 @@ def test_chi2_test_against_scipy():
     assert out["consistent"] == (out["p_value"] >= 0.05)
     with pytest.raises(StudyError, match="at least 3 are needed"):
         chi2_test(z[:2], n_params=2)
-    with pytest.raises(StudyError, match="--level"):
+    with pytest.raises(StudyError, match="setting 'level'"):
         chi2_test(z, level=1.5)
 
 
@@ -199,7 +199,7 @@ def test_runs_directory_reused(tmp_path, study, data):
 
 
 def test_table_route_through_cstable(monkeypatch, study, data):
-    import mdsim.cstable.table as cst
+    import mdsim.cstable.expansion as cst
     calls = []
 
     def fake(table, eps, sig, M, cv, T, r, p_i_Pa=None, rho_i_mol_m3=None):

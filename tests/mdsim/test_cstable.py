@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from mdsim.cstable.table import (CorrespondingStatesTable, build_table, points_dir_for, run_point,
+from mdsim.cstable import (CorrespondingStatesTable, build_table, points_dir_for, run_point,
                            table_delta_T, table_delta_T_full, table_settings)
 from mdsim.errors import StudyError
 
@@ -137,7 +137,7 @@ def test_matches_teqp_within_uncertainties(tiny):
 
 
 def test_held_out_states_match_direct_simulation(tiny):
-    from mdsim.cstable.table import METHOD, _system_for
+    from mdsim.cstable import METHOD, system_for
     from mdsim.sampling.state_point import sample_state_point
     import json
     study, table = tiny
@@ -145,7 +145,7 @@ def test_held_out_states_match_direct_simulation(tiny):
     interp = table.interpolation_error["u_res"]["rms_abs"]
     for T, rho, seed in ((2.5, 0.1, 11), (1.8, 0.22, 12)):
         point = {"particles": N_PARTICLES, "density_red": rho, "seed": [seed]}
-        system = _system_for(plan, point)
+        system = system_for(plan, point)
         res = sample_state_point(system, METHOD, T, n_equilibration=300, n_samples=1000,
                                  seed=[seed])
         direct = res.summary["u_full"]
@@ -177,10 +177,10 @@ def test_build_resumes_after_interruption(tiny, tmp_path):
     with pytest.raises(KeyboardInterrupt):
         def interrupt(done, total):
             raise KeyboardInterrupt
-        from mdsim.cstable.table import _write_plan
+        from mdsim.cstable import write_plan
         from mdsim.study.reader import read_study
         st = read_study(tmp_path / "tiny.toml")
-        _write_plan(points, table_settings(st), st)
+        write_plan(points, table_settings(st), st)
         run_point(points, 0)
         run_point(points, 1, progress=interrupt)
     assert (points / "0001.h5.part").exists()
@@ -293,7 +293,7 @@ def test_dask_executor_builds_the_same_points(tmp_path):
         .replace("densities = [0.05, 0.15, 0.3]", "densities = [0.1]") \
         .replace("samples = 1000", "samples = 100")
     study = _write(tmp_path / "d.toml", text)
-    a = CorrespondingStatesTable.load(build_table(study, tmp_path / "dask.h5", executor="dask",
+    a = CorrespondingStatesTable.load(build_table(study, tmp_path / "dask.h5", on="dask",
                                                   workers=2, progress=False))
     b = CorrespondingStatesTable.load(build_table(study, tmp_path / "local.h5", workers=1,
                                                   progress=False))

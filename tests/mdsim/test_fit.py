@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from analysis.heatcapacity import ConstantHeatCapacity
-from mdsim.check.predict import (TWO_SIGMA, ExpansionModel, Objective, delta_chi2_for, fit_parameters,
+from mdsim.check import (TWO_SIGMA, ExpansionModel, Objective, delta_chi2_for, fit_parameters,
                          inside_region, invented_measurements, sample_posterior)
 from mdsim.errors import StudyError
 from mdsim.check.measurements import ExpansionData, VirialData
