@@ -61,14 +61,14 @@ def table_settings(study):
         ``cutoff``.
     """
     # the schema of [table] and its checker live with the study reader
-    from mdsim.study.reader import SCHEMA, _Context, _check_table
+    from mdsim.study import SCHEMA, Context, check_table
     raw = study.raw.get("table")
     if raw is None:
         raise StudyError(f"study '{study.path}' has no [table]; add one with "
                          "temperatures = [1.5, 2.0, 3.0] and densities = [0.05, 0.1, 0.2] "
                          "(reduced units; see configs/table_lj.toml)")
-    ctx = _Context(study.path)
-    s = _check_table(ctx, "table", raw, SCHEMA["table"])
+    ctx = Context(study.path)
+    s = check_table(ctx, "table", raw, SCHEMA["table"])
     for key in ("temperatures", "densities"):
         if key not in s:
             ctx.fail("table", key, "<missing>", "missing required key", "",

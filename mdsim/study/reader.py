@@ -100,11 +100,6 @@ __all__ = ["read_study", "Study", "RANDOM_START_MAX_DENSITY_RED",
            # single reader module
            "Gas", "close_packed_density_mol_m3", "SCHEMA", "Key", "Context", "check_table"]
 
-# The checkers under the names mdsim.cstable.table imports today (until it takes the
-# public names Context and check_table).
-_Context = Context
-_check_table = check_table
-
 # Below this reduced density the default start is random placement, above it
 # a lattice (random insertion gets slow and a lattice melts quickly when dense).
 RANDOM_START_MAX_DENSITY_RED = 0.1
