@@ -12,9 +12,9 @@ JSON goes to stdout, messages and progress to stderr.
 from mdsim.cli.options import add_renamed_option, positive_int, say, verbose_logging
 from mdsim.cli.run_output import print_study_run
 from mdsim.errors import StudyError
+from mdsim.pipeline.array_jobs import EXECUTORS
 
 HELP = "run a study: plan its tasks, run them, write the run directory and report"
-EXECUTORS = ("local", "dask", "array")
 OPTION_FOR_SETTING = {"workers": "--workers", "on": "--on", "out_dir": "--out",
                       "resubmit_failed": "--resubmit-failed", "submit": "--submit"}
 
