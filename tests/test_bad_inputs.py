@@ -203,7 +203,7 @@ def test_bad_command_line_values(tmp_path, capsys, monkeypatch):
     study = tmp_path / "study.toml"
     study.write_text(_toml({}), encoding="utf-8")
     _check_refused(["run", str(study), "--workers", "0"], tmp_path, capsys, ["--workers", "0"], [])
-    _check_refused(["run", str(study), "--executor", "magic"], tmp_path, capsys, ["magic"], [])
+    _check_refused(["run", str(study), "--on", "magic"], tmp_path, capsys, ["magic"], [])
     _check_refused(["status", str(tmp_path)], tmp_path, capsys, ["tasks.json"], [tmp_path])
     _check_refused(["task", str(tmp_path), "--index", "-1"], tmp_path, capsys, ["--index"], [])
     _check_refused(["frobnicate"], tmp_path, capsys, ["frobnicate"], [])

@@ -70,7 +70,7 @@ seed = {seed}
        seed=st.integers(0, 2 ** 31))
 def test_random_valid_studies_validate_and_round_trip(tmp_path, T, rho, ratio, eps, sigma, cutoff,
                                                       seed):
-    from mdsim.cli.cmd_run import dumps_toml, resolved_study_document
+    from mdsim.study.writer import dumps_toml, resolved_study_document
     from mdsim.study.reader import read_study
     path = tmp_path / "prop.toml"
     path.write_text(_study(T, rho, ratio, eps, sigma, cutoff, seed), encoding="utf-8")

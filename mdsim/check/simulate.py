@@ -27,7 +27,7 @@ def study_asks_for_simulation(study):
 
 
 def _row_document(study, data, k, copies):
-    from mdsim.cli.cmd_run import resolved_study_document
+    from mdsim.study.writer import resolved_study_document
     doc = resolved_study_document(study, copies)
     doc.pop("sweep", None)
     doc["study"] = dict(doc.get("study", {}))
@@ -64,7 +64,8 @@ def simulate_rows(study, data, rows, sim_dir, workers=None, quiet=False):
     import functools
     from mdsim.execute.local import run_local
     from mdsim.pipeline.jobs import task_job
-    from mdsim.cli.cmd_run import dumps_toml, prepare_run_dir
+    from mdsim.pipeline.prepare import prepare_run_dir
+    from mdsim.study.writer import dumps_toml
     from mdsim.pipeline.report import build_report
     from mdsim.study.reader import read_study
     sim_dir = Path(sim_dir)

@@ -20,15 +20,29 @@ verdict sentence; writes into ``--out`` (default ``runs/NAME-check``):
 
 The check itself predicts through the B2 + B3 virial route unless ``--table``
 (the corresponding-states table) or ``--runs`` (finished simulations of the
-same state points) give a better prediction; see :mod:`mdsim.check`.
+same state points) give a better prediction; see :mod:`mdsim.check.predictors`.
 """
 import csv
 import json
 import sys
 from pathlib import Path
 
-from mdsim.cli import _nonnegative_int, _positive_int, command
+from mdsim.cli.options import nonnegative_int, positive_int, print_json, quantity, quantity_pair
 from mdsim.errors import StudyError
+
+HELP = ("check a study's potential against measured free expansions; fit, sensitivities and "
+        "next experiments")
+# the settings of mdsim.check.run_check and simulate_rows, and the options that give them
+OPTION_FOR_SETTING = {"table": "--table", "runs_dir": "--runs", "level": "--level",
+                      "fit_shape": "--fit-shape", "posterior": "--posterior",
+                      "posterior.steps": "--posterior-steps",
+                      "posterior.walkers": "--posterior-walkers", "posterior.seed": "--seed",
+                      "suggest": "--suggest", "suggest.temperature_K": "--suggest-temperature",
+                      "suggest.pressure_Pa": "--suggest-pressure",
+                      "suggest.volume_ratio": "--suggest-ratio",
+                      "suggest.uncertainty_K": "--suggest-uncertainty",
+                      "suggest.criterion": "--suggest-criterion",
+                      "suggest.count": "--suggest-count", "workers": "--workers"}
 
 CSV_COLUMNS = ("line", "label", "initial_temperature_K", "initial_pressure_Pa",
                "initial_density_mol_m3", "volume_ratio", "measured_delta_T_K",
@@ -38,7 +52,7 @@ CSV_COLUMNS = ("line", "label", "initial_temperature_K", "initial_pressure_Pa",
                "fit_predicted_delta_T_K", "fit_z", "notes")
 
 
-def _arguments(p):
+def add_arguments(p):
     p.add_argument("study", help="study file (TOML): its gas, potential and ideal-gas heat "
                    "capacity are checked")
     p.add_argument("--data", required=True, help="CSV of free-expansion measurements (header "
@@ -53,7 +67,7 @@ def _arguments(p):
     p.add_argument("--no-simulate", action="store_true", help="do not run the study's simulation "
                    "routes at measured states that no run directory holds (by default they run "
                    "when the study's [simulation] table lists routes)")
-    p.add_argument("--workers", type=_positive_int("--workers"), help="processes for those "
+    p.add_argument("--workers", type=positive_int("--workers"), help="processes for those "
                    "simulations (default: the cores)")
     p.add_argument("--quiet", action="store_true", help="no progress messages on stderr")
     p.add_argument("--fit", action="store_true", help="fit epsilon and sigma by weighted least "
@@ -62,11 +76,11 @@ def _arguments(p):
                    "repulsive exponent (a Lennard-Jones study becomes Mie n-6)")
     p.add_argument("--posterior", action="store_true", help="with --fit: sample the posterior "
                    "with emcee (the 'fit' extra) and draw a corner plot")
-    p.add_argument("--posterior-steps", type=_positive_int("--posterior-steps"), default=600,
+    p.add_argument("--posterior-steps", type=positive_int("--posterior-steps"), default=600,
                    help="MCMC steps per walker (default 600, the first 200 discarded)")
-    p.add_argument("--posterior-walkers", type=_positive_int("--posterior-walkers"), default=16,
+    p.add_argument("--posterior-walkers", type=positive_int("--posterior-walkers"), default=16,
                    help="MCMC walkers (default 16)")
-    p.add_argument("--seed", type=_nonnegative_int("--seed"), default=1,
+    p.add_argument("--seed", type=nonnegative_int("--seed"), default=1,
                    help="random seed of the posterior sampler (default 1)")
     p.add_argument("--suggest", action="store_true", help="rank candidate next experiments by "
                    "how much one more measurement would shrink the parameter uncertainty")
@@ -80,7 +94,7 @@ def _arguments(p):
                    help="candidate volume ratios, e.g. 1.5 4 (default: the data's range)")
     p.add_argument("--suggest-uncertainty", help='standard uncertainty of the new measurement, '
                    'e.g. "0.05 K" (default: the median of the data\'s)')
-    p.add_argument("--suggest-count", type=_positive_int("--suggest-count"), default=5,
+    p.add_argument("--suggest-count", type=positive_int("--suggest-count"), default=5,
                    help="how many candidates to print (default 5)")
     p.add_argument("--suggest-criterion", choices=("det", "trace"), default="det",
                    help="det: area of the confidence region (default); trace: sum of the "
@@ -89,17 +103,6 @@ def _arguments(p):
                    help="significance level of the verdicts (default 0.05)")
     p.add_argument("--out", help="output directory (default runs/NAME-check)")
     p.add_argument("--json", action="store_true", help="print check.json to stdout")
-
-
-def _pair(values, kind, option):
-    from mdsim.units import parse_quantity
-    if values is None:
-        return None
-    lo, hi = (parse_quantity(v, kind, f"option {option}") for v in values)
-    if not hi >= lo:
-        raise StudyError(f"option {option} = {values[0]!r} {values[1]!r}: give LOW then HIGH "
-                         "with LOW <= HIGH")
-    return (lo, hi)
 
 
 def _plain_json(result):
@@ -198,60 +201,69 @@ def format_check(result):
     return lines
 
 
-@command("check", "check a study's potential against measured free expansions; fit, "
-         "sensitivities and next experiments", _arguments)
-def run_check_command(args):
-    from mdsim.check import (load_table, match_run, run_check, run_predictions, simulate_rows,
-                             study_asks_for_simulation)
+def _suggest_settings(args):
+    """The --suggest-* options as the settings of run_check's ``suggest`` (None without --suggest)."""
+    if not args.suggest:
+        if any(v is not None for v in (args.suggest_temperature, args.suggest_pressure,
+                                       args.suggest_ratio, args.suggest_uncertainty)):
+            raise StudyError("the --suggest-* options need --suggest")
+        return None
+    ratio = tuple(args.suggest_ratio) if args.suggest_ratio else None
+    if ratio is not None and not (1.0 < ratio[0] <= ratio[1]):
+        raise StudyError(f"option --suggest-ratio = {ratio[0]:g} {ratio[1]:g}: need "
+                         "1 < LOW <= HIGH (volume ratios of an expansion)")
+    return {"temperature_K": quantity_pair(args.suggest_temperature, "temperature",
+                                           "--suggest-temperature"),
+            "pressure_Pa": quantity_pair(args.suggest_pressure, "pressure", "--suggest-pressure"),
+            "volume_ratio": ratio,
+            "uncertainty_K": quantity(args.suggest_uncertainty, "temperature",
+                                      "--suggest-uncertainty"),
+            "criterion": args.suggest_criterion, "count": args.suggest_count}
+
+
+def _simulate_missing(args, study, data, out_dir):
+    """Simulate the measured states no run directory holds; return the run directories to use."""
+    from mdsim.check import match_run, run_predictions, simulate_rows, study_asks_for_simulation
+    runs_dirs = [args.runs] if args.runs else []
+    if not study_asks_for_simulation(study) or args.no_simulate:
+        return runs_dirs
+    known = run_predictions(args.runs, study) if args.runs else []
+    p_n, rho_n = data.pressure_Pa, data.density_mol_m3
+    missing = [k for k in range(len(data)) if match_run(
+        known, data.temperature_K[k], None if p_n is None else p_n[k],
+        None if rho_n is None else rho_n[k], data.volume_ratio[k]) is None]
+    if not missing:
+        return runs_dirs
+    sims = simulate_rows(study, data, missing, out_dir / "simulations",
+                         workers=args.workers, quiet=args.quiet)
+    for k, err in sims["failed"].items():
+        print(f"mdsim check: measurement on line {int(data.line_n[k])} not simulated "
+              f"({err}); it is predicted by the next route available", file=sys.stderr)
+    if sims["done"]:
+        runs_dirs.append(out_dir / "simulations")
+    return runs_dirs
+
+
+def run(args):
+    from mdsim.check import load_table, run_check
     from mdsim.check.measurements import read_expansion_data, read_virial_data
     from mdsim.study.reader import read_study
-    from mdsim.units import parse_quantity
 
     study = read_study(args.study)
     data = read_expansion_data(args.data)
     virial = read_virial_data(args.virial_data) if args.virial_data else None
     table = load_table(args.table) if args.table else None
-    suggest = None
-    if args.suggest:
-        u = (parse_quantity(args.suggest_uncertainty, "temperature", "option --suggest-uncertainty")
-             if args.suggest_uncertainty else None)
-        ratio = tuple(args.suggest_ratio) if args.suggest_ratio else None
-        if ratio is not None and not (1.0 < ratio[0] <= ratio[1]):
-            raise StudyError(f"option --suggest-ratio = {ratio[0]:g} {ratio[1]:g}: need "
-                             "1 < LOW <= HIGH (volume ratios of an expansion)")
-        suggest = {"temperature_K": _pair(args.suggest_temperature, "temperature",
-                                          "--suggest-temperature"),
-                   "pressure_Pa": _pair(args.suggest_pressure, "pressure", "--suggest-pressure"),
-                   "volume_ratio": ratio, "uncertainty_K": u,
-                   "criterion": args.suggest_criterion, "count": args.suggest_count}
-    elif any(v is not None for v in (args.suggest_temperature, args.suggest_pressure,
-                                     args.suggest_ratio, args.suggest_uncertainty)):
-        raise StudyError("the --suggest-* options need --suggest")
+    suggest = _suggest_settings(args)
     posterior = ({"steps": args.posterior_steps, "walkers": args.posterior_walkers,
                   "seed": args.seed} if args.posterior else None)
     out_dir = Path(args.out) if args.out else Path("runs") / f"{study.name}-check"
-    runs_dirs = [args.runs] if args.runs else []
-    if study_asks_for_simulation(study) and not args.no_simulate:
-        known = run_predictions(args.runs, study) if args.runs else []
-        p_n, rho_n = data.pressure_Pa, data.density_mol_m3
-        missing = [k for k in range(len(data)) if match_run(
-            known, data.temperature_K[k], None if p_n is None else p_n[k],
-            None if rho_n is None else rho_n[k], data.volume_ratio[k]) is None]
-        if missing:
-            sims = simulate_rows(study, data, missing, out_dir / "simulations",
-                                 workers=args.workers, quiet=args.quiet)
-            for k, err in sims["failed"].items():
-                print(f"mdsim check: measurement on line {int(data.line_n[k])} not simulated "
-                      f"({err}); it is predicted by the next route available",
-                      file=sys.stderr)
-            if sims["done"]:
-                runs_dirs.append(out_dir / "simulations")
+    runs_dirs = _simulate_missing(args, study, data, out_dir)
     result = run_check(study, data, virial, table=table, runs_dir=runs_dirs or None,
                        fit=args.fit, fit_shape=args.fit_shape, posterior=posterior,
                        suggest=suggest, level=args.level)
     paths = write_outputs(result, out_dir)
     if args.json:
-        print(json.dumps(_plain_json(result), indent=2))
+        print_json(_plain_json(result))
     else:
         print("\n".join(format_check(result)))
         print(f"wrote {out_dir}/ ({', '.join(p.name for p in paths[:2])} and "

@@ -1,15 +1,17 @@
 """Slurm's command-line clients wrapped: submit a job array, read its elements' states, cancel.
 
-A run directory's job array (``RUN_DIR/array.sh``, written by
-:func:`mdsim.execute.executors.write_array_script`) has one element per task:
+A run directory's job array (written by
+:func:`mdsim.execute.array.write_array_script`) has one element per task:
 element k runs task k.  :func:`submit_tasks` submits the elements of some
-task indices with ``sbatch`` and records the job id in
-``RUN_DIR/jobs.json`` (one entry per submission, the latest last), so that
-:func:`scheduler_view` can say, for each task, what the scheduler thinks
-of the element that last ran it: ``pending``, ``running``, ``done`` or
-``failed`` (with Slurm's own state name, e.g. ``CANCELLED`` or
-``TIMEOUT``, and the exit code).  The live view comes from ``squeue``,
-finished elements from ``sacct`` (the accounting database).
+task indices with ``sbatch`` and records the job id in a submissions file
+(the run directory's ``jobs.json``: one entry per submission, the latest
+last), so that :func:`scheduler_view` can say, for each task, what the
+scheduler thinks of the element that last ran it: ``pending``,
+``running``, ``done`` or ``failed`` (with Slurm's own state name, e.g.
+``CANCELLED`` or ``TIMEOUT``, and the exit code).  The live view comes
+from ``squeue``, finished elements from ``sacct`` (the accounting
+database).  The functions take the submissions file's path; the pipeline
+knows where it is in a run directory.
 
 Errors: a client program that is missing, or a submission the scheduler
 refuses, raises :class:`~mdsim.errors.StudyError` (the user can fix it: the
@@ -27,7 +29,6 @@ from pathlib import Path
 from mdsim.errors import SimulationError, StudyError
 from mdsim.files import atomic_write_text
 
-SUBMISSIONS_FILE = "jobs.json"
 CLIENT_TIMEOUT_S = 60.0
 
 # Slurm's job states, grouped into the four this tool reports.
@@ -62,7 +63,7 @@ def _run(argv, what, timeout=CLIENT_TIMEOUT_S):
     if exe is None:
         raise StudyError(f"{what} needs Slurm's '{argv[0]}' command, which is not on PATH; "
                          "run on a machine with Slurm's client commands (package slurm-client), "
-                         "or use --executor local or dask")
+                         "or run the tasks on the local process pool or a Dask cluster instead")
     try:
         proc = subprocess.run([exe, *argv[1:]], capture_output=True, text=True,
                               timeout=timeout, stdin=subprocess.DEVNULL)
@@ -124,8 +125,8 @@ def submit(script, indices=None, extra_args=()):
     """
     script = Path(script)
     if not script.is_file():
-        raise StudyError(f"job script '{script}' does not exist; write it with "
-                         "'mdsim run STUDY --executor array'")
+        raise StudyError(f"job script '{script}' does not exist; write it first "
+                         "(mdsim.execute.array.write_array_script)")
     argv = ["sbatch", "--parsable"]
     if indices is not None:
         argv.append(f"--array={array_spec(indices)}")
@@ -203,11 +204,22 @@ def element_states(job_ids):
     return view
 
 
-# -- the run directory's record of submissions ------------------------------------------
+# -- the record of submissions ----------------------------------------------------------
 
-def read_submissions(run_dir):
-    """The submissions recorded in RUN_DIR/jobs.json, oldest first ([] when none)."""
-    path = Path(run_dir) / SUBMISSIONS_FILE
+def read_submissions(jobs_file):
+    """The submissions recorded in a submissions file, oldest first ([] when none).
+
+    Parameters
+    ----------
+    jobs_file : path-like
+        The file (a run directory's ``jobs.json``); absent means nothing was submitted.
+
+    Returns
+    -------
+    list of dict
+        Each ``{"job_id", "indices", "script", "submitted"}`` (the time, s since the epoch).
+    """
+    path = Path(jobs_file)
     if not path.is_file():
         return []
     try:
@@ -221,42 +233,39 @@ def read_submissions(run_dir):
     return data
 
 
-def record_submission(run_dir, job_id, indices, script):
-    """Append one submission to RUN_DIR/jobs.json (written atomically)."""
-    path = Path(run_dir) / SUBMISSIONS_FILE
-    subs = read_submissions(run_dir)
+def record_submission(jobs_file, job_id, indices, script):
+    """Append one submission to the submissions file (written atomically)."""
+    subs = read_submissions(jobs_file)
     subs.append({"job_id": str(job_id), "indices": sorted(int(k) for k in indices),
                  "script": str(script), "submitted": time.time()})
-    atomic_write_text(path, json.dumps(subs, indent=1))
+    atomic_write_text(Path(jobs_file), json.dumps(subs, indent=1))
 
 
-def submit_tasks(run_dir, indices, script=None):
-    """Submit the array elements of some tasks and record the job id; returns it."""
-    run_dir = Path(run_dir)
-    script = Path(script) if script is not None else run_dir / "array.sh"
+def submit_tasks(jobs_file, indices, script):
+    """Submit the array elements of some tasks from ``script`` and record the job id; returns it."""
     indices = sorted({int(k) for k in indices})
-    job_id = submit(script, indices)
-    record_submission(run_dir, job_id, indices, script)
+    job_id = submit(Path(script), indices)
+    record_submission(jobs_file, job_id, indices, script)
     return job_id
 
 
-def latest_elements(run_dir):
+def latest_elements(jobs_file):
     """{task index: job id of the submission that last included it}."""
     out = {}
-    for sub in read_submissions(run_dir):
+    for sub in read_submissions(jobs_file):
         for k in sub.get("indices", []):
             out[int(k)] = str(sub["job_id"])
     return out
 
 
-def scheduler_view(run_dir):
-    """{task index: the scheduler's view of its latest element} for a run directory.
+def scheduler_view(jobs_file):
+    """{task index: the scheduler's view of its latest element} for a submissions file.
 
     Each value is a dict as in :func:`element_states`; an element the
     scheduler no longer knows (neither squeue nor sacct) has state
-    'unknown'.  Empty when nothing was submitted from the directory.
+    'unknown'.  Empty when nothing was submitted.
     """
-    latest = latest_elements(run_dir)
+    latest = latest_elements(jobs_file)
     if not latest:
         return {}
     states = element_states(set(latest.values()))

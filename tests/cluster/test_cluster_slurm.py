@@ -11,6 +11,7 @@ import os
 import subprocess
 import sys
 import time
+from pathlib import Path
 
 import pytest
 
@@ -44,19 +45,20 @@ def _cli(*args, **kw):
 
 def _wait_until_finished(run_dir, cluster, timeout=WAIT_S):
     """Poll the scheduler until no element of the run directory is pending or running."""
+    jobs = Path(run_dir) / "jobs.json"
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
-        view = slurm.scheduler_view(run_dir)
+        view = slurm.scheduler_view(jobs)
         if view and all(v["state"] not in slurm.ACTIVE for v in view.values()):
             return view
         time.sleep(0.5)
     raise AssertionError(f"array elements still active after {timeout} s: "
-                         f"{slurm.scheduler_view(run_dir)}\n{cluster.log('slurmctld')[-2000:]}")
+                         f"{slurm.scheduler_view(jobs)}\n{cluster.log('slurmctld')[-2000:]}")
 
 
 def _local_pool(tmp_path, study, name="local"):
     """The same study on the local process pool (no report): the uninterrupted local numbers."""
-    from mdsim.cli.cmd_run import prepare_run_dir
+    from mdsim.pipeline.prepare import prepare_run_dir
     import functools
 
     from mdsim.execute.local import run_local
@@ -85,7 +87,7 @@ def test_an_array_study_ends_with_the_numbers_of_the_local_pool(slurm_cluster, t
     study = write_study(tmp_path, extra=SWEEP, initial_T="")
     array = tmp_path / "array"
     t0 = time.monotonic()
-    assert main(["run", str(study), "--out", str(array), "--executor", "array", "--submit",
+    assert main(["run", str(study), "--out", str(array), "--on", "array", "--submit",
                  "--json"]) == 0
     submitted = json.loads(capsys.readouterr().out)
     assert submitted["submitted"] == [0, 1] and submitted["job_id"].isdigit()
@@ -100,7 +102,7 @@ def test_an_array_study_ends_with_the_numbers_of_the_local_pool(slurm_cluster, t
     assert "still pending or running" in capsys.readouterr().err
     assert len(json.loads((array / "jobs.json").read_text())) == 1
     # nor does a local run start the same tasks beside the array
-    assert main(["run", str(study), "--out", str(array), "--executor", "local"]) == 2
+    assert main(["run", str(study), "--out", str(array), "--on", "local"]) == 2
     assert "still pending or running" in capsys.readouterr().err
     view = _wait_until_finished(array, slurm_cluster)
     elapsed = time.monotonic() - t0
@@ -124,7 +126,7 @@ def test_an_element_killed_by_scancel_is_reported_and_resubmitted(slurm_cluster,
                                                                     capsys):
     study = write_study(tmp_path, target="0.25 K")
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--executor", "array", "--submit",
+    assert main(["run", str(study), "--out", str(out), "--on", "array", "--submit",
                  "--quiet", "--json"]) == 0
     job = json.loads(capsys.readouterr().out)["job_id"]
     stages = out / "tasks" / "0000.stages"
@@ -170,19 +172,19 @@ def test_an_element_failing_for_a_user_error_reports_it_without_a_traceback(slur
     study = write_study(tmp_path, cv="cv.csv")
     out = tmp_path / "run"
     # plan and write the script only, then spoil the heat-capacity file the tasks read
-    assert main(["run", str(study), "--out", str(out), "--executor", "array", "--quiet"]) == 0
+    assert main(["run", str(study), "--out", str(out), "--on", "array", "--quiet"]) == 0
     assert (out / "array.sh").is_file() and not (out / "jobs.json").exists()
     import tomllib
     resolved = tomllib.loads((out / "study.toml").read_text())["gas"]["ideal_heat_capacity"]
     read_by_tasks = out / resolved  # the run directory's copy, or the original (absolute)
     assert read_by_tasks.name == "cv.csv" and read_by_tasks.is_file()
     read_by_tasks.write_text("temperature_K, cv_J_molK\n50, lots\n", encoding="utf-8")
-    job = slurm.submit_tasks(out, [0])
+    job = slurm.submit_tasks(out / "jobs.json", [0], out / "array.sh")
     view = _wait_until_finished(out, slurm_cluster)
     deadline = time.monotonic() + 60  # the accounting database learns the exit code a bit later
     while view[0]["exit_code"] is None and time.monotonic() < deadline:
         time.sleep(0.5)
-        view = slurm.scheduler_view(out)
+        view = slurm.scheduler_view(out / "jobs.json")
     assert view[0]["slurm_state"] == "FAILED" and view[0]["exit_code"] == "2:0"  # usage error
     log = (out / "logs" / "task-0.out").read_text()
     assert "Traceback" not in log
@@ -207,7 +209,7 @@ def test_a_dask_job_queue_cluster_on_slurm_gives_the_numbers_of_the_local_pool(
                'batch_jobs = 2\n')
     study = write_study(tmp_path, extra=SWEEP + "\n" + cluster, initial_T="")
     dask = tmp_path / "dask"
-    proc = _cli("run", str(study), "--out", str(dask), "--executor", "dask", "--quiet",
+    proc = _cli("run", str(study), "--out", str(dask), "--on", "dask", "--quiet",
                 timeout=600)
     assert proc.returncode == 0, proc.stderr[-3000:]
     assert _results(dask) == _local_pool(tmp_path, study)

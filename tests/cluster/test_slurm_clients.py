@@ -42,24 +42,25 @@ def test_slurm_states_fall_into_four_groups():
 
 def test_submissions_are_recorded_latest_last(tmp_path):
     rd, _ = make_run_dir(tmp_path, write_study(tmp_path))
-    assert slurm.read_submissions(rd.path) == [] and slurm.latest_elements(rd.path) == {}
-    slurm.record_submission(rd.path, "40", [0, 1, 2], rd.path / "array.sh")
-    slurm.record_submission(rd.path, "41", [1], rd.path / "array.sh")
-    assert [s["job_id"] for s in slurm.read_submissions(rd.path)] == ["40", "41"]
-    assert slurm.latest_elements(rd.path) == {0: "40", 1: "41", 2: "40"}
-    (rd.path / "jobs.json").write_text("{not json", encoding="utf-8")
+    jobs = rd.path / "jobs.json"
+    assert slurm.read_submissions(jobs) == [] and slurm.latest_elements(jobs) == {}
+    slurm.record_submission(jobs, "40", [0, 1, 2], rd.path / "array.sh")
+    slurm.record_submission(jobs, "41", [1], rd.path / "array.sh")
+    assert [s["job_id"] for s in slurm.read_submissions(jobs)] == ["40", "41"]
+    assert slurm.latest_elements(jobs) == {0: "40", 1: "41", 2: "40"}
+    jobs.write_text("{not json", encoding="utf-8")
     with pytest.raises(StudyError, match="jobs.json' is damaged"):
-        slurm.read_submissions(rd.path)
+        slurm.read_submissions(jobs)
 
 
 def test_submitting_without_slurm_is_one_clear_line(tmp_path, monkeypatch, capsys):
     study = write_study(tmp_path)
     monkeypatch.setenv("PATH", str(tmp_path / "empty-bin"))  # no sbatch anywhere
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--executor", "array", "--submit"]) == 2
+    assert main(["run", str(study), "--out", str(out), "--on", "array", "--submit"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "'sbatch' command, which is not on PATH" in err
-    assert "--executor local" in err
+    assert "local process pool or a Dask cluster" in err
     assert not (out / "jobs.json").exists()
 
 
@@ -68,14 +69,14 @@ def test_resubmit_and_submit_need_the_array_executor(tmp_path, capsys):
     out = tmp_path / "run"
     assert main(["run", str(study), "--out", str(out), "--resubmit-failed"]) == 2
     assert "nothing was submitted" in capsys.readouterr().err
-    assert main(["run", str(study), "--out", str(out), "--submit", "--executor", "local"]) == 2
-    assert "--submit goes with --executor array" in capsys.readouterr().err
+    assert main(["run", str(study), "--out", str(out), "--submit", "--on", "local"]) == 2
+    assert "--submit goes with --on array" in capsys.readouterr().err
     assert not list((out / "tasks").glob("*.h5"))  # nothing ran
 
 
 def test_status_says_when_the_scheduler_cannot_be_asked(tmp_path, monkeypatch, capsys):
     rd, _ = make_run_dir(tmp_path, write_study(tmp_path))
-    slurm.record_submission(rd.path, "40", [0], rd.path / "array.sh")
+    slurm.record_submission(rd.path / "jobs.json", "40", [0], rd.path / "array.sh")
     monkeypatch.setenv("PATH", str(tmp_path / "empty-bin"))
     assert main(["status", str(rd.path), "--json"]) == 0
     data = json.loads(capsys.readouterr().out)

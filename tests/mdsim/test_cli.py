@@ -84,13 +84,18 @@ def test_mc_nve_reports_heat_capacity_unavailable(capsys):
 
 @pytest.mark.parametrize("argv, fragment", [
     (["sample", ARGON, "--temperature", "150 kg", "--density", "500 mol/m^3"], "[mass]"),
-    (["sample", ARGON, "--density", "500 mol/m^3"], "--temperature is required"),
+    (["sample", ARGON, "--density", "500 mol/m^3"], "option --temperature: required"),
     (["sample", ARGON, "--temperature", "150 K"], "--density"),
     (["sample", ARGON, "--temperature", "150 K", "--density", "500 mol/m^3", "--particles", "x"],
      "not a whole number"),
     (["sample", ARGON, "--temperature", "150 K", "--density", "500 mol/m^3", "--method", "npt"],
      "invalid choice"),
-    (["sample", ARGON, "--method", "mc-nve", "--density", "500 mol/m^3"], "--energy is required"),
+    (["sample", ARGON, "--method", "mc-nve", "--density", "500 mol/m^3"],
+     "option --energy: required"),
+    (["sample", ARGON, "--temperature", "-5 K", "--density", "500 mol/m^3"],
+     "option --temperature = -5"),
+    (["sample", ARGON, "--temperature", "150 K", "--density", "500 mol/m^3", "--method", "mc-nve",
+      "--energy", "1500 J/mol"], "option --temperature = 150"),
     (["sample", "/nonexistent/study.toml", "--temperature", "1 K", "--density", "1 mol/m^3"],
      "does not exist"),
     (["frobnicate"], "invalid choice"),
@@ -124,3 +129,117 @@ def test_subprocess_json_and_help():
     help_text = subprocess.run([sys.executable, "-m", "mdsim", "--help"], capture_output=True,
                                text=True).stdout
     assert all(name in help_text for name in COMMANDS)
+
+
+# -- the commands' layout: renamed options, SettingError as the option, one run function --------
+
+def _write_tiny_study(tmp_path):
+    from test_tasks import write_study
+    return write_study(tmp_path)
+
+
+@pytest.mark.parametrize("argv, old, new, value", [
+    (["run", "STUDY", "--executor", "local"], "--executor", "--on", "local"),
+    (["run", "STUDY", "--executor", "array", "--submit"], "--executor", "--on", "array"),
+    (["table", "build", "STUDY", "--executor", "dask"], "--executor", "--on", "dask"),
+    (["inversion", ARGON, "--simulate", "--sim-densities", "1"], "--sim-densities",
+     "--simulated-density-count", "1"),
+    (["inversion", ARGON, "--simulate", "--sim-temperatures", "2"], "--sim-temperatures",
+     "--simulated-temperature-count", "2"),
+])
+def test_old_option_spellings_name_the_new_one(argv, old, new, value, tmp_path, capsys,
+                                               monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    study = str(_write_tiny_study(tmp_path))
+    argv = [study if a == "STUDY" else a for a in argv]
+    assert main(argv) == 2
+    captured = capsys.readouterr()
+    assert captured.out == ""
+    assert captured.err == f"mdsim: error: option {old} is now called {new}: write {new} {value}\n"
+    assert not (tmp_path / "runs").exists()  # refused before anything was written
+
+
+def test_old_option_spellings_are_not_in_the_help(capsys):
+    for argv in (["run", "--help"], ["inversion", "--help"], ["table", "build", "--help"]):
+        with pytest.raises(SystemExit):
+            main(argv)
+        text = capsys.readouterr().out
+        assert "--executor" not in text and "--sim-" not in text
+    with pytest.raises(SystemExit):
+        main(["table", "show", "--help"])
+    text = capsys.readouterr().out
+    assert "T_STAR RHO_STAR" in text and "kT/epsilon" in text and "rho sigma^3" in text
+
+
+def _fake_run_study(calls, tmp_path):
+    """A stand-in for mdsim.pipeline.run_study.run_study that records its arguments."""
+    from mdsim.pipeline.run_study import StudyRun
+
+    def fake(study, out_dir=None, **kw):
+        calls.append((study.name, str(out_dir), kw))
+        tasks = [{"index": 0, "route": "energy", "state_point": {"index": 0}}]
+        return StudyRun(run_dir=tmp_path / "r", tasks=tasks, skipped=0, on="local", failed={},
+                        summary={"study": study.name, "state_points": []})
+    return fake
+
+
+def test_run_and_demo_go_through_the_same_library_function(tmp_path, capsys, monkeypatch):
+    import mdsim.pipeline.run_study as run_study_module
+    calls = []
+    monkeypatch.setattr(run_study_module, "run_study", _fake_run_study(calls, tmp_path))
+    study = _write_tiny_study(tmp_path)
+    assert main(["run", str(study), "--out", str(tmp_path / "a"), "--on", "local",
+                 "--workers", "3", "--json", "--quiet"]) == 0
+    assert json.loads(capsys.readouterr().out) == {"study": "tiny", "state_points": []}
+    assert main(["demo", "--out", str(tmp_path / "d"), "--json", "--quiet"]) == 0
+    assert json.loads(capsys.readouterr().out) == {"study": "demo-noctium", "state_points": []}
+    assert [c[:2] for c in calls] == [("tiny", str(tmp_path / "a")),
+                                      ("demo-noctium", str(tmp_path / "d"))]
+    run_kw, demo_kw = calls[0][2], calls[1][2]
+    assert run_kw["on"] == "local" and run_kw["workers"] == 3 and run_kw["quiet"]
+    assert demo_kw.get("on") is None and demo_kw["quiet"]
+
+
+def test_a_setting_error_from_the_library_names_the_option(tmp_path, capsys, monkeypatch):
+    import mdsim.pipeline.run_study as run_study_module
+    from mdsim.errors import SettingError
+
+    def refuse(study, out_dir=None, **kw):
+        raise SettingError("workers", kw["workers"], "more than this machine can give")
+    monkeypatch.setattr(run_study_module, "run_study", refuse)
+    study = _write_tiny_study(tmp_path)
+    assert main(["run", str(study), "--workers", "7"]) == 2
+    assert capsys.readouterr().err == ("mdsim: error: option --workers = 7: more than this "
+                                       "machine can give\n")
+
+    def refuse_unmapped(study, out_dir=None, **kw):
+        raise SettingError("colour", "red", "not a setting of any option")
+    monkeypatch.setattr(run_study_module, "run_study", refuse_unmapped)
+    assert main(["run", str(study)]) == 2
+    assert capsys.readouterr().err == ("mdsim: error: setting 'colour' = 'red': not a setting "
+                                       "of any option\n")
+
+
+def test_a_task_index_out_of_range_names_the_option(tmp_path, capsys):
+    from test_tasks import make_run_dir
+    rd, _ = make_run_dir(tmp_path, _write_tiny_study(tmp_path))
+    assert main(["task", str(rd.path), "--index", "1"]) == 2
+    err = capsys.readouterr().err
+    assert err == f"mdsim: error: option --index = 1: '{rd.path}' has tasks 0 to 0\n"
+
+
+def test_command_modules_are_independent_of_the_dispatcher():
+    """Each command module has HELP, add_arguments and run, and imports nothing from mdsim.cli."""
+    import ast
+    import importlib
+    for name in COMMANDS:
+        module = importlib.import_module(f"mdsim.cli.cmd_{name}")
+        assert COMMANDS[name] is module
+        assert isinstance(module.HELP, str) and "\n" not in module.HELP
+        assert callable(module.add_arguments) and callable(module.run)
+        tree = ast.parse(Path(module.__file__).read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            if isinstance(node, ast.ImportFrom):
+                assert node.module != "mdsim.cli", (name, ast.unparse(node))
+            if isinstance(node, ast.Import):
+                assert all(a.name != "mdsim.cli" for a in node.names), name

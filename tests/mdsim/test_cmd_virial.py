@@ -123,7 +123,7 @@ def test_inversion_simulated_points_agree_with_virial(capsys):
     from analysis.inversion import joule_sign_virial_Pa
     from mdsim.study.statepoints import virial_gas
     out = run_json(capsys, "inversion", str(CONFIGS / "argon.toml"), "--json", "--simulate",
-                   "--sim-densities", "1", "--sim-temperatures", "2", "--particles", "64",
+                   "--simulated-density-count", "1", "--simulated-temperature-count", "2", "--particles", "64",
                    "--samples", "2000", "--seed", "5")
     sim = [pt for pt in out["joule_inversion_curve"] if pt["source"] == "simulation"]
     assert len(sim) == 1 and sim[0]["stderr_K"] > 0

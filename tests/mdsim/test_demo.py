@@ -1,7 +1,8 @@
 """The demo study: it validates, its virial part runs, and it spans the range it is meant to show.
 
 The full demo (``mdsim demo``, about a minute on 2 cores) is run by the lead,
-not here; its simulation half goes through the same ``mdsim run`` path that
+not here; its simulation half goes through the same library function as
+``mdsim run`` (tests/mdsim/test_cli.py checks that), which
 tests/mdsim/test_report.py runs on a smaller study.
 """
 import contextlib
@@ -13,8 +14,8 @@ import pytest
 from scipy.constants import Avogadro as N_A
 from scipy.optimize import brentq
 
-from mdsim.cli import build_parser, main
-from mdsim.cli.cmd_report import DEFAULT_DEMO_OUT, demo_run_argv, demo_study_path
+from mdsim.cli import main
+from mdsim.cli.cmd_demo import demo_study_path
 from mdsim.study.reader import read_study
 
 DEMO_PRESSURES_BAR = [10.0, 20.0, 40.0, 60.0]
@@ -45,14 +46,6 @@ def test_demo_study_validates_and_says_it_is_invented(demo):
     assert all(sp.temperature_K == 295.15 for sp in points)
     assert demo.simulation["routes"] == ["energy"]
     assert 0.1 <= demo.simulation["target_stderr"] <= 0.2  # K, the demo's promise
-
-
-def test_demo_runs_through_mdsim_run():
-    argv = demo_run_argv(DEFAULT_DEMO_OUT, json_out=True, quiet=True)
-    args = build_parser().parse_args(argv)
-    assert args.command == "run"
-    assert args.study == str(demo_study_path())
-    assert args.out == str(DEFAULT_DEMO_OUT) and args.json and args.quiet
 
 
 def test_demo_virial_part(virial_json):

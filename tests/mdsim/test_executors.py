@@ -52,13 +52,16 @@ def test_slurm_memory_is_written_in_slurm_units():
 
 def test_array_script_has_one_element_per_task(tmp_path):
     rd, _ = make_run_dir(tmp_path, write_study(tmp_path))
-    path = write_array_script(rd.path, 7, {"memory_per_job": "2GB", "partition": "short",
-                                           "time_limit": "00:30:00", "cpus_per_job": 2})
+    settings = {"memory_per_job": "2GB", "partition": "short", "time_limit": "00:30:00",
+                "cpus_per_job": 2}
+    path = write_array_script(rd.path / "array.sh", rd.path / "logs", rd.path, 7, settings)
     text = path.read_text()
     assert "#SBATCH --array=0-6" in text
     assert "#SBATCH --mem=2G" in text and "#SBATCH --partition=short" in text
     assert "#SBATCH --cpus-per-task=2" in text and "#SBATCH --time=00:30:00" in text
     assert "-m mdsim task" in text and "--index \"$index\"" in text
+    assert f"#SBATCH --output={rd.path.resolve() / 'logs' / 'task-%a.out'}" in text
+    assert (rd.path / "logs").is_dir() and path == rd.path / "array.sh"
 
 
 def test_cluster_settings_become_the_job_queue_arguments_in_one_place():

@@ -36,7 +36,8 @@ def _cli(*args, env_extra=None, **kw):
 def test_run_json_then_rerun_skips_complete_tasks(tmp_path, capsys):
     study = write_study(tmp_path)
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--workers", "1", "--json"]) == 0
+    assert main(["run", str(study), "--out", str(out), "--on", "local", "--workers", "1",
+                 "--json"]) == 0
     summary = json.loads(capsys.readouterr().out)
     sp = summary["state_points"][0]
     assert {"virial_b2", "virial_b2b3", "energy"} <= set(sp["delta_T_K"])
@@ -53,7 +54,7 @@ def test_run_json_then_rerun_skips_complete_tasks(tmp_path, capsys):
 def test_the_resolved_study_reads_back_with_the_same_tasks(tmp_path):
     from mdsim.study.reader import read_study
     from mdsim.pipeline.tasks import plan_tasks
-    from mdsim.cli.cmd_run import prepare_run_dir
+    from mdsim.pipeline.prepare import prepare_run_dir
     study = read_study(write_study(tmp_path, particles=""))
     rd, tasks = prepare_run_dir(study, tmp_path / "run")
     again = read_study(rd.path / "study.toml")
@@ -91,7 +92,7 @@ def test_a_failed_task_shows_its_error_and_status_lists_it(tmp_path, capsys):
 def test_status_counts_done_and_left(tmp_path, capsys):
     study = write_study(tmp_path, extra=SWEEP, initial_T="")
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--executor", "array"]) == 0
+    assert main(["run", str(study), "--out", str(out), "--on", "array"]) == 0
     assert main(["task", str(out), "--index", "1"]) == 0
     capsys.readouterr()
     assert main(["status", str(out), "--json"]) == 0
@@ -106,7 +107,7 @@ def test_array_script_elements_run_one_by_one_match_the_local_run(tmp_path):
     study = write_study(tmp_path, extra=SWEEP, initial_T="")
     local, array = tmp_path / "local", tmp_path / "array"
     assert main(["run", str(study), "--out", str(local), "--workers", "1", "--quiet"]) == 0
-    assert main(["run", str(study), "--out", str(array), "--executor", "array", "--quiet"]) == 0
+    assert main(["run", str(study), "--out", str(array), "--on", "array", "--quiet"]) == 0
     script = array / "array.sh"
     text = script.read_text()
     assert "#SBATCH --array=0-1" in text and "SLURM_ARRAY_TASK_ID" in text
@@ -140,7 +141,7 @@ def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_pa
     again = _cli(*args, "--out", str(killed), timeout=300)
     assert again.returncode == 0, again.stderr
     # the uninterrupted reference, task by task in this process (no report needed)
-    from mdsim.cli.cmd_run import prepare_run_dir
+    from mdsim.pipeline.prepare import prepare_run_dir
     from mdsim.study.reader import read_study
     from mdsim.pipeline.tasks import run_task
     rd, tasks = prepare_run_dir(read_study(study), whole)
@@ -156,7 +157,7 @@ def test_run_directory_keeps_copies_of_the_data_files_it_needs(tmp_path):
     out = tmp_path / "moved-later"
     # plan only (array executor), so nothing is simulated
     assert main(["run", str(configs / "argon_table.toml"), "--out", str(out),
-                 "--executor", "array", "--quiet"]) == 0
+                 "--on", "array", "--quiet"]) == 0
     copy = out / "inputs" / "argon_lj_table.csv"
     assert copy.read_bytes() == (configs / "argon_lj_table.csv").read_bytes()
     moved = tmp_path / "elsewhere"

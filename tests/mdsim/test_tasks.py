@@ -49,7 +49,7 @@ def write_study(tmp_path, name="tiny", routes='["energy"]', particles="particles
 
 def make_run_dir(tmp_path, study_path, name="run"):
     """A run directory as 'mdsim run' makes it, without running anything."""
-    from mdsim.cli.cmd_run import prepare_run_dir
+    from mdsim.pipeline.prepare import prepare_run_dir
     rd, tasks = prepare_run_dir(read_study(study_path), tmp_path / name)
     return rd, tasks
 

@@ -1,0 +1,29 @@
+"""``mdsim task RUN_DIR --index K``: run one task of a run directory (what an array element does)."""
+import sys
+
+from mdsim.cli.options import nonnegative_int, print_json, verbose_logging
+
+HELP = "run one task of a run directory (what an array-job element does)"
+OPTION_FOR_SETTING = {"index": "--index"}
+
+
+def add_arguments(p):
+    p.add_argument("run_dir", help="run directory made by 'mdsim run'")
+    p.add_argument("--index", required=True, type=nonnegative_int("--index"),
+                   help="task index (0-based, as in tasks.json)")
+    p.add_argument("--json", action="store_true", help="print the task result as JSON")
+    p.add_argument("--verbose", action="store_true", help="debug logging on stderr")
+
+
+def run(args):
+    from mdsim.pipeline.run_study import run_logged_task
+    with verbose_logging(args.verbose):
+        result = run_logged_task(args.run_dir, args.index)
+    if args.json:
+        print_json(result)
+    else:
+        d = result["delta_T_K"]
+        print(f"task {args.index:04d} ({result['route']}): Delta T = {d['value']:.5g} +/- "
+              f"{d['stderr']:.2g} K, stopped by {result['stopped_by']}, "
+              f"{result['cpu_seconds']:.1f} s CPU", file=sys.stderr)
+    return 0

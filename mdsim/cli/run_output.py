@@ -1,0 +1,78 @@
+"""What ``mdsim run`` and ``mdsim demo`` print about a study run (not a command).
+
+Both commands run a study through :func:`mdsim.pipeline.run_study.run_study`
+and report its :class:`~mdsim.pipeline.run_study.StudyRun` the same way:
+the summary as JSON when asked, a closing line, and, with a job array, what
+was written or submitted and the command lines to watch, submit or gather.
+"""
+from mdsim.cli.options import print_json, say
+
+__all__ = ["EXIT_TASKS_FAILED", "print_study_run"]
+
+#: Exit status of a run in which some task has no result.
+EXIT_TASKS_FAILED = 1
+
+
+def _array_lines(result, study_arg):
+    """The messages of a run that ended at the job array (or gathered one)."""
+    from mdsim.execute.slurm import array_spec
+    info, rd = result.array_info, result.run_dir
+    n = len(result.tasks)
+    state = result.array_state
+    if state == "active":
+        return [f"{len(info['active'])} of {n} array elements (job {', '.join(info['job_ids'])}) "
+                f"are still pending or running; watch them with:   mdsim status {rd}",
+                "run this command again when they have finished to gather the results"]
+    if state in ("submitted", "resubmitted"):
+        spec = array_spec(info["submitted"])
+        return [f"{state} {len(info['submitted'])} array element(s) ({spec}) as job "
+                f"{info['job_id']}",
+                f"Watch it with:    mdsim status {rd}",
+                "When it finished, gather the results with the same 'mdsim run' command "
+                f"(or:   mdsim report {rd})"]
+    if state == "written":
+        script = info["array_script"]
+        return [f"wrote {script} ({n} array elements).",
+                f"Submit it with:   mdsim run {study_arg} --out {rd} --on array --submit   "
+                f"(or: sbatch {script})",
+                f"Afterwards gather the results with:   mdsim report {rd}",
+                f"Watch it with:    mdsim status {rd}"]
+    if state == "gathered" and result.failed:
+        return [f"{len(result.failed)} task(s) have no result; submit them again with:   "
+                f"mdsim run {study_arg} --out {rd} --resubmit-failed"]
+    return []
+
+
+def print_study_run(result, study_arg, json_out=False, quiet=False):
+    """Print what a study run did; return the exit status.
+
+    Parameters
+    ----------
+    result : mdsim.pipeline.run_study.StudyRun
+    study_arg : str
+        The study file as the user gave it, for the command lines printed.
+    json_out : bool
+        Print the run summary (or, when the run ended at the job array, the
+        array's description) as JSON on stdout.
+    quiet : bool
+        No messages on stderr.
+
+    Returns
+    -------
+    int
+        0, or :data:`EXIT_TASKS_FAILED` when some task has no result.
+    """
+    lines = _array_lines(result, study_arg) if result.array_state else []
+    if lines:
+        say("\n".join(lines), quiet)
+    if result.summary is None:  # ended at the job array: nothing to report yet
+        if json_out:
+            print_json(result.array_info)
+        return 0
+    if json_out:
+        print_json(result.summary)
+    from mdsim.pipeline.prepare import run_dir_paths
+    n = len(result.tasks)
+    say(f"run directory {result.run_dir}: {n - len(result.failed)} of {n} tasks complete; "
+        f"report {run_dir_paths(result.run_dir).report_md}", quiet)
+    return EXIT_TASKS_FAILED if result.failed else 0
