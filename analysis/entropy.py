@@ -22,20 +22,14 @@ Array suffix: ``_d`` a grid of densities.
 import math
 from dataclasses import dataclass, field
 
-from scipy import constants as _const
 from scipy.integrate import quad
 
+from analysis import inputs
+from analysis.expansion import find_root_bracketed
+from analysis.results import Result
+from mdsim.checks import positive
 from mdsim.errors import ConvergenceError, StudyError
-
-from . import _checks
-from ._checks import ORDERS  # noqa: F401  (re-exported: the truncations offered)
-from ._checks import order as _order
-from ._checks import positive as _positive
-from ._checks import volume_ratio as _volume_ratio
-from .expansion import find_root_bracketed
-from .results import Result
-
-R_GAS = _const.gas_constant  # J/(mol K)
+from mdsim.units import R_GAS
 
 def internal_energy_J_mol(gas, cv_ig, temperature_K, density_mol_m3, order=2):
     """Molar internal energy u_ig(T) + u_res(T, rho) in J/mol (u_ig from the model's
@@ -79,10 +73,10 @@ def constant_energy_temperature_K(gas, cv_ig, energy_J_mol, density_mol_m3, orde
     from the guess; brentq then solves to xtol = 1e-12 K.  A unique root
     needs C_V > 0, true wherever the truncated series is usable.
     """
-    order = _order(order)
-    rho = _positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
+    order = inputs.order(order)
+    rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
     target = float(energy_J_mol)
-    t_guess = _positive("temperature_guess_K", temperature_guess_K, "a temperature in K")
+    t_guess = positive("temperature_guess_K", temperature_guess_K, "a temperature in K")
     lo_limit, hi_limit = cv_ig.valid_range if hasattr(cv_ig, "valid_range") else (0.0, math.inf)
     lo_limit = max(lo_limit, 1e-6 * t_guess)
     hi_limit = min(hi_limit, 1e6 * t_guess)
@@ -152,7 +146,7 @@ def lost_work_J(entropy_generated_J_K, reference_temperature_K):
     reference_temperature_K : float
         Temperature of the surroundings against which the work is counted.
     """
-    t0 = _positive("reference_temperature_K", reference_temperature_K,
+    t0 = positive("reference_temperature_K", reference_temperature_K,
                    "the temperature of the surroundings, for example 298.15 K")
     s = float(entropy_generated_J_K)
     if not math.isfinite(s) or s < 0.0:
@@ -206,18 +200,18 @@ def free_expansion_entropy(gas, cv_ig, temperature_K, volume_ratio, density_mol_
     the residual part, R (B + C rho) for the virial series, by adaptive
     Gauss-Kronrod quadrature; T(rho) solves U(T, rho) = U_i at each node.
     """
-    order = _order(order)
-    _checks.heat_capacity_model(cv_ig)
-    t_i = _positive("temperature_K", temperature_K, "the initial temperature in K")
-    r = _volume_ratio(volume_ratio)
-    n_mol = _positive("amount_mol", amount_mol, "the amount of gas in mol")
+    order = inputs.order(order)
+    inputs.heat_capacity_model(cv_ig)
+    t_i = positive("temperature_K", temperature_K, "the initial temperature in K")
+    r = inputs.volume_ratio(volume_ratio)
+    n_mol = positive("amount_mol", amount_mol, "the amount of gas in mol")
     if (density_mol_m3 is None) == (pressure_Pa is None):
         raise StudyError("initial state: give exactly one of 'density_mol_m3' and 'pressure_Pa' "
                          f"(got density_mol_m3={density_mol_m3!r}, pressure_Pa={pressure_Pa!r})")
     if density_mol_m3 is not None:
-        rho_i = _positive("density_mol_m3", density_mol_m3, "the initial molar density in mol/m^3")
+        rho_i = positive("density_mol_m3", density_mol_m3, "the initial molar density in mol/m^3")
     else:
-        p_i = _positive("pressure_Pa", pressure_Pa, "the initial pressure in Pa")
+        p_i = positive("pressure_Pa", pressure_Pa, "the initial pressure in Pa")
         rho_i = float(gas.density_from_pressure(t_i, p_i, order))
     rho_f = rho_i / r
     u_i = internal_energy_J_mol(gas, cv_ig, t_i, rho_i, order)
@@ -247,7 +241,7 @@ def free_expansion_entropy(gas, cv_ig, temperature_K, volume_ratio, density_mol_
             partial=ds)
     lw_mol = lw = t_ref = None
     if reference_temperature_K is not None:
-        t_ref = _positive("reference_temperature_K", reference_temperature_K,
+        t_ref = positive("reference_temperature_K", reference_temperature_K,
                           "the temperature of the surroundings, for example 298.15 K")
         lw_mol = lost_work_J(ds, t_ref)
         lw = n_mol * lw_mol

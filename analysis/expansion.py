@@ -36,20 +36,14 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import constants as _const
 from scipy.optimize import brentq
 from scipy.special import logsumexp
 
+from analysis import inputs, stats
+from analysis.results import Result
+from mdsim.checks import count, positive
 from mdsim.errors import ConvergenceError, StudyError
-
-from . import stats
-from ._checks import ORDERS  # noqa: F401  (re-exported: the truncations offered)
-from ._checks import order as _order
-from ._checks import positive as _positive
-from ._checks import volume_ratio as _volume_ratio
-from .results import Result
-
-R_GAS = _const.gas_constant  # J/(mol K), exact since the 2019 SI
+from mdsim.units import R_GAS  # noqa: F401  (re-exported: mdsim.pipeline.tasks imports it here)
 
 
 VIRIAL_SPREAD_WARN = 0.10
@@ -268,16 +262,14 @@ def virial_expansion(gas, cv_ig, T_i, volume_ratio, p_i=None, rho_i=None, order=
     solved; their difference, when larger than ``VIRIAL_SPREAD_WARN`` of
     |Delta T|, is reported as a warning that the series is running out.
     """
-    T_i = _positive("initial temperature T_i", T_i, "give it in K, e.g. 295.")
-    r = _volume_ratio(volume_ratio)
-    order = _order(order)
-    if (p_i is None) == (rho_i is None):
-        raise StudyError("give exactly one of the initial pressure 'p_i' (Pa) and the initial "
-                         f"density 'rho_i' (mol/m^3); got p_i = {p_i!r}, rho_i = {rho_i!r}.")
+    T_i = positive("T_i", T_i, "the initial temperature in K, e.g. 295")
+    r = inputs.volume_ratio(volume_ratio)
+    order = inputs.order(order)
+    inputs.one_initial_state(p_i, rho_i, "p_i", "rho_i")
     if p_i is not None:
-        p_i = _positive("initial pressure p_i", p_i, "give it in Pa, e.g. 22e5.")
+        p_i = positive("p_i", p_i, "the initial pressure in Pa, e.g. 22e5")
     if rho_i is not None:
-        rho_i = _positive("initial density rho_i", rho_i, "give it in mol/m^3.")
+        rho_i = positive("rho_i", rho_i, "the initial density in mol/m^3")
     cv_ig.check_temperature(T_i, "initial temperature T_i")
 
     rho_0, p_0, T_f, rho_f, p_f, ds = _solve_virial(gas, cv_ig, T_i, r, p_i, rho_i, order)
@@ -382,8 +374,8 @@ def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
     / (c_v_ig(T_k) + c_v_res(T_k, rho_f)).
     """
     u_i, s_i = _mean_stderr(u_initial, "u_initial")
-    T_i = _positive("initial temperature T_i", T_i, "give it in K.")
-    T_k = _positive("sample temperature_K", sample.temperature_K, "a sampled temperature in K.")
+    T_i = positive("T_i", T_i, "the initial temperature in K")
+    T_k = positive("sample.temperature_K", sample.temperature_K, "a sampled temperature in K")
     cv_ig.check_temperature(T_i, "initial temperature T_i")
     cv_ig.check_temperature(T_k, "sampled temperature")
     cv = cv_ig.cv(T_k) + sample.cv_res_J_molK
@@ -460,8 +452,8 @@ class MBARInterpolant:
             raise StudyError("MBAR needs at least two sampled temperatures, each with one "
                              f"energy series; got {T_k.size} temperatures and "
                              f"{len(u_series_J_mol)} series.")
-        self.n_particles = int(_positive("n_particles", n_particles,
-                                         "the number of particles simulated."))
+        self.n_particles = count("n_particles", n_particles,
+                                 hint="the number of particles simulated")
         pymbar = stats.import_pymbar()
         kept, counts = [], []
         for k, series in enumerate(u_series_J_mol):
@@ -549,7 +541,7 @@ def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
     standard errors of u_res at the two end states (DESIGN 2.3, item 1).
     """
     u_i, s_i = _mean_stderr(u_initial, "u_initial")
-    T_i = _positive("initial temperature T_i", T_i, "give it in K.")
+    T_i = positive("T_i", T_i, "the initial temperature in K")
     cv_ig.check_temperature(T_i, "initial temperature T_i")
     samples = list(samples_final)
     if not samples:
@@ -656,10 +648,10 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
         raise StudyError("microcanonical route: every kinetic energy in 'kinetic_t_red' must be "
                          f"> 0 (E > U); found {K_t[K_t <= 0][0]:g}. The run's energy E is below "
                          "a sampled potential energy: check how E was set.")
-    N = int(_positive("n_particles", n_particles, "the number of particles."))
-    f = _positive("dof_per_particle", dof_per_particle, "3 for atoms, 5 for rigid linear molecules.")
-    eps = _positive("epsilon_K", epsilon_K, "epsilon/k of the reduced units, in K.")
-    T_i = _positive("initial temperature T_i", T_i, "give it in K.")
+    N = count("n_particles", n_particles, hint="the number of particles")
+    f = positive("dof_per_particle", dof_per_particle, "3 for atoms, 5 for rigid linear molecules")
+    eps = positive("epsilon_K", epsilon_K, "epsilon/k of the reduced units, in K")
+    T_i = positive("T_i", T_i, "the initial temperature in K")
     F = f * N
     if F <= 2.0:
         raise StudyError(f"microcanonical route: F = f N = {F:g} kinetic degrees of freedom; the "
@@ -668,7 +660,7 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
     beta = (F / 2.0 - 1.0) * inv.mean
     T_f_red = 1.0 / beta
     s_stat = T_f_red ** 2 * (F / 2.0 - 1.0) * inv.stderr
-    cv = f / 2.0 if cv_red is None else _positive("cv_red", cv_red, "heat capacity per particle in k.")
+    cv = f / 2.0 if cv_red is None else positive("cv_red", cv_red, "heat capacity per particle in k")
     s_e = float(initial_energy_stderr_red) / cv
     T_f = T_f_red * eps
     err_f = s_stat * eps
@@ -750,13 +742,13 @@ def direct_route(temperature_t_red, u_model_t_red, u_full_t_red, u_model_initial
     if um_i.size != uf_i.size:
         raise StudyError("direct route: the initial-state series 'u_model_initial_t_red' and "
                          f"'u_full_initial_t_red' differ in length ({um_i.size}, {uf_i.size}).")
-    N = int(_positive("n_particles", n_particles, "the number of particles."))
-    eps = _positive("epsilon_K", epsilon_K, "epsilon/k of the reduced units, in K.")
-    T_i_red = _positive("initial temperature T_i_red", T_i_red, "kT/epsilon of the equilibration.")
-    dof = 3 * N - 3 if kinetic_dof is None else int(_positive("kinetic_dof", kinetic_dof,
-                                                               "3 N - 3 for MD with zero momentum."))
+    N = count("n_particles", n_particles, hint="the number of particles")
+    eps = positive("epsilon_K", epsilon_K, "epsilon/k of the reduced units, in K")
+    T_i_red = positive("T_i_red", T_i_red, "the initial temperature kT/epsilon of the equilibration")
+    dof = 3 * N - 3 if kinetic_dof is None else count(
+        "kinetic_dof", kinetic_dof, hint="3 N - 3 for MD with zero momentum")
     kin = dof / (2.0 * N)
-    cv = kin if cv_red is None else _positive("cv_red", cv_red, "heat capacity per particle in k.")
+    cv = kin if cv_red is None else positive("cv_red", cv_red, "heat capacity per particle in k")
 
     tail = stats.mean_and_stderr(T_t)
     e_traj = float(np.mean(kin * T_t + um_t))

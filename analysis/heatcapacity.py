@@ -29,13 +29,11 @@ import math
 import os
 
 import numpy as np
-from scipy import constants as _const
 from scipy.integrate import quad
 from scipy.interpolate import PchipInterpolator
 
 from mdsim.errors import StudyError
-
-R_GAS = _const.gas_constant  # J/(mol K), exact since the 2019 SI
+from mdsim.units import R_GAS
 
 TABLE_HEADER = ("temperature_K", "cv_J_molK")
 

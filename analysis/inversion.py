@@ -33,20 +33,13 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import constants as _const
 from scipy.optimize import brentq
 
+from analysis import inputs, stats
+from analysis.results import Result
+from mdsim.checks import positive
 from mdsim.errors import ConvergenceError, StudyError
-
-from . import _checks, stats
-from ._checks import ORDERS  # noqa: F401  (re-exported: the truncations offered)
-from ._checks import order as _order
-from ._checks import positive as _positive
-from .results import Result
-
-R_GAS = _const.gas_constant  # J/(mol K)
-K_B = _const.Boltzmann       # J/K
-N_A = _const.Avogadro        # 1/mol
+from mdsim.units import K_B, N_A, R_GAS
 
 
 # Temperatures scanned for sign changes, in units of the largest pair well
@@ -61,7 +54,7 @@ _SCAN_POINTS = 240
 
 def _cv_ig(cv_ig, temperature_K):
     """Ideal-gas molar heat capacity (J/(mol K)) from a model with ``cv(T)``."""
-    return float(_checks.heat_capacity_model(cv_ig, ("cv",)).cv(temperature_K))
+    return float(inputs.heat_capacity_model(cv_ig, ("cv",)).cv(temperature_K))
 
 
 def _pair_epsilons_K(gas):
@@ -130,8 +123,8 @@ def joule_sign_virial_Pa(gas, temperature_K, density_mol_m3, order=2):
     R T^2 rho^2 (dB/dT + rho dC/dT): the ideal-gas parts cancel exactly, so
     the sign is that of dB/dT at low density.
     """
-    order = _order(order)
-    T = _positive("temperature_K", temperature_K, "give the temperature in K")
+    order = inputs.order(order)
+    T = positive("temperature_K", temperature_K, "give the temperature in K")
     rho = float(density_mol_m3)
     if not math.isfinite(rho) or rho < 0.0:
         raise StudyError(f"setting 'density_mol_m3' = {density_mol_m3!r}: must be a finite "
@@ -167,7 +160,7 @@ def joule_coefficient_virial(gas, cv_ig, temperature_K, density_mol_m3, order=2)
     mu_J = -[T (dp/dT)_rho - p] / C_V with C_V = c_v,ig(T) + c_v,res(T, rho)
     per mole (DESIGN.md 2.4).
     """
-    order = _order(order)
+    order = inputs.order(order)
     g = joule_sign_virial_Pa(gas, temperature_K, density_mol_m3, order)
     T = float(temperature_K)
     cv = _cv_ig(cv_ig, T) + float(gas.cv_res_J_molK(T, float(density_mol_m3), order))
@@ -202,7 +195,7 @@ def zero_density_joule_inversion_K(gas, order=2, temperature_range_K=None):
     where dB/dT changes sign (T* ~ 25.15 for LJ; REFERENCES.md).  With a
     quantum-corrected gas the corrected B is used.
     """
-    _order(order)
+    inputs.order(order)
     grid = _scan_grid_K(gas, temperature_range_K)
     return _first_falling_root(lambda t: float(gas.dB_dT(t, 2)), grid,
                                "zero-density Joule inversion (dB/dT = 0)")
@@ -260,7 +253,7 @@ def joule_inversion_curve_virial(gas, densities_mol_m3, order=3, temperature_ran
         Densities where no inversion was found in the range (the truncated
         series has no root there; simulation is needed).
     """
-    order = _order(order)
+    order = inputs.order(order)
     rho_d = np.atleast_1d(np.asarray(densities_mol_m3, dtype=float))
     if rho_d.ndim != 1 or rho_d.size == 0 or not np.all(np.isfinite(rho_d)) or np.any(rho_d <= 0):
         raise StudyError(f"setting 'densities_mol_m3' = {densities_mol_m3!r}: must be a "
@@ -341,8 +334,8 @@ class FluctuationEstimate(Result):
 
     def joule_coefficient_K_mol_m3(self, epsilon_K, sigma_angstrom):
         """mu_J and its stderr in SI, K mol/m^3, for a potential (eps/k, sigma)."""
-        scale = _positive("epsilon_K", epsilon_K, "the well depth eps/k in K") / (
-            (_positive("sigma_angstrom", sigma_angstrom, "sigma in angstrom") * 1e-10) ** 3 * N_A)
+        scale = positive("epsilon_K", epsilon_K, "the well depth eps/k in K") / (
+            (positive("sigma_angstrom", sigma_angstrom, "sigma in angstrom") * 1e-10) ** 3 * N_A)
         return self.joule_coefficient_red * scale, self.joule_coefficient_stderr_red * scale
 
 
@@ -418,9 +411,9 @@ def fluctuation_estimate(u_conf_t, p_conf_t, n_particles, temperature_red, densi
         raise StudyError(f"setting 'n_particles' = {n_particles!r}: must be a positive whole "
                          "number (the N of the run)")
     n_part = int(n_particles)
-    T = _positive("temperature_red", temperature_red, "give kT/epsilon of the run")
-    rho = _positive("density_red", density_red, "give N sigma^3 / V of the run")
-    cv_ig = _positive("cv_ig_red", cv_ig_red, "the ideal-gas heat capacity per particle in "
+    T = positive("temperature_red", temperature_red, "give kT/epsilon of the run")
+    rho = positive("density_red", density_red, "give N sigma^3 / V of the run")
+    cv_ig = positive("cv_ig_red", cv_ig_red, "the ideal-gas heat capacity per particle in "
                       "units of k (1.5 for atoms)")
     t0 = 0
     if discard_equilibration:
@@ -492,8 +485,8 @@ def joule_inversion_curve_samples(estimates, epsilon_K, sigma_angstrom, density_
     sigma(T0)^2 = (T2 - T1)^2 (g2^2 s1^2 + g1^2 s2^2) / (g2 - g1)^4
     (first-order propagation).  The pressure is interpolated on the same line.
     """
-    eps = _positive("epsilon_K", epsilon_K, "the well depth eps/k in K of the reduced units")
-    sig_m = _positive("sigma_angstrom", sigma_angstrom, "sigma in angstrom of the reduced units") * 1e-10
+    eps = positive("epsilon_K", epsilon_K, "the well depth eps/k in K of the reduced units")
+    sig_m = positive("sigma_angstrom", sigma_angstrom, "sigma in angstrom of the reduced units") * 1e-10
     est = list(estimates)
     if not est or not all(isinstance(e, FluctuationEstimate) for e in est):
         raise StudyError("joule_inversion_curve_samples: 'estimates' must be a non-empty list of "
@@ -593,7 +586,7 @@ def joule_inversion(gas, densities_mol_m3=None, order=3, samples=None, epsilon_K
     -------
     JouleInversion
     """
-    order = _order(order)
+    order = inputs.order(order)
     t_joule = zero_density_joule_inversion_K(gas, order, temperature_range_K)
     t_jt = joule_thomson_inversion_zero_pressure_K(gas, temperature_range_K)
     missing = []

@@ -23,11 +23,10 @@ import weakref
 import numpy as np
 from numba import njit
 
-from mdsim.errors import StudyError
+from mdsim.checks import positive_array
 from mdsim.engine.potentials import FORM_TABLE, PairMatrix, PairPotential
-
-# Avogadro constant, Boltzmann and Planck constants (exact in the 2019 SI).
-from scipy.constants import N_A, h as PLANCK_J_S, k as BOLTZMANN_J_K
+from mdsim.errors import StudyError
+from mdsim.units import K_B, N_A, PLANCK
 
 ANGSTROM_M = 1.0e-10
 
@@ -84,11 +83,8 @@ def _check_pot(pot, name="pot"):
 
 
 def _check_temperature(T, name="T"):
-    arr = np.asarray(T, dtype=float)
-    if arr.size == 0 or not np.all(np.isfinite(arr)) or np.any(arr <= 0.0):
-        raise StudyError(f"setting '{name}' = {T!r}: temperatures must be positive finite numbers "
-                         "(in the energy unit of the potential, e.g. kelvin for u/k in K)")
-    return arr
+    return positive_array(name, T, "temperatures in the energy unit of the potential, e.g. "
+                          "kelvin for u/k in K")
 
 
 def _check_nodes(n, name):
@@ -601,7 +597,7 @@ def h2_over_mu_K_A2(mass_a_kg, mass_b_kg):
             raise StudyError(f"'{name}' = {m!r}: a molecular mass must be positive (kg per molecule; "
                              "divide the molar mass in kg/mol by N_A)")
     mu = ma * mb / (ma + mb)
-    return PLANCK_J_S ** 2 / (mu * BOLTZMANN_J_K) / ANGSTROM_M ** 2
+    return PLANCK ** 2 / (mu * K_B) / ANGSTROM_M ** 2
 
 
 def de_boer_parameter(pot_K_A, mass_kg):
@@ -623,9 +619,9 @@ def de_boer_parameter(pot_K_A, mass_kg):
     m = float(mass_kg)
     if not math.isfinite(m) or m <= 0.0:
         raise StudyError(f"'mass_kg' = {mass_kg!r}: must be a positive molecular mass in kg")
-    eps_J = pot_K_A.epsilon * BOLTZMANN_J_K
+    eps_J = pot_K_A.epsilon * K_B
     sigma_m = pot_K_A.sigma * ANGSTROM_M
-    return PLANCK_J_S / (sigma_m * math.sqrt(m * eps_J))
+    return PLANCK / (sigma_m * math.sqrt(m * eps_J))
 
 
 def check_de_boer(pot_K_A, mass_kg, quantum_correction, label="gas"):
