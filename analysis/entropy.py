@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 from scipy.integrate import quad
 
 from analysis import inputs
-from analysis.expansion import find_root_bracketed
+from analysis.roots import find_root_bracketed
 from analysis.results import Result
 from mdsim.checks import positive
 from mdsim.errors import ConvergenceError, StudyError
@@ -69,7 +69,7 @@ def constant_energy_temperature_K(gas, cv_ig, energy_J_mol, density_mol_m3, orde
 
     Notes
     -----
-    The bracket is searched by :func:`analysis.expansion.find_root_bracketed`
+    The bracket is searched by :func:`analysis.roots.find_root_bracketed`
     from the guess; brentq then solves to xtol = 1e-12 K.  A unique root
     needs C_V > 0, true wherever the truncated series is usable.
     """
