@@ -15,7 +15,8 @@ import math
 
 import numpy as np
 from analysis import inputs
-from analysis import virial as _virial
+from analysis import virial
+from analysis.virial.quadrature import check_fractions
 from mdsim.checks import non_negative_array, positive_array
 from mdsim.engine.potentials import PairMatrix, PairPotential
 from mdsim.errors import StudyError
@@ -58,6 +59,19 @@ class VirialGas:
     Coefficient methods take ``order`` for uniformity with the state
     functions: B is the same for both orders, C and its derivatives are 0
     for ``order=2``.
+
+    Examples
+    --------
+    Argon as a Lennard-Jones gas (119.8 K, 3.405 angstrom) at 295 K:
+
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> argon = VirialGas(LennardJones(119.8, 3.405), [1.0], 0.039948)
+    >>> round(argon.B(295.0) * 1e6, 2)  # cm^3/mol
+    -16.49
+    >>> round(argon.density_from_pressure(295.0, 20e5, order=3), 2)  # mol/m^3 at 20 bar
+    826.12
+    >>> round(argon.compressibility(295.0, 800.0, order=3), 5)
+    0.98742
     """
 
     def __init__(self, pairs_K_angstrom, fractions, molar_masses_kg_mol, quantum_correction=False):
@@ -69,7 +83,7 @@ class VirialGas:
                              f"{type(pairs_K_angstrom).__name__}")
         ns = pairs.n_species
         self.pairs = pairs
-        self.fractions = _virial._check_fractions(fractions, ns)
+        self.fractions = check_fractions(fractions, ns)
         masses = np.atleast_1d(np.asarray(molar_masses_kg_mol, dtype=float)).ravel()
         if masses.size == 1 and ns > 1:
             raise StudyError(f"'molar_masses_kg_mol': one value for {ns} species; give one per species")
@@ -82,7 +96,7 @@ class VirialGas:
         self.molar_masses_kg_mol = masses
         self.quantum_correction = bool(quantum_correction)
         self.de_boer = np.array([
-            _virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, self.quantum_correction,
+            virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, self.quantum_correction,
                                   label=f"species {a}")
             for a in range(ns)])
 
@@ -99,19 +113,19 @@ class VirialGas:
                 if weight == 0.0:
                     continue
                 pot = self.pairs.pots[a][b]
-                vals = _virial.b2(pot, T)
+                vals = virial.b2(pot, T)
                 if self.quantum_correction:
-                    q = _virial.h2_over_mu_K_A2(m[a], m[b])
-                    vals = [v + dv for v, dv in zip(vals, _virial.b2_quantum(pot, T, q))]
+                    q = virial.h2_over_mu_K_A2(m[a], m[b])
+                    vals = [v + dv for v, dv in zip(vals, virial.b2_quantum(pot, T, q))]
                 out = [o + weight * v for o, v in zip(out, vals)]
-        return [_virial.M3_MOL_PER_A3 * np.asarray(o, dtype=float) for o in out]
+        return [virial.M3_MOL_PER_A3 * np.asarray(o, dtype=float) for o in out]
 
     def _c(self, T, order):
         T = positive_array("T", T, "a temperature in K")
         if inputs.order(order) == 2:
             return [np.zeros_like(T)] * 3
-        vals = _virial.b3_mixture(self.pairs, self.fractions, T)
-        return [_virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
+        vals = virial.b3_mixture(self.pairs, self.fractions, T)
+        return [virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
 
     def B(self, T, order=3):
         """Second virial coefficient, m^3/mol (with the quantum term if enabled)."""
