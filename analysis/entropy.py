@@ -39,6 +39,7 @@ from mdsim.checks import positive
 from mdsim.errors import ConvergenceError, StudyError
 from mdsim.units import R_GAS
 
+
 def internal_energy_J_mol(gas, cv_ig, temperature_K, density_mol_m3, order=2):
     """Molar internal energy u_ig(T) + u_res(T, rho) in J/mol (u_ig from the model's
     reference temperature)."""

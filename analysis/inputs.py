@@ -15,7 +15,7 @@ Examples
 >>> volume_ratio(0.5)
 Traceback (most recent call last):
 ...
-mdsim.errors.SettingError: setting 'volume_ratio' = 0.5: must be > 1 (V_final / V_initial; a free expansion only enlarges the volume), e.g. 2 for expansion into an equal evacuated volume
+mdsim.errors.SettingError: setting 'volume_ratio' = 0.5: must be > 1 (V_final / V_initial; ...
 """
 import math
 

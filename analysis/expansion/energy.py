@@ -20,7 +20,7 @@ from analysis.expansion.mbar import MBARInterpolant
 from analysis.expansion.sampled import SampledExpansionResult
 from analysis.results import Result
 from mdsim.checks import positive
-from mdsim.errors import StudyError
+from mdsim.errors import SettingError, StudyError
 
 __all__ = ["NEWTON_TOLERANCE", "StateSample", "NewtonStep", "newton_step", "energy_route"]
 
@@ -38,10 +38,10 @@ def _mean_stderr(value, name):
     try:
         mean, err = (float(v) for v in value)
     except (TypeError, ValueError):
-        raise StudyError(f"'{name}' = {value!r} must be a SeriesMean, a (mean, stderr) pair or "
-                         "a number (J/mol).") from None
+        raise SettingError(name, value, "must be a SeriesMean, a (mean, stderr) pair or a "
+                           "number (J/mol)") from None
     if not (math.isfinite(mean) and math.isfinite(err) and err >= 0.0):
-        raise StudyError(f"'{name}' = ({mean}, {err}) needs a finite mean and a stderr >= 0.")
+        raise SettingError(name, (mean, err), "needs a finite mean and a stderr >= 0 (J/mol)")
     return mean, err
 
 

@@ -48,7 +48,6 @@ class SampledExpansionResult(Result):
     notes: list = field(default_factory=list)
 
 
-
 def reduced_to_J_mol(u_red, epsilon_K):
     """Reduced per-particle energy (units of epsilon) to J/mol.
 

@@ -66,7 +66,6 @@ def parse_molar_heat_capacity(text, where=""):
     return float(q.to("J/(mol K)").magnitude)
 
 
-
 def read_heat_capacity_table(path):
     """Read a c_v_ig table from a CSV file with header ``temperature_K, cv_J_molK``.
 

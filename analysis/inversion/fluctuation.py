@@ -93,7 +93,6 @@ class FluctuationEstimate(Result):
         return self.joule_coefficient_red * scale, self.joule_coefficient_stderr_red * scale
 
 
-
 def _influence_stderr(phi_t):
     """sqrt(g var / n) of a linearised estimator series."""
     n = phi_t.size

@@ -29,8 +29,6 @@ _SCAN_HIGH_EPS = 400.0
 _SCAN_POINTS = 240
 
 
-# --- validation helpers ---------------------------------------------------------
-
 def _cv_ig(cv_ig, temperature_K):
     """Ideal-gas molar heat capacity (J/(mol K)) from a model with ``cv(T)``."""
     return float(inputs.heat_capacity_model(cv_ig, ("cv",)).cv(temperature_K))
@@ -74,7 +72,6 @@ def _first_falling_root(fun, grid_K, what):
         f"{what}: no sign change from positive to negative between {grid_K[0]:.4g} K and "
         f"{grid_K[-1]:.4g} K; widen 'temperature_range_K' or check the potential",
         partial={"temperature_K": grid_K, "values": values})
-
 
 
 def joule_sign_virial_Pa(gas, temperature_K, density_mol_m3, order=2):

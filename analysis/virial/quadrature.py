@@ -101,7 +101,6 @@ def shape_out(values_kt, T):
     return tuple(v.reshape(shape) for v in values_kt)
 
 
-
 def mayer(u, T):
     """Mayer function f = exp(-u/T) - 1 and its first two T-derivatives.
 

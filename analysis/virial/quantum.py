@@ -28,7 +28,6 @@ class QuantumCorrectionWarning(UserWarning):
     """The gas is too quantum for the classical or first-order virial result."""
 
 
-
 def b2_quantum(pot, T, h2_over_mu, n_nodes=DEFAULT_NODES_B2):
     """First-order Wigner-Kirkwood correction to B2 and its T-derivatives.
 
