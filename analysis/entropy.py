@@ -15,27 +15,30 @@ Gouy-Stodola relation).
 
 The path integral here uses the virial equation of state (any object with
 the SI methods of :class:`analysis.virial_eos.VirialGas`) and a given
-ideal-gas heat capacity model (``analysis.heatcapacity``).
+ideal-gas heat capacity model (``analysis.heatcapacity``).  With p/T = R rho Z
+and dV = -d rho / rho^2 per mole,
+
+    Delta S = int_{V_i}^{V_f} (p/T) dV
+            = R ln r + R int_{rho_f}^{rho_i} (Z(T(rho), rho) - 1) / rho d rho ,
+
+the ideal part in closed form (so the ideal limit R ln r is exact) and the
+residual part, R (B + C rho) for the virial series, by adaptive
+Gauss-Kronrod quadrature; T(rho) solves U(T, rho) = U_i at each node.
 
 Array suffix: ``_d`` a grid of densities.
 """
 import math
 from dataclasses import dataclass, field
 
-from scipy import constants as _const
 from scipy.integrate import quad
 
+from analysis import inputs
+from analysis.roots import find_root_bracketed
+from analysis.results import Result
+from mdsim.checks import positive
 from mdsim.errors import ConvergenceError, StudyError
+from mdsim.units import R_GAS
 
-from . import _checks
-from ._checks import ORDERS  # noqa: F401  (re-exported: the truncations offered)
-from ._checks import order as _order
-from ._checks import positive as _positive
-from ._checks import volume_ratio as _volume_ratio
-from .expansion import find_root_bracketed
-from .results import Result
-
-R_GAS = _const.gas_constant  # J/(mol K)
 
 def internal_energy_J_mol(gas, cv_ig, temperature_K, density_mol_m3, order=2):
     """Molar internal energy u_ig(T) + u_res(T, rho) in J/mol (u_ig from the model's
@@ -75,14 +78,14 @@ def constant_energy_temperature_K(gas, cv_ig, energy_J_mol, density_mol_m3, orde
 
     Notes
     -----
-    The bracket is searched by :func:`analysis.expansion.find_root_bracketed`
+    The bracket is searched by :func:`analysis.roots.find_root_bracketed`
     from the guess; brentq then solves to xtol = 1e-12 K.  A unique root
     needs C_V > 0, true wherever the truncated series is usable.
     """
-    order = _order(order)
-    rho = _positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
+    order = inputs.order(order)
+    rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
     target = float(energy_J_mol)
-    t_guess = _positive("temperature_guess_K", temperature_guess_K, "a temperature in K")
+    t_guess = positive("temperature_guess_K", temperature_guess_K, "a temperature in K")
     lo_limit, hi_limit = cv_ig.valid_range if hasattr(cv_ig, "valid_range") else (0.0, math.inf)
     lo_limit = max(lo_limit, 1e-6 * t_guess)
     hi_limit = min(hi_limit, 1e6 * t_guess)
@@ -152,13 +155,62 @@ def lost_work_J(entropy_generated_J_K, reference_temperature_K):
     reference_temperature_K : float
         Temperature of the surroundings against which the work is counted.
     """
-    t0 = _positive("reference_temperature_K", reference_temperature_K,
+    t0 = positive("reference_temperature_K", reference_temperature_K,
                    "the temperature of the surroundings, for example 298.15 K")
     s = float(entropy_generated_J_K)
     if not math.isfinite(s) or s < 0.0:
         raise StudyError(f"entropy generated = {entropy_generated_J_K!r} J/K: must be a finite "
                          "number >= 0 (an isolated process cannot destroy entropy)")
     return t0 * s
+
+
+def _initial_density(gas, t_i, density_mol_m3, pressure_Pa, order):
+    """The initial molar density, given or solved from the pressure with the same series."""
+    inputs.one_initial_state(pressure_Pa, density_mol_m3, "pressure_Pa", "density_mol_m3")
+    if density_mol_m3 is not None:
+        return positive("density_mol_m3", density_mol_m3, "the initial molar density in mol/m^3")
+    p_i = positive("pressure_Pa", pressure_Pa, "the initial pressure in Pa")
+    return float(gas.density_from_pressure(t_i, p_i, order))
+
+
+def _path_entropy(gas, cv_ig, t_i, rho_i, r, order, rtol, ds_ideal):
+    """Entropy generated along constant U: ``ds_ideal`` + R int (Z - 1) / rho d rho.
+
+    Returns
+    -------
+    (float, float, float)
+        The entropy generated and the quadrature error in J/(mol K), and the
+        final temperature in K.
+
+    Raises
+    ------
+    ConvergenceError
+        The sum is negative: the truncated series gave negative pressures.
+    """
+    rho_f = rho_i / r
+    u_i = internal_energy_J_mol(gas, cv_ig, t_i, rho_i, order)
+
+    def temperature(rho):
+        return constant_energy_temperature_K(gas, cv_ig, u_i, rho, order, temperature_guess_K=t_i)
+
+    def residual(rho):
+        t = t_i if rho == rho_i else temperature(rho)
+        return (float(gas.compressibility(t, rho, order)) - 1.0) / rho
+
+    # absolute tolerance against the ideal part ln r, so a near-ideal gas (a residual
+    # at round-off level) does not drive the quadrature into endless subdivision
+    integral, err = quad(residual, rho_f, rho_i, epsabs=rtol * math.log(r), epsrel=rtol,
+                         limit=200)
+    ds = ds_ideal + R_GAS * integral
+    t_f = temperature(rho_f)
+    if ds < 0.0:
+        # p > 0 along the path makes every dS positive: a negative sum means
+        # the truncated series gave negative pressures somewhere
+        raise ConvergenceError(
+            f"entropy generated came out negative ({ds:.6g} J/(mol K)): the order {order} "
+            "virial series gives negative pressures on the path; simulation is needed",
+            partial=ds)
+    return ds, R_GAS * err, t_f
 
 
 def free_expansion_entropy(gas, cv_ig, temperature_K, volume_ratio, density_mol_m3=None,
@@ -197,58 +249,38 @@ def free_expansion_entropy(gas, cv_ig, temperature_K, volume_ratio, density_mol_
 
     Notes
     -----
-    With p/T = R rho Z and dV = -d rho / rho^2 per mole,
+    The ideal part R ln r in closed form, the residual part by quadrature
+    (see the module docstring).
 
-        Delta S = int_{V_i}^{V_f} (p/T) dV
-                = R ln r + R int_{rho_f}^{rho_i} (Z(T(rho), rho) - 1) / rho d rho ,
+    Examples
+    --------
+    Argon at 295 K and 20 bar into twice its volume generates a little less
+    entropy than an ideal gas (R ln 2 = 5.7631 J/(mol K)):
 
-    the ideal part in closed form (so the ideal limit R ln r is exact) and
-    the residual part, R (B + C rho) for the virial series, by adaptive
-    Gauss-Kronrod quadrature; T(rho) solves U(T, rho) = U_i at each node.
+    >>> from analysis.heatcapacity import ConstantHeatCapacity
+    >>> from analysis.virial_eos import VirialGas
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> argon = VirialGas(LennardJones(119.8, 3.405), [1.0], 0.039948)
+    >>> res = free_expansion_entropy(argon, ConstantHeatCapacity.in_units_of_R(1.5), 295.0, 2.0,
+    ...                              pressure_Pa=20e5, reference_temperature_K=298.15)
+    >>> round(res.entropy_generated_J_molK, 4), round(res.lost_work_J_mol, 1)
+    (5.7047, 1700.8)
     """
-    order = _order(order)
-    _checks.heat_capacity_model(cv_ig)
-    t_i = _positive("temperature_K", temperature_K, "the initial temperature in K")
-    r = _volume_ratio(volume_ratio)
-    n_mol = _positive("amount_mol", amount_mol, "the amount of gas in mol")
-    if (density_mol_m3 is None) == (pressure_Pa is None):
-        raise StudyError("initial state: give exactly one of 'density_mol_m3' and 'pressure_Pa' "
-                         f"(got density_mol_m3={density_mol_m3!r}, pressure_Pa={pressure_Pa!r})")
-    if density_mol_m3 is not None:
-        rho_i = _positive("density_mol_m3", density_mol_m3, "the initial molar density in mol/m^3")
-    else:
-        p_i = _positive("pressure_Pa", pressure_Pa, "the initial pressure in Pa")
-        rho_i = float(gas.density_from_pressure(t_i, p_i, order))
+    order = inputs.order(order)
+    inputs.heat_capacity_model(cv_ig)
+    t_i = positive("temperature_K", temperature_K, "the initial temperature in K")
+    r = inputs.volume_ratio(volume_ratio)
+    n_mol = positive("amount_mol", amount_mol, "the amount of gas in mol")
+    rho_i = _initial_density(gas, t_i, density_mol_m3, pressure_Pa, order)
     rho_f = rho_i / r
-    u_i = internal_energy_J_mol(gas, cv_ig, t_i, rho_i, order)
-
-    def temperature(rho):
-        return constant_energy_temperature_K(gas, cv_ig, u_i, rho, order, temperature_guess_K=t_i)
-
-    def residual(rho):
-        t = t_i if rho == rho_i else temperature(rho)
-        return (float(gas.compressibility(t, rho, order)) - 1.0) / rho
-
-    # absolute tolerance against the ideal part ln r, so a near-ideal gas (a residual
-    # at round-off level) does not drive the quadrature into endless subdivision
-    integral, err = quad(residual, rho_f, rho_i, epsabs=rtol * math.log(r), epsrel=rtol,
-                         limit=200)
     ds_ideal = R_GAS * math.log(r)
-    ds = ds_ideal + R_GAS * integral
-    t_f = temperature(rho_f)
+    ds, ds_res_err, t_f = _path_entropy(gas, cv_ig, t_i, rho_i, r, order, rtol, ds_ideal)
     notes = ["entropy from int (p/T) dV along the constant-energy path of equilibrium states "
              "(valid for the irreversible expansion: entropy is a state function)"]
-    if ds < 0.0:
-        # p > 0 along the path makes every dS positive: a negative sum means
-        # the truncated series gave negative pressures somewhere
-        raise ConvergenceError(
-            f"entropy generated came out negative ({ds:.6g} J/(mol K)): the order {order} "
-            "virial series gives negative pressures on the path; simulation is needed",
-            partial=ds)
     lw_mol = lw = t_ref = None
     if reference_temperature_K is not None:
-        t_ref = _positive("reference_temperature_K", reference_temperature_K,
-                          "the temperature of the surroundings, for example 298.15 K")
+        t_ref = positive("reference_temperature_K", reference_temperature_K,
+                         "the temperature of the surroundings, for example 298.15 K")
         lw_mol = lost_work_J(ds, t_ref)
         lw = n_mol * lw_mol
         notes.append(f"lost work = T_0 * Delta S with T_0 = {t_ref:g} K")
@@ -259,5 +291,5 @@ def free_expansion_entropy(gas, cv_ig, temperature_K, volume_ratio, density_mol_
         virial_order=order, amount_mol=n_mol,
         entropy_generated_J_molK=ds, entropy_generated_J_K=n_mol * ds,
         ideal_gas_entropy_J_molK=ds_ideal,
-        entropy_quadrature_error_J_molK=R_GAS * err,
+        entropy_quadrature_error_J_molK=ds_res_err,
         reference_temperature_K=t_ref, lost_work_J_mol=lw_mol, lost_work_J=lw, notes=notes)

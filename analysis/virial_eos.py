@@ -14,14 +14,13 @@ All state functions broadcast over T and rho.
 import math
 
 import numpy as np
-from scipy.constants import N_A, R as R_J_MOLK
-
-from mdsim.errors import StudyError
+from analysis import inputs
+from analysis import virial
+from analysis.virial.quadrature import check_fractions
+from mdsim.checks import non_negative_array, positive_array
 from mdsim.engine.potentials import PairMatrix, PairPotential
-
-from . import virial as _virial
-
-ORDERS = (2, 3)
+from mdsim.errors import StudyError
+from mdsim.units import N_A, R_GAS
 
 # Default limit of check_converged: the third-virial term may be at most 5 %
 # of the rest of Z.  The next, neglected term D rho^3 is then typically
@@ -31,26 +30,6 @@ DEFAULT_CONVERGENCE_LIMIT = 0.05
 
 class VirialSeriesError(StudyError):
     """The truncated virial series does not describe this state: simulate it."""
-
-
-def _check_order(order):
-    if order not in ORDERS:
-        raise StudyError(f"setting 'order' = {order!r}: must be 2 (B only) or 3 (B and C)")
-    return order
-
-
-def _positive_array(name, value, unit):
-    arr = np.asarray(value, dtype=float)
-    if arr.size == 0 or not np.all(np.isfinite(arr)) or np.any(arr <= 0.0):
-        raise StudyError(f"setting '{name}' = {value!r}: must be positive and finite ({unit})")
-    return arr
-
-
-def _nonnegative_array(name, value, unit):
-    arr = np.asarray(value, dtype=float)
-    if arr.size == 0 or not np.all(np.isfinite(arr)) or np.any(arr < 0.0):
-        raise StudyError(f"setting '{name}' = {value!r}: must be >= 0 and finite ({unit})")
-    return arr
 
 
 def _out(value):
@@ -80,6 +59,19 @@ class VirialGas:
     Coefficient methods take ``order`` for uniformity with the state
     functions: B is the same for both orders, C and its derivatives are 0
     for ``order=2``.
+
+    Examples
+    --------
+    Argon as a Lennard-Jones gas (119.8 K, 3.405 angstrom) at 295 K:
+
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> argon = VirialGas(LennardJones(119.8, 3.405), [1.0], 0.039948)
+    >>> round(argon.B(295.0) * 1e6, 2)  # cm^3/mol
+    -16.49
+    >>> round(argon.density_from_pressure(295.0, 20e5, order=3), 2)  # mol/m^3 at 20 bar
+    826.12
+    >>> round(argon.compressibility(295.0, 800.0, order=3), 5)
+    0.98742
     """
 
     def __init__(self, pairs_K_angstrom, fractions, molar_masses_kg_mol, quantum_correction=False):
@@ -91,7 +83,7 @@ class VirialGas:
                              f"{type(pairs_K_angstrom).__name__}")
         ns = pairs.n_species
         self.pairs = pairs
-        self.fractions = _virial._check_fractions(fractions, ns)
+        self.fractions = check_fractions(fractions, ns)
         masses = np.atleast_1d(np.asarray(molar_masses_kg_mol, dtype=float)).ravel()
         if masses.size == 1 and ns > 1:
             raise StudyError(f"'molar_masses_kg_mol': one value for {ns} species; give one per species")
@@ -104,13 +96,13 @@ class VirialGas:
         self.molar_masses_kg_mol = masses
         self.quantum_correction = bool(quantum_correction)
         self.de_boer = np.array([
-            _virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, self.quantum_correction,
+            virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, self.quantum_correction,
                                   label=f"species {a}")
             for a in range(ns)])
 
     # -- coefficients -----------------------------------------------------------
     def _b(self, T):
-        T = _positive_array("T", T, "K")
+        T = positive_array("T", T, "a temperature in K")
         x = self.fractions
         ns = self.pairs.n_species
         out = [0.0, 0.0, 0.0]
@@ -121,33 +113,33 @@ class VirialGas:
                 if weight == 0.0:
                     continue
                 pot = self.pairs.pots[a][b]
-                vals = _virial.b2(pot, T)
+                vals = virial.b2(pot, T)
                 if self.quantum_correction:
-                    q = _virial.h2_over_mu_K_A2(m[a], m[b])
-                    vals = [v + dv for v, dv in zip(vals, _virial.b2_quantum(pot, T, q))]
+                    q = virial.h2_over_mu_K_A2(m[a], m[b])
+                    vals = [v + dv for v, dv in zip(vals, virial.b2_quantum(pot, T, q))]
                 out = [o + weight * v for o, v in zip(out, vals)]
-        return [_virial.M3_MOL_PER_A3 * np.asarray(o, dtype=float) for o in out]
+        return [virial.M3_MOL_PER_A3 * np.asarray(o, dtype=float) for o in out]
 
     def _c(self, T, order):
-        T = _positive_array("T", T, "K")
-        if _check_order(order) == 2:
+        T = positive_array("T", T, "a temperature in K")
+        if inputs.order(order) == 2:
             return [np.zeros_like(T)] * 3
-        vals = _virial.b3_mixture(self.pairs, self.fractions, T)
-        return [_virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
+        vals = virial.b3_mixture(self.pairs, self.fractions, T)
+        return [virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
 
     def B(self, T, order=3):
         """Second virial coefficient, m^3/mol (with the quantum term if enabled)."""
-        _check_order(order)
+        inputs.order(order)
         return _out(self._b(T)[0])
 
     def dB_dT(self, T, order=3):
         """dB/dT, m^3/(mol K)."""
-        _check_order(order)
+        inputs.order(order)
         return _out(self._b(T)[1])
 
     def d2B_dT2(self, T, order=3):
         """d2B/dT2, m^3/(mol K^2)."""
-        _check_order(order)
+        inputs.order(order)
         return _out(self._b(T)[2])
 
     def C(self, T, order=3):
@@ -163,8 +155,8 @@ class VirialGas:
         return _out(self._c(T, order)[2])
 
     def _state(self, T, rho, order):
-        T = _positive_array("T", T, "K")
-        rho = _nonnegative_array("rho_mol_m3", rho, "mol/m^3")
+        T = positive_array("T", T, "a temperature in K")
+        rho = non_negative_array("rho_mol_m3", rho, "a molar density in mol/m^3")
         B = self._b(T)
         C = self._c(T, order)
         return T, rho, B, C
@@ -178,17 +170,17 @@ class VirialGas:
     def pressure_Pa(self, T, rho_mol_m3, order=3):
         """p = rho R T Z, Pa."""
         T, rho, (B, _, _), (C, _, _) = self._state(T, rho_mol_m3, order)
-        return _out(rho * R_J_MOLK * T * (1.0 + B * rho + C * rho * rho))
+        return _out(rho * R_GAS * T * (1.0 + B * rho + C * rho * rho))
 
     def dp_dT_Pa_K(self, T, rho_mol_m3, order=3):
         """(dp/dT) at constant rho, Pa/K: rho R [1 + (B + T B') rho + (C + T C') rho^2]."""
         T, rho, (B, dB, _), (C, dC, _) = self._state(T, rho_mol_m3, order)
-        return _out(rho * R_J_MOLK * (1.0 + (B + T * dB) * rho + (C + T * dC) * rho * rho))
+        return _out(rho * R_GAS * (1.0 + (B + T * dB) * rho + (C + T * dC) * rho * rho))
 
     def u_res_J_mol(self, T, rho_mol_m3, order=3):
         """Residual molar internal energy, J/mol: -R T^2 (B' rho + C' rho^2 / 2)."""
         T, rho, (_, dB, _), (_, dC, _) = self._state(T, rho_mol_m3, order)
-        return _out(-R_J_MOLK * T * T * (dB * rho + 0.5 * dC * rho * rho))
+        return _out(-R_GAS * T * T * (dB * rho + 0.5 * dC * rho * rho))
 
     def cv_res_J_molK(self, T, rho_mol_m3, order=3):
         """Residual isochoric heat capacity, J/(mol K): d(u_res)/dT at constant rho.
@@ -196,14 +188,14 @@ class VirialGas:
         -R [(2 T B' + T^2 B'') rho + (2 T C' + T^2 C'') rho^2 / 2].
         """
         T, rho, (_, dB, d2B), (_, dC, d2C) = self._state(T, rho_mol_m3, order)
-        return _out(-R_J_MOLK * ((2.0 * T * dB + T * T * d2B) * rho
+        return _out(-R_GAS * ((2.0 * T * dB + T * T * d2B) * rho
                                  + 0.5 * (2.0 * T * dC + T * T * d2C) * rho * rho))
 
     def s_res_J_molK(self, T, rho_mol_m3, order=3):
         """Residual molar entropy at fixed (T, rho) against the ideal gas at the same
         (T, rho), J/(mol K): -R [(B + T B') rho + (C + T C') rho^2 / 2]."""
         T, rho, (B, dB, _), (C, dC, _) = self._state(T, rho_mol_m3, order)
-        return _out(-R_J_MOLK * ((B + T * dB) * rho + 0.5 * (C + T * dC) * rho * rho))
+        return _out(-R_GAS * ((B + T * dB) * rho + 0.5 * (C + T * dC) * rho * rho))
 
     # -- inversion of p(rho) ------------------------------------------------------
     def density_from_pressure(self, T, p_Pa, order=3):
@@ -217,9 +209,9 @@ class VirialGas:
         VirialSeriesError
             When p lies above the maximum of the truncated p(rho) on that branch.
         """
-        T_arr = _positive_array("T", T, "K")
-        p_arr = _positive_array("p_Pa", p_Pa, "Pa")
-        _check_order(order)
+        T_arr = positive_array("T", T, "a temperature in K")
+        p_arr = positive_array("p_Pa", p_Pa, "a pressure in Pa")
+        inputs.order(order)
         T_b, p_b = np.broadcast_arrays(T_arr, p_arr)
         out = np.array([self._density_one(float(t), float(p), order)
                         for t, p in zip(T_b.ravel(), p_b.ravel())]).reshape(T_b.shape)
@@ -229,10 +221,10 @@ class VirialGas:
         from scipy.optimize import brentq
         B = float(self._b(T)[0])
         C = float(self._c(T, order)[0])
-        target = p / (R_J_MOLK * T)  # rho Z = target
+        target = p / (R_GAS * T)  # rho Z = target
 
         def fail(limit_rho):
-            p_max = limit_rho * R_J_MOLK * T * (1.0 + B * limit_rho + C * limit_rho ** 2)
+            p_max = limit_rho * R_GAS * T * (1.0 + B * limit_rho + C * limit_rho ** 2)
             raise VirialSeriesError(
                 f"virial series cannot give this pressure; simulation is needed: at T = {T:.6g} K "
                 f"the order-{order} series p(rho) peaks at {p_max:.6g} Pa (rho = {limit_rho:.6g} "

@@ -10,7 +10,7 @@ use, so importing this module has no side effects.
 :class:`ReducedUnits` converts between SI and the reduced units of the engine,
 which are set by a reference species: energy epsilon (given as epsilon/k in
 kelvin), length sigma, mass m = M / N_A.  Physical constants are CODATA values
-from ``scipy.constants`` (k, N_A and R are exact since the 2019 SI).
+from ``scipy.constants`` (k, N_A, R and h are exact since the 2019 SI).
 """
 import math
 import tokenize
@@ -27,6 +27,7 @@ __all__ = ["K_B", "N_A", "R_GAS", "KINDS", "registry", "parse_quantity", "parse_
 K_B = _const.Boltzmann          # J/K
 N_A = _const.Avogadro           # 1/mol
 R_GAS = _const.gas_constant     # J/(mol K)
+PLANCK = _const.Planck          # J s
 
 _REGISTRY = None
 

@@ -21,7 +21,7 @@ from analysis import expansion as ex
 from analysis import stats
 from analysis.heatcapacity import TabulatedHeatCapacity
 from analysis.virial_eos import VirialGas, VirialSeriesError
-from mdsim.errors import ConvergenceError, StudyError
+from mdsim.errors import ConvergenceError, SettingError, StudyError
 from mdsim.engine.potentials import LennardJones
 
 R = constants.gas_constant
@@ -224,6 +224,13 @@ def test_errors(argon_hcb, monatomic_cv):
         ex.energy_route((0.0, 1.0), 300.0, 1.0, [], monatomic_cv)
     with pytest.raises(StudyError, match="> 0"):
         ex.microcanonical_route(np.r_[np.ones(30), -1.0], 10, 3, 100.0, 300.0)
+    # settings are named as the function spells them; a particle count is a whole number
+    with pytest.raises(SettingError, match="setting 'T_i' = -5.0: must be a positive"):
+        ex.virial_expansion(argon_hcb, monatomic_cv, -5.0, 2.0, p_i=20e5)
+    with pytest.raises(SettingError, match="setting 'n_particles' = 10.5: must be a whole"):
+        ex.microcanonical_route(np.ones(30), 10.5, 3, 100.0, 300.0)
+    with pytest.raises(SettingError, match="setting 'kinetic_dof' = 0"):
+        ex.direct_route(np.ones(30), *[np.zeros(30)] * 4, 1.0, 10, 100.0, kinetic_dof=0)
 
 
 def test_result_rendering(argon_hcb, monatomic_cv):

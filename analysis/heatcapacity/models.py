@@ -1,87 +1,22 @@
-"""Ideal-gas heat capacity models c_v_ig(T) and their integrals.
-
-A simulation of spherical particles carries only the translational part of
-a molecule's heat capacity (3/2 R); rotations and vibrations come from the
-user as one of these models:
-
-- :class:`ConstantHeatCapacity`: c_v_ig = const (for example 1.5 R, 2.5 R).
-- :class:`PolynomialHeatCapacity`: c_v_ig = sum_k a_k T^k, a_k in
-  J/(mol K^(k+1)), T in K.
-- :class:`TabulatedHeatCapacity`: a table (T, c_v_ig) interpolated by a
-  monotone piecewise cubic (PCHIP, Fritsch and Carlson, SIAM J. Numer. Anal.
-  17, 238, 1980), read from a CSV file with header
-  ``temperature_K, cv_J_molK``.
+"""The ideal-gas heat capacity models: constant, polynomial and tabulated c_v_ig(T).
 
 Each model gives ``cv(T)`` in J/(mol K), ``u(T)`` = int_{T_ref}^T c_v dT in
 J/mol (exact: closed forms for the constant and the polynomial, the exact
 integral of the piecewise cubic for the table), ``s(T)`` =
-int_{T_ref}^T c_v / T dT in J/(mol K), and ``valid_range`` in K.  A
-temperature outside the range raises :class:`~mdsim.errors.StudyError`
-naming the model, the range and what to do.
-
-:func:`heat_capacity_from_spec` builds a model from the raw forms a study
-file holds ("1.5 R", "20.8 J/(mol K)", {polynomial = [...], unit = "J/(mol K)"},
-a CSV path).
+int_{T_ref}^T c_v / T dT in J/(mol K), and ``valid_range`` in K.
 """
 import abc
-import csv
 import math
-import os
 
 import numpy as np
-from scipy import constants as _const
 from scipy.integrate import quad
 from scipy.interpolate import PchipInterpolator
 
 from mdsim.errors import StudyError
+from mdsim.units import R_GAS
 
-R_GAS = _const.gas_constant  # J/(mol K), exact since the 2019 SI
-
-TABLE_HEADER = ("temperature_K", "cv_J_molK")
-
-_UREG = None
-
-
-def _registry():
-    global _UREG
-    if _UREG is None:
-        import pint
-        _UREG = pint.UnitRegistry()
-    return _UREG
-
-
-def _where(where):
-    return f" (in {where})" if where else ""
-
-
-def parse_molar_heat_capacity(text, where=""):
-    """Read a molar heat capacity such as "1.5 R" or "20.8 J/(mol K)".
-
-    Parameters
-    ----------
-    text : str
-        A number with a unit of molar heat capacity; "R" is the gas constant.
-    where : str
-        Where the value came from, for error messages.
-
-    Returns
-    -------
-    float
-        The value in J/(mol K).
-    """
-    import pint
-    ureg = _registry()
-    try:
-        q = ureg.Quantity(str(text))
-    except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError) as exc:
-        raise StudyError(
-            f"ideal-gas heat capacity{_where(where)}: cannot read {text!r} as a quantity "
-            f"({exc}); write a number with a unit, e.g. \"1.5 R\" or \"20.8 J/(mol K)\".") from exc
-    if q.dimensionless or not q.check("[energy] / [substance] / [temperature]"):
-        raise StudyError(
-            f"ideal-gas heat capacity{_where(where)}: {text!r} is not a molar heat capacity; "
-            "give units of R or J/(mol K), e.g. \"1.5 R\" or \"20.8 J/(mol K)\".")
-    return float(q.to("J/(mol K)").magnitude)
+__all__ = ["IdealGasHeatCapacity", "ConstantHeatCapacity", "PolynomialHeatCapacity",
+           "TabulatedHeatCapacity"]
 
 
 class IdealGasHeatCapacity(abc.ABC):
@@ -332,91 +267,3 @@ def _check_range(valid_range):
     if not (lo >= 0.0 and hi > lo):
         raise StudyError(f"valid_range_K = [{lo:g}, {hi:g}] K must satisfy 0 <= T_low < T_high.")
     return (lo, hi)
-
-
-def read_heat_capacity_table(path):
-    """Read a c_v_ig table from a CSV file with header ``temperature_K, cv_J_molK``.
-
-    Parameters
-    ----------
-    path : str or os.PathLike
-        The file; lines starting with '#' are comments.
-
-    Returns
-    -------
-    TabulatedHeatCapacity
-    """
-    path = os.fspath(path)
-    if not os.path.isfile(path):
-        raise StudyError(f"ideal-gas heat capacity table {path!r} does not exist; give the "
-                         "path of a CSV file with header 'temperature_K, cv_J_molK'.")
-    with open(path, newline="", encoding="utf-8") as fh:
-        rows = [r for r in csv.reader(fh) if r and not r[0].lstrip().startswith("#")]
-    if not rows:
-        raise StudyError(f"ideal-gas heat capacity table {path!r} is empty; it needs the header "
-                         "'temperature_K, cv_J_molK' and at least two rows.")
-    header = tuple(c.strip() for c in rows[0])
-    if header != TABLE_HEADER:
-        raise StudyError(f"ideal-gas heat capacity table {path!r}: header is {', '.join(header)!r}; "
-                         f"it must be exactly '{', '.join(TABLE_HEADER)}'.")
-    try:
-        data = np.array([[float(c) for c in r] for r in rows[1:]], dtype=np.float64)
-    except ValueError as exc:
-        raise StudyError(f"ideal-gas heat capacity table {path!r}: a row is not two numbers "
-                         f"({exc}); each row is 'temperature_K, cv_J_molK'.") from exc
-    if data.ndim != 2 or data.shape[1] != 2:
-        raise StudyError(f"ideal-gas heat capacity table {path!r}: every row needs exactly two "
-                         "numbers, temperature_K and cv_J_molK.")
-    return TabulatedHeatCapacity(data[:, 0], data[:, 1], source=os.path.basename(path))
-
-
-_DICT_KEYS = ("polynomial", "unit", "valid_range_K", "table")
-
-
-def heat_capacity_from_spec(spec, where=""):
-    """Build an ideal-gas heat capacity model from a study's raw value.
-
-    Parameters
-    ----------
-    spec : str, dict, or IdealGasHeatCapacity
-        - a quantity string: "1.5 R", "20.8 J/(mol K)" -> constant;
-        - a path to a CSV file (header ``temperature_K, cv_J_molK``) -> table;
-        - {"polynomial": [a0, a1, ...], "unit": "J/(mol K)" or "R",
-          "valid_range_K": [T_low, T_high]} -> polynomial (T in K; with
-          unit "R" the coefficients are multiples of R);
-        - {"table": path} -> table;
-        - a model object, returned as it is.
-    where : str
-        The study setting it came from, for error messages.
-
-    Returns
-    -------
-    IdealGasHeatCapacity
-    """
-    if isinstance(spec, IdealGasHeatCapacity):
-        return spec
-    if isinstance(spec, os.PathLike):
-        return read_heat_capacity_table(spec)
-    if isinstance(spec, str):
-        text = spec.strip()
-        if text.lower().endswith(".csv") or os.path.isfile(text):
-            return read_heat_capacity_table(text)
-        return ConstantHeatCapacity(parse_molar_heat_capacity(text, where))
-    if isinstance(spec, dict):
-        unknown = sorted(set(spec) - set(_DICT_KEYS))
-        if unknown:
-            raise StudyError(f"ideal-gas heat capacity{_where(where)}: unknown key(s) {unknown}; "
-                             f"allowed keys are {list(_DICT_KEYS)}.")
-        if "table" in spec:
-            return read_heat_capacity_table(spec["table"])
-        if "polynomial" not in spec:
-            raise StudyError(f"ideal-gas heat capacity{_where(where)}: a table of settings needs "
-                             "'polynomial = [a0, a1, ...]' (with 'unit') or 'table = \"file.csv\"'.")
-        unit = str(spec.get("unit", "J/(mol K)"))
-        scale = parse_molar_heat_capacity(f"1 {unit}", where)
-        coeffs = [float(c) * scale for c in spec["polynomial"]]
-        return PolynomialHeatCapacity(coeffs, spec.get("valid_range_K", (0.0, math.inf)))
-    raise StudyError(
-        f"ideal-gas heat capacity{_where(where)} = {spec!r} is not understood; give a quantity "
-        "string (\"1.5 R\", \"20.8 J/(mol K)\"), a CSV path, or {polynomial = [...], "
-        "unit = \"J/(mol K)\"}.")
