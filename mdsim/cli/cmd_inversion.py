@@ -59,7 +59,7 @@ def add_arguments(p):
 
 def format_inversion_table(out):
     """Plain-text lines for ``mdsim inversion``."""
-    lines = [f"study {out['study']}: inversion temperatures (SI)",
+    lines = [f"study {out['study']}: inversion temperatures",
              f"  Joule (free expansion) inversion, zero density      "
              f"{out['joule_inversion_zero_density_K']:.6g} K   (maximum of B2)",
              f"  Joule-Thomson (throttling) inversion, zero pressure "

@@ -56,7 +56,7 @@ def _state_point_lines(rec):
 def format_virial_table(summary):
     """Plain-text lines for ``mdsim virial``."""
     lines = [f"study {summary['study']}: virial routes (B2 only, and B2 + B3; "
-             "SI units, Delta T = T_final - T_initial)"]
+             "Delta T = T_final - T_initial; each value carries its unit)"]
     for rec in summary["state_points"]:
         lines += _state_point_lines(rec)
     lines += [f"warning: {w}" for w in summary.get("warnings", [])]
