@@ -41,7 +41,7 @@ by sample n (pymbar's convention).
 from analysis.expansion.direct import direct_route
 from analysis.expansion.energy import (NEWTON_TOLERANCE, NewtonStep, StateSample, energy_route,
                                        newton_step)
-from analysis.expansion.mbar import MBARInterpolant
+from analysis.expansion.mbar import MIN_NEIGHBOUR_OVERLAP, MBARInterpolant
 from analysis.expansion.microcanonical import microcanonical_route
 from analysis.expansion.sampled import SampledExpansionResult, reduced_to_J_mol
 from analysis.expansion.virial_series import (VIRIAL_SPREAD_WARN, VirialExpansionResult,
@@ -53,5 +53,5 @@ from mdsim.units import R_GAS
 
 __all__ = ["virial_expansion", "VirialExpansionResult", "VIRIAL_SPREAD_WARN",
            "energy_route", "newton_step", "NewtonStep", "StateSample", "NEWTON_TOLERANCE",
-           "MBARInterpolant", "microcanonical_route", "direct_route", "SampledExpansionResult",
+           "MBARInterpolant", "MIN_NEIGHBOUR_OVERLAP", "microcanonical_route", "direct_route", "SampledExpansionResult",
            "reduced_to_J_mol", "find_root_bracketed", "R_GAS"]

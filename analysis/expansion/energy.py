@@ -16,11 +16,11 @@ import numpy as np
 from scipy.optimize import brentq
 
 from analysis import stats
-from analysis.expansion.mbar import MBARInterpolant
+from analysis.expansion.mbar import MIN_NEIGHBOUR_OVERLAP, MBARInterpolant
 from analysis.expansion.sampled import SampledExpansionResult
 from analysis.results import Result
 from mdsim.checks import positive
-from mdsim.errors import SettingError, StudyError
+from mdsim.errors import ConvergenceError, SettingError, StudyError
 
 __all__ = ["NEWTON_TOLERANCE", "StateSample", "NewtonStep", "newton_step", "energy_route"]
 
@@ -164,10 +164,15 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
     Returns
     -------
     solution : (float, float, dict) or None
-        (T_f, stderr(T_f), details), None when the balance does not change
-        sign in the sampled range widened by a quarter of its width each side.
+        (T_f, stderr(T_f), details); None when the reweighting does not
+        converge (pymbar's default and robust solvers both fail), when the
+        balance does not change sign in the sampled range widened by a
+        quarter of its width each side, or when the sampled temperatures
+        around the root overlap less than ``MIN_NEIGHBOUR_OVERLAP``.
     warning : str or None
-        Why there is no solution.
+        Why there is no solution, when that is a failure.
+    note : str or None
+        Why MBAR was not used, when that is not a failure (poor overlap).
     """
     if n_particles is None:
         raise StudyError("energy route: 'series_final' was given without 'n_particles'; "
@@ -176,7 +181,11 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
         raise StudyError(f"energy route: {len(series_final)} series for {len(samples)} "
                          "samples; give one energy series per sampled temperature.")
     u_i, s_i = u_initial
-    mbar = MBARInterpolant([s.temperature_K for s in samples], series_final, n_particles)
+    try:
+        mbar = MBARInterpolant([s.temperature_K for s in samples], series_final, n_particles)
+    except ConvergenceError as exc:
+        return None, (f"energy route: {exc}; the Newton estimate is reported (sample closer "
+                      f"to {newton_T:.6g} K to make the reweighting converge)"), None
     T_lo, T_hi = mbar.temperatures_K.min(), mbar.temperatures_K.max()
     pad = 0.25 * (T_hi - T_lo)
     lo, hi = max(T_lo - pad, cv_ig.valid_range[0], 1e-300), min(T_hi + pad, cv_ig.valid_range[1])
@@ -188,14 +197,24 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
     if np.sign(balance(lo)) == np.sign(balance(hi)):
         return None, (f"energy route: MBAR finds no root between {lo:.6g} and {hi:.6g} K (the "
                       "sampled range widened by a quarter each side); the Newton estimate is "
-                      f"reported. Sample closer to {newton_T:.6g} K.")
+                      f"reported. Sample closer to {newton_T:.6g} K."), None
     T_f = float(brentq(balance, lo, hi, xtol=1e-10 * T_i, rtol=1e-12))
+    overlap = mbar.overlap_between(T_f, T_f)
+    if overlap < MIN_NEIGHBOUR_OVERLAP:
+        return None, None, (f"energy route: MBAR not used: the energy samples of the temperatures "
+                            f"around {T_f:.6g} K barely overlap (overlap {overlap:.2g} < "
+                            f"{MIN_NEIGHBOUR_OVERLAP:g}), so reweighting between them is an "
+                            "extrapolation; the Newton estimate is reported")
     cv = cv_ig.cv(T_f) + mbar.cv_res(T_f)
-    s_f = mbar.u_res_stderr(T_f)
+    try:
+        s_f = mbar.u_res_stderr(T_f)
+    except ConvergenceError as exc:
+        return None, f"energy route: {exc}; the Newton estimate is reported", None
     details = {"mbar_u_res_J_mol": mbar.u_res(T_f), "mbar_u_res_stderr_J_mol": s_f,
                "mbar_cv_res_J_molK": mbar.cv_res(T_f),
-               "mbar_effective_samples": mbar.effective_samples(T_f)}
-    return (T_f, math.hypot(s_i, s_f) / cv, details), None
+               "mbar_effective_samples": mbar.effective_samples(T_f),
+               "mbar_neighbour_overlap": overlap}
+    return (T_f, math.hypot(s_i, s_f) / cv, details), None, None
 
 
 def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
@@ -261,10 +280,11 @@ def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
                "initial_u_res_J_mol": u_i, "initial_u_res_stderr_J_mol": s_i}
     T_f, err, method = nstep.next_temperature_K, nstep.temperature_stderr_K, "newton"
     if series_final is not None and len(samples) >= 2:
-        solution, warning = _mbar_solution(samples, series_final, n_particles, T_i, (u_i, s_i),
-                                           cv_ig, nstep.next_temperature_K)
+        solution, warning, note = _mbar_solution(samples, series_final, n_particles, T_i,
+                                                 (u_i, s_i), cv_ig, nstep.next_temperature_K)
         if solution is None:
-            warnings.append(warning)
+            warnings += [warning] if warning else []
+            notes += [note] if note else []
         else:
             T_f, err, mbar_details = solution
             method = "mbar"

@@ -10,10 +10,16 @@ from scipy.special import logsumexp
 
 from analysis import stats
 from mdsim.checks import count
-from mdsim.errors import StudyError
+from mdsim.errors import ConvergenceError, StudyError
 from mdsim.units import R_GAS
 
-__all__ = ["MBARInterpolant"]
+__all__ = ["MBARInterpolant", "MIN_NEIGHBOUR_OVERLAP"]
+
+MIN_NEIGHBOUR_OVERLAP = 0.03
+"""Reweighting is trusted only where neighbouring sampled temperatures overlap at least
+this much (an element of MBAR's overlap matrix; below about 0.03 the free-energy
+differences, and so the interpolant between the two, are poorly determined: common
+practice in reweighting, no source)."""
 
 
 class MBARInterpolant:
@@ -65,7 +71,8 @@ class MBARInterpolant:
         self._beta_scale = self.n_particles / R_GAS  # N / R; u_kn = beta_scale * u_n / T
         u_kn = self._beta_scale * self.u_n[None, :] / T_k[:, None]
         shift = u_kn.min()
-        self._mbar = pymbar.MBAR(u_kn - shift, self.N_k)
+        self._mbar = _solve_mbar(pymbar, u_kn - shift, self.N_k)
+        self.neighbour_overlap_k = _neighbour_overlap(self._mbar, T_k)
         f_k = np.asarray(self._mbar.f_k, dtype=np.float64)
         self._log_denom_n = logsumexp(np.log(self.N_k)[:, None] + f_k[:, None] - (u_kn - shift),
                                       axis=0)
@@ -86,12 +93,69 @@ class MBARInterpolant:
         return float(self.n_particles * (w @ (self.u_n - mean) ** 2) / (R_GAS * T * T))
 
     def u_res_stderr(self, T):
-        """MBAR standard error of <u_res> at T, J/mol."""
+        """MBAR standard error of <u_res> at T, J/mol.
+
+        Raises
+        ------
+        ConvergenceError
+            When pymbar finds the weights at T not normalised (its
+            ``ParameterError``: the free energies are not converged).
+        """
+        from pymbar.utils import ParameterError
         u_ln = self._beta_scale * self.u_n[None, :] / T - self._shift
-        out = self._mbar.compute_expectations(self.u_n, u_kn=u_ln, state_dependent=False)
+        try:
+            out = self._mbar.compute_expectations(self.u_n, u_kn=u_ln, state_dependent=False)
+        except (ParameterError, FloatingPointError, np.linalg.LinAlgError) as exc:
+            raise ConvergenceError(f"MBAR: no standard error at {T:.6g} K ({_one_line(exc)})") \
+                from None
         return float(np.atleast_1d(out["sigma"])[0])
+
+    def overlap_between(self, T_a, T_b):
+        """Smallest neighbour overlap among the sampled temperatures that bracket [T_a, T_b].
+
+        1 means identical distributions; values below :data:`MIN_NEIGHBOUR_OVERLAP`
+        mean the samples there say little about each other, and u_res between
+        them is an extrapolation rather than a reweighting.
+        """
+        T_sorted = np.sort(self.temperatures_K)
+        lo, hi = min(T_a, T_b), max(T_a, T_b)
+        pairs = [k for k in range(T_sorted.size - 1)
+                 if T_sorted[k + 1] >= lo and T_sorted[k] <= hi]
+        if not pairs:  # outside the sampled range: the overlap of the nearest pair
+            pairs = [0] if hi < T_sorted[0] else [T_sorted.size - 2]
+        return float(min(self.neighbour_overlap_k[k] for k in pairs))
 
     def effective_samples(self, T):
         """Kish effective sample size of the weights at T."""
         w = self._weights(T)
         return float(1.0 / np.sum(w * w))
+
+
+def _one_line(exc):
+    return " ".join(str(exc).split())
+
+
+def _solve_mbar(pymbar, u_kn, N_k):
+    """pymbar's MBAR with its default solver, then its robust one; ConvergenceError if both fail."""
+    from pymbar.utils import ParameterError
+    failures = []
+    for protocol in (None, "robust"):
+        try:
+            mbar = pymbar.MBAR(u_kn, N_k, solver_protocol=protocol)
+            # converged free energies give normalised weights (pymbar's own test of them)
+            pymbar.utils.check_w_normalized(mbar.W_nk, N_k)
+            return mbar
+        except (ParameterError, FloatingPointError, np.linalg.LinAlgError,
+                pymbar.utils.ConvergenceError) as exc:
+            failures.append(f"{protocol or 'default'} solver: {_one_line(exc)}")
+    raise ConvergenceError("MBAR did not converge (" + "; ".join(failures) + ")")
+
+
+def _neighbour_overlap(mbar, T_k):
+    """Overlap-matrix elements between temperature neighbours, in temperature order (K - 1)."""
+    try:
+        O_kl = np.asarray(mbar.compute_overlap()["matrix"], dtype=float)
+    except (np.linalg.LinAlgError, FloatingPointError, ValueError):
+        return np.zeros(T_k.size - 1)  # an overlap that cannot be computed counts as none
+    order = np.argsort(T_k)
+    return np.array([O_kl[order[k], order[k + 1]] for k in range(T_k.size - 1)])

@@ -140,6 +140,56 @@ def test_newton_step_and_mbar_find_known_T_f(monatomic_cv):
     json.dumps(mbar.to_dict())  # JSON-ready
 
 
+def test_mbar_is_not_trusted_between_temperatures_whose_samples_do_not_overlap(monatomic_cv):
+    """Samples at 180 and 296 K share almost no configurations: reweighting between them
+    would extrapolate.
+
+    The route keeps the Newton estimate, says why in a note, and still lands on the exact
+    T_f of the linear model (z < 4 on the sampled noise).
+    """
+    T_i, delta = 300.0, -3.0 * R * 5.0
+    u_i = (U0_SYN + A_SYN * R * T_i / N_SYN + delta, 2.0)
+    temps = [180.0, 296.0]
+    series = [_canonical_series(T, 4000, seed=60 + k) for k, T in enumerate(temps)]
+    samples = [_sample(T, s) for T, s in zip(temps, series)]
+    mbar = ex.MBARInterpolant(temps, series, N_SYN)
+    # gamma(150) energies scale with T: at 180 and 296 K the means differ by ~6 standard
+    # deviations (relative width 1/sqrt(150)), an overlap of order 1e-3
+    assert mbar.overlap_between(270.0, 280.0) < ex.MIN_NEIGHBOUR_OVERLAP
+    res = ex.energy_route(u_i, T_i, 400.0, samples, monatomic_cv, series_final=series,
+                          n_particles=N_SYN)
+    assert res.method == "newton"
+    assert any("barely overlap" in n for n in res.notes)
+    assert abs(res.final_temperature_K - _exact_T_f(T_i, delta)) < 4 * res.delta_T_stderr_K
+
+
+def test_a_reweighting_that_does_not_converge_never_fails_the_route(monatomic_cv, monkeypatch):
+    """pymbar's 'free energies are not converged' (ParameterError) from both of its solvers:
+    the route reports the Newton estimate with a warning instead of raising."""
+    import pymbar
+    from pymbar.utils import ParameterError
+    tried = []
+
+    def failing_mbar(u_kn, N_k, solver_protocol=None, **kw):
+        tried.append(solver_protocol)
+        raise ParameterError("Warning: Should have \\sum_n W_nk = 1. This generally indicates "
+                             "the free energies are not converged.")
+
+    monkeypatch.setattr(pymbar, "MBAR", failing_mbar)
+    T_i, delta = 300.0, -3.0 * R * 5.0
+    u_i = (U0_SYN + A_SYN * R * T_i / N_SYN + delta, 2.0)
+    temps = [294.0, 296.0]
+    series = [_canonical_series(T, 4000, seed=70 + k) for k, T in enumerate(temps)]
+    samples = [_sample(T, s) for T, s in zip(temps, series)]
+    res = ex.energy_route(u_i, T_i, 400.0, samples, monatomic_cv, series_final=series,
+                          n_particles=N_SYN)
+    assert tried == [None, "robust"]  # the default solver first, then pymbar's robust protocol
+    assert res.method == "newton"
+    assert any("MBAR did not converge" in w and "Newton estimate is reported" in w
+               for w in res.warnings)
+    assert abs(res.final_temperature_K - _exact_T_f(T_i, delta)) < 4 * res.delta_T_stderr_K
+
+
 def test_newton_converges_at_the_root(monatomic_cv):
     T_i, delta = 300.0, -3.0 * R * 5.0
     T_exact = _exact_T_f(T_i, delta)
