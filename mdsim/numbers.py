@@ -18,6 +18,7 @@ Examples
 '-37 K'
 """
 import math
+from decimal import ROUND_HALF_UP, Decimal
 
 __all__ = ["value_with_error", "round_to_error", "plain"]
 
@@ -41,14 +42,21 @@ def round_to_error(value, stderr):
         The two numbers as text, with the same number of decimals.
     """
     d = _decimals(stderr)
-    e = round(float(stderr), d)
-    if e != 0.0 and _decimals(e) != d:  # 0.0996 rounds to 0.10: one figure fewer
+    e = _round(stderr, d)
+    if e != 0 and _decimals(e) != d:  # 0.0996 rounds to 0.10: one figure fewer
         d = _decimals(e)
-        e = round(float(stderr), d)
-    v = round(float(value), d)
-    if d > 0:
-        return f"{v:.{d}f}", f"{e:.{d}f}"
-    return f"{v:.0f}", f"{e:.0f}"
+        e = _round(stderr, d)
+    v = _round(value, d)
+    return _text(v, d), _text(e, d)
+
+
+def _round(x, d):
+    """x rounded half away from zero to d decimals (d < 0: to tens, hundreds...)."""
+    return Decimal(repr(float(x))).quantize(Decimal(1).scaleb(-d), rounding=ROUND_HALF_UP)
+
+
+def _text(x, d):
+    return f"{x:.{d}f}" if d > 0 else f"{int(x)}"
 
 
 def plain(value, digits=5):
