@@ -85,7 +85,7 @@ def resolved_study_document(study, copies=None):
         copies[rel.as_posix()] = str(src)
         return rel.as_posix()
 
-    from mdsim.pipeline.tasks import simulation_settings
+    from mdsim.pipeline import simulation_settings
     doc = json.loads(json.dumps(study.raw))  # a deep copy of plain data
 
     def relocate(pot):
@@ -194,7 +194,7 @@ def prepare_run_dir(study, out):
     must hold the same task list (the same study and settings), otherwise
     nothing is touched and a StudyError says what differs.
     """
-    from mdsim.pipeline.tasks import plan_tasks
+    from mdsim.pipeline import plan_tasks
     rd = RunDir(out)
     tasks = json.loads(json.dumps(plan_tasks(study)))
     copies = {}
@@ -220,7 +220,7 @@ def prepare_run_dir(study, out):
          _run_arguments)
 def run_run(args):
     from mdsim.study.reader import read_study
-    from mdsim.pipeline.tasks import plan_tasks
+    from mdsim.pipeline import plan_tasks
     study = read_study(args.study)
     out = Path(args.out) if args.out else Path("runs") / study.name
     rd = RunDir(out)
@@ -402,7 +402,7 @@ def _task_arguments(p):
 @command("task", "run one task of a run directory (what an array-job element does)",
          _task_arguments)
 def run_one_task(args):
-    from mdsim.pipeline.tasks import run_task
+    from mdsim.pipeline import run_task
     rd = RunDir(args.run_dir)
     tasks = rd.read_tasks()
     if args.index >= len(tasks):
@@ -433,7 +433,7 @@ def _status_arguments(p):
 def run_status_data(run_dir):
     """States and times of a run directory's tasks (a dict, JSON-ready)."""
     from mdsim.execute.progress import read_progress
-    from mdsim.pipeline.tasks import read_task_result
+    from mdsim.pipeline import read_task_result
     rd = RunDir(run_dir)
     tasks = rd.read_tasks()
     rows = []

@@ -9,7 +9,10 @@ The names below are the pipeline's interface to the layers above it (the
 command line, the checks); import them from here.
 """
 from mdsim.pipeline.rundir import RunDir
-from mdsim.pipeline.tasks import plan_tasks, read_task_result, run_task, simulation_settings
+from mdsim.pipeline.plan import plan_tasks
+from mdsim.pipeline.runner import run_task
+from mdsim.pipeline.settings import simulation_settings
+from mdsim.pipeline.taskfile import read_task_result
 from mdsim.pipeline.jobs import task_job
 from mdsim.pipeline.report import build_report
 

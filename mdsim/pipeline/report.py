@@ -97,7 +97,7 @@ def gather_tasks(run_dir):
         state_point_index, state} for tasks not finished ("pending" or
         "partial", the latter with a checkpoint to resume).
     """
-    from mdsim.pipeline.tasks import read_task_result
+    from mdsim.pipeline.taskfile import read_task_result
     planned = run_dir.read_tasks()
     results, failed, missing = {}, [], []
     for task in planned:

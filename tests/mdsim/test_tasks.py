@@ -6,9 +6,8 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.pipeline.rundir import RunDir
 from mdsim.study.reader import read_study
-from mdsim.pipeline.tasks import plan_tasks, read_task_result, run_task, simulation_settings
+from mdsim.pipeline import plan_tasks, read_task_result, run_task, simulation_settings
 
 BASE = """\
 [study]
@@ -186,6 +185,19 @@ def test_a_complete_task_is_read_back_not_run_again(tmp_path):
     assert again == first
     assert rd.task_file(0).stat().st_mtime_ns == stamp
     assert first["delta_T_K"]["stderr"] <= 0.5
+    # the stage files are named by what they sample; the CPU ledger sits beside them
+    names = {p.name for p in rd.stages_dir(0).iterdir()}
+    assert {"initial-state-pilot.h5", "initial-state-00.h5", "final-density-guess0-pilot.h5",
+            "final-density-guess0-00.h5", rd.cpu_ledger(0).name} <= names
+    ledger = json.loads(rd.cpu_ledger(0).read_text())
+    assert set(ledger) == {n[:-3] for n in names if n.endswith(".h5")}
+    assert sum(v["cpu_s"] for v in ledger.values()) == pytest.approx(first["cpu_seconds"])
+
+
+def test_every_simulation_route_has_one_runner():
+    from mdsim.pipeline.routes import ROUTE_RUNNERS
+    from mdsim.study.routes import SIMULATION_ROUTES
+    assert sorted(ROUTE_RUNNERS) == sorted(SIMULATION_ROUTES)
 
 
 @pytest.mark.parametrize("old_field, old_route, words", [
