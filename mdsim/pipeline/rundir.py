@@ -8,7 +8,8 @@ Layout (all under one directory, ``runs/NAME`` by default; ``docs/run-directory.
     tasks/NNNN.h5     one file per finished task (written as NNNN.h5.part, renamed when complete)
     tasks/NNNN.stages/  the task's stage files (sampling runs that resume) and
                       its CPU ledger ``cpu-time-ledger.json``
-    tasks/NNNN.failed.json, tasks/NNNN.progress.json  a failed task's error; a running task's progress
+    tasks/NNNN.failed.json    a failed task's error
+    tasks/NNNN.progress.json  a running task's progress
     results.csv, results.json, report.md, plots/, log.txt
     array.sh, logs/, jobs.json  the Slurm job array, its logs and its submissions
     .lock             present while an ``mdsim run`` owns the directory

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
+from mdsim.pipeline.rundir import RunDir, stage_name
 from mdsim.study.reader import read_study
 from mdsim.pipeline import plan_tasks, read_task_result, run_task, simulation_settings
 
@@ -217,3 +218,22 @@ def test_a_run_directory_of_an_earlier_layout_is_refused_by_name(tmp_path, old_f
     with pytest.raises(StudyError, match="earlier version of the tool") as err:
         rd.read_tasks()
     assert words in str(err.value)
+
+
+def test_the_run_directory_layout_comes_from_run_dir(tmp_path):
+    """Every path of the documented layout (docs/run-directory.md), from one class."""
+    rd = RunDir(tmp_path / "run")
+    p = rd.path
+    assert [rd.study_file, rd.inputs_dir, rd.tasks_file, rd.tasks_dir] == [
+        p / "study.toml", p / "inputs", p / "tasks.json", p / "tasks"]
+    assert [rd.results_json, rd.results_csv, rd.report_md, rd.plots_dir, rd.log_file] == [
+        p / "results.json", p / "results.csv", p / "report.md", p / "plots", p / "log.txt"]
+    assert [rd.array_script, rd.logs_dir, rd.jobs_file, rd.lock_file] == [
+        p / "array.sh", p / "logs", p / "jobs.json", p / ".lock"]
+    t = p / "tasks"
+    assert [rd.task_file(7), rd.partial_file(7), rd.failure_file(7), rd.progress_file(7)] == [
+        t / "0007.h5", t / "0007.h5.part", t / "0007.failed.json", t / "0007.progress.json"]
+    assert rd.stages_dir(12) == t / "0012.stages"
+    assert rd.cpu_ledger(12) == t / "0012.stages" / "cpu-time-ledger.json"
+    assert rd.stage_file(3, stage_name("final-state-nve", 2)) == \
+        t / "0003.stages" / "final-state-nve-02.h5"
