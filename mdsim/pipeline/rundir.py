@@ -40,7 +40,8 @@ from mdsim.errors import StudyError
 from mdsim.files import atomic_write_text
 
 __all__ = ["RunDir", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
-           "FINAL_STATE_NVE", "WALL_REMOVED_FILLING", "WALL_REMOVED_RELAXED"]
+           "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
+           "WALL_REMOVED_RELAXED", "STAGE_LABELS"]
 
 TASKS_FILE = "tasks.json"
 LOCK_FILE = ".lock"
@@ -52,12 +53,17 @@ SPACE_REPORT_BYTES = 8_000_000
 
 INITIAL_STATE = "initial-state"
 """Stage label of the NVT chain at the initial state (every route)."""
+FINAL_DENSITY_GUESS = "final-density-guess"
+"""Stage label stem of the energy route's temperature guesses at the final density."""
 FINAL_STATE_NVE = "final-state-nve"
 """Stage label of the microcanonical route's chain at the final density and energy."""
 WALL_REMOVED_FILLING = "wall-removed-filling"
 """Stage label of the direct route's NVE stages while the gas fills the enlarged box."""
 WALL_REMOVED_RELAXED = "wall-removed-relaxed"
 """Stage label of the direct route's NVE stages after the gas has filled the box."""
+STAGE_LABELS = (INITIAL_STATE, FINAL_DENSITY_GUESS, FINAL_STATE_NVE, WALL_REMOVED_FILLING,
+                WALL_REMOVED_RELAXED)
+"""Every stage file of this version starts with one of these."""
 
 
 def final_density_guess(k):
@@ -66,7 +72,7 @@ def final_density_guess(k):
     >>> final_density_guess(0)
     'final-density-guess0'
     """
-    return f"final-density-guess{int(k)}"
+    return f"{FINAL_DENSITY_GUESS}{int(k)}"
 
 
 def stage_name(label, k=None):
@@ -171,6 +177,18 @@ class RunDir:
     def cpu_ledger(self, index):
         """A task's CPU time per stage, ``tasks/NNNN.stages/cpu-time-ledger.json``."""
         return self.stages_dir(index) / "cpu-time-ledger.json"
+
+    def older_stage_files(self, index):
+        """Files in a task's stages folder under names this version does not write.
+
+        Earlier versions of the tool named stage files otherwise (``initial-pilot.h5``,
+        ``cpu.json``, ...); such a task cannot be resumed.  Returns sorted names.
+        """
+        folder = self.stages_dir(index)
+        if not folder.is_dir():
+            return []
+        ours = STAGE_LABELS + (self.cpu_ledger(index).name,)
+        return sorted(p.name for p in folder.iterdir() if not p.name.startswith(ours))
 
     def progress_file(self, index):
         """A running task's progress, ``tasks/NNNN.progress.json``."""

@@ -88,6 +88,13 @@ def run_task(run_dir, index, progress=None):
 
 def _run(rd, index, task, progress):
     """Run the task's route, write its task file and return its result."""
+    older = rd.older_stage_files(index)
+    if older:
+        raise StudyError(f"task {index:04d}: '{rd.stages_dir(index)}' holds stage files of an "
+                         f"earlier version of the tool ({', '.join(older[:3])}"
+                         f"{', ...' if len(older) > 3 else ''}): this version cannot resume "
+                         "that task; run the study again into a new run directory (finished "
+                         "task files stay readable)")
     wall0 = time.time()
     job = RunningTask(rd, task, progress=progress)
     res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)

@@ -237,3 +237,18 @@ def test_the_run_directory_layout_comes_from_run_dir(tmp_path):
     assert rd.cpu_ledger(12) == t / "0012.stages" / "cpu-time-ledger.json"
     assert rd.stage_file(3, stage_name("final-state-nve", 2)) == \
         t / "0003.stages" / "final-state-nve-02.h5"
+
+
+def test_a_task_with_stage_files_of_an_earlier_version_is_refused_not_mixed(tmp_path):
+    """Stage files named by an earlier version (and its cpu.json ledger) are not resumed."""
+    rd, _ = make_run_dir(tmp_path, write_study(tmp_path))
+    rd.stages_dir(0).mkdir(parents=True)
+    for name in ("initial-pilot.h5", "final0-00.h5", "cpu.json"):
+        (rd.stages_dir(0) / name).write_bytes(b"")
+    (rd.stages_dir(0) / "initial-state-pilot.h5.part").write_bytes(b"")  # a name of this version
+    assert rd.older_stage_files(0) == ["cpu.json", "final0-00.h5", "initial-pilot.h5"]
+    with pytest.raises(StudyError, match="earlier version of the tool") as err:
+        run_task(rd.path, 0)
+    assert "cpu.json, final0-00.h5, initial-pilot.h5" in str(err.value)
+    assert "earlier version" in json.loads(rd.failure_file(0).read_text())["error"]
+    assert not rd.task_file(0).exists()
