@@ -47,11 +47,8 @@ from analysis.expansion.sampled import SampledExpansionResult, reduced_to_J_mol
 from analysis.expansion.virial_series import (VIRIAL_SPREAD_WARN, VirialExpansionResult,
                                               virial_expansion)
 from analysis.roots import find_root_bracketed
-# R_GAS is re-exported only because mdsim.pipeline.tasks still imports it from here;
-# its home is mdsim.units.
-from mdsim.units import R_GAS
 
 __all__ = ["virial_expansion", "VirialExpansionResult", "VIRIAL_SPREAD_WARN",
            "energy_route", "newton_step", "NewtonStep", "StateSample", "NEWTON_TOLERANCE",
-           "MBARInterpolant", "MIN_NEIGHBOUR_OVERLAP", "microcanonical_route", "direct_route", "SampledExpansionResult",
-           "reduced_to_J_mol", "find_root_bracketed", "R_GAS"]
+           "MBARInterpolant", "MIN_NEIGHBOUR_OVERLAP", "microcanonical_route", "direct_route",
+           "SampledExpansionResult", "reduced_to_J_mol", "find_root_bracketed"]

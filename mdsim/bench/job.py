@@ -60,7 +60,7 @@ def main(argv=None):
     parser.add_argument("--out", help="run directory (default: a temporary one)")
     args = parser.parse_args(argv)
     from mdsim.cli import main as cli_main
-    from mdsim.pipeline.tasks import read_task_result
+    from mdsim.pipeline import read_task_result
     with tempfile.TemporaryDirectory(prefix="mdsim-bench-job-") as tmp:
         study = Path(tmp) / "bench.toml"
         study.write_text(STUDY.format(target=args.target), encoding="utf-8")

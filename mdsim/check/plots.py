@@ -7,7 +7,7 @@ it), draws one figure on its own Agg canvas (the helpers of
 """
 import numpy as np
 
-from mdsim.pipeline.plots import _figure, _save
+from mdsim.pipeline.plots import figure as _figure, save as _save
 
 
 def _used_rows(result):

@@ -7,9 +7,20 @@ what is built from them: results.json, results.csv, plots and report.md.
 
 The names below are the pipeline's interface to the layers above it (the
 command line, the checks); import them from here.
+
+Modules: ``rundir`` (every path of a run directory, the lock, task states);
+``settings`` and ``plan`` (the study's tasks); ``task`` (the running task
+and its CPU ledger), ``chain`` (pilot and production stage files),
+``routes/`` (one runner per simulation route), ``runner`` (``run_task``)
+and ``taskfile`` (task and failure files); ``jobs`` (a task as an executor
+job); ``collect``, ``summary``, ``results_files``, ``plot_data``, ``plots``,
+``figures``, ``report_md`` and ``report`` (``build_report``).
 """
 from mdsim.pipeline.rundir import RunDir
-from mdsim.pipeline.tasks import plan_tasks, read_task_result, run_task, simulation_settings
+from mdsim.pipeline.plan import plan_tasks
+from mdsim.pipeline.runner import run_task
+from mdsim.pipeline.settings import simulation_settings
+from mdsim.pipeline.taskfile import read_task_result
 from mdsim.pipeline.jobs import task_job
 from mdsim.pipeline.report import build_report
 

@@ -16,9 +16,9 @@ def task_job(run_dir, index, on_tick=None):
     """
     from mdsim.execute.progress import TaskProgressFile
     from mdsim.pipeline.rundir import RunDir
-    from mdsim.pipeline.tasks import run_task
+    from mdsim.pipeline.runner import run_task
     rd = RunDir(run_dir)
-    reporter = TaskProgressFile(rd.tasks_dir / f"{int(index):04d}.progress.json", on_tick)
+    reporter = TaskProgressFile(rd.progress_file(index), on_tick)
     try:
         run_task(run_dir, index, progress=reporter)
         return None

@@ -1,7 +1,7 @@
 """The figures of a run report, drawn with matplotlib and saved as PNG and PDF.
 
 Every function takes plain numbers and arrays (prepared by
-:mod:`mdsim.pipeline.report`), draws one figure and writes ``STEM.png`` and
+:mod:`mdsim.pipeline.plot_data`), draws one figure and writes ``STEM.png`` and
 ``STEM.pdf``; it returns the two paths.  Figures are built on
 :class:`matplotlib.figure.Figure` with an explicit Agg canvas, so nothing
 here touches pyplot or the global matplotlib backend (no side effects on
@@ -15,6 +15,9 @@ from pathlib import Path
 
 import numpy as np
 
+__all__ = ["figure", "save", "plot_delta_T", "plot_energy_route", "plot_direct", "plot_series",
+           "plot_inversion", "ROUTE_STYLE"]
+
 # route -> (legend label, colour, marker); the one place a route gets its looks
 ROUTE_STYLE = {
     "virial_b2": ("virial, B2 only", "tab:gray", "s"),
@@ -27,8 +30,23 @@ ROUTE_STYLE = {
 DPI = 130
 
 
-def _figure(width_in=6.4, height_in=4.4, nrows=1, ncols=1, **kw):
-    """A Figure on its own Agg canvas (pyplot's global state is never used)."""
+def figure(width_in=6.4, height_in=4.4, nrows=1, ncols=1, **kw):
+    """A Figure on its own Agg canvas (pyplot's global state is never used).
+
+    Parameters
+    ----------
+    width_in, height_in : float
+        Size, inches.
+    nrows, ncols : int
+        The grid of axes.
+    **kw
+        Passed to :meth:`matplotlib.figure.Figure.subplots` (``sharex``, ...).
+
+    Returns
+    -------
+    fig : matplotlib.figure.Figure
+    axes : ndarray of Axes, shape=(nrows, ncols)
+    """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
     fig = Figure(figsize=(width_in, height_in), layout="constrained")
@@ -37,7 +55,8 @@ def _figure(width_in=6.4, height_in=4.4, nrows=1, ncols=1, **kw):
     return fig, axes
 
 
-def _save(fig, stem):
+def save(fig, stem):
+    """Write ``STEM.png`` and ``STEM.pdf`` (making the folder); returns the two paths."""
     stem = Path(stem)
     stem.parent.mkdir(parents=True, exist_ok=True)
     paths = []
@@ -72,7 +91,7 @@ def plot_delta_T(panels, stem):
     n = max(1, len(panels))
     ncols = min(n, 2)
     nrows = (n + ncols - 1) // ncols
-    fig, axes = _figure(6.4 * ncols if ncols > 1 else 6.8, 6.0 * nrows, 2 * nrows, ncols,
+    fig, axes = figure(6.4 * ncols if ncols > 1 else 6.8, 6.0 * nrows, 2 * nrows, ncols,
                         height_ratios=[3.0, 1.5] * nrows)
     for k in range(nrows * ncols):
         ax, ax_res = axes[2 * (k // ncols), k % ncols], axes[2 * (k // ncols) + 1, k % ncols]
@@ -121,7 +140,7 @@ def plot_delta_T(panels, stem):
             a.set_xlim(0.0, 1.03 * x_max if x_max > 0 else None)
     fig.suptitle("Free-expansion temperature change (error bars: one standard error)",
                  fontsize=11)
-    return _save(fig, stem)
+    return save(fig, stem)
 
 
 def plot_energy_route(data, stem):
@@ -144,7 +163,7 @@ def plot_energy_route(data, stem):
     -------
     list of Path
     """
-    fig, axes = _figure(6.8, 4.8)
+    fig, axes = figure(6.8, 4.8)
     ax = axes[0, 0]
     T_g = np.asarray(data["T_g_K"], float)
     rho_i, rho_f = data["rho_i_mol_m3"], data["rho_f_mol_m3"]
@@ -173,7 +192,7 @@ def plot_energy_route(data, stem):
     ax.set_title(data["title"], fontsize=10)
     ax.grid(alpha=0.3)
     ax.legend(fontsize=7.5, loc="best")
-    return _save(fig, stem)
+    return save(fig, stem)
 
 
 def plot_direct(data, stem):
@@ -193,7 +212,7 @@ def plot_direct(data, stem):
     -------
     list of Path
     """
-    fig, axes = _figure(6.8, 6.6, 2, 1, sharex=True)
+    fig, axes = figure(6.8, 6.6, 2, 1, sharex=True)
     t_ps = np.asarray(data["time_s"], float) * 1e12
     ax = axes[0, 0]
     ax.plot(t_ps, data["temperature_K_t"], color="tab:purple", lw=1.0, label="kinetic temperature")
@@ -217,7 +236,7 @@ def plot_direct(data, stem):
     ax.set_xlim(0.0, max(float(np.max(t_ps)), float(np.max(tp_ps))))
     ax.set_xlabel("time after the box was enlarged (ps)")
     ax.set_ylabel("position along the expanded axis (fraction of the box)")
-    return _save(fig, stem)
+    return save(fig, stem)
 
 
 def plot_series(series, title, stem, x_label="sample", x=None, final_T_K=None):
@@ -240,7 +259,7 @@ def plot_series(series, title, stem, x_label="sample", x=None, final_T_K=None):
     list of Path
     """
     names = list(series)
-    fig, axes = _figure(6.8, 2.6 * max(1, len(names)), max(1, len(names)), 1, sharex=True)
+    fig, axes = figure(6.8, 2.6 * max(1, len(names)), max(1, len(names)), 1, sharex=True)
     for ax, name in zip(axes[:, 0], names):
         y = np.asarray(series[name], float)
         xs = np.arange(y.size) if x is None or np.size(x) != y.size else np.asarray(x, float)
@@ -252,7 +271,7 @@ def plot_series(series, title, stem, x_label="sample", x=None, final_T_K=None):
         ax.grid(alpha=0.3)
     axes[0, 0].set_title(title, fontsize=10)
     axes[-1, 0].set_xlabel(x_label)
-    return _save(fig, stem)
+    return save(fig, stem)
 
 
 def plot_inversion(data, stem):
@@ -272,7 +291,7 @@ def plot_inversion(data, stem):
     -------
     list of Path
     """
-    fig, axes = _figure(6.8, 4.8)
+    fig, axes = figure(6.8, 4.8)
     ax = axes[0, 0]
     for source, colour, marker in (("virial", "tab:blue", "-"), ("simulation", "tab:red", "o")):
         pts = sorted((p["density_mol_m3"], p["temperature_K"])
@@ -302,4 +321,4 @@ def plot_inversion(data, stem):
             transform=ax.transAxes, ha="right", fontsize=8)
     ax.grid(alpha=0.3)
     ax.legend(fontsize=7.5, loc="center right")
-    return _save(fig, stem)
+    return save(fig, stem)

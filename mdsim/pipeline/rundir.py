@@ -1,15 +1,29 @@
 """The run directory: its layout, its task list and its lock.
 
-Layout (all under one directory, ``runs/NAME`` by default)::
+Layout (all under one directory, ``runs/NAME`` by default; ``docs/run-directory.md``)::
 
     study.toml        the resolved study, every default filled in
     inputs/           copies of the data files the study names (tables, c_v CSV files)
     tasks.json        the planned tasks, one entry per task (index, kind, state point, seed)
     tasks/NNNN.h5     one file per finished task (written as NNNN.h5.part, renamed when complete)
-    tasks/NNNN.stages/  the task's stage files (sampling runs that resume) and CPU ledger
-    tasks/NNNN.failed.json, tasks/NNNN.progress.json  a failed task's error; a running task's progress
+    tasks/NNNN.stages/  the task's stage files (sampling runs that resume) and
+                      its CPU ledger ``cpu-time-ledger.json``
+    tasks/NNNN.failed.json    a failed task's error
+    tasks/NNNN.progress.json  a running task's progress
     results.csv, results.json, report.md, plots/, log.txt
+    array.sh, logs/, jobs.json  the Slurm job array, its logs and its submissions
     .lock             present while an ``mdsim run`` owns the directory
+
+Stage files are named by what they sample (:func:`stage_name`): a chain
+``LABEL`` has the pilot ``LABEL-pilot.h5`` and the production stages
+``LABEL-00.h5``, ``LABEL-01.h5``, ...  The labels are
+:data:`INITIAL_STATE` (NVT at the initial state), ``final-density-guessK``
+(:func:`final_density_guess`: the energy route's K-th temperature guess at
+the final density), :data:`FINAL_STATE_NVE` (the microcanonical route's
+final state), :data:`WALL_REMOVED_FILLING` and :data:`WALL_REMOVED_RELAXED`
+(the direct route: the gas filling the enlarged box, then the relaxed tail).
+
+Every path of a run directory comes from :class:`RunDir`.
 
 The lock file holds the owner's host name and process id.  A second
 ``mdsim run`` on the same directory refuses with a message naming the owner;
@@ -25,6 +39,10 @@ from pathlib import Path
 from mdsim.errors import StudyError
 from mdsim.files import atomic_write_text
 
+__all__ = ["RunDir", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
+           "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
+           "WALL_REMOVED_RELAXED", "STAGE_LABELS"]
+
 TASKS_FILE = "tasks.json"
 LOCK_FILE = ".lock"
 SPACE_PER_TASK_BYTES = 4_000_000
@@ -32,6 +50,38 @@ SPACE_PER_TASK_BYTES = 4_000_000
 configurations of a few thousand particles) and its task file are usually well below 1 MB."""
 SPACE_REPORT_BYTES = 8_000_000
 """Disk space of the report, results and plots of a run."""
+
+INITIAL_STATE = "initial-state"
+"""Stage label of the NVT chain at the initial state (every route)."""
+FINAL_DENSITY_GUESS = "final-density-guess"
+"""Stage label stem of the energy route's temperature guesses at the final density."""
+FINAL_STATE_NVE = "final-state-nve"
+"""Stage label of the microcanonical route's chain at the final density and energy."""
+WALL_REMOVED_FILLING = "wall-removed-filling"
+"""Stage label of the direct route's NVE stages while the gas fills the enlarged box."""
+WALL_REMOVED_RELAXED = "wall-removed-relaxed"
+"""Stage label of the direct route's NVE stages after the gas has filled the box."""
+STAGE_LABELS = (INITIAL_STATE, FINAL_DENSITY_GUESS, FINAL_STATE_NVE, WALL_REMOVED_FILLING,
+                WALL_REMOVED_RELAXED)
+"""Every stage file of this version starts with one of these."""
+
+
+def final_density_guess(k):
+    """Stage label of the energy route's ``k``-th temperature guess at the final density.
+
+    >>> final_density_guess(0)
+    'final-density-guess0'
+    """
+    return f"{FINAL_DENSITY_GUESS}{int(k)}"
+
+
+def stage_name(label, k=None):
+    """The name of a stage file (without ``.h5``): the pilot when ``k`` is None.
+
+    >>> stage_name(INITIAL_STATE), stage_name(INITIAL_STATE, 3)
+    ('initial-state-pilot', 'initial-state-03')
+    """
+    return f"{label}-pilot" if k is None else f"{label}-{int(k):02d}"
 
 
 def space_needed_bytes(n_tasks):
@@ -47,25 +97,106 @@ class RunDir:
 
     # -- paths -------------------------------------------------------------------
     @property
+    def study_file(self):
+        """The resolved study, ``study.toml``."""
+        return self.path / "study.toml"
+
+    @property
+    def inputs_dir(self):
+        """Copies of the data files the study names, ``inputs/``."""
+        return self.path / "inputs"
+
+    @property
+    def tasks_file(self):
+        """The planned tasks, ``tasks.json``."""
+        return self.path / TASKS_FILE
+
+    @property
     def tasks_dir(self):
         return self.path / "tasks"
+
+    @property
+    def results_json(self):
+        return self.path / "results.json"
+
+    @property
+    def results_csv(self):
+        return self.path / "results.csv"
+
+    @property
+    def report_md(self):
+        return self.path / "report.md"
 
     @property
     def plots_dir(self):
         return self.path / "plots"
 
+    @property
+    def log_file(self):
+        """The log of ``mdsim run``, ``log.txt``."""
+        return self.path / "log.txt"
+
+    @property
+    def array_script(self):
+        """The Slurm job array script, ``array.sh``."""
+        return self.path / "array.sh"
+
+    @property
+    def logs_dir(self):
+        """The job array's output files, ``logs/``."""
+        return self.path / "logs"
+
+    @property
+    def jobs_file(self):
+        """The recorded job array submissions, ``jobs.json``."""
+        return self.path / "jobs.json"
+
+    @property
+    def lock_file(self):
+        return self.path / LOCK_FILE
+
+    def _task_path(self, index, suffix):
+        return self.tasks_dir / f"{int(index):04d}{suffix}"
+
     def task_file(self, index):
-        return self.tasks_dir / f"{int(index):04d}.h5"
+        """A finished task's file, ``tasks/NNNN.h5``."""
+        return self._task_path(index, ".h5")
 
     def partial_file(self, index):
-        return self.tasks_dir / f"{int(index):04d}.h5.part"
+        """A task file being written, ``tasks/NNNN.h5.part``."""
+        return self._task_path(index, ".h5.part")
 
     def stages_dir(self, index):
         """Where a task keeps its stage files (checkpointed sampling runs)."""
-        return self.tasks_dir / f"{int(index):04d}.stages"
+        return self._task_path(index, ".stages")
+
+    def stage_file(self, index, name):
+        """One stage file of a task (``name`` from :func:`stage_name`)."""
+        return self.stages_dir(index) / f"{name}.h5"
+
+    def cpu_ledger(self, index):
+        """A task's CPU time per stage, ``tasks/NNNN.stages/cpu-time-ledger.json``."""
+        return self.stages_dir(index) / "cpu-time-ledger.json"
+
+    def older_stage_files(self, index):
+        """Files in a task's stages folder under names this version does not write.
+
+        Earlier versions of the tool named stage files otherwise (``initial-pilot.h5``,
+        ``cpu.json``, ...); such a task cannot be resumed.  Returns sorted names.
+        """
+        folder = self.stages_dir(index)
+        if not folder.is_dir():
+            return []
+        ours = STAGE_LABELS + (self.cpu_ledger(index).name,)
+        return sorted(p.name for p in folder.iterdir() if not p.name.startswith(ours))
+
+    def progress_file(self, index):
+        """A running task's progress, ``tasks/NNNN.progress.json``."""
+        return self._task_path(index, ".progress.json")
 
     def failure_file(self, index):
-        return self.tasks_dir / f"{int(index):04d}.failed.json"
+        """A failed task's error, ``tasks/NNNN.failed.json``."""
+        return self._task_path(index, ".failed.json")
 
     # -- creation ------------------------------------------------------------------
     def preflight(self, n_tasks):
@@ -85,19 +216,19 @@ class RunDir:
             base = base.parent
         if self.path.exists() and not self.path.is_dir():
             raise StudyError(f"run directory '{self.path}' is a file, not a directory; choose "
-                             "another place with --out")
+                             "another run directory")
         if not base.is_dir():
             raise StudyError(f"run directory '{self.path}': '{base}' is not a directory; choose "
-                             "another place with --out")
+                             "another run directory")
         if not os.access(base, os.W_OK | os.X_OK):
             raise StudyError(f"run directory '{self.path}' cannot be written ('{base}' is "
-                             "read-only or not yours); choose another place with --out")
+                             "read-only or not yours); choose another run directory")
         need = space_needed_bytes(n_tasks)
         free = shutil.disk_usage(base).free
         if free < need:
             raise StudyError(f"run directory '{self.path}': only {free / 1e6:.3g} MB free on its "
                              f"disk, and {n_tasks} task(s) need about {need / 1e6:.3g} MB "
-                             "(estimate); free some space or choose another place with --out")
+                             "(estimate); free some space or choose another run directory")
         return self
 
     def create(self):
@@ -110,20 +241,20 @@ class RunDir:
             probe.unlink()
         except OSError as exc:
             raise StudyError(f"run directory '{self.path}' cannot be written: {exc.strerror}; "
-                             "choose another place with --out") from None
+                             "choose another run directory") from None
         return self
 
     def exists(self):
-        return (self.path / TASKS_FILE).is_file()
+        return self.tasks_file.is_file()
 
     def write_tasks(self, tasks):
-        atomic_write_text(self.path / TASKS_FILE, json.dumps(tasks, indent=1))
+        atomic_write_text(self.tasks_file, json.dumps(tasks, indent=1))
 
     def read_tasks(self):
-        path = self.path / TASKS_FILE
+        path = self.tasks_file
         if not path.is_file():
             raise StudyError(f"'{self.path}' is not a run directory (no {TASKS_FILE}); "
-                             "make one with 'mdsim run STUDY --out DIR'")
+                             "make one by running a study into it ('mdsim run')")
         try:
             tasks = json.loads(path.read_text(encoding="utf-8"))
         except (ValueError, UnicodeDecodeError):
@@ -134,7 +265,7 @@ class RunDir:
     # -- the lock ------------------------------------------------------------------
     def acquire_lock(self):
         """Take the directory's lock or raise StudyError naming its owner."""
-        path = self.path / LOCK_FILE
+        path = self.lock_file
         me = {"host": socket.gethostname(), "pid": os.getpid(), "since": time.time()}
         for _ in range(2):
             try:
@@ -160,7 +291,7 @@ class RunDir:
         raise StudyError(f"could not take the lock '{path}'; try again")
 
     def release_lock(self):
-        path = self.path / LOCK_FILE
+        path = self.lock_file
         owner = _read_lock(path)
         if owner and owner.get("pid") == os.getpid() and owner.get("host") == socket.gethostname():
             path.unlink(missing_ok=True)
@@ -200,7 +331,6 @@ def _is_stale(owner):
     except (PermissionError, KeyError, ValueError, TypeError):
         return False
     return False
-
 
 
 # Task fields and route names that only earlier versions of the tool wrote.

@@ -31,7 +31,11 @@ import math
 
 from mdsim.errors import ConvergenceError, StudyError
 from mdsim.study.routes import FINAL_PREFERENCE, SIMULATION_ROUTES, VIRIAL_ROUTES
-from mdsim.study.statepoints import ideal_heat_capacity, resolve_initial_density, virial_gas, virial_warnings
+from mdsim.study.statepoints import (ideal_heat_capacity, resolve_initial_density, virial_gas,
+                                     virial_warnings)
+
+__all__ = ["virial_coefficients", "virial_summary", "state_point_record", "run_summary",
+           "value_stderr", "best_simulation"]
 
 # A virial B2+B3 result further than this many combined standard errors from
 # the best simulation route gets a warning (and more than the target itself).
@@ -148,13 +152,104 @@ def virial_summary(study, sp):
     }
 
 
-def _value(entry):
-    """(value, stderr) from a {value, stderr} dict, a number or None."""
+def value_stderr(entry):
+    """(value, stderr) from a {value, stderr} dict, a number or None; non-finite to None."""
     if entry is None:
         return None, None
     if isinstance(entry, dict):
         return _num(entry.get("value")), _num(entry.get("stderr"))
     return _num(entry), None
+
+
+def best_simulation(record):
+    """The {value, stderr, route} of the first simulation route with a Delta T, or None."""
+    for route in SIMULATION_ROUTES:
+        entry = record["delta_T_K"].get(route)
+        if entry and entry.get("value") is not None:
+            return dict(entry, route=route)
+    return None
+
+
+def _simulation_entries(route_results, delta, finals, warnings):
+    """Fold the simulation routes' task results into ``delta`` and ``finals``.
+
+    Returns
+    -------
+    simulation : dict
+        {route: {stopped_by, cpu_seconds, n_particles, method}}.
+    initial_pressure : float or None
+        The first initial pressure a simulation sampled, Pa.
+    """
+    simulation = {}
+    initial_pressure = None
+    for route in SIMULATION_ROUTES:
+        res = route_results.get(route)
+        if res is None:
+            continue
+        value, stderr = value_stderr(res.get("delta_T_K"))
+        delta[route] = {"value": value, "stderr": stderr}
+        T_f, T_f_err = value_stderr(res.get("final_temperature_K"))
+        p_f, _ = value_stderr(res.get("final_pressure_Pa"))
+        rho_f = _num(res.get("final_density_mol_m3"))
+        if T_f is not None:
+            finals[route] = {"temperature_K": T_f, "temperature_stderr_K": T_f_err,
+                             "pressure_Pa": p_f, "density_mol_m3": rho_f}
+        if initial_pressure is None:
+            initial_pressure, _ = value_stderr(res.get("initial_pressure_Pa"))
+        simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
+                                                      "method")}
+        for w in res.get("warnings") or []:
+            warnings.append(f"{route}: {w}")
+    return simulation, initial_pressure
+
+
+def _initial_state(vs, sp, route_results, initial_pressure):
+    """The record's ``initial``: from the virial summary, else from the state point and tasks."""
+    if vs is not None:
+        initial = dict(vs["initial"])
+        if initial["pressure_Pa"] is None:
+            initial["pressure_Pa"] = initial_pressure
+        return initial
+    initial = {"temperature_K": sp.temperature_K, "pressure_Pa": sp.pressure_Pa
+               if sp.pressure_Pa is not None else initial_pressure,
+               "density_mol_m3": None, "density_from": None}
+    for res in route_results.values():
+        if res is not None and _num(res.get("initial_density_mol_m3")) is not None:
+            initial["density_mol_m3"] = _num(res["initial_density_mol_m3"])
+            initial["density_from"] = "simulation task"
+            break
+    return initial
+
+
+def _final_state(finals, initial, sp, warnings):
+    """The record's ``final``: from the first route of FINAL_PREFERENCE with a final state."""
+    source = next((route for route in FINAL_PREFERENCE if route in finals), None)
+    if source is None:
+        rho_f = (initial["density_mol_m3"] / sp.volume_ratio
+                 if initial["density_mol_m3"] is not None else None)
+        warnings.append("no route gave a final state")
+        return {"temperature_K": None, "temperature_stderr_K": None, "pressure_Pa": None,
+                "density_mol_m3": rho_f, "source": None}
+    final = dict(finals[source], source=source)
+    if final["density_mol_m3"] is None and initial["density_mol_m3"] is not None:
+        final["density_mol_m3"] = initial["density_mol_m3"] / sp.volume_ratio
+    return final
+
+
+def _disagreement(delta):
+    """A warning when virial B2+B3 departs from the best simulation route, else None."""
+    sim = next((route for route in SIMULATION_ROUTES if route in delta
+                and delta[route]["value"] is not None), None)
+    if sim is None or "virial_b2b3" not in delta or delta["virial_b2b3"]["value"] is None:
+        return None
+    d = delta["virial_b2b3"]["value"] - delta[sim]["value"]
+    s = delta[sim]["stderr"]
+    if s is not None and s > 0 and abs(d) > DISAGREEMENT_Z * s:
+        return (f"virial B2+B3 gives Delta T {delta['virial_b2b3']['value']:.4g} K, "
+                f"the {sim} route {delta[sim]['value']:.4g} +/- {s:.2g} K "
+                f"({abs(d) / s:.1f} standard errors apart): the virial estimate "
+                "is not good enough at this state")
+    return None
 
 
 def state_point_record(study, sp, route_results, virial=None):
@@ -196,60 +291,12 @@ def state_point_record(study, sp, route_results, virial=None):
     finals = {}
     if vs and vs["final"]:
         finals["virial_b2b3"] = dict(vs["final"], temperature_stderr_K=None)
-    simulation = {}
-    initial_pressure = None
-    for route in SIMULATION_ROUTES:
-        res = route_results.get(route)
-        if res is None:
-            continue
-        value, stderr = _value(res.get("delta_T_K"))
-        delta[route] = {"value": value, "stderr": stderr}
-        T_f, T_f_err = _value(res.get("final_temperature_K"))
-        p_f, _ = _value(res.get("final_pressure_Pa"))
-        rho_f = _num(res.get("final_density_mol_m3"))
-        if T_f is not None:
-            finals[route] = {"temperature_K": T_f, "temperature_stderr_K": T_f_err,
-                             "pressure_Pa": p_f, "density_mol_m3": rho_f}
-        if initial_pressure is None:
-            initial_pressure, _ = _value(res.get("initial_pressure_Pa"))
-        simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
-                                                      "method")}
-        for w in res.get("warnings") or []:
-            warnings.append(f"{route}: {w}")
-    if vs is not None:
-        initial = dict(vs["initial"])
-        if initial["pressure_Pa"] is None:
-            initial["pressure_Pa"] = initial_pressure
-    else:
-        initial = {"temperature_K": sp.temperature_K, "pressure_Pa": sp.pressure_Pa
-                   if sp.pressure_Pa is not None else initial_pressure,
-                   "density_mol_m3": None, "density_from": None}
-        for res in route_results.values():
-            if res is not None and _num(res.get("initial_density_mol_m3")) is not None:
-                initial["density_mol_m3"] = _num(res["initial_density_mol_m3"])
-                initial["density_from"] = "simulation task"
-                break
-    source = next((route for route in FINAL_PREFERENCE if route in finals), None)
-    if source is None:
-        rho_f = (initial["density_mol_m3"] / sp.volume_ratio
-                 if initial["density_mol_m3"] is not None else None)
-        final = {"temperature_K": None, "temperature_stderr_K": None, "pressure_Pa": None,
-                 "density_mol_m3": rho_f, "source": None}
-        warnings.append("no route gave a final state")
-    else:
-        final = dict(finals[source], source=source)
-        if final["density_mol_m3"] is None and initial["density_mol_m3"] is not None:
-            final["density_mol_m3"] = initial["density_mol_m3"] / sp.volume_ratio
-    sim = next((route for route in SIMULATION_ROUTES if route in delta
-                and delta[route]["value"] is not None), None)
-    if sim is not None and "virial_b2b3" in delta and delta["virial_b2b3"]["value"] is not None:
-        d = delta["virial_b2b3"]["value"] - delta[sim]["value"]
-        s = delta[sim]["stderr"]
-        if s is not None and s > 0 and abs(d) > DISAGREEMENT_Z * s:
-            warnings.append(f"virial B2+B3 gives Delta T {delta['virial_b2b3']['value']:.4g} K, "
-                            f"the {sim} route {delta[sim]['value']:.4g} +/- {s:.2g} K "
-                            f"({abs(d) / s:.1f} standard errors apart): the virial estimate "
-                            "is not good enough at this state")
+    simulation, initial_pressure = _simulation_entries(route_results, delta, finals, warnings)
+    initial = _initial_state(vs, sp, route_results, initial_pressure)
+    final = _final_state(finals, initial, sp, warnings)
+    disagreement = _disagreement(delta)
+    if disagreement:
+        warnings.append(disagreement)
     return {
         "index": sp.index,
         "state_point": sp.as_dict(),

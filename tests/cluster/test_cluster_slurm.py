@@ -18,7 +18,7 @@ import pytest
 from mdsim.execute import slurm
 from mdsim.cli import main
 from mdsim.pipeline.rundir import RunDir
-from mdsim.pipeline.tasks import read_task_result
+from mdsim.pipeline import read_task_result
 
 from test_tasks import write_study
 
@@ -132,9 +132,9 @@ def test_an_element_killed_by_scancel_is_reported_and_resubmitted(slurm_cluster,
     stages = out / "tasks" / "0000.stages"
     deadline = time.monotonic() + WAIT_S
     # kill the element part way: after its first sampling stage is complete
-    while time.monotonic() < deadline and not (stages / "initial-pilot.h5").exists():
+    while time.monotonic() < deadline and not (stages / "initial-state-pilot.h5").exists():
         time.sleep(0.05)
-    assert (stages / "initial-pilot.h5").exists(), slurm_cluster.log("slurmd")[-2000:]
+    assert (stages / "initial-state-pilot.h5").exists(), slurm_cluster.log("slurmd")[-2000:]
     slurm.cancel(job, 0)
     view = _wait_until_finished(out, slurm_cluster)
     assert view[0]["state"] == "failed" and view[0]["slurm_state"] == "CANCELLED"

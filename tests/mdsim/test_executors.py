@@ -9,7 +9,7 @@ from mdsim.execute.cluster_settings import jobqueue_arguments, slurm_memory
 from mdsim.execute.dask import run_dask
 from mdsim.execute.local import run_local
 from mdsim.pipeline.jobs import task_job
-from mdsim.pipeline.tasks import read_task_result
+from mdsim.pipeline import read_task_result
 
 from test_tasks import make_run_dir, write_study
 

@@ -21,7 +21,7 @@ import pytest
 from mdsim.sampling import store
 from mdsim.errors import SimulationError
 from mdsim.pipeline.rundir import RunDir, space_needed_bytes
-from mdsim.pipeline.tasks import read_task_result, run_task
+from mdsim.pipeline import read_task_result, run_task
 
 from test_tasks import make_run_dir, write_study
 
@@ -85,13 +85,13 @@ def test_damaged_task_and_stage_files_are_moved_aside_and_redone(reference, tmp_
     stages = rd.stages_dir(0)
     # three kinds of damage: flipped bytes in a dataset, a truncated file, a missing marker
     _flip_bytes_of(rd.task_file(0), "series/newton_T_K")
-    _flip_bytes_of(stages / "initial-00.h5", "samples/u_full")
-    size = (stages / "final0-pilot.h5").stat().st_size
-    with open(stages / "final0-pilot.h5", "r+b") as fh:
+    _flip_bytes_of(stages / "initial-state-00.h5", "samples/u_full")
+    size = (stages / "final-density-guess0-pilot.h5").stat().st_size
+    with open(stages / "final-density-guess0-pilot.h5", "r+b") as fh:
         fh.truncate(size // 2)
-    with h5py.File(stages / "initial-pilot.h5", "r+") as f:
+    with h5py.File(stages / "initial-state-pilot.h5", "r+") as f:
         f.attrs["complete"] = False
-    for name in ("initial-00.h5", "final0-pilot.h5", "initial-pilot.h5"):
+    for name in ("initial-state-00.h5", "final-density-guess0-pilot.h5", "initial-state-pilot.h5"):
         assert store.verify(stages / name) is not None, name
     with pytest.warns(store.CorruptFileWarning, match="moved aside"):
         assert rd.task_state(0) != "done"
@@ -160,7 +160,7 @@ def test_sigkill_while_sampling_resumes_to_the_same_numbers(reference, tmp_path)
 KILL_IN_CHECKPOINT = """
 import os, signal, sys
 import mdsim.sampling.store as st
-from mdsim.pipeline.tasks import run_task
+from mdsim.pipeline import run_task
 orig = st._write_tree
 calls = [0]
 def dying(group, state):
@@ -178,7 +178,7 @@ run_task(sys.argv[1], 0)
 KILL_IN_TASK_FILE = """
 import os, signal, sys
 import h5py
-from mdsim.pipeline.tasks import run_task
+from mdsim.pipeline import run_task
 orig = h5py.Group.create_dataset
 def dying(self, name, *a, **kw):
     out = orig(self, name, *a, **kw)
@@ -272,7 +272,7 @@ def test_a_killed_dask_worker_s_task_is_retried_to_the_same_numbers(reference, t
         runner.start()
         stages = rd.stages_dir(0)
         deadline = time.time() + 120
-        while time.time() < deadline and not list(stages.glob("initial-0*.h5*")):
+        while time.time() < deadline and not list(stages.glob("initial-state-0*.h5*")):
             time.sleep(0.02)
         busy = [w for w, keys in client.processing().items() if keys]
         assert len(busy) == 1
@@ -353,7 +353,7 @@ def test_disk_filling_up_mid_run_fails_clearly_and_resumes(reference, tmpfs):
                             stderr=subprocess.PIPE, text=True)
     stages = out / "tasks" / "0000.stages"
     deadline = time.time() + 120
-    while time.time() < deadline and not (stages / "initial-pilot.h5").exists():
+    while time.time() < deadline and not (stages / "initial-state-pilot.h5").exists():
         time.sleep(0.02)
     filler = where / "filler"
     with open(filler, "wb") as fh:  # another program fills the disk

@@ -11,7 +11,8 @@ import pytest
 
 from mdsim.cli import main
 from mdsim.errors import StudyError
-from mdsim.pipeline.report import CSV_COLUMNS, build_report
+from mdsim.pipeline import build_report
+from mdsim.pipeline.results_files import CSV_COLUMNS
 
 EPS_K = 175.0  # epsilon/k of the test gas (K)
 

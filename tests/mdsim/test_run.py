@@ -10,7 +10,7 @@ import pytest
 
 from mdsim.cli import main
 from mdsim.pipeline.rundir import RunDir
-from mdsim.pipeline.tasks import read_task_result
+from mdsim.pipeline import read_task_result
 
 from test_tasks import write_study
 
@@ -53,7 +53,7 @@ def test_run_json_then_rerun_skips_complete_tasks(tmp_path, capsys):
 
 def test_the_resolved_study_reads_back_with_the_same_tasks(tmp_path):
     from mdsim.study.reader import read_study
-    from mdsim.pipeline.tasks import plan_tasks
+    from mdsim.pipeline import plan_tasks
     from mdsim.pipeline.prepare import prepare_run_dir
     study = read_study(write_study(tmp_path, particles=""))
     rd, tasks = prepare_run_dir(study, tmp_path / "run")
@@ -131,11 +131,11 @@ def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_pa
     stages = killed / "tasks" / "0000.stages"
     deadline = time.time() + 120
     # kill while task 0 is part way: after its first stage file completed
-    while time.time() < deadline and not (stages / "initial-pilot.h5").exists():
+    while time.time() < deadline and not (stages / "initial-state-pilot.h5").exists():
         time.sleep(0.05)
     os.kill(proc.pid, signal.SIGKILL)
     proc.wait()
-    assert (stages / "initial-pilot.h5").exists()
+    assert (stages / "initial-state-pilot.h5").exists()
     assert not (killed / "tasks" / "0001.h5").exists()  # it really stopped part way
     assert (killed / ".lock").exists()  # left behind by the killed process: taken over below
     again = _cli(*args, "--out", str(killed), timeout=300)
@@ -143,7 +143,7 @@ def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_pa
     # the uninterrupted reference, task by task in this process (no report needed)
     from mdsim.pipeline.prepare import prepare_run_dir
     from mdsim.study.reader import read_study
-    from mdsim.pipeline.tasks import run_task
+    from mdsim.pipeline import run_task
     rd, tasks = prepare_run_dir(read_study(study), whole)
     for t in tasks:
         run_task(rd.path, t["index"])

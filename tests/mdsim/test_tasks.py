@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.pipeline.rundir import RunDir
+from mdsim.pipeline.rundir import RunDir, stage_name
 from mdsim.study.reader import read_study
-from mdsim.pipeline.tasks import plan_tasks, read_task_result, run_task, simulation_settings
+from mdsim.pipeline import plan_tasks, read_task_result, run_task, simulation_settings
 
 BASE = """\
 [study]
@@ -186,6 +186,19 @@ def test_a_complete_task_is_read_back_not_run_again(tmp_path):
     assert again == first
     assert rd.task_file(0).stat().st_mtime_ns == stamp
     assert first["delta_T_K"]["stderr"] <= 0.5
+    # the stage files are named by what they sample; the CPU ledger sits beside them
+    names = {p.name for p in rd.stages_dir(0).iterdir()}
+    assert {"initial-state-pilot.h5", "initial-state-00.h5", "final-density-guess0-pilot.h5",
+            "final-density-guess0-00.h5", rd.cpu_ledger(0).name} <= names
+    ledger = json.loads(rd.cpu_ledger(0).read_text())
+    assert set(ledger) == {n[:-3] for n in names if n.endswith(".h5")}
+    assert sum(v["cpu_s"] for v in ledger.values()) == pytest.approx(first["cpu_seconds"])
+
+
+def test_every_simulation_route_has_one_runner():
+    from mdsim.pipeline.routes import ROUTE_RUNNERS
+    from mdsim.study.routes import SIMULATION_ROUTES
+    assert sorted(ROUTE_RUNNERS) == sorted(SIMULATION_ROUTES)
 
 
 @pytest.mark.parametrize("old_field, old_route, words", [
@@ -205,3 +218,37 @@ def test_a_run_directory_of_an_earlier_layout_is_refused_by_name(tmp_path, old_f
     with pytest.raises(StudyError, match="earlier version of the tool") as err:
         rd.read_tasks()
     assert words in str(err.value)
+
+
+def test_the_run_directory_layout_comes_from_run_dir(tmp_path):
+    """Every path of the documented layout (docs/run-directory.md), from one class."""
+    rd = RunDir(tmp_path / "run")
+    p = rd.path
+    assert [rd.study_file, rd.inputs_dir, rd.tasks_file, rd.tasks_dir] == [
+        p / "study.toml", p / "inputs", p / "tasks.json", p / "tasks"]
+    assert [rd.results_json, rd.results_csv, rd.report_md, rd.plots_dir, rd.log_file] == [
+        p / "results.json", p / "results.csv", p / "report.md", p / "plots", p / "log.txt"]
+    assert [rd.array_script, rd.logs_dir, rd.jobs_file, rd.lock_file] == [
+        p / "array.sh", p / "logs", p / "jobs.json", p / ".lock"]
+    t = p / "tasks"
+    assert [rd.task_file(7), rd.partial_file(7), rd.failure_file(7), rd.progress_file(7)] == [
+        t / "0007.h5", t / "0007.h5.part", t / "0007.failed.json", t / "0007.progress.json"]
+    assert rd.stages_dir(12) == t / "0012.stages"
+    assert rd.cpu_ledger(12) == t / "0012.stages" / "cpu-time-ledger.json"
+    assert rd.stage_file(3, stage_name("final-state-nve", 2)) == \
+        t / "0003.stages" / "final-state-nve-02.h5"
+
+
+def test_a_task_with_stage_files_of_an_earlier_version_is_refused_not_mixed(tmp_path):
+    """Stage files named by an earlier version (and its cpu.json ledger) are not resumed."""
+    rd, _ = make_run_dir(tmp_path, write_study(tmp_path))
+    rd.stages_dir(0).mkdir(parents=True)
+    for name in ("initial-pilot.h5", "final0-00.h5", "cpu.json"):
+        (rd.stages_dir(0) / name).write_bytes(b"")
+    (rd.stages_dir(0) / "initial-state-pilot.h5.part").write_bytes(b"")  # a name of this version
+    assert rd.older_stage_files(0) == ["cpu.json", "final0-00.h5", "initial-pilot.h5"]
+    with pytest.raises(StudyError, match="earlier version of the tool") as err:
+        run_task(rd.path, 0)
+    assert "cpu.json, final0-00.h5, initial-pilot.h5" in str(err.value)
+    assert "earlier version" in json.loads(rd.failure_file(0).read_text())["error"]
+    assert not rd.task_file(0).exists()

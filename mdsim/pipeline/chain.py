@@ -1,0 +1,249 @@
+"""Chains of stage files: a pilot, then production stages continuing one Markov chain.
+
+How a task chooses its run length.  The user sets ``target_stderr`` (the
+standard error of Delta T) and ``max_cpu_time``, not the run length:
+
+- Sample spacing: a pilot run at each state measures the statistical
+  inefficiency g of the averaged series; samples are taken every g / 2
+  sweeps (MC) or steps (MD), at least one.
+- Run length: from the pilot's standard error, scaled as 1 / sqrt(n) to
+  ``SAFETY`` times the share of the target each state gets; then extra
+  stages (new seeds, the same Markov chain continued from the last
+  configuration) while the standard error of Delta T is above the target
+  and CPU budget is left.  ``stopped_by`` says which ended it.
+
+Determinism: every decision is made from completed stage files and the
+seeds alone, so a task that is killed and run again gives the same numbers,
+except where the CPU budget ends it (CPU time differs between runs).
+"""
+import math
+
+import numpy as np
+
+from mdsim.errors import ConvergenceError
+from mdsim.pipeline.rundir import stage_name
+from mdsim.sampling import store
+
+__all__ = ["Chain", "mean_se", "run_to", "solve_or_extend", "stage_share", "SAFETY",
+           "MIN_STAGE_SAMPLES", "MAX_STAGES_PER_CHAIN"]
+
+PILOT_SAMPLES = 200
+MIN_STAGE_SAMPLES = 200
+MAX_STAGE_SAMPLES = 200_000
+MAX_STAGES_PER_CHAIN = 12
+MAX_INTERVAL_MC = 20
+SAFETY = 0.8
+"""Stages are sized for SAFETY x the target so that one pass usually reaches it."""
+EQUILIBRATION_MC_SWEEPS = 200
+EQUILIBRATION_MD_STEPS = 2000
+MD_PILOT_INTERVAL = 10
+
+
+def stage_share(task, per_kelvin_red):
+    """The standard error each of the two end states may carry, reduced.
+
+    ``SAFETY`` x the target, over sqrt(2) (two end states), turned into the
+    reduced series a route averages: ``per_kelvin_red`` is that series'
+    change per reduced temperature unit (a heat capacity in k, or f/2).
+    """
+    return SAFETY * task.target_K / task.eps_K * per_kelvin_red / math.sqrt(2.0)
+
+
+class Chain:
+    """Stage files at one state: a pilot, then production stages continuing one chain.
+
+    The pilot (equilibration plus ``PILOT_SAMPLES`` closely spaced samples)
+    measures the statistical inefficiency of ``key``; production stages use
+    the spacing it gives and continue from the previous stage's last
+    configuration (and, for MC, its tuned step), so the concatenated
+    production samples are one Markov chain.
+
+    Parameters
+    ----------
+    task : mdsim.pipeline.task.RunningTask
+    label : str
+        Stage label (:mod:`mdsim.pipeline.rundir`): files ``LABEL-pilot.h5``, ``LABEL-NN.h5``.
+    chain_id : int
+        The chain's part of every stage seed.
+    make_system : callable
+        Returns a fresh :class:`mdsim.engine.system.System` of the state.
+    method : str
+        "mc-nvt", "md-nvt", "mc-nve" or "md-nve".
+    T_red, E_red : float, optional
+        Reduced temperature (NVT) or energy per particle (NVE).
+    key : str
+        The sample series whose inefficiency sets the spacing.
+    md_settings : dict, optional
+        Settings of every MD stage (``time_step``).
+    """
+
+    def __init__(self, task, label, chain_id, make_system, method, T_red=None, E_red=None,
+                 key="u_full", md_settings=None):
+        self.job = task
+        self.label = label
+        self.id = int(chain_id)
+        self.make_system = make_system
+        self.method = method
+        self.T_red = T_red
+        self.E_red = E_red
+        self.key = key
+        self.md_settings = dict(md_settings or {})
+        self.is_md = method.startswith("md")
+        self.results = []
+        self.pilot = None
+        self.interval = None
+
+    # -- helpers --------------------------------------------------------------------------
+    def continue_system(self, prev):
+        """A system in the last configuration (and velocities) of a finished stage."""
+        final = store.read_final(prev.path)
+        system = self.make_system()
+        # a configuration from a finished stage of the same chain: no overlap check needed
+        system.r_ni = np.ascontiguousarray(np.mod(np.asarray(final["positions"], dtype=float),
+                                                  system.box_i))
+        if "velocities" in final:
+            system.v_ni = np.asarray(final["velocities"], dtype=float)
+        return system
+
+    def _settings(self, prev):
+        if self.is_md:
+            return dict(self.md_settings)
+        if prev is None:
+            return {}
+        attrs = store.read_attrs(prev.path)
+        return {"max_displacement": float(attrs["sampler_final_max_displacement_red"])}
+
+    def samples(self):
+        """The production samples of every stage, concatenated (dict of 1-D arrays)."""
+        return {k: np.concatenate([r.samples[k] for r in self.results])
+                for k in self.results[0].samples}
+
+    def n_samples(self):
+        return int(sum(r.samples[self.key].size for r in self.results))
+
+    def summary(self):
+        """:func:`mdsim.sampling.state_point.summarise` of the production samples."""
+        from mdsim.sampling.state_point import summarise
+        system = self.make_system()
+        return summarise(self.samples(), self.method, system.n_particles, system.volume,
+                         self.T_red, system.dof_per_particle)
+
+    # -- running --------------------------------------------------------------------------
+    def run_pilot(self):
+        """Run (or read back) the pilot and choose the sample interval from it."""
+        from analysis.stats import mean_and_stderr
+        job = self.job
+        system = self.make_system()
+        n_eq = EQUILIBRATION_MD_STEPS if self.is_md else EQUILIBRATION_MC_SWEEPS
+        interval = MD_PILOT_INTERVAL if self.is_md else 1
+        self.pilot = job.stage(stage_name(self.label), system, self.method, self.T_red,
+                               self.E_red, n_eq=n_eq, n_samples=PILOT_SAMPLES, interval=interval,
+                               seed=job.stage_seed(self.id, 0), **self._settings(None))
+        x = self.pilot.samples[self.key]
+        try:
+            m = mean_and_stderr(x)
+            g, se = m.g, m.stderr
+        except ConvergenceError as exc:
+            g = max(1.0, exc.partial.g)
+            se = exc.partial.stderr
+        g = max(1.0, float(g))
+        if self.is_md:
+            self.interval = interval * max(1, int(g // 2))
+        else:
+            self.interval = max(1, min(MAX_INTERVAL_MC, int(g // 2)))
+        # stderr of one unit of run (a sweep or step), scaled from the pilot
+        self.pilot_se = float(se)
+        self.pilot_units = PILOT_SAMPLES * interval
+        return self
+
+    def samples_for(self, target_se):
+        """Production samples that should bring the chain's stderr to target_se."""
+        if not (self.pilot_se > 0 and math.isfinite(self.pilot_se)):
+            return MIN_STAGE_SAMPLES
+        units = self.pilot_units * (self.pilot_se / target_se) ** 2
+        return int(min(MAX_STAGE_SAMPLES, max(MIN_STAGE_SAMPLES, math.ceil(units / self.interval))))
+
+    def _affordable(self, name, n_samples, mandatory):
+        """The samples the CPU budget allows for a new stage (marks ``stopped_by``), or None."""
+        job = self.job
+        if job.stage_path(name).is_file() or name in job.ledger:
+            return n_samples
+        rate = job.cost_per_unit(self.method[:2])
+        if rate is None:
+            return n_samples
+        affordable = int(job.budget_left() / (rate * self.make_system().n_particles
+                                              * self.interval))
+        if affordable < n_samples:
+            if not mandatory and affordable < MIN_STAGE_SAMPLES:
+                job.stopped_by = "cpu budget"
+                return None
+            if not mandatory:
+                n_samples = affordable
+                job.stopped_by = "cpu budget"
+            elif job.budget_left() <= 0:
+                job.stopped_by = "cpu budget"
+        return n_samples
+
+    def extend(self, n_samples, mandatory=False):
+        """One more production stage of about n_samples; False if the budget forbids it."""
+        job = self.job
+        k = len(self.results)
+        if k >= MAX_STAGES_PER_CHAIN:
+            return False
+        name = stage_name(self.label, k)
+        n_samples = self._affordable(name, int(max(MIN_STAGE_SAMPLES, n_samples)), mandatory)
+        if n_samples is None:
+            return False
+        prev = self.results[-1] if self.results else self.pilot
+        system = self.continue_system(prev)
+        res = job.stage(name, system, self.method, self.T_red, self.E_red, n_eq=0,
+                        n_samples=n_samples, interval=self.interval,
+                        seed=job.stage_seed(self.id, k + 1), **self._settings(prev))
+        self.results.append(res)
+        return True
+
+    def resume_existing(self):
+        """Re-attach production stages already on disk (after a restart)."""
+        while True:
+            path = self.job.stage_path(stage_name(self.label, len(self.results)))
+            if not path.is_file():
+                return self
+            n = int(store.read_attrs(path)["n_samples"])
+            if not self.extend(n, mandatory=True):
+                return self
+
+
+def mean_se(chain, key):
+    """(mean, stderr) of a chain's series, or (nan, inf) while it still drifts."""
+    from analysis.stats import mean_and_stderr
+    try:
+        m = mean_and_stderr(chain.samples()[key])
+        return m.mean, m.stderr
+    except ConvergenceError:
+        return math.nan, math.inf
+
+
+def run_to(chain, target_se, key=None):
+    """Extend a chain until the stderr of its key series is at most target_se."""
+    key = key or chain.key
+    chain.resume_existing()
+    if not chain.results:
+        chain.extend(chain.samples_for(target_se), mandatory=True)
+    while True:
+        _, se = mean_se(chain, key)
+        if se <= target_se:
+            return True
+        n = chain.n_samples()
+        factor = 1.0 if not math.isfinite(se) else (se / target_se) ** 2 - 1.0
+        if not chain.extend(int(math.ceil(1.1 * n * max(factor, 0.2)))):
+            return False
+
+
+def solve_or_extend(chain, solve):
+    """Call solve(); while the series still drifts, extend the chain and retry."""
+    while True:
+        try:
+            return solve()
+        except ConvergenceError:
+            if not chain.extend(chain.n_samples(), mandatory=True):
+                raise

@@ -1,0 +1,137 @@
+"""Planning: a study's tasks, one per state point and simulation route.
+
+Every task carries everything it needs (state point, route, seed,
+settings), so tasks are independent and can run anywhere in any order.
+What the schema of the study file cannot know is checked here, before any
+work: enough particles for the cut-off, and the assumptions of each route.
+"""
+import dataclasses
+import math
+
+from mdsim.errors import StudyError
+from mdsim.pipeline.settings import simulation_settings
+from mdsim.units import R_GAS
+
+__all__ = ["plan_tasks", "particles_for_cutoff", "check_particles", "check_route_applies"]
+
+CUTOFF_BOX_MARGIN = 1.05
+"""The box edge is kept 5 % above twice the cut-off (minimum image with room to spare)."""
+
+
+def particles_for_cutoff(study, density_mol_m3):
+    """The fewest particles whose cubic box keeps the cut-off below half its edge.
+
+    Parameters
+    ----------
+    study : mdsim.study.reader.Study
+    density_mol_m3 : float
+        The (initial) molar density, mol/m^3.
+
+    Returns
+    -------
+    n : int
+        At least this many particles: N > rho* (2 r_c)^3 x 1.05.
+    rc : float
+        The largest cut-off of the study's pair potentials, in sigma of species 0.
+    """
+    rc = float(study.reduced_pairs().rc_max)
+    rho_red = study.units.density_to_reduced(density_mol_m3)
+    return int(math.floor(rho_red * (2.0 * rc) ** 3 * CUTOFF_BOX_MARGIN)) + 1, rc
+
+
+def check_particles(study, n, density_mol_m3, state_point_index):
+    """Refuse a given particle number too small for the cut-off at this density.
+
+    Raises
+    ------
+    StudyError
+        Naming ``[simulation] particles``, the density and the smallest number allowed.
+    """
+    n_cut, rc = particles_for_cutoff(study, density_mol_m3)
+    if n < n_cut:
+        raise StudyError(f"study file '{study.path}', [simulation] key 'particles' = {n}: "
+                         f"too few at {density_mol_m3:.6g} mol/m^3 (state point "
+                         f"{state_point_index}): the cut-off {rc:g} sigma must stay below half "
+                         f"the box edge; use at least {n_cut} particles, or a smaller "
+                         "[potential] cutoff")
+
+
+def check_route_applies(study, route, cv_ig, T_i):
+    """Refuse a route whose assumptions the study breaks (before any work).
+
+    The direct route simulates atoms; the microcanonical route assumes the
+    constant classical heat capacity c_v_ig = (f/2) R of f kinetic degrees of
+    freedom, probed at T_i / 2, T_i and 3 T_i / 2 (where the model is defined).
+
+    Raises
+    ------
+    StudyError
+        Naming ``[simulation] routes``, the broken assumption and the route to use.
+    """
+    f = study.gas.dof_per_particle
+    if route == "direct" and f != 3:
+        raise StudyError(f"study file '{study.path}', [simulation] key 'routes': the direct "
+                         f"route simulates atoms (3 degrees of freedom), but [gas] "
+                         f"dof_per_particle = {f}; use the energy route for molecules")
+    if route == "microcanonical":
+        want = 0.5 * f * R_GAS
+        lo, hi = cv_ig.valid_range
+        probes = [T for T in (0.5 * T_i, T_i, 1.5 * T_i) if lo <= T <= hi] or [T_i]
+        got = [float(cv_ig.cv(T)) for T in probes]
+        if any(abs(c - want) > 1e-6 * want for c in got):
+            raise StudyError(
+                f"study file '{study.path}', [simulation] key 'routes': the microcanonical route "
+                f"assumes a constant classical c_v_ig = f/2 R = {want:.5g} J/(mol K) (f = "
+                f"dof_per_particle = {f}), but [gas] ideal_heat_capacity gives {got[0]:.5g} "
+                "J/(mol K); remove 'microcanonical' from routes and use the energy route, "
+                "which takes any c_v_ig(T)")
+
+
+def plan_tasks(study):
+    """The tasks of a study: one per state point and simulation route.
+
+    Parameters
+    ----------
+    study : mdsim.study.reader.Study
+
+    Returns
+    -------
+    list of dict
+        JSON-ready, in the order of ``study.state_points()`` then of the
+        study's routes.  Keys: ``index``, ``state_point`` (the StatePoint
+        as a dict), ``route``, ``seed`` ([study seed, index]),
+        ``initial_density_mol_m3`` and ``initial_density_from`` (from
+        :func:`mdsim.study.statepoints.resolve_initial_density`), ``particles``
+        (int or None: chosen at run time), ``target_stderr_K``,
+        ``max_cpu_time_s``, ``sampler``.
+
+    Raises
+    ------
+    StudyError
+        Too few particles for the cut-off, or a route whose assumptions the
+        study breaks.
+    """
+    from analysis.heatcapacity import heat_capacity_from_spec
+    from mdsim.study.statepoints import resolve_initial_density
+    settings = simulation_settings(study)
+    cv_ig = heat_capacity_from_spec(study.gas.ideal_heat_capacity, "[gas] ideal_heat_capacity")
+    tasks = []
+    for sp in study.state_points():  # checked even when no route simulates
+        if not settings["routes"]:
+            break
+        rho_i, how = resolve_initial_density(study, sp)
+        if settings["particles"] is not None:
+            check_particles(study, settings["particles"], rho_i, sp.index)
+        for route in settings["routes"]:
+            check_route_applies(study, route, cv_ig, sp.temperature_K)
+            k = len(tasks)
+            tasks.append({
+                "index": k, "state_point": dataclasses.asdict(sp), "route": route,
+                "seed": [settings["seed"], k],
+                "initial_density_mol_m3": float(rho_i), "initial_density_from": str(how),
+                "particles": settings["particles"],
+                "target_stderr_K": settings["target_stderr_K"],
+                "max_cpu_time_s": settings["max_cpu_time_s"],
+                "sampler": settings["sampler"],
+            })
+    return tasks

@@ -1,0 +1,140 @@
+"""The energy route: U(T_f, rho_f) = U(T_i, rho_i) by sampled residual energies.
+
+NVT sampling (Monte Carlo by default, ``sampler = "md"`` for MD) of u_res
+at (T_i, rho_i); then at rho_f, from the B2 + B3 virial estimate of T_f,
+sample, Newton-step, and sample again at the new temperature until the step
+is below a quarter of its standard error or MBAR reweighting over two or
+more temperatures brackets the balance (:func:`analysis.expansion.energy_route`).
+Any c_v_ig(T).  Stage files: ``initial-state-*`` and
+``final-density-guessK-*`` (the K-th temperature guess at the final density).
+"""
+import math
+
+import numpy as np
+
+from mdsim.pipeline.chain import Chain, mean_se, run_to, stage_share
+from mdsim.pipeline.rundir import INITIAL_STATE, final_density_guess
+from mdsim.units import R_GAS
+
+__all__ = ["run_energy", "SAMPLERS"]
+
+SAMPLERS = {"mc": "mc-nvt", "md": "md-nvt"}
+"""The NVT sampler of ``[simulation] sampler``, as an engine method."""
+MAX_NEWTON_TEMPERATURES = 4
+
+
+def run_energy(job):
+    """Run the energy route of a task.
+
+    Parameters
+    ----------
+    job : mdsim.pipeline.task.RunningTask
+
+    Returns
+    -------
+    res : analysis.expansion result
+    series : dict of ndarray
+        ``newton_*`` (the final-density temperatures and their u_res, J/mol)
+        and ``initial_*`` (T_i and u_res at the initial state).
+    pressure : dict or None
+        Final pressure {value, stderr}, Pa.
+    extra : dict
+        Details for the task file.
+    """
+    method = SAMPLERS[job.task.get("sampler", "mc")]
+    T_i_red = job.units.temperature_to_reduced(job.T_i)
+    share = stage_share(job, job.cv_ig.cv(job.T_i) / R_GAS)
+    md = {"time_step": job.md_time_step(T_i_red)} if method.startswith("md") else None
+    init = Chain(job, INITIAL_STATE, 0, job.system_maker(job.rho_i, 0), method, T_red=T_i_red,
+                 md_settings=md).run_pilot()
+    run_to(init, share)
+    job.initial_chain = init
+    finals = []
+    res, samples = _newton(job, init, finals, method, share, md is not None)
+    res, samples = _refine(job, init, finals, res, samples)
+    series = {
+        "newton_T_K": np.array([s.temperature_K for s in samples]),
+        "newton_u_res_J_mol": np.array([s.u_res_J_mol for s in samples]),
+        "newton_u_res_stderr_J_mol": np.array([s.u_res_stderr_J_mol for s in samples]),
+        "initial_T_K": np.array([job.T_i]),
+        "initial_u_res_J_mol": np.array([res.details["initial_u_res_J_mol"]]),
+        "initial_u_res_stderr_J_mol": np.array([res.details["initial_u_res_stderr_J_mol"]]),
+    }
+    extra = {"newton_temperatures": len(finals),
+             "initial_samples": init.n_samples(), "sample_interval": init.interval}
+    return res, series, _final_pressure(job, finals, res), extra
+
+
+def _solve(job, init, finals):
+    """The energy route's solver on the chains so far: (result, StateSamples of the finals)."""
+    from analysis.expansion import StateSample, energy_route
+    u = job.units
+    mi, si = mean_se(init, "u_full")
+    samples, series = [], []
+    for ch in finals:
+        s = ch.summary()
+        samples.append(StateSample(u.temperature_to_K(ch.T_red),
+                                   u.energy_to_J_mol(s["u_full"].value),
+                                   u.energy_to_J_mol(s["u_full"].stderr),
+                                   u.heat_capacity_to_J_molK(s["c_v_res"].value),
+                                   u.heat_capacity_to_J_molK(s["c_v_res"].stderr)))
+        series.append(u.energy_to_J_mol(ch.samples()["u_full"]))
+    res = energy_route((u.energy_to_J_mol(mi), u.energy_to_J_mol(si)), job.T_i, job.rho_f,
+                       samples, job.cv_ig, series_final=series if len(finals) > 1 else None,
+                       n_particles=job.n_particles)
+    return res, samples
+
+
+def _newton(job, init, finals, method, share, is_md):
+    """Sample at rho_f from the virial guess and Newton-step until converged or bracketed."""
+    T_k = job.T_f_guess
+    for it in range(MAX_NEWTON_TEMPERATURES):
+        md_f = {"time_step": job.md_time_step(T_k / job.eps_K)} if is_md else None
+        ch = Chain(job, final_density_guess(it), 1 + it, job.system_maker(job.rho_f, 1), method,
+                   T_red=T_k / job.eps_K, md_settings=md_f).run_pilot()
+        run_to(ch, share)
+        finals.append(ch)
+        res, samples = _solve(job, init, finals)
+        if res.method == "mbar" or res.details["newton_converged"]:
+            break
+        if job.stopped_by == "cpu budget":
+            break
+        T_k = res.details["newton_start_temperature_K"] + res.details["newton_step_K"]
+    return res, samples
+
+
+def _nearest(job, finals, res):
+    """The final-density chain sampled nearest to the solved T_f."""
+    u = job.units
+    return min(finals, key=lambda c: abs(u.temperature_to_K(c.T_red) - res.final_temperature_K))
+
+
+def _refine(job, init, finals, res, samples):
+    """Precision: extend the end state that contributes more until the target or the budget."""
+    while res.delta_T_stderr_K > job.target_K and job.stopped_by != "cpu budget":
+        _, si = mean_se(init, "u_full")
+        nearest = _nearest(job, finals, res)
+        _, sf = mean_se(nearest, "u_full")
+        ch = init if si >= sf else nearest
+        n = ch.n_samples()
+        ratio = (res.delta_T_stderr_K / job.target_K) ** 2
+        if not ch.extend(int(math.ceil(n * max(0.2, (ratio - 1.0) * 1.2)))):
+            break
+        res, samples = _solve(job, init, finals)
+    return res, samples
+
+
+def _final_pressure(job, finals, res):
+    """The final pressure {value, stderr} in Pa, from the nearest final-density chain, or None."""
+    u = job.units
+    nearest = _nearest(job, finals, res)
+    p = nearest.summary().get("pressure")
+    if p is None or not p.available:
+        return None
+    T_near = u.temperature_to_K(nearest.T_red)
+    # ideal-gas slope for the small step from the nearest sampled temperature
+    job.notes.append("final pressure: sampled at the nearest final-state temperature, moved "
+                     "to T_f with the ideal-gas slope rho_f R")
+    return {"value": u.pressure_to_Pa(p.value)
+            + job.rho_f * R_GAS * (res.final_temperature_K - T_near),
+            "stderr": u.pressure_to_Pa(p.stderr)}

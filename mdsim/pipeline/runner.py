@@ -1,0 +1,154 @@
+"""Running one task of a run directory, from its stage files to its task file.
+
+:func:`run_task` builds the :class:`mdsim.pipeline.task.RunningTask`, runs
+its route (:data:`mdsim.pipeline.routes.ROUTE_RUNNERS`: all the sampling
+the route needs, as resumable stage files under ``tasks/NNNN.stages/``),
+then the route's solver from :mod:`analysis.expansion`, and writes the task
+file (:mod:`mdsim.pipeline.taskfile`).  A failure writes the failure file
+and is raised again; a full or read-only disk becomes one clear line.
+"""
+import errno
+import logging
+import os
+import time
+
+import numpy as np
+
+from analysis.results import to_plain
+from mdsim.errors import ConvergenceError, SimulationError, StudyError
+from mdsim.pipeline.rundir import RunDir
+from mdsim.pipeline.routes import ROUTE_RUNNERS
+from mdsim.pipeline.task import RunningTask
+from mdsim.pipeline.taskfile import read_task_result, write_failure, write_task_file
+from mdsim.sampling import store
+
+__all__ = ["run_task", "DISK_ERRNOS"]
+
+log = logging.getLogger(__name__)
+
+DISK_ERRNOS = (errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EACCES, errno.EPERM, errno.EFBIG)
+"""OS errors of a full, read-only or forbidden disk: reported as one clear line."""
+
+
+def run_task(run_dir, index, progress=None):
+    """Run one task of a run directory and write ``tasks/NNNN.h5``.
+
+    Parameters
+    ----------
+    run_dir : str or Path or RunDir
+    index : int
+        Task index (0-based, as in ``tasks.json``).
+    progress : callable, optional
+        Called as ``progress(stage=name, done=k, total=n)`` while sampling.
+
+    Returns
+    -------
+    dict
+        The task result: ``route``, ``state_point_index``, ``delta_T_K`` and
+        ``final_temperature_K`` ({value, stderr}, K), ``initial_pressure_Pa``
+        and ``final_pressure_Pa`` ({value, stderr} or None), initial and
+        final density (mol/m^3), ``stopped_by``, ``cpu_seconds``,
+        ``n_particles``, ``warnings``, ``notes``, ``method``, ``details``,
+        ``n_stages``, ``target_stderr_K``, ``wall_seconds_last_run``.  A
+        complete task file is read back, not run again.
+
+    Raises
+    ------
+    StudyError, SimulationError, ConvergenceError
+        After writing ``tasks/NNNN.failed.json`` with the error text.
+    """
+    rd = run_dir if isinstance(run_dir, RunDir) else RunDir(run_dir)
+    tasks = rd.read_tasks()
+    if isinstance(index, bool) or not isinstance(index, (int, np.integer)) \
+            or not 0 <= int(index) < len(tasks):
+        raise StudyError(f"task index {index!r}: '{rd.path}' has tasks 0 to {len(tasks) - 1}")
+    index = int(index)
+    if store.check_finished(rd.task_file(index)):  # a damaged task file is moved aside, re-run
+        return read_task_result(rd.task_file(index))[1]
+    rd.failure_file(index).unlink(missing_ok=True)
+    try:
+        return _run(rd, index, tasks[index], progress)
+    except (StudyError, SimulationError, ConvergenceError) as exc:
+        write_failure(rd, index, exc, user=True)
+        raise
+    except OSError as exc:
+        if exc.errno not in DISK_ERRNOS:
+            write_failure(rd, index, exc, user=False)
+            raise
+        err = _disk_error(rd, index, exc)
+        try:
+            write_failure(rd, index, err, user=True)
+        except OSError:
+            log.error("%s (the failure file could not be written either)", err)
+        raise err from None
+    except Exception as exc:
+        write_failure(rd, index, exc, user=False)
+        raise
+
+
+def _run(rd, index, task, progress):
+    """Run the task's route, write its task file and return its result."""
+    older = rd.older_stage_files(index)
+    if older:
+        raise StudyError(f"task {index:04d}: '{rd.stages_dir(index)}' holds stage files of an "
+                         f"earlier version of the tool ({', '.join(older[:3])}"
+                         f"{', ...' if len(older) > 3 else ''}): this version cannot resume "
+                         "that task; run the study again into a new run directory (finished "
+                         "task files stay readable)")
+    wall0 = time.time()
+    job = RunningTask(rd, task, progress=progress)
+    res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)
+    result = _result(job, res, pressure, extra)
+    result["wall_seconds_last_run"] = time.time() - wall0
+    if job.stopped_by == "cpu budget":
+        result["warnings"].append(
+            f"{task['route']} route: the CPU budget ({job.budget_s:g} s) ended sampling at a "
+            f"standard error of {res.delta_T_stderr_K:.3g} K (target {job.target_K:g} K); "
+            "raise [simulation] max_cpu_time for more precision")
+    write_task_file(rd, index, task, result, series)
+    return result
+
+
+def _initial_pressure(job):
+    """The pressure sampled at the initial state {value, stderr} in Pa, or None."""
+    if job.initial_chain is None:
+        return None
+    est = job.initial_chain.summary().get("pressure")
+    if est is None or not est.available:
+        return None
+    return {"value": job.units.pressure_to_Pa(est.value),
+            "stderr": job.units.pressure_to_Pa(est.stderr)}
+
+
+def _result(job, res, pressure, extra):
+    """The task result (JSON-ready apart from numpy scalars) from the route's solver result."""
+    task = job.task
+    return {
+        "route": task["route"],
+        "initial_pressure_Pa": _initial_pressure(job),
+        "state_point_index": int(task["state_point"]["index"]),
+        "delta_T_K": {"value": float(res.delta_T_K), "stderr": float(res.delta_T_stderr_K)},
+        "final_temperature_K": {"value": float(res.final_temperature_K),
+                                "stderr": float(res.final_temperature_stderr_K)},
+        "initial_density_mol_m3": job.rho_i,
+        "final_density_mol_m3": job.rho_f,
+        "final_pressure_Pa": pressure,
+        "stopped_by": job.stopped_by,
+        "cpu_seconds": job.cpu_spent(),
+        "n_particles": int(job.n_particles),
+        "warnings": list(job.warnings) + list(res.warnings),
+        "notes": list(job.notes) + list(res.notes),
+        "method": res.method,
+        "details": to_plain({**res.details, **extra}),
+        "n_stages": job.n_stages,
+        "target_stderr_K": job.target_K,
+    }
+
+
+def _disk_error(rd, index, exc):
+    """A full, read-only or forbidden disk as one SimulationError saying what to do."""
+    return SimulationError(
+        f"task {index:04d}: cannot write '{exc.filename or rd.tasks_dir}': "
+        f"{exc.strerror or os.strerror(exc.errno)}; free space in (or permission on) "
+        f"'{rd.path}' and run again: finished stages are kept and the task resumes from its "
+        "last checkpoint")

@@ -1,0 +1,247 @@
+"""The running task: its study, its numbers, its stage files and its CPU ledger.
+
+A :class:`RunningTask` is built from one entry of ``tasks.json``.  It reads
+the run directory's study, chooses the particle number from the target
+(:meth:`RunningTask.choose_particles`), runs stage files
+(:meth:`RunningTask.stage`) and books the CPU time of each in a
+:class:`CpuLedger` beside them, so that a task that is killed and run again
+knows what it has spent.
+
+Units: the engine works in the reduced units of the study (species 0);
+the task's own numbers (temperatures, densities, the target) are SI.
+"""
+import functools
+import json
+import math
+import time
+from pathlib import Path
+
+from mdsim.errors import ConvergenceError, StudyError
+from mdsim.files import atomic_write_text
+from mdsim.pipeline.plan import check_particles, particles_for_cutoff
+from mdsim.sampling import store
+
+__all__ = ["RunningTask", "CpuLedger", "N_MIN", "N_MAX"]
+
+N_MIN = 128
+"""Fewest particles a task chooses by itself."""
+N_MAX = 4000
+"""Most particles a task chooses by itself (the study's ``particles`` may say more)."""
+
+
+def _stage_progress(report, stage, done, total):
+    """Pass a sampler's progress (samples done of total) on as the task's progress."""
+    report(stage=stage, done=done, total=total)
+
+
+class CpuLedger:
+    """CPU seconds and work done per stage file, kept on disk beside the stages.
+
+    Parameters
+    ----------
+    path : Path
+        The ledger file (:meth:`mdsim.pipeline.rundir.RunDir.cpu_ledger`); read when it exists.
+
+    Notes
+    -----
+    One row per stage name: ``kind`` ("mc" or "md"), ``cpu_s`` (CPU
+    seconds) and ``units`` (particles x sweeps or steps).  The rate of a
+    kind, CPU seconds per unit, sizes the stages a budget can still afford.
+    """
+
+    def __init__(self, path):
+        self.path = Path(path)
+        self.rows = (json.loads(self.path.read_text(encoding="utf-8"))
+                     if self.path.is_file() else {})
+
+    def __contains__(self, name):
+        return name in self.rows
+
+    def spent(self):
+        """CPU seconds of every stage booked, s."""
+        return float(sum(v["cpu_s"] for v in self.rows.values()))
+
+    def cost_per_unit(self, kind):
+        """CPU seconds per (particle x sweep or step) measured so far for a kind, or None."""
+        rows = [v for v in self.rows.values() if v["kind"] == kind and v["units"] > 0]
+        if not rows:
+            return None
+        return sum(v["cpu_s"] for v in rows) / sum(v["units"] for v in rows)
+
+    def record(self, name, kind, cpu_s, units):
+        """Book one stage and write the ledger (atomically)."""
+        self.rows[name] = {"kind": kind, "cpu_s": float(cpu_s), "units": float(units)}
+        atomic_write_text(self.path, json.dumps(self.rows))
+
+
+class RunningTask:
+    """A running task: its study, numbers, stage files and CPU ledger.
+
+    Parameters
+    ----------
+    run_dir : mdsim.pipeline.rundir.RunDir
+    task : dict
+        The task's entry of ``tasks.json`` (:func:`mdsim.pipeline.plan.plan_tasks`).
+    progress : callable, optional
+        Called as ``progress(stage=name, done=k, total=n)`` while sampling.
+
+    Attributes
+    ----------
+    T_i, r, rho_i, rho_f : float
+        Initial temperature (K), volume ratio, initial and final molar density (mol/m^3).
+    target_K, budget_s : float
+        The target standard error of Delta T (K) and the CPU budget (s).
+    T_f_guess, dT_guess : float, float or None
+        The virial B2 + B3 final temperature and Delta T (K), the first guesses.
+    n_particles : int
+    stopped_by : str
+        "target" or "cpu budget": what ended the sampling.
+    warnings, notes : list of str
+    initial_chain : mdsim.pipeline.chain.Chain or None
+        The route's chain at the initial state, once run (its pressure is reported).
+    """
+
+    def __init__(self, run_dir, task, progress=None):
+        from analysis.heatcapacity import heat_capacity_from_spec
+        from analysis.virial_eos import VirialGas
+        from mdsim.study.reader import read_study
+        self.rd = run_dir
+        self.task = task
+        self.index = int(task["index"])
+        self.study = read_study(run_dir.study_file)
+        self.units = self.study.units
+        self.eps_K = float(self.units.epsilon_K)
+        self.cv_ig = heat_capacity_from_spec(self.study.gas.ideal_heat_capacity,
+                                             "[gas] ideal_heat_capacity")
+        sp = task["state_point"]
+        self.state_point_index = int(sp["index"])
+        self.T_i = float(sp["temperature_K"])
+        self.r = float(sp["volume_ratio"])
+        self.rho_i = float(task["initial_density_mol_m3"])
+        self.rho_f = self.rho_i / self.r
+        self.target_K = float(task["target_stderr_K"])
+        self.budget_s = float(task["max_cpu_time_s"])
+        self.seed = [int(s) for s in task["seed"]]
+        run_dir.stages_dir(self.index).mkdir(parents=True, exist_ok=True)
+        self.ledger = CpuLedger(run_dir.cpu_ledger(self.index))
+        self.progress = progress
+        self.stopped_by = "target"
+        self.warnings, self.notes = [], []
+        self.n_stages = 0
+        self.initial_chain = None
+        g = self.study.gas
+        self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
+                                    quantum_correction=False)
+        if g.quantum_correction:
+            self.warnings.append("the study asks for the quantum correction: it applies to the "
+                                 "virial routes only; simulations are classical")
+        self.T_f_guess, self.dT_guess = self._virial_guess()
+        self.n_particles = self.choose_particles(task.get("particles"))
+
+    # -- numbers chosen from the target -------------------------------------------------
+    def _virial_guess(self):
+        from analysis.expansion import virial_expansion
+        try:
+            v = virial_expansion(self.virial_gas, self.cv_ig, self.T_i, self.r, rho_i=self.rho_i,
+                                 order=3)
+        except (StudyError, ConvergenceError) as exc:
+            self.notes.append(f"no virial start guess ({' '.join(str(exc).split())}); the "
+                              "first final-state temperature is T_i")
+            return self.T_i, None
+        return float(v.final_temperature_K), float(v.delta_T_K)
+
+    def choose_particles(self, given):
+        """The particle number: the study's, or the fewest that keep the bias small.
+
+        The cut-off must stay below half the box edge at the initial
+        density, and the O(1/N) finite-size bias of a canonical u_res (the
+        (N - 1)/N of the pair sum) must stay below a quarter of the target:
+        N >= 4 |Delta T_virial| / target; clipped to [N_MIN, N_MAX].
+        """
+        if given is not None:
+            check_particles(self.study, int(given), self.rho_i, self.state_point_index)
+            return int(given)
+        n_cut, _ = particles_for_cutoff(self.study, self.rho_i)
+        n_bias = 0 if self.dT_guess is None else int(math.ceil(4.0 * abs(self.dT_guess)
+                                                               / self.target_K))
+        n = max(N_MIN, n_cut, n_bias)
+        if n > N_MAX:
+            if n_cut > N_MAX:
+                raise StudyError(f"the state at {self.rho_i:.6g} mol/m^3 needs {n_cut} particles "
+                                 f"for the cut-off to stay below half the box (more than "
+                                 f"{N_MAX}); give [simulation] particles, or a smaller cutoff")
+            self.warnings.append(f"{n} particles would keep the finite-size bias below a quarter "
+                                 f"of the target; using {N_MAX}")
+            n = N_MAX
+        return n
+
+    def system_maker(self, rho_mol_m3, tag):
+        """A function making a fresh system of the task at a density (seeded start)."""
+        def make():
+            return self.study.system(self.n_particles, rho_mol_m3, seed=self.start_seed(tag))
+        return make
+
+    def md_time_step(self, T_red):
+        """The MD time step at a reduced temperature for the study's masses (reduced)."""
+        from mdsim.engine.md import default_time_step
+        masses = self.study.gas.molar_masses_kg_mol / self.study.gas.molar_masses_kg_mol[0]
+        return float(default_time_step(T_red, masses))
+
+    # -- CPU budget -----------------------------------------------------------------------
+    def cpu_spent(self):
+        """CPU seconds of the task's stages so far, over every run of the task, s."""
+        return self.ledger.spent()
+
+    def budget_left(self):
+        return self.budget_s - self.cpu_spent()
+
+    def cost_per_unit(self, kind):
+        """CPU seconds per (particle x sweep or step) measured so far for a sampler kind."""
+        return self.ledger.cost_per_unit(kind)
+
+    # -- stage files --------------------------------------------------------------------
+    def stage_path(self, name):
+        """The stage file ``name`` (see :func:`mdsim.pipeline.rundir.stage_name`)."""
+        return self.rd.stage_file(self.index, name)
+
+    def stage(self, name, system, method, T_red=None, E_red=None, *, n_eq, n_samples,
+              interval, seed, **settings):
+        """Run (or read back, or resume) one stage file ``NAME.h5``.
+
+        Returns
+        -------
+        mdsim.sampling.state_point.SampleResult
+        """
+        from mdsim.sampling.state_point import sample_state_point
+        path = self.stage_path(name)
+        attrs = {"task_index": self.index, "stage": name, "study_name": self.study.name,
+                 **{f"units_{k}": v for k, v in self.units.as_dict().items()}}
+        done = path.is_file()
+        c0 = time.process_time()
+        progress = None
+        if self.progress is not None:
+            progress = functools.partial(_stage_progress, self.progress, name)
+        try:
+            result = sample_state_point(system, method, T_red, E_red, n_equilibration=n_eq,
+                                        n_samples=n_samples, interval=interval, seed=seed,
+                                        path=path, attrs=attrs, progress=progress, **settings)
+        except ConvergenceError:
+            # a short stage of a relaxing run (the direct route's filling stages) has no
+            # settled mean of its own; the file is complete and its samples are all we need
+            if not path.is_file():
+                raise
+            from mdsim.sampling.state_point import SampleResult
+            result = SampleResult(store.read_samples(path), {}, {}, path, done)
+        if not done or name not in self.ledger:
+            units = system.n_particles * (n_eq + n_samples * interval)
+            self.ledger.record(name, method[:2], time.process_time() - c0, units)
+        self.n_stages += 1
+        return result
+
+    def stage_seed(self, *parts):
+        """The seed of a stage: the task's seed followed by ``parts``."""
+        return self.seed + [int(p) for p in parts]
+
+    def start_seed(self, *parts):
+        """The seed of a starting configuration (apart from every stage seed)."""
+        return self.seed + [9999] + [int(p) for p in parts]
