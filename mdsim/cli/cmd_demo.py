@@ -53,7 +53,7 @@ def add_arguments(p):
 
 
 def run(args):
-    from mdsim.pipeline.prepare import run_dir_paths
+    from mdsim.pipeline.prepare import as_run_dir
     from mdsim.pipeline.run_study import run_study
     from mdsim.study.reader import read_study
     path = demo_study_path()
@@ -63,7 +63,7 @@ def run(args):
     with verbose_logging(args.verbose):
         result = run_study(study, args.out, quiet=args.quiet, say=None if args.quiet else say)
     status = print_study_run(result, str(path), json_out=args.json, quiet=args.quiet)
-    paths = run_dir_paths(result.run_dir)
+    paths = as_run_dir(result.run_dir)
     say(f"demo finished in {time.monotonic() - start:.0f} s; read {paths.report_md} (plots in "
         f"{paths.plots_dir}, numbers in {paths.results_csv} and {paths.results_json})",
         args.quiet)

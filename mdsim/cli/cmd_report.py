@@ -20,7 +20,7 @@ def add_arguments(p):
 
 def run(args):
     from mdsim.pipeline import build_report
-    from mdsim.pipeline.prepare import run_dir_paths
+    from mdsim.pipeline.prepare import as_run_dir
     run_dir = Path(args.run_dir)
     if not run_dir.is_dir():
         raise StudyError(f"RUN_DIR '{run_dir}' is not a directory; give a run directory made "
@@ -31,7 +31,7 @@ def run(args):
     tasks = summary["tasks"]
     n_done = len(tasks["done"])
     n_all = n_done + len(tasks["failed"]) + len(tasks["missing"])
-    say(f"report: {run_dir_paths(run_dir).report_md} ({n_done} of {n_all} simulation tasks done"
+    say(f"report: {as_run_dir(run_dir).report_md} ({n_done} of {n_all} simulation tasks done"
         + (f", {len(tasks['failed'])} failed" if tasks["failed"] else "")
         + (f", {len(tasks['missing'])} not finished" if tasks["missing"] else "") + ")",
         args.quiet)

@@ -71,8 +71,8 @@ def print_study_run(result, study_arg, json_out=False, quiet=False):
         return 0
     if json_out:
         print_json(result.summary)
-    from mdsim.pipeline.prepare import run_dir_paths
+    from mdsim.pipeline.prepare import as_run_dir
     n = len(result.tasks)
     say(f"run directory {result.run_dir}: {n - len(result.failed)} of {n} tasks complete; "
-        f"report {run_dir_paths(result.run_dir).report_md}", quiet)
+        f"report {as_run_dir(result.run_dir).report_md}", quiet)
     return EXIT_TASKS_FAILED if result.failed else 0

@@ -15,11 +15,8 @@ __all__ = ["JOBQUEUE_CLASSES", "jobqueue_class_name", "jobqueue_arguments", "slu
            "sbatch_directives"]
 
 JOBQUEUE_CLASSES = {"slurm": "SLURMCluster", "pbs": "PBSCluster"}
-DEFAULTS = {"cpus_per_job": 1, "memory_per_job": "2GB", "time_limit": "01:00:00"}
-
-
-def _get(settings, key):
-    return settings.get(key, DEFAULTS.get(key))
+# The defaults of these keys live in the study schema (mdsim.study.schema): a
+# study's [cluster] table always has them; a key missing here is left out.
 
 
 def jobqueue_class_name(settings):
@@ -33,9 +30,11 @@ def jobqueue_class_name(settings):
 
 def jobqueue_arguments(settings, log_directory=None):
     """Keyword arguments of a dask-jobqueue cluster from a ``[cluster]`` table (dict)."""
-    kw = {"cores": int(_get(settings, "cpus_per_job")),
-          "memory": str(_get(settings, "memory_per_job")),
-          "walltime": str(_get(settings, "time_limit"))}
+    kw = {}
+    for key, name, kind in (("cpus_per_job", "cores", int), ("memory_per_job", "memory", str),
+                            ("time_limit", "walltime", str)):
+        if settings.get(key) is not None:
+            kw[name] = kind(settings[key])
     if settings.get("partition"):
         kw["queue"] = str(settings["partition"])
     if settings.get("network_interface"):
@@ -62,8 +61,11 @@ def slurm_memory(text):
 
 def sbatch_directives(settings):
     """Slurm ``#SBATCH`` lines for one job of a ``[cluster]`` table (list of str)."""
-    lines = [f"#SBATCH --cpus-per-task={int(_get(settings, 'cpus_per_job'))}",
-             f"#SBATCH --time={_get(settings, 'time_limit')}"]
+    lines = []
+    if settings.get("cpus_per_job") is not None:
+        lines.append(f"#SBATCH --cpus-per-task={int(settings['cpus_per_job'])}")
+    if settings.get("time_limit"):
+        lines.append(f"#SBATCH --time={settings['time_limit']}")
     if settings.get("memory_per_job"):
         lines.append(f"#SBATCH --mem={slurm_memory(settings['memory_per_job'])}")
     if settings.get("partition"):

@@ -80,7 +80,9 @@ class ProgressLine:
 
     Parameters
     ----------
-    run_dir : RunDir
+    progress_file : callable
+        ``progress_file(index)`` -> the path of a task's progress file
+        (:meth:`mdsim.pipeline.rundir.RunDir.progress_file`).
     indices : list of int
         The tasks this run executes.
     n_total : int
@@ -91,8 +93,8 @@ class ProgressLine:
         Tasks running at once (for the time estimate).
     """
 
-    def __init__(self, run_dir, indices, n_total, enabled=None, workers=1, stream=None):
-        self.rd = run_dir
+    def __init__(self, progress_file, indices, n_total, enabled=None, workers=1, stream=None):
+        self.progress_file = progress_file
         self.indices = list(indices)
         self.n_total = int(n_total)
         self.stream = stream or sys.stderr
@@ -125,7 +127,7 @@ class ProgressLine:
         for k in self.indices:
             if k in self.finished:
                 continue
-            info = read_progress(self.rd.tasks_dir / f"{k:04d}.progress.json")
+            info = read_progress(self.progress_file(k))
             if info:
                 running.append(describe_task(k, info))
         body = "; ".join(running[:2]) + (" ..." if len(running) > 2 else "")

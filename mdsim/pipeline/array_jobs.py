@@ -10,7 +10,7 @@ import json
 import logging
 
 from mdsim.errors import SettingError, StudyError
-from mdsim.pipeline.prepare import run_dir_paths
+from mdsim.pipeline.prepare import as_run_dir
 
 __all__ = ["EXECUTORS", "choose_executor", "refuse_while_array_runs", "run_array"]
 
@@ -43,7 +43,7 @@ def choose_executor(rd, on=None, submit=False, resubmit_failed=False):
         raise SettingError("on", on, f"allowed {', '.join(EXECUTORS)}")
     if (submit or resubmit_failed) and on not in (None, "array"):
         raise SettingError("on", on, "submitting a job array needs the array executor, 'array'")
-    submitted = bool(slurm.read_submissions(run_dir_paths(rd).jobs_file))
+    submitted = bool(slurm.read_submissions(as_run_dir(rd).jobs_file))
     if resubmit_failed and not submitted:
         raise SettingError("resubmit_failed", None, f"nothing was submitted from '{rd.path}' "
                            "(no jobs.json); submit the job array first")
@@ -63,7 +63,7 @@ def _active_jobs(view):
 def refuse_while_array_runs(rd):
     """Refuse a local or Dask run while elements of a job array run the same tasks."""
     from mdsim.execute import slurm
-    jobs_file = run_dir_paths(rd).jobs_file
+    jobs_file = as_run_dir(rd).jobs_file
     if not slurm.read_submissions(jobs_file):
         return
     active, jobs = _active_jobs(slurm.scheduler_view(jobs_file))
@@ -121,7 +121,7 @@ def run_array(rd, n_tasks, todo, cluster=None, submit=False, resubmit_failed=Fal
     """
     from mdsim.execute import slurm
     from mdsim.execute.array import write_array_script
-    paths = run_dir_paths(rd)
+    paths = as_run_dir(rd)
     script = write_array_script(paths.array_script, paths.logs_dir, rd.path, n_tasks, cluster)
     submitted = slurm.read_submissions(paths.jobs_file)
     view = slurm.scheduler_view(paths.jobs_file) if submitted else {}

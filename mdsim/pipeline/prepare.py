@@ -5,8 +5,8 @@
 task list ``tasks.json``) or reopens one that holds the same plan.
 :func:`check_run_dir_place` refuses, before anything is written, a study
 whose resolved form cannot be written or a place that cannot hold the run.
-:func:`run_dir_paths` names the run directory's files that the layers above
-the pipeline read or write (``docs/run-directory.md``).
+:func:`as_run_dir` takes a RunDir or a path; every file of the run directory
+is named by :class:`~mdsim.pipeline.rundir.RunDir` (``docs/run-directory.md``).
 """
 import json
 import shutil
@@ -16,78 +16,12 @@ from mdsim.errors import StudyError
 from mdsim.pipeline.rundir import RunDir
 from mdsim.study.writer import dumps_toml, resolved_study_document
 
-__all__ = ["RunDirPaths", "run_dir_paths", "check_run_dir_place", "prepare_run_dir"]
+__all__ = ["as_run_dir", "check_run_dir_place", "prepare_run_dir"]
 
 
-class RunDirPaths:
-    """The files of a run directory used by the runner, the status and the job array.
-
-    Each attribute is named as the :class:`~mdsim.pipeline.rundir.RunDir`
-    property for the same file, so that a caller can take the paths from
-    either.
-
-    Parameters
-    ----------
-    run_dir : RunDir
-    """
-
-    def __init__(self, run_dir):
-        self.path = Path(run_dir.path)
-        self.tasks_dir = Path(run_dir.tasks_dir)
-
-    @property
-    def study_file(self):
-        return self.path / "study.toml"
-
-    @property
-    def log_file(self):
-        return self.path / "log.txt"
-
-    @property
-    def report_md(self):
-        return self.path / "report.md"
-
-    @property
-    def results_json(self):
-        return self.path / "results.json"
-
-    @property
-    def results_csv(self):
-        return self.path / "results.csv"
-
-    @property
-    def plots_dir(self):
-        return self.path / "plots"
-
-    @property
-    def lock_file(self):
-        return self.path / ".lock"
-
-    @property
-    def logs_dir(self):
-        """Output of the batch jobs (array elements, Dask workers)."""
-        return self.path / "logs"
-
-    @property
-    def array_script(self):
-        return self.path / "array.sh"
-
-    @property
-    def jobs_file(self):
-        """The record of submitted job arrays (:mod:`mdsim.execute.slurm`)."""
-        return self.path / "jobs.json"
-
-    def progress_file(self, index):
-        return self.tasks_dir / f"{int(index):04d}.progress.json"
-
-    def cpu_ledger(self, index):
-        """CPU seconds per stage of a task that has not finished."""
-        return self.tasks_dir / f"{int(index):04d}.stages" / "cpu.json"
-
-
-def run_dir_paths(run_dir):
-    """The :class:`RunDirPaths` of a run directory (a RunDir or a path)."""
-    return RunDirPaths(run_dir if isinstance(run_dir, RunDir) else RunDir(run_dir))
+def as_run_dir(run_dir):
+    """A :class:`~mdsim.pipeline.rundir.RunDir` from a RunDir or a path."""
+    return run_dir if isinstance(run_dir, RunDir) else RunDir(run_dir)
 
 
 def check_run_dir_place(study, out):
@@ -147,6 +81,6 @@ def prepare_run_dir(study, out):
         target = rd.path / dest
         target.parent.mkdir(parents=True, exist_ok=True)
         shutil.copyfile(src, target)
-    run_dir_paths(rd).study_file.write_text(text, encoding="utf-8")
+    rd.study_file.write_text(text, encoding="utf-8")
     rd.write_tasks(tasks)
     return rd, tasks

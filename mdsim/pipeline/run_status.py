@@ -8,7 +8,7 @@ import json
 import time
 
 from mdsim.errors import SimulationError, StudyError
-from mdsim.pipeline.prepare import run_dir_paths
+from mdsim.pipeline.prepare import as_run_dir
 from mdsim.pipeline.rundir import RunDir
 
 __all__ = ["RUNNING_WITHIN_S", "run_status"]
@@ -39,7 +39,7 @@ def _task_row(rd, task, sched):
     from mdsim.execute.progress import read_progress
     from mdsim.pipeline import read_task_result
     k = task["index"]
-    paths = run_dir_paths(rd)
+    paths = as_run_dir(rd)
     state = rd.task_state(k)
     row = {"index": k, "route": task["route"], "state_point_index": task["state_point"]["index"],
            "state": state}
@@ -66,7 +66,7 @@ def _scheduler_view_or_error(rd):
     """(scheduler view of the run's array elements, None) or ({}, the error text)."""
     from mdsim.execute import slurm
     try:
-        return slurm.scheduler_view(run_dir_paths(rd).jobs_file), None
+        return slurm.scheduler_view(as_run_dir(rd).jobs_file), None
     except (StudyError, SimulationError) as exc:
         return {}, str(exc)
 
@@ -118,5 +118,5 @@ def run_status(run_dir):
         cpu_total += float(row.get("cpu_seconds", 0.0))
         rows.append(row)
     return {"run_dir": str(rd.path), "tasks": rows, "counts": counts,
-            "cpu_seconds_total": cpu_total, "locked": run_dir_paths(rd).lock_file.is_file(),
+            "cpu_seconds_total": cpu_total, "locked": as_run_dir(rd).lock_file.is_file(),
             **_scheduler_fields(rows, sched, sched_error)}

@@ -18,7 +18,7 @@ from pathlib import Path
 from mdsim.checks import count
 from mdsim.errors import SettingError
 from mdsim.pipeline.array_jobs import choose_executor, refuse_while_array_runs, run_array
-from mdsim.pipeline.prepare import check_run_dir_place, prepare_run_dir, run_dir_paths
+from mdsim.pipeline.prepare import check_run_dir_place, prepare_run_dir
 from mdsim.pipeline.rundir import RunDir
 
 __all__ = ["StudyRun", "default_run_dir", "run_study", "execute_tasks", "package_log_to",
@@ -132,13 +132,13 @@ def execute_tasks(rd, indices, n_total, on="local", workers=None, cluster=None, 
         raise SettingError("on", on, "allowed local, dask (a job array runs through run_array)")
     job = functools.partial(task_job, str(rd.path))
     n_workers = workers or (DASK_DEFAULT_WORKERS if on == "dask" else None)
-    line = ProgressLine(rd, indices, n_total, enabled=False if quiet else None,
+    line = ProgressLine(rd.progress_file, indices, n_total, enabled=False if quiet else None,
                         workers=n_workers or 1)
     try:
         if on == "local":
             return run_local(job, indices, workers=workers, on_done=line.done, on_tick=line.draw)
         return run_dask(job, indices, address=(cluster or {}).get("address"), workers=n_workers,
-                        cluster_settings=cluster, log_directory=run_dir_paths(rd).logs_dir,
+                        cluster_settings=cluster, log_directory=rd.logs_dir,
                         on_done=line.done, on_tick=line.draw)
     finally:
         line.close()
@@ -210,7 +210,7 @@ def run_study(study, out_dir=None, on=None, workers=None, submit=False, resubmit
     rd.create()
     rd.acquire_lock()
     try:
-        with run_dir_logging(run_dir_paths(rd).log_file):
+        with run_dir_logging(rd.log_file):
             rd, tasks = prepare_run_dir(study, out)
             log.info("run directory %s: %d tasks", rd.path, len(tasks))
             run = _run_tasks(study, rd, tasks, on, workers, submit, resubmit_failed, quiet, say)
@@ -246,5 +246,5 @@ def run_logged_task(run_dir, index):
     count("index", index, minimum=0)
     if index >= len(tasks):
         raise SettingError("index", index, f"'{rd.path}' has tasks 0 to {len(tasks) - 1}")
-    with run_dir_logging(run_dir_paths(rd).log_file):
+    with run_dir_logging(rd.log_file):
         return run_task(rd.path, index)

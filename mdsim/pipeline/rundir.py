@@ -38,6 +38,7 @@ from pathlib import Path
 
 from mdsim.errors import StudyError
 from mdsim.files import atomic_write_text
+from mdsim.study.writer import INPUTS_DIR
 
 __all__ = ["RunDir", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
            "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
@@ -104,7 +105,7 @@ class RunDir:
     @property
     def inputs_dir(self):
         """Copies of the data files the study names, ``inputs/``."""
-        return self.path / "inputs"
+        return self.path / INPUTS_DIR
 
     @property
     def tasks_file(self):
