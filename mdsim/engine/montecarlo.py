@@ -62,7 +62,7 @@ from numba import njit
 
 from mdsim.engine import rng as _rng
 from mdsim.errors import SimulationError, StudyError
-from mdsim.engine.potentials import FORM_LJ, RC2, pair_eval
+from mdsim.engine.forms import FORM_LJ, RC2, pair_eval
 from mdsim.engine.system import System
 
 MODE_NVT, MODE_NVE = 0, 1
