@@ -145,6 +145,66 @@ def _particle_energy_moved(i, c0, xo, yo, zo, xn, yn, zn, r_ni, species_n, param
     return u_old, u_new
 
 
+@njit(cache=True, inline="always")
+def _energy_change(i, c, x, y, z, r_ni, species_n, params_ab, form, table, box_i, ncell_i,
+                   head_c, next_n, cell_n):
+    """Change of the truncated energy when particle i moves to (x, y, z) in cell ``c``.
+
+    Returns +inf when the new position is inside a hard core (the move is
+    then rejected).  A move within the particle's cell takes one pass over
+    the neighbours, any other two.
+    """
+    if c == cell_n[i]:
+        u_old, u_new = _particle_energy_moved(
+            i, c, r_ni[i, 0], r_ni[i, 1], r_ni[i, 2], x, y, z, r_ni, species_n, params_ab,
+            form, table, box_i, ncell_i, head_c, next_n)
+        if u_new == np.inf:
+            return np.inf
+    else:
+        # new position first (a move into a core stops there); one call site,
+        # so the inlined pass is compiled once
+        u_new = 0.0
+        u_old = 0.0
+        for which in range(2):
+            if which == 0:
+                px, py, pz = x, y, z
+            else:
+                px, py, pz = r_ni[i, 0], r_ni[i, 1], r_ni[i, 2]
+            e = _particle_energy(i, px, py, pz, r_ni, species_n, params_ab, form, table,
+                                 box_i, ncell_i, head_c, next_n)
+            if which == 0:
+                u_new = e
+                if e == np.inf:
+                    break
+            else:
+                u_old = e
+        if u_new == np.inf:
+            return np.inf
+    return u_new - u_old
+
+
+@njit(cache=True, inline="always")
+def _accepted(mode, du, u_trunc, beta, u_budget, exponent, state):
+    """Accept a trial move with energy change ``du``?  Draws a random number only if needed.
+
+    MODE_NVT: min(1, exp(-beta du)).  MODE_NVE: rejected when the new
+    kinetic energy u_budget - (u_trunc + du) is not positive, else
+    min(1, (k_new / k_old)^exponent).
+    """
+    if mode == MODE_NVT:
+        if du > 0.0 and _rng.uniform(state) >= math.exp(-beta * du):
+            return False
+        return True
+    k_new = u_budget - (u_trunc + du)
+    if k_new <= 0.0:
+        return False
+    if du > 0.0:
+        k_old = u_budget - u_trunc
+        if _rng.uniform(state) >= math.exp(exponent * math.log(k_new / k_old)):
+            return False
+    return True
+
+
 @njit(cache=True, error_model="numpy")
 def mc_moves(r_ni, species_n, params_ab, form, table, box_i, ncell_i, head_c, next_n, cell_n,
              state, n_moves, max_displacement, mode, beta, u_budget, exponent, u_trunc):
@@ -190,50 +250,19 @@ def mc_moves(r_ni, species_n, params_ab, form, table, box_i, ncell_i, head_c, ne
         i = int(_rng.uniform(state) * n)
         if i >= n:
             i = n - 1
-        x = wrap_coordinate(r_ni[i, 0] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[0])
-        y = wrap_coordinate(r_ni[i, 1] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[1])
-        z = wrap_coordinate(r_ni[i, 2] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[2])
+        x = wrap_coordinate(r_ni[i, 0] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement,
+                            box_i[0])
+        y = wrap_coordinate(r_ni[i, 1] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement,
+                            box_i[1])
+        z = wrap_coordinate(r_ni[i, 2] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement,
+                            box_i[2])
         c = (cell_coord(x, box_i[0], ncell_i[0]) * ncell_i[1]
              + cell_coord(y, box_i[1], ncell_i[1])) * ncell_i[2] \
             + cell_coord(z, box_i[2], ncell_i[2])
-        if c == cell_n[i]:
-            u_old, u_new = _particle_energy_moved(
-                i, c, r_ni[i, 0], r_ni[i, 1], r_ni[i, 2], x, y, z, r_ni, species_n, params_ab,
-                form, table, box_i, ncell_i, head_c, next_n)
-            if u_new == np.inf:
-                continue
-        else:
-            # new position first (a move into a core stops there); one call site,
-            # so the inlined pass is compiled once
-            u_new = 0.0
-            u_old = 0.0
-            for which in range(2):
-                if which == 0:
-                    px, py, pz = x, y, z
-                else:
-                    px, py, pz = r_ni[i, 0], r_ni[i, 1], r_ni[i, 2]
-                e = _particle_energy(i, px, py, pz, r_ni, species_n, params_ab, form, table,
-                                     box_i, ncell_i, head_c, next_n)
-                if which == 0:
-                    u_new = e
-                    if e == np.inf:
-                        break
-                else:
-                    u_old = e
-            if u_new == np.inf:
-                continue
-        du = u_new - u_old
-        if mode == MODE_NVT:
-            if du > 0.0 and _rng.uniform(state) >= math.exp(-beta * du):
-                continue
-        else:
-            k_new = u_budget - (u_trunc + du)
-            if k_new <= 0.0:
-                continue
-            if du > 0.0:
-                k_old = u_budget - u_trunc
-                if _rng.uniform(state) >= math.exp(exponent * math.log(k_new / k_old)):
-                    continue
+        du = _energy_change(i, c, x, y, z, r_ni, species_n, params_ab, form, table, box_i,
+                            ncell_i, head_c, next_n, cell_n)
+        if du == np.inf or not _accepted(mode, du, u_trunc, beta, u_budget, exponent, state):
+            continue
         n_acc += 1
         u_trunc += du
         r_ni[i, 0] = x
