@@ -641,7 +641,7 @@ def _energy(job):
 
 
 def _md_time_step(job, T_red):
-    from mdsim.engine.md import default_time_step
+    from mdsim.engine.integrator import default_time_step
     masses = job.study.gas.molar_masses_kg_mol / job.study.gas.molar_masses_kg_mol[0]
     return float(default_time_step(T_red, masses))
 
