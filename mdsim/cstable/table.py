@@ -446,7 +446,7 @@ def _basis(nodes):
 # -- assembly ---------------------------------------------------------------------------
 
 def _read_point(points_dir, index, T):
-    from mdsim.sampling.state_point import summarise
+    from mdsim.sampling.estimates import summarise
     from mdsim.sampling.store import read_attrs, read_samples
     path = _point_path(points_dir, index)
     samples = read_samples(path)

@@ -442,7 +442,7 @@ class _Chain:
         return int(sum(r.samples[self.key].size for r in self.results))
 
     def summary(self):
-        from mdsim.sampling.state_point import summarise
+        from mdsim.sampling.estimates import summarise
         system = self.make_system()
         return summarise(self.samples(), self.method, system.n_particles, system.volume,
                          self.T_red, system.dof_per_particle)
