@@ -49,7 +49,7 @@ from mdsim.sampling.readers import (is_complete, read_attrs, read_checkpoint, re
                                     read_run, read_samples)
 
 __all__ = ["FORMAT_VERSION", "PART_SUFFIX", "PACKAGE", "RunWriter", "open_resumable",
-           "part_path", "package_versions",
+           "part_path", "package_versions", "write_tree",
            # the integrity checks and the readers, offered here for callers of the run file
            "CHECKSUM_ATTR", "CORRUPT_SUFFIX", "CorruptFileWarning", "checksum", "verify",
            "move_aside", "check_finished", "is_complete", "read_attrs", "read_samples",
@@ -105,13 +105,13 @@ def _write_attrs(obj, attrs):
         obj.attrs[str(key)] = _attr_value(value, key)
 
 
-def _write_tree(group, state):
+def write_tree(group, state):
     """Write a state dictionary: arrays as datasets (in place if same shape), scalars as attributes."""
     for key, value in state.items():
         key = str(key)
         if isinstance(value, dict):
             sub = group.require_group(key)
-            _write_tree(sub, value)
+            write_tree(sub, value)
             continue
         if isinstance(value, np.ndarray):
             if value.dtype.kind not in "biuf":
@@ -257,7 +257,7 @@ class RunWriter:
         """
         g = self.file.require_group("checkpoint")
         stale = set(g) | set(g.attrs)
-        _write_tree(g.require_group("state"), state)
+        write_tree(g.require_group("state"), state)
         for key in set(g["state"]) | set(g["state"].attrs):
             if key not in state:
                 if key in g["state"]:
@@ -291,10 +291,10 @@ class RunWriter:
     def write_final(self, positions, box, velocities=None):
         """Store the final configuration (and velocities when there are any)."""
         g = self.file.require_group("final")
-        _write_tree(g, {"positions": np.asarray(positions, dtype=np.float64),
+        write_tree(g, {"positions": np.asarray(positions, dtype=np.float64),
                         "box": np.asarray(box, dtype=np.float64)})
         if velocities is not None:
-            _write_tree(g, {"velocities": np.asarray(velocities, dtype=np.float64)})
+            write_tree(g, {"velocities": np.asarray(velocities, dtype=np.float64)})
 
     def set_attrs(self, attrs):
         _write_attrs(self.file, attrs)
