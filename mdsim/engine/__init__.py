@@ -4,7 +4,7 @@ stream, neighbour lists, force kernels, molecular dynamics and Monte Carlo.
 Reduced Lennard-Jones-style units throughout (``docs/units.md``).  Importing
 the package first checks that numba's cached kernels were compiled from the
 current sources (:mod:`mdsim.engine.kernel_cache`), then offers the public
-API below; the kernels compile (or load from the cache) on first use.
+API below; each kernel is compiled, or loaded from the cache, on first use.
 
 Modules: :mod:`~mdsim.engine.forms` (form codes, parameter rows, the scalar
 pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),

@@ -12,7 +12,7 @@ __all__ = ["h5py_module", "plain", "numeric", "group_attrs", "read_tree"]
 
 
 def h5py_module():
-    """h5py, imported on first use (importing it is slow)."""
+    """The h5py module, imported when first needed rather than when this module is imported."""
     import h5py
     return h5py
 
