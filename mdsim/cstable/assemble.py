@@ -31,7 +31,7 @@ def read_point(points_dir, index, T):
         ``u_res``, ``Z``, ``cv_res`` as (value, stderr); ``g`` (the
         statistical inefficiency of u_res) and ``n_particles``.
     """
-    from mdsim.sampling.state_point import summarise
+    from mdsim.sampling.estimates import summarise
     from mdsim.sampling.store import read_attrs, read_samples
     path = point_path(points_dir, index)
     samples = read_samples(path)

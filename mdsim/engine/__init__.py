@@ -2,14 +2,33 @@
 stream, neighbour lists, force kernels, molecular dynamics and Monte Carlo.
 
 Reduced Lennard-Jones-style units throughout (``docs/units.md``).  Importing
-the package checks that numba's cached kernels were compiled from the
-current sources (:mod:`mdsim.engine.kernel_cache`); nothing else happens on
-import.
+the package first checks that numba's cached kernels were compiled from the
+current sources (:mod:`mdsim.engine.kernel_cache`), then offers the public
+API below; each kernel is compiled, or loaded from the cache, on first use.
+
+Modules: :mod:`~mdsim.engine.forms` (form codes, parameter rows, the scalar
+pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
+:mod:`~mdsim.engine.potentials` (analytic forms, mixing, pair matrix),
+:mod:`~mdsim.engine.tabulated` (tables), :mod:`~mdsim.engine.system`,
+:mod:`~mdsim.engine.rng`, :mod:`~mdsim.engine.neighbours`,
+:mod:`~mdsim.engine.forces`, :mod:`~mdsim.engine.integrator` and
+:mod:`~mdsim.engine.md` (molecular dynamics), :mod:`~mdsim.engine.mc_cells`,
+:mod:`~mdsim.engine.mc_kernels` and :mod:`~mdsim.engine.montecarlo` (Monte Carlo).
 """
 from pathlib import Path as _Path
 
 from mdsim.engine import kernel_cache as _kernel_cache
 
-__all__ = []
-
+# before any kernel module is imported, so that no stale cached kernel is loaded
 _kernel_cache.ensure_fresh(_Path(__file__).parent)
+
+from mdsim.engine.integrator import default_time_step, energy_drift  # noqa: E402
+from mdsim.engine.md import MDSampler  # noqa: E402
+from mdsim.engine.montecarlo import MCSampler, nve_temperature  # noqa: E402
+from mdsim.engine.potentials import (Exp6, LennardJones, Mie, PairMatrix,  # noqa: E402
+                                     PairPotential, Tabulated, combine, read_table)
+from mdsim.engine.system import System  # noqa: E402
+
+__all__ = ["PairPotential", "LennardJones", "Mie", "Exp6", "Tabulated", "read_table", "combine",
+           "PairMatrix", "System", "MDSampler", "MCSampler", "default_time_step", "energy_drift",
+           "nve_temperature"]

@@ -1,6 +1,6 @@
 """Forces, energy and virial over a half Verlet list.
 
-Every pair goes through :func:`mdsim.engine.potentials.pair_eval`, the one pair
+Every pair goes through :func:`mdsim.engine.forms.pair_eval`, the one pair
 formula of the project, with the parameter row of its species pair
 ``params_ab[s_i, s_j]``.  Pairs beyond their cut-off are masked without a
 branch.  The kernels return the truncated energy sum (not shifted), the sum
@@ -23,7 +23,7 @@ import numpy as np
 from numba import njit, prange
 
 from mdsim.errors import SimulationError
-from mdsim.engine.potentials import FORM_EXP6, FORM_LJ, FORM_MIE, FORM_TABLE, RC2, SHIFT, pair_eval
+from mdsim.engine.forms import FORM_EXP6, FORM_LJ, FORM_MIE, FORM_TABLE, RC2, SHIFT, pair_eval
 
 
 @njit(cache=True, inline="always")

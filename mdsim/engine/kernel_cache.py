@@ -1,7 +1,7 @@
 """Keep numba's on-disk cache of the engine's kernels consistent with their source.
 
 numba's ``cache=True`` checks only the source file of the function it
-loads.  A kernel that inlines ``pair_eval`` from ``potentials.py`` (or the
+loads.  A kernel that inlines ``pair_eval`` from ``forms.py`` (or the
 force loop from ``forces.py``) keeps running the old compiled code after
 that other file changes.  To rule this out, the engine's cache is tagged
 with a fingerprint of every Python source file of the engine package (its

@@ -26,46 +26,24 @@ tuned toward ``target_acceptance`` in :meth:`MCSampler.equilibrate` only
 and frozen during :meth:`MCSampler.run`, which keeps detailed balance.
 
 Everything is in the reduced units of :class:`mdsim.engine.system.System`.
+The move and energy kernels are in :mod:`mdsim.engine.mc_kernels`, the
+linked cells in :mod:`mdsim.engine.mc_cells`.
 
-Array suffixes: ``_n`` particle, ``_i`` Cartesian coordinate, ``_c`` cell,
-``_t`` sample (time series).
-
-Cell structure
---------------
-``ncell_i`` (int64, length 4) holds the cells per box edge and the reach
-k: cells have edge >= rc_max / k, and the neighbours of a particle lie in
-the (2k + 1)^3 cells around its own (k = 2 in dense fluids, where it halves
-the volume searched; k = 1 in gases, where most cells are empty).  When an
-edge has fewer than 2k + 1 cells every cell along it is searched once.
-Cell (cx, cy, cz) has the flat index
-(cx * ncell_y + cy) * ncell_z + cz.  ``head_c[c]`` is the first particle
-of cell c (-1 if empty), ``next_n[j]`` the particle after j in its cell
-(-1 at the end), ``cell_n[j]`` the cell of particle j.  Each cell's list
-is kept in increasing particle order, so that a list rebuilt from the
-positions alone is identical to one updated move by move: sums over
-neighbours then run in the same order after a checkpoint is reloaded,
-which makes a resumed run identical bit for bit.
-
-Speed
------
-A move that leaves the particle in its cell (most moves in a liquid) gets
-its old and new energies from one pass over the neighbours, inlined into
-the move kernel; the other moves make two passes.  In the inner loops the
-Lennard-Jones form calls ``pair_eval`` with the form as a constant, so the
-compiler drops the other forms' branches (about a third faster); every
-form still evaluates through the one ``pair_eval``.
+Array suffixes: ``_n`` particle, ``_i`` Cartesian coordinate, ``_t`` sample
+(time series).
 """
 import math
 
 import numpy as np
-from numba import njit
 
 from mdsim.engine import rng as _rng
-from mdsim.errors import SimulationError, StudyError
-from mdsim.engine.potentials import FORM_LJ, RC2, pair_eval
+from mdsim.engine.mc_cells import build_cells, cell_grid
+from mdsim.engine.mc_kernels import MODE_NVE, MODE_NVT, energy_virial, mc_moves
 from mdsim.engine.system import System
+from mdsim.errors import SimulationError, StudyError
 
-MODE_NVT, MODE_NVE = 0, 1
+__all__ = ["MCSampler", "METHODS", "nve_temperature"]
+
 METHODS = {"mc-nvt": MODE_NVT, "mc-nve": MODE_NVE}
 
 # Tuning: acceptance is measured over blocks of at least this many trial moves.
@@ -73,371 +51,6 @@ _TUNE_BLOCK_MOVES = 200
 # Smallest step the tuner may choose (reduced length); a state that needs
 # less than this is jammed, not fluid.
 _MIN_DISPLACEMENT = 1e-5
-# Upper bound on the number of cells, relative to the number of particles:
-# in a very dilute gas, cells of edge rc would far outnumber the particles.
-_MAX_CELLS_PER_PARTICLE = 4
-
-
-# --- kernels -------------------------------------------------------------------
-
-@njit(cache=True, inline="always")
-def _cell_coord(x, box, ncell):
-    c = int(x * ncell / box)
-    if c >= ncell:
-        c = ncell - 1
-    elif c < 0:
-        c = 0
-    return c
-
-
-@njit(cache=True, inline="always")
-def _wrap(x, box):
-    x -= box * math.floor(x / box)
-    if x >= box:  # rounding of a tiny negative x + box
-        x -= box
-    return x
-
-
-@njit(cache=True, inline="always")
-def _min_image(d, box, half):
-    """Nearest periodic image of a coordinate difference ``d`` (|d| < 1.5 box)."""
-    if d > half:
-        return d - box
-    if d < -half:
-        return d + box
-    return d
-
-
-@njit(cache=True, inline="always")
-def _nbr(c, k, n, reach):
-    # k-th of the min(n, 2 reach + 1) distinct cell coordinates within reach of c
-    if n >= 2 * reach + 1:
-        return (c - reach + k + n) % n
-    return k
-
-
-@njit(cache=True)
-def _cell_insert(j, c, head_c, next_n, cell_n):
-    """Insert particle j into cell c, keeping the list in increasing order."""
-    cell_n[j] = c
-    k = head_c[c]
-    if k < 0 or k > j:
-        next_n[j] = k
-        head_c[c] = j
-        return
-    while next_n[k] >= 0 and next_n[k] < j:
-        k = next_n[k]
-    next_n[j] = next_n[k]
-    next_n[k] = j
-
-
-@njit(cache=True)
-def _cell_remove(j, head_c, next_n, cell_n):
-    """Remove particle j from its cell."""
-    c = cell_n[j]
-    k = head_c[c]
-    if k == j:
-        head_c[c] = next_n[j]
-    else:
-        while next_n[k] != j:
-            k = next_n[k]
-        next_n[k] = next_n[j]
-    next_n[j] = -1
-
-
-@njit(cache=True)
-def build_cells(r_ni, box_i, ncell_i, head_c, next_n, cell_n):
-    """Fill the cell lists from the positions (in increasing particle order).
-
-    Parameters
-    ----------
-    r_ni : ndarray, shape=(n, 3), float64, positions in [0, box)
-    box_i : ndarray, shape=(3,), float64
-    ncell_i : ndarray, shape=(4,), int64, cells per edge and reach
-    head_c : ndarray, shape=(n_cells,), int64 (output)
-    next_n, cell_n : ndarray, shape=(n,), int64 (output)
-    """
-    head_c[:] = -1
-    last_c = np.full(head_c.size, -1, dtype=np.int64)
-    for j in range(r_ni.shape[0]):
-        cx = _cell_coord(r_ni[j, 0], box_i[0], ncell_i[0])
-        cy = _cell_coord(r_ni[j, 1], box_i[1], ncell_i[1])
-        cz = _cell_coord(r_ni[j, 2], box_i[2], ncell_i[2])
-        c = (cx * ncell_i[1] + cy) * ncell_i[2] + cz
-        cell_n[j] = c
-        next_n[j] = -1
-        if last_c[c] < 0:
-            head_c[c] = j
-        else:
-            next_n[last_c[c]] = j
-        last_c[c] = j
-
-
-@njit(cache=True, inline="always")
-def _particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i, ncell_i,
-                    head_c, next_n):
-    """Truncated pair energy of particle i placed at (x, y, z) with all others.
-
-    Particle i itself (at its stored position) is skipped.  Returns +inf as
-    soon as one pair is inside a hard core.
-    """
-    si = species_n[i]
-    rc2_ab = params_ab[:, :, RC2]
-    mixture = params_ab.shape[0] > 1  # one species: skip reading species_n[j]
-    p_row = params_ab[si]
-    lx, ly, lz = box_i[0], box_i[1], box_i[2]
-    hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
-    nx, ny, nz = ncell_i[0], ncell_i[1], ncell_i[2]
-    cx = _cell_coord(x, lx, nx)
-    cy = _cell_coord(y, ly, ny)
-    cz = _cell_coord(z, lz, nz)
-    reach = ncell_i[3]
-    width = 2 * reach + 1
-    mx, my, mz = min(nx, width), min(ny, width), min(nz, width)
-    u = 0.0
-    for a in range(mx):
-        ax = _nbr(cx, a, nx, reach)
-        for b in range(my):
-            by = _nbr(cy, b, ny, reach)
-            for d in range(mz):
-                c = (ax * ny + by) * nz + _nbr(cz, d, nz, reach)
-                j = head_c[c]
-                while j >= 0:
-                    if j != i:
-                        dx = _min_image(x - r_ni[j, 0], lx, hx)
-                        dy = _min_image(y - r_ni[j, 1], ly, hy)
-                        dz = _min_image(z - r_ni[j, 2], lz, hz)
-                        r2 = dx * dx + dy * dy + dz * dz
-                        sj = species_n[j] if mixture else 0
-                        if r2 < rc2_ab[si, sj]:
-                            if form == FORM_LJ:  # a constant form prunes pair_eval
-                                e, _ = pair_eval(FORM_LJ, p_row[sj], table, r2)
-                            else:
-                                e, _ = pair_eval(form, p_row[sj], table, r2)
-                            if e == np.inf:
-                                return np.inf
-                            u += e
-                    j = next_n[j]
-    return u
-
-
-@njit(cache=True, inline="always")
-def _particle_energy_moved(i, c0, xo, yo, zo, xn, yn, zn, r_ni, species_n, params_ab, form, table,
-                          box_i, ncell_i, head_c, next_n):
-    """Truncated energies of particle i at its old and at a new position.
-
-    Both positions must lie in the same cell ``c0``: one pass over the
-    neighbouring cells then serves both.  Returns (u_old, u_new); u_new is
-    +inf (and u_old then meaningless) as soon as the new position is
-    inside a hard core.
-    """
-    si = species_n[i]
-    rc2_ab = params_ab[:, :, RC2]
-    mixture = params_ab.shape[0] > 1
-    p_row = params_ab[si]
-    lx, ly, lz = box_i[0], box_i[1], box_i[2]
-    hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
-    nx, ny, nz = ncell_i[0], ncell_i[1], ncell_i[2]
-    cz = c0 % nz
-    cy = (c0 // nz) % ny
-    cx = c0 // (nz * ny)
-    reach = ncell_i[3]
-    width = 2 * reach + 1
-    mx, my, mz = min(nx, width), min(ny, width), min(nz, width)
-    u_old = 0.0
-    u_new = 0.0
-    for a in range(mx):
-        ax = _nbr(cx, a, nx, reach)
-        for b in range(my):
-            by = _nbr(cy, b, ny, reach)
-            for d in range(mz):
-                c = (ax * ny + by) * nz + _nbr(cz, d, nz, reach)
-                j = head_c[c]
-                while j >= 0:
-                    if j != i:
-                        rjx, rjy, rjz = r_ni[j, 0], r_ni[j, 1], r_ni[j, 2]
-                        sj = species_n[j] if mixture else 0
-                        rc2 = rc2_ab[si, sj]
-                        dx = _min_image(xn - rjx, lx, hx)
-                        dy = _min_image(yn - rjy, ly, hy)
-                        dz = _min_image(zn - rjz, lz, hz)
-                        r2 = dx * dx + dy * dy + dz * dz
-                        if r2 < rc2:
-                            if form == FORM_LJ:  # a constant form prunes pair_eval
-                                e, _ = pair_eval(FORM_LJ, p_row[sj], table, r2)
-                            else:
-                                e, _ = pair_eval(form, p_row[sj], table, r2)
-                            if e == np.inf:
-                                return 0.0, np.inf
-                            u_new += e
-                        dx = _min_image(xo - rjx, lx, hx)
-                        dy = _min_image(yo - rjy, ly, hy)
-                        dz = _min_image(zo - rjz, lz, hz)
-                        r2 = dx * dx + dy * dy + dz * dz
-                        if r2 < rc2:
-                            if form == FORM_LJ:  # a constant form prunes pair_eval
-                                e, _ = pair_eval(FORM_LJ, p_row[sj], table, r2)
-                            else:
-                                e, _ = pair_eval(form, p_row[sj], table, r2)
-                            u_old += e
-                    j = next_n[j]
-    return u_old, u_new
-
-
-@njit(cache=True, error_model="numpy")
-def mc_moves(r_ni, species_n, params_ab, form, table, box_i, ncell_i, head_c, next_n, cell_n,
-             state, n_moves, max_displacement, mode, beta, u_budget, exponent, u_trunc):
-    """Perform ``n_moves`` single-particle trial moves in place.
-
-    Parameters
-    ----------
-    r_ni : ndarray, shape=(n, 3), float64
-        Positions, updated in place (kept inside the box).
-    species_n : ndarray, shape=(n,), int64
-    params_ab : ndarray, shape=(n_species, n_species, N_PARAM), float64
-    form : int
-    table : ndarray, shape=(n_intervals, 4), float64
-    box_i : ndarray, shape=(3,), float64
-    ncell_i, head_c, next_n, cell_n : int64 arrays
-        Cell structure (see the module docstring), updated in place.
-    state : ndarray, shape=(4,), uint64
-        Random stream, advanced in place.
-    n_moves : int
-    max_displacement : float
-        Half-width of the cube of displacements.
-    mode : int
-        MODE_NVT or MODE_NVE.
-    beta : float
-        1/kT (NVT only).
-    u_budget : float
-        NVE only: total energy minus the tail energy, the bound on the
-        truncated energy (E - U = u_budget - u_trunc).
-    exponent : float
-        NVE only: F/2 - 1.
-    u_trunc : float
-        Current total truncated energy.
-
-    Returns
-    -------
-    n_accepted : int
-    u_trunc : float
-        Total truncated energy after the moves (updated incrementally).
-    """
-    n = r_ni.shape[0]
-    n_acc = 0
-    for _ in range(n_moves):
-        i = int(_rng.uniform(state) * n)
-        if i >= n:
-            i = n - 1
-        x = _wrap(r_ni[i, 0] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[0])
-        y = _wrap(r_ni[i, 1] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[1])
-        z = _wrap(r_ni[i, 2] + (2.0 * _rng.uniform(state) - 1.0) * max_displacement, box_i[2])
-        c = (_cell_coord(x, box_i[0], ncell_i[0]) * ncell_i[1]
-             + _cell_coord(y, box_i[1], ncell_i[1])) * ncell_i[2] \
-            + _cell_coord(z, box_i[2], ncell_i[2])
-        if c == cell_n[i]:
-            u_old, u_new = _particle_energy_moved(
-                i, c, r_ni[i, 0], r_ni[i, 1], r_ni[i, 2], x, y, z, r_ni, species_n, params_ab,
-                form, table, box_i, ncell_i, head_c, next_n)
-            if u_new == np.inf:
-                continue
-        else:
-            # new position first (a move into a core stops there); one call site,
-            # so the inlined pass is compiled once
-            u_new = 0.0
-            u_old = 0.0
-            for which in range(2):
-                if which == 0:
-                    px, py, pz = x, y, z
-                else:
-                    px, py, pz = r_ni[i, 0], r_ni[i, 1], r_ni[i, 2]
-                e = _particle_energy(i, px, py, pz, r_ni, species_n, params_ab, form, table,
-                                     box_i, ncell_i, head_c, next_n)
-                if which == 0:
-                    u_new = e
-                    if e == np.inf:
-                        break
-                else:
-                    u_old = e
-            if u_new == np.inf:
-                continue
-        du = u_new - u_old
-        if mode == MODE_NVT:
-            if du > 0.0 and _rng.uniform(state) >= math.exp(-beta * du):
-                continue
-        else:
-            k_new = u_budget - (u_trunc + du)
-            if k_new <= 0.0:
-                continue
-            if du > 0.0:
-                k_old = u_budget - u_trunc
-                if _rng.uniform(state) >= math.exp(exponent * math.log(k_new / k_old)):
-                    continue
-        n_acc += 1
-        u_trunc += du
-        r_ni[i, 0] = x
-        r_ni[i, 1] = y
-        r_ni[i, 2] = z
-        if c != cell_n[i]:
-            _cell_remove(i, head_c, next_n, cell_n)
-            _cell_insert(i, c, head_c, next_n, cell_n)
-    return n_acc, u_trunc
-
-
-@njit(cache=True, error_model="numpy")
-def energy_virial(r_ni, species_n, params_ab, form, table, box_i, ncell_i, head_c, next_n,
-                  cell_n):
-    """Total truncated energy and pair virial, recomputed over the cells.
-
-    Returns
-    -------
-    u_trunc : float
-        sum over pairs within their cut-off of u(r_ij) (+inf in a core).
-    virial : float
-        sum over the same pairs of -r u'(r) (pressure_conf = virial / (3 V)).
-    """
-    n = r_ni.shape[0]
-    rc2_ab = params_ab[:, :, RC2]
-    mixture = params_ab.shape[0] > 1
-    lx, ly, lz = box_i[0], box_i[1], box_i[2]
-    hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
-    nx, ny, nz = ncell_i[0], ncell_i[1], ncell_i[2]
-    reach = ncell_i[3]
-    width = 2 * reach + 1
-    mx, my, mz = min(nx, width), min(ny, width), min(nz, width)
-    u = 0.0
-    w = 0.0
-    for i in range(n):
-        si = species_n[i]
-        p_row = params_ab[si]
-        c0 = cell_n[i]
-        cz = c0 % nz
-        cy = (c0 // nz) % ny
-        cx = c0 // (nz * ny)
-        x, y, z = r_ni[i, 0], r_ni[i, 1], r_ni[i, 2]
-        for a in range(mx):
-            ax = _nbr(cx, a, nx, reach)
-            for b in range(my):
-                by = _nbr(cy, b, ny, reach)
-                for d in range(mz):
-                    c = (ax * ny + by) * nz + _nbr(cz, d, nz, reach)
-                    j = head_c[c]
-                    while j >= 0:
-                        if j > i:
-                            dx = _min_image(x - r_ni[j, 0], lx, hx)
-                            dy = _min_image(y - r_ni[j, 1], ly, hy)
-                            dz = _min_image(z - r_ni[j, 2], lz, hz)
-                            r2 = dx * dx + dy * dy + dz * dz
-                            sj = species_n[j] if mixture else 0
-                            if r2 < rc2_ab[si, sj]:
-                                if form == FORM_LJ:  # a constant form prunes pair_eval
-                                    e, f = pair_eval(FORM_LJ, p_row[sj], table, r2)
-                                else:
-                                    e, f = pair_eval(form, p_row[sj], table, r2)
-                                u += e
-                                w += f * r2
-                        j = next_n[j]
-    return u, w
 
 
 # --- helpers -------------------------------------------------------------------
@@ -476,29 +89,6 @@ def nve_temperature(kinetic_t, n_particles, dof_per_particle=3):
                          f"{dof_per_particle!r} gives F = {f_total}; need F > 2")
     mean_inv = float(np.mean(1.0 / (n * k_t)))
     return 1.0 / ((0.5 * f_total - 1.0) * mean_inv)
-
-
-def cell_grid(box_i, rc_max, n_particles):
-    """Cells per edge and reach (see the module docstring).
-
-    The reach is 2 when a cell of edge rc_max / 2 holds on average at least
-    half a particle, else 1; cells have edge >= rc_max / reach, and there
-    are at most about 4 cells per particle (a dilute gas gets larger cells).
-
-    Returns
-    -------
-    ndarray, shape=(4,), int64
-        (n_x, n_y, n_z, reach).
-    """
-    box = np.asarray(box_i, dtype=float)
-    rho = n_particles / float(np.prod(box))
-    reach = 2 if rho * (0.5 * rc_max) ** 3 >= 0.5 else 1
-    ncell = np.maximum(1, np.floor(box * reach / rc_max).astype(np.int64))
-    limit = max(27, _MAX_CELLS_PER_PARTICLE * int(n_particles))
-    while int(np.prod(ncell)) > limit:
-        k = int(np.argmax(ncell))
-        ncell[k] = max(1, (ncell[k] * 4) // 5)
-    return np.append(ncell, reach).astype(np.int64)
 
 
 def _number(name, value, lo, hi, hint, *, lo_open=True):
@@ -646,14 +236,15 @@ class MCSampler:
         self.r_ni = np.mod(r, self.box_i)
         self.r_ni[self.r_ni >= self.box_i] = 0.0
         build_cells(self.r_ni, self.box_i, self.ncell_i, self.head_c, self.next_n, self.cell_n)
-        u, _ = self._energy_virial()
+        u, _ = self.energy_and_virial()
         if not math.isfinite(u):
             raise StudyError("Monte Carlo: the start configuration has infinite energy (two "
                              "particles inside a hard core); use place_on_lattice or "
                              "place_at_random with a larger minimum distance")
         self.u_trunc = u
 
-    def _energy_virial(self):
+    def energy_and_virial(self):
+        """Total truncated energy and pair virial of the current positions, recomputed."""
         return energy_virial(self.r_ni, self.species_n, self.params_ab, self.form, self.table,
                              self.box_i, self.ncell_i, self.head_c, self.next_n, self.cell_n)
 
@@ -728,7 +319,7 @@ class MCSampler:
         for t in range(n_samples):
             m = interval * n
             acc = self._moves(m)
-            u, w = self._energy_virial()
+            u, w = self.energy_and_virial()
             self.u_trunc = u
             self._check_budget()
             out["u_trunc"][t] = u / n

@@ -123,7 +123,7 @@ class Chain:
 
     def summary(self):
         """:func:`mdsim.sampling.state_point.summarise` of the production samples."""
-        from mdsim.sampling.state_point import summarise
+        from mdsim.sampling.estimates import summarise
         system = self.make_system()
         return summarise(self.samples(), self.method, system.n_particles, system.volume,
                          self.T_red, system.dof_per_particle)

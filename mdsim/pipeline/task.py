@@ -183,7 +183,7 @@ class RunningTask:
 
     def md_time_step(self, T_red):
         """The MD time step at a reduced temperature for the study's masses (reduced)."""
-        from mdsim.engine.md import default_time_step
+        from mdsim.engine.integrator import default_time_step
         masses = self.study.gas.molar_masses_kg_mol / self.study.gas.molar_masses_kg_mol[0]
         return float(default_time_step(T_red, masses))
 

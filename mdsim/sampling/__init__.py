@@ -1,1 +1,17 @@
-"""sampling."""
+"""Sampling one state point into a run file, and reading run files back.
+
+:func:`sample_state_point` equilibrates and samples with an engine sampler,
+streaming into one HDF5 run file that it can resume
+(:mod:`~mdsim.sampling.state_point`); :func:`summarise` gives the means with
+standard errors (:mod:`~mdsim.sampling.estimates`).  The run file itself:
+:mod:`~mdsim.sampling.store` (writer, resume; the entry point),
+:mod:`~mdsim.sampling.readers`, :mod:`~mdsim.sampling.integrity` (checksums,
+damaged files) and :mod:`~mdsim.sampling.h5values` (plain values out of HDF5).
+"""
+from mdsim.sampling.estimates import Estimate, summarise
+from mdsim.sampling.readers import (is_complete, read_attrs, read_checkpoint, read_final,
+                                    read_run, read_samples)
+from mdsim.sampling.state_point import SampleResult, sample_state_point
+
+__all__ = ["sample_state_point", "SampleResult", "summarise", "Estimate", "is_complete",
+           "read_attrs", "read_samples", "read_checkpoint", "read_final", "read_run"]

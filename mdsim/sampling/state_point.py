@@ -20,8 +20,11 @@ from pathlib import Path
 
 import numpy as np
 
-from mdsim.errors import ConvergenceError, StudyError
+from mdsim.errors import StudyError
 from mdsim.sampling import store as _store
+from mdsim.sampling.estimates import summarise
+
+__all__ = ["sample_state_point", "SampleResult", "METHODS", "DEFAULT_CHECKPOINT_EVERY"]
 
 # method -> (module, class); one dictionary maps the study's words to the code.
 METHODS = {
@@ -30,42 +33,7 @@ METHODS = {
     "md-nvt": ("mdsim.engine.md", "MDSampler"),
     "md-nve": ("mdsim.engine.md", "MDSampler"),
 }
-CANONICAL = ("mc-nvt", "md-nvt")
 DEFAULT_CHECKPOINT_EVERY = 100
-
-
-@dataclasses.dataclass(frozen=True)
-class Estimate:
-    """A summary number with its standard error, or the reason it is missing.
-
-    Attributes
-    ----------
-    value, stderr : float
-        NaN when unavailable.
-    g : float
-        Statistical inefficiency of the series behind it (NaN if none).
-    reason : str
-        Empty when available; otherwise why the number cannot be given.
-    """
-
-    value: float
-    stderr: float
-    g: float = math.nan
-    reason: str = ""
-
-    @property
-    def available(self):
-        return not self.reason
-
-    @classmethod
-    def missing(cls, reason):
-        return cls(math.nan, math.nan, math.nan, reason)
-
-    def as_dict(self):
-        out = {"value": self.value, "stderr": self.stderr}
-        if self.reason:
-            out["unavailable"] = self.reason
-        return out
 
 
 @dataclasses.dataclass
@@ -76,7 +44,7 @@ class SampleResult:
     ----------
     samples : dict of ndarray, each shape=(n_samples,), float64
         The observables of the production run (protocol names).
-    summary : dict of Estimate
+    summary : dict of mdsim.sampling.estimates.Estimate
         "u_full" (mean configurational energy per particle, full potential),
         "pressure" (total), "c_v_res" (residual heat capacity per particle,
         in k), "temperature" (kT; the set value for the canonical methods,
@@ -144,77 +112,6 @@ def _final_configuration(sampler, system):
     return r_ni, box_i, v_ni
 
 
-def summarise(samples, method, n_particles, volume, temperature=None, dof_per_particle=3):
-    """Means and standard errors of a run's observables.
-
-    Parameters
-    ----------
-    samples : dict of ndarray
-        Protocol observables ("u_full", "pressure", "pressure_conf", and
-        "kinetic" for mc-nve, "temperature_inst" for MD).
-    method : str
-    n_particles : int
-    volume : float
-        Box volume, sigma^3.
-    temperature : float, optional
-        The set kT for canonical methods.
-    dof_per_particle : int
-        f for the microcanonical estimator (mc-nve).
-
-    Returns
-    -------
-    dict of Estimate
-        "u_full", "pressure", "c_v_res", "temperature".
-
-    Notes
-    -----
-    c_v_res = N Var(u_full) / T^2 per particle in k (canonical fluctuation
-    formula, Var of the per-particle energy).  For mc-nve the temperature
-    is 1/kT = (F/2 - 1) <1/(E - U)> (Ray, Phys. Rev. A 44, 4061, 1991), its
-    error by the delta method; the pressure is rho kT + <p_conf> with the two
-    errors added in quadrature (their covariance neglected).  The canonical
-    fluctuation formula does not hold at fixed energy, so c_v_res is
-    reported unavailable for the NVE methods.
-    """
-    from analysis.stats import mean_and_stderr, variance_and_stderr
-    n = int(n_particles)
-    rho = n / float(volume)
-    out = {}
-    try:
-        u = mean_and_stderr(samples["u_full"])
-    except ConvergenceError as exc:
-        raise ConvergenceError(f"energy: {exc}", partial=exc.partial) from None
-    out["u_full"] = Estimate(u.mean, u.stderr, u.g)
-    if method in CANONICAL:
-        T = float(temperature)
-        out["temperature"] = Estimate(T, 0.0, math.nan)
-        if method == "md-nvt" or np.all(np.isfinite(samples["pressure"])):
-            p = mean_and_stderr(samples["pressure"])
-            out["pressure"] = Estimate(p.mean, p.stderr, p.g)
-        var = variance_and_stderr(samples["u_full"])
-        out["c_v_res"] = Estimate(n * var.value / T ** 2, n * var.stderr / T ** 2, var.g)
-    elif method == "md-nve":
-        t = mean_and_stderr(samples["temperature_inst"])
-        out["temperature"] = Estimate(t.mean, t.stderr, t.g)
-        p = mean_and_stderr(samples["pressure"])
-        out["pressure"] = Estimate(p.mean, p.stderr, p.g)
-        out["c_v_res"] = Estimate.missing(
-            "the canonical fluctuation formula does not apply at constant energy; sample this "
-            "state point with md-nvt or mc-nvt for the heat capacity")
-    else:  # mc-nve
-        f_total = float(dof_per_particle) * n
-        inv = mean_and_stderr(1.0 / (n * np.asarray(samples["kinetic"], dtype=float)))
-        T = 1.0 / ((0.5 * f_total - 1.0) * inv.mean)
-        sT = T * inv.stderr / inv.mean
-        out["temperature"] = Estimate(T, sT, inv.g)
-        pc = mean_and_stderr(samples["pressure_conf"])
-        out["pressure"] = Estimate(rho * T + pc.mean, math.hypot(rho * sT, pc.stderr), pc.g)
-        out["c_v_res"] = Estimate.missing(
-            "the canonical fluctuation formula does not apply at constant energy; sample this "
-            "state point with mc-nvt or md-nvt for the heat capacity")
-    return out
-
-
 def sample_state_point(system, method, temperature=None, energy=None, *, n_equilibration,
                        n_samples, interval=1, seed=0, path=None,
                        checkpoint_every=DEFAULT_CHECKPOINT_EVERY, progress=None,
@@ -261,18 +158,65 @@ def sample_state_point(system, method, temperature=None, energy=None, *, n_equil
     ------
     StudyError
         Bad settings, or a run file made with different settings.
+
+    Examples
+    --------
+    Canonical Monte Carlo of a small Lennard-Jones fluid, in memory (no ``path``):
+
+    >>> from mdsim.engine import LennardJones, PairMatrix, System
+    >>> pairs = PairMatrix([LennardJones(1.0, 1.0)], cutoff=2.5)
+    >>> system = System.cubic(pairs, [64], 0.5).place_on_lattice(seed=1)
+    >>> res = sample_state_point(system, "mc-nvt", temperature=2.0, n_equilibration=200,
+    ...                          n_samples=100, interval=2, seed=4)
+    >>> res.samples["u_full"].shape
+    (100,)
+    >>> sorted(res.summary)
+    ['c_v_res', 'pressure', 'temperature', 'u_full']
+    >>> res.summary["temperature"].value   # the set kT of a canonical method
+    2.0
+    >>> round(res.summary["u_full"].value, 1)   # energy per particle, tail included
+    -3.1
     """
     cls = _sampler_class(method)
-    n_equilibration = _count("equilibration", n_equilibration, 0, "steps or sweeps")
-    n_samples = _count("samples", n_samples, 20, "at least 20 for a standard error; "
-                       "typically 1000 to 100000")
-    interval = _count("interval", interval, 1, "steps or sweeps between samples")
-    checkpoint_every = _count("checkpoint_every", checkpoint_every, 1, "samples per block")
+    counts = _checked_counts(n_equilibration, n_samples, interval, checkpoint_every)
+    sampler = _make_sampler(cls, system, method, temperature, energy, seed, method_settings)
+    run_settings = _run_settings(system, method, temperature, energy, seed, counts,
+                                 method_settings)
+    if path is None:
+        samples, resumed = _sample_in_memory(sampler, counts, progress), False
+    else:
+        path = Path(path)
+        samples, resumed = _sample_with_file(sampler, system, path, run_settings, attrs, counts,
+                                             progress)
+    dof = int(getattr(sampler, "dof_per_particle", 0) or system.dof_per_particle)
+    summary = summarise(samples, method, system.n_particles, system.volume, temperature, dof)
+    return SampleResult(samples, summary, run_settings, path, resumed)
+
+
+# -- validation and set-up ------------------------------------------------------------------
+
+def _checked_counts(n_equilibration, n_samples, interval, checkpoint_every):
+    """(n_equilibration, n_samples, interval, checkpoint_every) as checked whole numbers."""
+    return (_count("equilibration", n_equilibration, 0, "steps or sweeps"),
+            _count("samples", n_samples, 20, "at least 20 for a standard error; "
+                   "typically 1000 to 100000"),
+            _count("interval", interval, 1, "steps or sweeps between samples"),
+            _count("checkpoint_every", checkpoint_every, 1, "samples per block"))
+
+
+def _make_sampler(cls, system, method, temperature, energy, seed, method_settings):
+    """The sampler of ``method``, refusing one that chose another method from its inputs."""
     sampler = cls(system, temperature=temperature, energy=energy, seed=seed, method=method,
                   **method_settings)
     if getattr(sampler, "method", method) != method:
         raise StudyError(f"setting 'method' = {method!r}: the sampler chose {sampler.method!r}; "
                          "give 'temperature' for NVT methods and 'energy' for mc-nve")
+    return sampler
+
+
+def _run_settings(system, method, temperature, energy, seed, counts, method_settings):
+    """The settings a run file records and a resumed or read-back run must match."""
+    n_equilibration, n_samples, interval, _ = counts
     run_settings = {
         "method": method,
         "n_particles": int(system.n_particles),
@@ -287,66 +231,95 @@ def sample_state_point(system, method, temperature=None, energy=None, *, n_equil
     for key, value in method_settings.items():
         run_settings[f"setting_{key}"] = value if isinstance(value, (str, int, float, bool)) \
             else str(value)
-    dof = int(getattr(sampler, "dof_per_particle", 0) or system.dof_per_particle)
+    return run_settings
 
-    def finish(samples, path_done, resumed):
-        summary = summarise(samples, method, system.n_particles, system.volume, temperature, dof)
-        return SampleResult(samples, summary, run_settings, path_done, resumed)
 
-    if path is None:
-        sampler.equilibrate(n_equilibration)
-        blocks = []
-        done = 0
-        while done < n_samples:
-            m = min(checkpoint_every, n_samples - done)
-            blocks.append(sampler.run(m, interval))
-            done += m
-            if progress is not None:
-                progress(done, n_samples)
-        samples = {k: np.concatenate([b[k] for b in blocks]) for k in blocks[0]}
-        return finish(samples, None, False)
+def _file_attrs(sampler, run_settings, attrs):
+    """Attributes of a new run file: run and sampler settings, start of the random stream."""
+    init_state = sampler.get_state()
+    file_attrs = dict(run_settings)
+    file_attrs.update({f"sampler_{k}": v for k, v in sampler.settings().items()
+                       if k not in ("method",)})
+    if "rng_state" in init_state:
+        file_attrs["rng_state_initial"] = np.asarray(init_state["rng_state"])
+    file_attrs.update(attrs or {})
+    return file_attrs
 
-    path = Path(path)
+
+# -- the sampling loops ------------------------------------------------------------------
+
+def _sample_in_memory(sampler, counts, progress):
+    """Equilibrate and sample without a file: {name: ndarray, shape=(n_samples,)}."""
+    n_equilibration, n_samples, interval, checkpoint_every = counts
+    sampler.equilibrate(n_equilibration)
+    blocks = []
+    done = 0
+    while done < n_samples:
+        m = min(checkpoint_every, n_samples - done)
+        blocks.append(sampler.run(m, interval))
+        done += m
+        if progress is not None:
+            progress(done, n_samples)
+    return {k: np.concatenate([b[k] for b in blocks]) for k in blocks[0]}
+
+
+def _read_finished(path, run_settings):
+    """The samples of a sound finished run file with these settings, or None if there is none.
+
+    A damaged file is moved aside (and the run done again); a sound one with
+    other settings is refused.
+    """
+    if not _store.check_finished(path):
+        return None
+    bad = _settings_match(_store.read_attrs(path), run_settings)
+    if bad:
+        raise StudyError(f"output file '{path}' holds a run with other settings: "
+                         f"{'; '.join(bad)}; choose another output name or delete it")
+    return _store.read_samples(path)
+
+
+def _reopen(path, sampler, run_settings):
+    """Continue an interrupted ``NAME.h5.part``: (writer or None, samples done, resumed).
+
+    The sampler is set to the checkpoint's state and samples written after
+    it are dropped.  A damaged ``.part`` is moved aside, and one that stopped
+    during equilibration is started again (writer None).
+    """
+    reopened = _store.open_resumable(path)
+    if reopened is None:
+        return None, 0, False
+    writer, saved = reopened
+    bad = _settings_match(writer.attrs, run_settings)
+    if bad:
+        writer.close()
+        raise StudyError(f"interrupted run file '{_store.part_path(path)}' was made with other "
+                         f"settings: {'; '.join(bad)}; delete it or choose another output name")
+    if saved is None:  # stopped during equilibration: nothing to continue from
+        writer.close()
+        return None, 0, False
+    state, info = saved
+    sampler.set_state(state)
+    done = int(info["n_samples_done"])
+    writer.truncate(done)
+    return writer, done, True
+
+
+def _sample_with_file(sampler, system, path, run_settings, attrs, counts, progress):
+    """Sample into the run file ``path``, checkpointing each block: (samples, resumed).
+
+    A sound finished file is read back instead (resumed True), an
+    interrupted one continued from its checkpoint.
+    """
     if path.is_dir():
         raise StudyError(f"output file '{path}' is a directory; choose another output name")
-    if _store.check_finished(path):  # a damaged file is moved aside and the run done again
-        stored = _store.read_attrs(path)
-        bad = _settings_match(stored, run_settings)
-        if bad:
-            raise StudyError(f"output file '{path}' holds a run with other settings: "
-                             f"{'; '.join(bad)}; choose another output name or delete it")
-        return finish(_store.read_samples(path), path, True)
-
-    writer = None
-    resumed = False
-    done = 0
-    reopened = _store.open_resumable(path)  # a damaged .part is moved aside: start again
-    if reopened is not None:
-        writer, saved = reopened
-        bad = _settings_match(writer.attrs, run_settings)
-        if bad:
-            writer.close()
-            raise StudyError(f"interrupted run file '{_store.part_path(path)}' was made with other "
-                             f"settings: {'; '.join(bad)}; delete it or choose another output name")
-        if saved is None:  # stopped during equilibration: nothing to continue from
-            writer.close()
-            writer = None
-        else:
-            state, info = saved
-            sampler.set_state(state)
-            done = int(info["n_samples_done"])
-            writer.truncate(done)
-            resumed = True
+    samples = _read_finished(path, run_settings)
+    if samples is not None:
+        return samples, True
+    n_equilibration, n_samples, interval, checkpoint_every = counts
+    writer, done, resumed = _reopen(path, sampler, run_settings)
     try:
         if writer is None:
-            init_state = sampler.get_state()
-            file_attrs = dict(run_settings)
-            file_attrs.update({f"sampler_{k}": v for k, v in sampler.settings().items()
-                               if k not in ("method",)})
-            if "rng_state" in init_state:
-                file_attrs["rng_state_initial"] = np.asarray(init_state["rng_state"])
-            file_attrs.update(attrs or {})
-            writer = _store.RunWriter.create(path, file_attrs)
+            writer = _store.RunWriter.create(path, _file_attrs(sampler, run_settings, attrs))
             sampler.equilibrate(n_equilibration)
             writer.write_checkpoint(sampler.get_state(), 0, phase="production")
         while done < n_samples:
@@ -365,4 +338,4 @@ def sample_state_point(system, method, temperature=None, energy=None, *, n_equil
     finally:
         if writer is not None:
             writer.close()
-    return finish(samples, path, resumed)
+    return samples, resumed

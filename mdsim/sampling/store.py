@@ -21,136 +21,43 @@ sets the marker, stores a SHA-256 checksum of every attribute and dataset
 so a file with the final name is never half-written.  The checkpoint group
 carries its own checksum, rewritten with it.
 
-Damage is detected on read: :func:`verify` checks the completion marker and
-the checksum of a finished file, :func:`open_resumable` the checkpoint of an
-interrupted one.  A damaged file is moved aside as ``NAME.corrupt-<time>``
-with a :class:`CorruptFileWarning` (:func:`move_aside`) and its work is done
-again; nothing is deleted.
+Damage is detected on read: :func:`~mdsim.sampling.integrity.verify` checks
+the completion marker and the checksum of a finished file,
+:func:`open_resumable` the checkpoint of an interrupted one.  A damaged file
+is moved aside as ``NAME.corrupt-<time>`` with a
+:class:`~mdsim.sampling.integrity.CorruptFileWarning` and its work is done
+again; nothing is deleted (:mod:`mdsim.sampling.integrity`).
 
 Everything is stored as plain numbers, strings and arrays (no object or
-pickled data), and the readers only read those.
+pickled data), and the readers (:mod:`mdsim.sampling.readers`) only read
+those.  This module is the one entry point to run files: it also offers the
+readers and the integrity checks under their usual names.
 """
-import hashlib
 import importlib.metadata
-import logging
 import os
-import time
-import warnings
 from pathlib import Path
 
 import numpy as np
 
+from mdsim.errors import SimulationError
 from mdsim.files import fsync_path
-from mdsim.errors import SimulationError, StudyError
+from mdsim.sampling.h5values import group_attrs, h5py_module, read_tree
+from mdsim.sampling.integrity import (CHECKSUM_ATTR, CORRUPT_SUFFIX, CorruptFileWarning,
+                                      check_checkpoint, check_finished, checksum, move_aside,
+                                      verify)
+from mdsim.sampling.readers import (is_complete, read_attrs, read_checkpoint, read_final,
+                                    read_run, read_samples)
+
+__all__ = ["FORMAT_VERSION", "PART_SUFFIX", "PACKAGE", "RunWriter", "open_resumable",
+           "part_path", "package_versions", "write_tree",
+           # the integrity checks and the readers, offered here for callers of the run file
+           "CHECKSUM_ATTR", "CORRUPT_SUFFIX", "CorruptFileWarning", "checksum", "verify",
+           "move_aside", "check_finished", "is_complete", "read_attrs", "read_samples",
+           "read_checkpoint", "read_final", "read_run"]
 
 FORMAT_VERSION = 2
 PART_SUFFIX = ".part"
 PACKAGE = "free-expansion"
-CHECKSUM_ATTR = "checksum_sha256"
-CORRUPT_SUFFIX = ".corrupt-"
-
-log = logging.getLogger(__name__)
-
-
-class CorruptFileWarning(UserWarning):
-    """A damaged run, stage, task or checkpoint file was moved aside (its work is redone)."""
-
-
-# -- checksums and damaged files ------------------------------------------------------
-
-def _hash_value(h, value):
-    if isinstance(value, np.ndarray):
-        if value.dtype.kind == "O":
-            value = np.array([v.decode("utf-8") if isinstance(v, bytes) else str(v)
-                              for v in value.ravel()])
-        h.update(f"{value.dtype.str}{value.shape}".encode())
-        h.update(np.ascontiguousarray(value).tobytes())
-    elif isinstance(value, bytes):
-        h.update(b"b" + value)
-    else:
-        h.update(f"{type(value).__name__}:{value!r}".encode("utf-8"))
-
-
-def checksum(group):
-    """SHA-256 (hex) of an open HDF5 group: every attribute and dataset below it.
-
-    The group's own ``checksum_sha256`` attribute is left out; names are
-    taken in sorted order, datasets by dtype, shape and bytes.
-    """
-    h5py = _h5py()
-    h = hashlib.sha256()
-
-    def walk(g, prefix):
-        for key in sorted(g.attrs):
-            if prefix == "" and key == CHECKSUM_ATTR:
-                continue
-            h.update(f"@{prefix}/{key}=".encode("utf-8"))
-            _hash_value(h, _plain(g.attrs[key]) if not isinstance(g.attrs[key], np.ndarray)
-                        else g.attrs[key])
-        for key in sorted(g):
-            item = g[key]
-            if isinstance(item, h5py.Group):
-                h.update(f"<{prefix}/{key}>".encode("utf-8"))
-                walk(item, f"{prefix}/{key}")
-            else:
-                if item.dtype.kind not in "biuf":
-                    raise SimulationError(f"dataset '{item.name}' has dtype {item.dtype}; this "
-                                          "tool writes and reads only numeric datasets")
-                h.update(f"#{prefix}/{key}=".encode("utf-8"))
-                _hash_value(h, np.asarray(item[()]))
-
-    walk(group, "")
-    return h.hexdigest()
-
-
-def verify(path):
-    """Why a finished file at ``path`` cannot be trusted, or None if it is sound.
-
-    Sound means: it opens as HDF5, its ``complete`` marker is set, and its
-    ``checksum_sha256`` matches its contents.
-    """
-    h5py = _h5py()
-    path = Path(path)
-    try:
-        with h5py.File(path, "r") as f:
-            if not bool(_plain(f.attrs.get("complete", False))):
-                return "its completion marker is not set"
-            stored = f.attrs.get(CHECKSUM_ATTR)
-            if stored is None:
-                return "it has no checksum"
-            if _plain(stored) != checksum(f):
-                return "its checksum does not match its contents"
-    except (OSError, KeyError, ValueError, RuntimeError) as exc:
-        return f"it cannot be read as HDF5 ({' '.join(str(exc).split())})"
-    return None
-
-
-def move_aside(path, reason):
-    """Rename a damaged file to ``NAME.corrupt-<time>`` and warn; returns the new path."""
-    path = Path(path)
-    stamp = time.strftime("%Y%m%d-%H%M%S")
-    target = path.with_name(f"{path.name}{CORRUPT_SUFFIX}{stamp}")
-    k = 1
-    while target.exists():
-        target = path.with_name(f"{path.name}{CORRUPT_SUFFIX}{stamp}-{k}")
-        k += 1
-    os.replace(path, target)
-    msg = f"'{path}' is damaged ({reason}); moved aside to '{target.name}', its work is done again"
-    log.warning(msg)
-    warnings.warn(msg, CorruptFileWarning, stacklevel=2)
-    return target
-
-
-def check_finished(path):
-    """True if ``path`` is a sound finished file; a damaged one is moved aside (False)."""
-    path = Path(path)
-    if not path.is_file():
-        return False
-    reason = verify(path)
-    if reason is None:
-        return True
-    move_aside(path, reason)
-    return False
 
 
 def part_path(path):
@@ -168,11 +75,6 @@ def package_versions():
         except importlib.metadata.PackageNotFoundError:
             out[name] = "not installed"
     return out
-
-
-def _h5py():
-    import h5py
-    return h5py
 
 
 def _attr_value(value, name):
@@ -197,37 +99,19 @@ def _attr_value(value, name):
                     "use numbers, strings or numeric arrays")
 
 
-def _plain(value):
-    """An attribute or dataset value as a plain Python/NumPy value."""
-    if isinstance(value, bytes):
-        return value.decode("utf-8")
-    if isinstance(value, np.bool_):
-        return bool(value)
-    if isinstance(value, np.integer):
-        return int(value)
-    if isinstance(value, np.floating):
-        return float(value)
-    if isinstance(value, np.ndarray) and value.dtype.kind in "OS":
-        return [v.decode("utf-8") if isinstance(v, bytes) else str(v) for v in value.ravel()]
-    return value
-
-
 def _write_attrs(obj, attrs):
+    """Store a dict of settings as attributes of an open HDF5 object."""
     for key, value in attrs.items():
         obj.attrs[str(key)] = _attr_value(value, key)
 
 
-def _read_attrs(obj):
-    return {k: _plain(v) for k, v in obj.attrs.items()}
-
-
-def _write_tree(group, state):
+def write_tree(group, state):
     """Write a state dictionary: arrays as datasets (in place if same shape), scalars as attributes."""
     for key, value in state.items():
         key = str(key)
         if isinstance(value, dict):
             sub = group.require_group(key)
-            _write_tree(sub, value)
+            write_tree(sub, value)
             continue
         if isinstance(value, np.ndarray):
             if value.dtype.kind not in "biuf":
@@ -246,28 +130,6 @@ def _write_tree(group, state):
             if key in group:
                 del group[key]
             group.attrs[key] = _attr_value(value, key)
-
-
-def _numeric(dataset):
-    """A dataset's values, refusing anything but numbers (no object or string data)."""
-    if dataset.dtype.kind not in "biuf":
-        raise StudyError(f"dataset '{dataset.name}' in '{dataset.file.filename}' has dtype "
-                         f"{dataset.dtype}; this tool reads only numeric datasets (the file was "
-                         "not written by it)")
-    return np.array(dataset[()])
-
-
-def _read_tree(group):
-    h5py = _h5py()
-    out = {}
-    for key, item in group.items():
-        if isinstance(item, h5py.Group):
-            out[key] = _read_tree(item)
-        else:
-            out[key] = _numeric(item)
-    for key, value in group.attrs.items():
-        out[key] = _plain(value)
-    return out
 
 
 class RunWriter:
@@ -307,7 +169,7 @@ class RunWriter:
         chunk : int
             Chunk length of the sample datasets.
         """
-        h5py = _h5py()
+        h5py = h5py_module()
         path = Path(path)
         path.parent.mkdir(parents=True, exist_ok=True)
         part = part_path(path)
@@ -334,7 +196,7 @@ class RunWriter:
             If the temporary file cannot be opened as HDF5 (for example cut
             short while its metadata was being written).
         """
-        h5py = _h5py()
+        h5py = h5py_module()
         part = part_path(path)
         try:
             f = h5py.File(part, "r+")
@@ -346,7 +208,7 @@ class RunWriter:
     # -- contents ---------------------------------------------------------------------
     @property
     def attrs(self):
-        return _read_attrs(self.file)
+        return group_attrs(self.file)
 
     @property
     def n_samples(self):
@@ -395,7 +257,7 @@ class RunWriter:
         """
         g = self.file.require_group("checkpoint")
         stale = set(g) | set(g.attrs)
-        _write_tree(g.require_group("state"), state)
+        write_tree(g.require_group("state"), state)
         for key in set(g["state"]) | set(g["state"].attrs):
             if key not in state:
                 if key in g["state"]:
@@ -421,18 +283,18 @@ class RunWriter:
         if "checkpoint" not in self.file or "state" not in self.file["checkpoint"]:
             return None
         g = self.file["checkpoint"]
-        _check_checkpoint(g, self.part)
-        info = _read_attrs(g)
+        check_checkpoint(g, self.part)
+        info = group_attrs(g)
         info.pop(CHECKSUM_ATTR, None)
-        return _read_tree(g["state"]), info
+        return read_tree(g["state"]), info
 
     def write_final(self, positions, box, velocities=None):
         """Store the final configuration (and velocities when there are any)."""
         g = self.file.require_group("final")
-        _write_tree(g, {"positions": np.asarray(positions, dtype=np.float64),
+        write_tree(g, {"positions": np.asarray(positions, dtype=np.float64),
                         "box": np.asarray(box, dtype=np.float64)})
         if velocities is not None:
-            _write_tree(g, {"velocities": np.asarray(velocities, dtype=np.float64)})
+            write_tree(g, {"velocities": np.asarray(velocities, dtype=np.float64)})
 
     def set_attrs(self, attrs):
         _write_attrs(self.file, attrs)
@@ -458,13 +320,6 @@ class RunWriter:
     def __exit__(self, *exc):
         self.close()
         return False
-
-
-def _check_checkpoint(g, where):
-    stored = g.attrs.get(CHECKSUM_ATTR)
-    if stored is None or _plain(stored) != checksum(g):
-        raise SimulationError(f"the checkpoint in '{where}' is damaged (checksum "
-                              f"{'missing' if stored is None else 'mismatch'})")
 
 
 def open_resumable(path, chunk=256):
@@ -501,73 +356,3 @@ def open_resumable(path, chunk=256):
         move_aside(part, " ".join(str(exc).split()))
         return None
     return writer, saved
-
-
-# -- reading ----------------------------------------------------------------------------
-
-def _open_for_reading(path):
-    h5py = _h5py()
-    path = Path(path)
-    if not path.exists():
-        raise StudyError(f"run file '{path}' does not exist")
-    try:
-        return h5py.File(path, "r")
-    except OSError as exc:
-        raise StudyError(f"run file '{path}' is not a readable HDF5 file ({exc})") from None
-
-
-def is_complete(path):
-    """True if ``path`` is a finished, sound run file (marker set, checksum matches)."""
-    path = Path(path)
-    return path.is_file() and verify(path) is None
-
-
-def read_attrs(path):
-    """The root attributes of a run file, as plain numbers, strings and arrays."""
-    with _open_for_reading(path) as f:
-        return _read_attrs(f)
-
-
-def read_samples(path):
-    """All observables of a run file: {name: ndarray, shape=(n_samples,)}."""
-    with _open_for_reading(path) as f:
-        return {k: _numeric(v) for k, v in f["samples"].items()}
-
-
-def read_checkpoint(path):
-    """(state, info) from a run file's checkpoint group, or None."""
-    with _open_for_reading(path) as f:
-        if "checkpoint" not in f or "state" not in f["checkpoint"]:
-            return None
-        _check_checkpoint(f["checkpoint"], path)
-        info = _read_attrs(f["checkpoint"])
-        info.pop(CHECKSUM_ATTR, None)
-        return _read_tree(f["checkpoint"]["state"]), info
-
-
-def read_final(path):
-    """The final configuration: {"positions", "box"[, "velocities"]}, or {} if absent."""
-    with _open_for_reading(path) as f:
-        return _read_tree(f["final"]) if "final" in f else {}
-
-
-def read_run(path):
-    """Everything in a run file as plain data.
-
-    Returns
-    -------
-    dict
-        "attrs" (dict), "samples" (dict of ndarray), "final" (dict),
-        "checkpoint" ((state, info) or None), "complete" (bool).
-    """
-    with _open_for_reading(path) as f:
-        out = {"attrs": _read_attrs(f),
-               "samples": {k: _numeric(v) for k, v in f["samples"].items()},
-               "final": _read_tree(f["final"]) if "final" in f else {},
-               "checkpoint": None}
-        if "checkpoint" in f and "state" in f["checkpoint"]:
-            info = _read_attrs(f["checkpoint"])
-            info.pop(CHECKSUM_ATTR, None)
-            out["checkpoint"] = (_read_tree(f["checkpoint"]["state"]), info)
-    out["complete"] = bool(out["attrs"].get("complete", False))
-    return out

@@ -161,7 +161,7 @@ KILL_IN_CHECKPOINT = """
 import os, signal, sys
 import mdsim.sampling.store as st
 from mdsim.pipeline import run_task
-orig = st._write_tree
+orig = st.write_tree
 calls = [0]
 def dying(group, state):
     calls[0] += 1
@@ -171,7 +171,7 @@ def dying(group, state):
         group.file.flush()
         os.kill(os.getpid(), signal.SIGKILL)
     orig(group, state)
-st._write_tree = dying
+st.write_tree = dying
 run_task(sys.argv[1], 0)
 """
 

@@ -6,7 +6,8 @@ import numpy as np
 import pytest
 
 from mdsim.errors import SimulationError, StudyError
-from mdsim.engine.md import MDSampler, csvr_scale, energy_drift, gamma_variate
+from mdsim.engine.integrator import csvr_scale, energy_drift, gamma_variate
+from mdsim.engine.md import MDSampler
 from mdsim.engine.potentials import Exp6, LennardJones, PairMatrix
 from mdsim.engine.rng import make_state
 from mdsim.engine.system import System

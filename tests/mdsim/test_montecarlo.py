@@ -9,7 +9,8 @@ import pytest
 from scipy.integrate import quad
 
 from mdsim.errors import StudyError
-from mdsim.engine.montecarlo import MCSampler, cell_grid, nve_temperature
+from mdsim.engine.mc_cells import cell_grid
+from mdsim.engine.montecarlo import MCSampler, nve_temperature
 from mdsim.engine.potentials import Exp6, LennardJones, Mie, PairMatrix, Tabulated
 from mdsim.engine.system import System
 
@@ -80,7 +81,7 @@ def test_running_energy_matches_all_pairs(density, rc, temperature):
     u_ref, w_ref = lj_energy_virial_numpy(mc.r_ni, sys_.box_i, rc)
     # accumulated round-off of ~1e4 increments of O(1) terms: 1e-9 relative is generous
     assert mc.u_trunc == pytest.approx(u_ref, rel=1e-9, abs=1e-9)
-    u_cells, w_cells = mc._energy_virial()
+    u_cells, w_cells = mc.energy_and_virial()
     assert u_cells == pytest.approx(u_ref, rel=1e-12, abs=1e-12)  # only summation order differs
     assert w_cells == pytest.approx(w_ref, rel=1e-12, abs=1e-12)
     assert 0.0 < mc.acceptance < 1.0

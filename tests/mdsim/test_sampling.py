@@ -10,7 +10,8 @@ import pytest
 
 from mdsim.sampling import store
 from mdsim.errors import StudyError
-from mdsim.sampling.state_point import sample_state_point, summarise
+from mdsim.sampling.estimates import summarise
+from mdsim.sampling.state_point import sample_state_point
 from mdsim.study.reader import read_study
 
 ROOT = Path(__file__).resolve().parents[2]
