@@ -18,6 +18,7 @@ import math
 import numba
 import numpy as np
 
+from mdsim.checks import count, positive
 from mdsim.engine import rng as _rng
 from mdsim.engine.forces import check_finite, forces_half, forces_half_parallel
 from mdsim.engine.integrator import (default_time_step, kick_drift, kick_thermostat,
@@ -30,21 +31,8 @@ __all__ = ["MDSampler", "METHODS"]
 METHODS = ("md-nvt", "md-nve")
 
 
-def _positive_float(name, value, allowed, fix):
-    try:
-        x = float(value)
-    except (TypeError, ValueError):
-        raise StudyError(f"setting '{name}' = {value!r}: must be a number {allowed}; "
-                         f"{fix}") from None
-    if not math.isfinite(x) or x <= 0.0:
-        raise StudyError(f"setting '{name}' = {value!r}: must be {allowed}; {fix}")
-    return x
 
 
-def _count(name, value, minimum=1):
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
-        raise StudyError(f"setting '{name}' = {value!r}: must be an integer >= {minimum}")
-    return int(value)
 
 
 class MDSampler:
@@ -111,8 +99,8 @@ class MDSampler:
         self.n = n
         self.nf = 3 * n - 3
         if temperature is not None:
-            temperature = _positive_float("temperature", temperature, "a positive number (kT/eps)",
-                                          "typically 0.7 to 10 in reduced units")
+            temperature = positive("temperature", temperature,
+                                   "kT/epsilon, typically 0.7 to 10 in reduced units")
         elif method == "md-nvt":
             raise StudyError("setting 'temperature' is missing: md-nvt needs a target "
                              "temperature (kT/epsilon, typically 0.7 to 10)")
@@ -131,23 +119,22 @@ class MDSampler:
         t_state = temperature if temperature is not None else \
             max(2.0 * kinetic_energy(self.v_ni, self.mass_n) / self.nf, 1e-12)
         self.time_step = (default_time_step(t_state, system.masses_a) if time_step is None
-                          else _positive_float("time_step", time_step, "in (0, 0.05]",
-                                               "0.005 is usual for LJ"))
+                          else positive("time_step", time_step,
+                                        "in (0, 0.05]; 0.005 is usual for LJ"))
         if self.time_step > 0.05:
             raise StudyError(f"setting 'time_step' = {time_step!r}: must be in (0, 0.05] "
                              "(reduced); 0.005 is usual for LJ")
-        self.thermostat_time = _positive_float("thermostat_time", thermostat_time,
-                                               "a positive time (reduced)",
-                                               "typically 0.1 to 2")
-        self.n_threads = _count("n_threads", n_threads)
+        self.thermostat_time = positive("thermostat_time", thermostat_time,
+                                        "a time in reduced units, typically 0.1 to 2")
+        self.n_threads = count("n_threads", n_threads)
         if self.n_threads > numba.config.NUMBA_NUM_THREADS:
             raise StudyError(f"setting 'n_threads' = {n_threads}: at most "
                              f"{numba.config.NUMBA_NUM_THREADS} threads on this machine")
         rc = self.pairs.rc_max
         if skin is None:
             skin = choose_skin(system.density, t_state, rc)
-        self.skin = _positive_float("skin", skin, "a positive length in sigma",
-                                    "0.3 for a liquid to 1.0 for a dilute gas")
+        self.skin = positive("skin", skin,
+                             "a length in sigma, 0.3 for a liquid to 1.0 for a dilute gas")
         self.f_ni = np.zeros((n, 3))
         # per-chunk force buffers of the parallel kernel (a dummy when serial)
         self.f_cni = np.zeros((self.n_threads, n, 3) if self.n_threads > 1 else (1, 1, 3))
@@ -264,7 +251,7 @@ class MDSampler:
     # -- protocol ------------------------------------------------------------------
     def equilibrate(self, n_steps):
         """Run ``n_steps`` unrecorded steps, thermostat on when a temperature is set."""
-        n_steps = _count("equilibration steps", n_steps, 0)
+        n_steps = count("equilibration steps", n_steps, 0)
         self._run_steps(n_steps, self.temperature is not None)
         self.sync_system()
 
@@ -276,8 +263,8 @@ class MDSampler:
         dict of str -> ndarray, shape=(n_samples,), float64
             See the class Notes; energies per particle, reduced.
         """
-        n_samples = _count("n_samples", n_samples)
-        interval = _count("interval", interval)
+        n_samples = count("n_samples", n_samples)
+        interval = count("interval", interval)
         keys = ("u_trunc", "u_full", "u_model", "kinetic", "temperature_inst", "pressure",
                 "pressure_conf", "e_conserved")
         out = {k: np.empty(n_samples) for k in keys}
@@ -307,7 +294,7 @@ class MDSampler:
         """
         if isinstance(axis, bool) or axis not in (0, 1, 2):
             raise StudyError(f"setting 'axis' = {axis!r}: must be 0, 1 or 2 (x, y or z)")
-        ratio = _positive_float("ratio", ratio, "a volume ratio > 1", "for example 2")
+        ratio = positive("ratio", ratio, "a volume ratio > 1, for example 2")
         if ratio <= 1.0:
             raise StudyError(f"setting 'ratio' = {ratio!r}: the box can only grow (ratio > 1)")
         wrap_positions(self.r_ni, self.box_i)  # in the old box, so nobody jumps across

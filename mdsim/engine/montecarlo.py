@@ -36,6 +36,7 @@ import math
 
 import numpy as np
 
+from mdsim.checks import count
 from mdsim.engine import rng as _rng
 from mdsim.engine.mc_cells import build_cells, cell_grid
 from mdsim.engine.mc_kernels import MODE_NVE, MODE_NVT, energy_virial, mc_moves
@@ -105,11 +106,6 @@ def _number(name, value, lo, hi, hint, *, lo_open=True):
     return v
 
 
-def _count(name, value, lo, hint):
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or int(value) < lo:
-        raise StudyError(f"Monte Carlo setting '{name}' = {value!r}: must be an integer >= {lo} "
-                         f"({hint})")
-    return int(value)
 
 
 # --- sampler -------------------------------------------------------------------
@@ -190,7 +186,7 @@ class MCSampler:
             self.energy = _number("energy", energy, -1e6, 1e6,
                                   "total energy per particle, reduced")
             f = system.dof_per_particle if dof_per_particle is None else dof_per_particle
-            self.dof_per_particle = _count("dof_per_particle", f, 1,
+            self.dof_per_particle = count("dof_per_particle", f, 1,
                                            "3 for atoms, 5 for rigid linear molecules")
             if self.dof_per_particle * n <= 2:
                 raise StudyError(f"Monte Carlo 'mc-nve': F = dof_per_particle * particles = "
@@ -273,7 +269,7 @@ class MCSampler:
         block, capped at half the shortest box edge (a dilute gas accepts
         nearly every move and ends at the cap).  Nothing is recorded.
         """
-        n_steps = _count("equilibration_sweeps", n_steps, 0, "sweeps of N trial moves")
+        n_steps = count("equilibration_sweeps", n_steps, 0, "sweeps of N trial moves")
         total = n_steps * self.n_particles
         block = max(_TUNE_BLOCK_MOVES, self.n_particles)
         done = 0
@@ -307,8 +303,8 @@ class MCSampler:
         value, so round-off cannot accumulate.  pressure_conf =
         W / (3 V) + p_tail with W = sum -r u'(r); pressure = rho kT + pressure_conf.
         """
-        n_samples = _count("samples", n_samples, 1, "number of recorded samples")
-        interval = _count("sample_interval", interval, 1, "sweeps between samples")
+        n_samples = count("samples", n_samples, 1, "number of recorded samples")
+        interval = count("sample_interval", interval, 1, "sweeps between samples")
         n = self.n_particles
         vol = self.system.volume
         rho = n / vol

@@ -15,9 +15,8 @@ import abc
 import numpy as np
 
 from mdsim.engine.forms import EPS, N_PARAM, RCORE, SIG, eval_many
-from mdsim.errors import StudyError
 
-__all__ = ["PairPotential", "positive_setting", "NO_TABLE"]
+__all__ = ["PairPotential", "NO_TABLE"]
 
 #: the ``table`` argument of the kernels for the analytic forms (never read)
 NO_TABLE = np.zeros((1, 4))
@@ -102,10 +101,3 @@ class PairPotential(abc.ABC):
     def __repr__(self):
         args = ", ".join(f"{k}={v!r}" for k, v in self.describe().items() if k != "form")
         return f"{type(self).__name__}({args})"
-
-
-def positive_setting(name, value):
-    value = float(value)
-    if not np.isfinite(value) or value <= 0.0:
-        raise StudyError(f"potential setting '{name}' = {value!r}: must be a positive finite number")
-    return value

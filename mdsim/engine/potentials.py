@@ -18,10 +18,11 @@ import math
 
 import numpy as np
 
+from mdsim.checks import positive
 from mdsim.engine.forms import (ALPHA, ATT, EPS, EXPA, EXPB, EXPC, FORM_EXP6, FORM_LJ,
                                 FORM_MIE, FORM_NAMES, FORM_TABLE, N_PARAM, PREF, RC, RC2, RCORE,
                                 REP, RMIN, SHIFT, SIG, T_DR, T_N, T_R0)
-from mdsim.engine.pair_potential import PairPotential, positive_setting
+from mdsim.engine.pair_potential import PairPotential
 from mdsim.engine.tabulated import Tabulated, read_table
 from mdsim.errors import StudyError
 
@@ -39,8 +40,8 @@ class Mie(PairPotential):
 
     def __init__(self, epsilon, sigma, repulsive=12.0, attractive=6.0):
         super().__init__()
-        eps = positive_setting("epsilon", epsilon)
-        sig = positive_setting("sigma", sigma)
+        eps = positive("epsilon", epsilon)
+        sig = positive("sigma", sigma)
         n = float(repulsive)
         m = float(attractive)
         if not (np.isfinite(n) and np.isfinite(m)) or m <= 3.0 or n <= m:
@@ -139,8 +140,8 @@ class Exp6(PairPotential):
 
     def __init__(self, epsilon, r_min, alpha):
         super().__init__()
-        eps = positive_setting("epsilon", epsilon)
-        rm = positive_setting("r_min", r_min)
+        eps = positive("epsilon", epsilon)
+        rm = positive("r_min", r_min)
         a = float(alpha)
         if not np.isfinite(a) or a <= 6.0:
             raise StudyError(f"exp-6 setting 'alpha' = {alpha!r}: must be > 6 (typically 12 to 16)")

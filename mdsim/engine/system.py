@@ -10,6 +10,7 @@ import math
 
 import numpy as np
 
+from mdsim.checks import positive
 from mdsim.engine import rng as _rng
 from mdsim.errors import StudyError
 from mdsim.engine.potentials import PairMatrix
@@ -18,14 +19,6 @@ from mdsim.engine.potentials import PairMatrix
 CLOSE_PACKING = math.sqrt(2.0)
 
 
-def _check_positive(name, value, hint=""):
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise StudyError(f"setting '{name}' = {value!r}: must be a number{hint}") from None
-    if not math.isfinite(value) or value <= 0.0:
-        raise StudyError(f"setting '{name}' = {value!r}: must be positive and finite{hint}")
-    return value
 
 
 class System:
@@ -61,7 +54,7 @@ class System:
         if any(c < 0 for c in counts) or sum(counts) < 2:
             raise StudyError(f"setting 'particles' = {sum(counts)}: need at least 2 particles "
                              "(typically 200 to 4000)")
-        box = np.array([_check_positive("box", b) for b in np.ravel(box_i)], dtype=float)
+        box = np.array([positive("box", b) for b in np.ravel(box_i)], dtype=float)
         if box.size != 3:
             raise StudyError("the box needs three edge lengths")
         half = 0.5 * box.min()
@@ -106,7 +99,7 @@ class System:
     def cubic(cls, pairs, counts_a, density, **kw):
         """A cubic box sized for a number density."""
         n = int(sum(int(c) for c in counts_a))
-        rho = _check_positive("density", density, " (reduced, typically 0.0005 to 0.9)")
+        rho = positive("density", density, "reduced, typically 0.0005 to 0.9")
         if n > 0 and rho > CLOSE_PACKING:
             raise StudyError(f"setting 'density' = {rho!r} (reduced) is beyond close packing "
                              f"({CLOSE_PACKING:.4f}); a fluid is below about 1.0")

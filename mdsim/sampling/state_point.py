@@ -15,11 +15,11 @@ in k).  Array suffix ``_t``: a time series of samples.
 import dataclasses
 import importlib
 import math
-import numbers
 from pathlib import Path
 
 import numpy as np
 
+from mdsim.checks import count
 from mdsim.errors import StudyError
 from mdsim.sampling import store as _store
 from mdsim.sampling.estimates import summarise
@@ -73,10 +73,6 @@ def _sampler_class(method):
     return getattr(importlib.import_module(module), name)
 
 
-def _count(name, value, low, hint):
-    if isinstance(value, bool) or not isinstance(value, numbers.Integral) or int(value) < low:
-        raise StudyError(f"setting '{name}' = {value!r}: must be a whole number >= {low} ({hint})")
-    return int(value)
 
 
 def _seed_attr(seed):
@@ -197,11 +193,11 @@ def sample_state_point(system, method, temperature=None, energy=None, *, n_equil
 
 def _checked_counts(n_equilibration, n_samples, interval, checkpoint_every):
     """(n_equilibration, n_samples, interval, checkpoint_every) as checked whole numbers."""
-    return (_count("equilibration", n_equilibration, 0, "steps or sweeps"),
-            _count("samples", n_samples, 20, "at least 20 for a standard error; "
+    return (count("equilibration", n_equilibration, 0, "steps or sweeps"),
+            count("samples", n_samples, 20, "at least 20 for a standard error; "
                    "typically 1000 to 100000"),
-            _count("interval", interval, 1, "steps or sweeps between samples"),
-            _count("checkpoint_every", checkpoint_every, 1, "samples per block"))
+            count("interval", interval, 1, "steps or sweeps between samples"),
+            count("checkpoint_every", checkpoint_every, 1, "samples per block"))
 
 
 def _make_sampler(cls, system, method, temperature, energy, seed, method_settings):
