@@ -8,7 +8,7 @@ the integral along that path of
     dS = (1/T) dU + (p/T) dV = (p/T) dV        (dU = 0),
 
 from V_i to V_f = r V_i, with T(V) found at each V by solving
-U(T, V) = U_i (DESIGN.md 2.5).  For an ideal gas p/T = n R / V and
+U(T, V) = U_i (docs/physics.md section 6).  For an ideal gas p/T = n R / V and
 Delta S = n R ln r.  The work lost to the irreversibility, measured against
 surroundings at a reference temperature T_0, is T_0 Delta S (the
 Gouy-Stodola relation).

@@ -43,3 +43,20 @@ def test_examples_in_docstrings_run(name):
     result = runner.summarize(verbose=False)
     assert result.failed == 0, f"{result.failed} of {result.attempted} examples failed in {name}"
 
+
+def test_the_user_facing_functions_have_examples():
+    """The functions a user scripts against carry a runnable example (run by the test above)."""
+    wanted = [
+        ("mdsim.sampling", "sample_state_point"), ("mdsim.study", "read_study"),
+        ("analysis.virial", "b2"), ("analysis.virial", "b3"),
+        ("analysis.virial_eos", "VirialGas"), ("analysis.expansion", "virial_expansion"),
+        ("analysis.expansion", "energy_route"), ("analysis.expansion", "microcanonical_route"),
+        ("analysis.expansion", "direct_route"), ("mdsim.engine", "LennardJones"),
+    ]
+    missing = []
+    for module_name, attr in wanted:
+        obj = getattr(importlib.import_module(module_name), attr)
+        doc = obj.__doc__ or ""
+        if ">>>" not in doc:
+            missing.append(f"{module_name}.{attr}")
+    assert not missing, f"no runnable example in: {', '.join(missing)}"

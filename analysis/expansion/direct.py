@@ -19,7 +19,7 @@ divided by c_v:
   T_i sqrt(c_v / N), which would otherwise dominate the error;
 - model to full potential: MD conserves the model energy, the gas the full
   one, so T_f += -[<u_full - u_model>_f - <u_full - u_model>_i] / c_v
-  (DESIGN 2.3, item 3).
+  (docs/physics.md section 3.3).
 """
 import math
 

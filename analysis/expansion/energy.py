@@ -93,7 +93,7 @@ class NewtonStep(Result):
 
 
 def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
-    """Newton update of T_f from one sampled temperature (DESIGN 2.3, item 1).
+    """Newton update of T_f from one sampled temperature (docs/physics.md section 3.1).
 
     Parameters
     ----------
@@ -252,7 +252,7 @@ def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
     Notes
     -----
     stderr(T_f) = sqrt(s_i^2 + s_f^2) / c_v(T_f, rho_f), s_i and s_f the
-    standard errors of u_res at the two end states (DESIGN 2.3, item 1).
+    standard errors of u_res at the two end states (docs/physics.md section 3.1).
 
     Examples
     --------

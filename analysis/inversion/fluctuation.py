@@ -2,7 +2,7 @@
 
 In the canonical ensemble d<A>/dT = Cov(A, U_pot) / (k T^2) for any
 configurational A, with U_pot the TOTAL configurational energy
-(DESIGN.md 2.4).  With per-particle u = U_pot / N (the series given),
+(docs/physics.md section 5.3).  With per-particle u = U_pot / N (the series given),
 Cov(P_conf, U_pot) = N Cov(p_conf, u) and Var(U_pot) = N^2 Var(u), so in
 reduced units (k = 1)
 

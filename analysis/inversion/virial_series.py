@@ -133,7 +133,7 @@ def joule_coefficient_virial(gas, cv_ig, temperature_K, density_mol_m3, order=2)
     Notes
     -----
     mu_J = -[T (dp/dT)_rho - p] / C_V with C_V = c_v,ig(T) + c_v,res(T, rho)
-    per mole (DESIGN.md 2.4).
+    per mole (docs/physics.md section 5.1).
     """
     order = inputs.order(order)
     g = joule_sign_virial_Pa(gas, temperature_K, density_mol_m3, order)
@@ -167,7 +167,7 @@ def zero_density_joule_inversion_K(gas, order=2, temperature_range_K=None):
     Notes
     -----
     As rho -> 0, T (dp/dT) - p = R T^2 rho^2 dB/dT, so the inversion is
-    where dB/dT changes sign (T* ~ 25.15 for LJ; REFERENCES.md).  With a
+    where dB/dT changes sign (T* ~ 25.15 for LJ; docs/references.md section 2.4).  With a
     quantum-corrected gas the corrected B is used.
     """
     inputs.order(order)
@@ -192,7 +192,7 @@ def joule_thomson_inversion_zero_pressure_K(gas, temperature_range_K=None):
     Returns
     -------
     float
-        T in K where T dB/dT = B (T* ~ 6.43 for LJ; REFERENCES.md).
+        T in K where T dB/dT = B (T* ~ 6.43 for LJ; docs/references.md section 2.4).
 
     Notes
     -----

@@ -35,7 +35,7 @@ def ar1():
 @pytest.fixture(scope="session")
 def argon_hcb():
     """Argon, LJ 119.8 K / 3.405 A fitted to second-virial data (Hirschfelder, Curtiss
-    and Bird 1954; REFERENCES.md, from memory)."""
+    and Bird 1954; docs/references.md section 6, from memory)."""
     return VirialGas(LennardJones(119.8, 3.405), [1.0], ARGON_MOLAR_MASS_KG_MOL)
 
 

@@ -1,6 +1,6 @@
 """Entropy generated in a free expansion and the lost work.
 
-External checks: the ideal-gas closed form n R ln r (REFERENCES.md facts of
+External checks: the ideal-gas closed form n R ln r (docs/references.md section 8, facts of
 the trade), and the state-function difference
 s(T_f, rho_f) - s(T_i, rho_i) = int c_v_ig / T dT + R ln r + s_res(f) - s_res(i)
 assembled here from the equation of state's residual entropy and a scipy
@@ -21,7 +21,7 @@ from mdsim.errors import StudyError
 from mdsim.engine.potentials import LennardJones
 
 R = constants.gas_constant
-ARGON = (119.8, 3.405, 0.039948)       # HCB 1954 B2 fit (REFERENCES.md, from memory)
+ARGON = (119.8, 3.405, 0.039948)       # HCB 1954 B2 fit (docs/references.md section 6, from memory)
 MONATOMIC = ConstantHeatCapacity.in_units_of_R(1.5)
 
 
@@ -33,7 +33,7 @@ def argon():
 
 def test_ideal_limit_is_R_ln_r():
     # A potential of negligible strength and size: B ~ 1e-15 m^3/mol, B rho ~ 1e-14,
-    # so the gas is ideal to ~1e-14 (REFERENCES.md: ideal gas, entropy up by n R ln r)
+    # so the gas is ideal to ~1e-14 (docs/references.md section 8: ideal gas, entropy up by n R ln r)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")   # de Boer warning for a pico-scale particle
         gas = VirialGas(LennardJones(1e-6, 1e-3), [1.0], 0.04)

@@ -1,12 +1,12 @@
 """Free-expansion solvers (analysis.expansion) and result objects (analysis.results).
 
 External checks: the ideal gas (closed forms: Delta T = 0, p_f = p_i / r,
-Delta s = R ln r; DESIGN and common practice, no source), the reference
+Delta s = R ln r; docs/physics.md section 1.4; common practice, no source), the reference
 equation of state of the Lennard-Jones fluid (Thol et al., J. Phys. Chem.
 Ref. Data 45, 023101, 2016, through teqp), synthetic canonical and
 microcanonical samples whose answers are closed forms, and Ray's exact
 harmonic check of the microcanonical estimator (Phys. Rev. A 44, 4061, 1991;
-REFERENCES.md).
+docs/references.md section 5.1).
 """
 import json
 import math
@@ -66,7 +66,7 @@ def thol_u_res():
     teqp = pytest.importorskip("teqp")
     model = teqp.build_LJ126_TholJPCRD2016()
     z = np.array([1.0])
-    return lambda T, rho: T * model.get_Ar10(T, rho, z)  # u_res / eps per particle (REFERENCES.md)
+    return lambda T, rho: T * model.get_Ar10(T, rho, z)  # u_res / eps per particle (docs/references.md section 5.1)
 
 
 @pytest.mark.parametrize("T_red", [1.5, 3.0, 6.0])
@@ -202,7 +202,7 @@ def test_newton_converges_at_the_root(monatomic_cv):
 # --- microcanonical route -------------------------------------------------------------
 
 def test_microcanonical_exact_harmonic_check():
-    # Ray (1991), REFERENCES.md: F kinetic and f_c harmonic coordinates at total E give
+    # Ray (1991), docs/references.md section 7: F kinetic and f_c harmonic coordinates at total E give
     # 1/kT = ((F + f_c)/2 - 1) / E; U / E ~ Beta(f_c/2, F/2) samples that ensemble exactly.
     N, f, f_c, T_red = 50, 3, 150, 2.0
     F = f * N

@@ -1,6 +1,6 @@
 """Joule coefficient, Joule inversion curve and the Joule-Thomson point.
 
-External checks: REFERENCES.md values for Lennard-Jones (Hirschfelder,
+External checks: docs/references.md section 2 values for Lennard-Jones (Hirschfelder,
 Curtiss and Bird 1954), a scipy quadrature of B2 written here that shares no
 code with the product, closed forms for correlated Gaussian series, and facts
 of the trade for helium and hydrogen.
@@ -205,7 +205,7 @@ def test_sample_inversion_reports_unbracketed_density():
 
 # --- virial route -----------------------------------------------------------------
 
-ARGON_EPS_K, ARGON_SIG_A, ARGON_M = 119.8, 3.405, 0.039948  # HCB 1954 B2 fit (REFERENCES.md, from memory)
+ARGON_EPS_K, ARGON_SIG_A, ARGON_M = 119.8, 3.405, 0.039948  # HCB 1954 B2 fit (docs/references.md section 6, from memory)
 MONATOMIC = ConstantHeatCapacity.in_units_of_R(1.5)           # 3/2 R: closed form for atoms
 
 
@@ -236,7 +236,7 @@ def _lj_b2_reduced(T, derivative=False):
 def test_lj_zero_density_joule_and_zero_pressure_jt_inversion(argon):
     t_joule = inv.zero_density_joule_inversion_K(argon) / ARGON_EPS_K
     t_jt = inv.joule_thomson_inversion_zero_pressure_K(argon) / ARGON_EPS_K
-    # REFERENCES.md: B2 maximum T* = 25.15, T dB2/dT = B2 at T* = 6.43 (quoted to 4 figures)
+    # docs/references.md section 2.4: B2 maximum T* = 25.15, T dB2/dT = B2 at T* = 6.43 (quoted to 4 figures)
     assert t_joule == pytest.approx(25.15, abs=0.006)
     assert t_jt == pytest.approx(6.43, abs=0.006)
     # own quadrature, no shared code; 1e-7: both quadratures are good to ~1e-9 in B2
@@ -282,10 +282,10 @@ def test_virial_curve_solves_closed_form_sign(argon):
 
 
 @pytest.mark.parametrize("name, eps_K, sig_A, molar_kg, jt_fact_K, joule_classical_K", [
-    # LJ parameters: Hirschfelder, Curtiss and Bird 1954 (REFERENCES.md, from memory).
+    # LJ parameters: Hirschfelder, Curtiss and Bird 1954 (docs/references.md section 6, from memory).
     # jt_fact_K: low-pressure Joule-Thomson inversion "near 40 K and 200 K"
-    # (REFERENCES.md facts of the trade, no source).
-    # joule_classical_K: 25.15 eps/k (REFERENCES.md B2 maximum): ~257 K and ~931 K.
+    # (docs/references.md section 8, facts of the trade, no source).
+    # joule_classical_K: 25.15 eps/k (docs/references.md section 2.4, B2 maximum): ~257 K and ~931 K.
     ("helium", 10.22, 2.556, 0.004003, 40.0, 25.15 * 10.22),
     ("hydrogen", 37.0, 2.928, 0.002016, 200.0, 25.15 * 37.0),
 ])
@@ -316,7 +316,7 @@ def test_light_gases_jt_versus_joule_inversion(name, eps_K, sig_A, molar_kg, jt_
 
 
 def test_joule_coefficient_sign_argon(argon):
-    # cools near room temperature (REFERENCES.md facts of the trade: almost all gases cool)
+    # cools near room temperature (docs/references.md section 8, facts of the trade: almost all gases cool)
     for order in (2, 3):
         assert inv.joule_coefficient_virial(argon, MONATOMIC, 295.0, 40.0, order) < 0.0
         assert inv.joule_coefficient_virial(argon, MONATOMIC, 295.0, 2000.0, order) < 0.0

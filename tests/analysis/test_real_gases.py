@@ -1,8 +1,8 @@
 """Virial free-expansion route for real gases against reference equations of state.
 
 The reference is CoolProp's multiparameter EOS (argon: Tegeler et al. 1999;
-air: Lemmon et al. 2000; REFERENCES.md): T_f = T(D_i / r, U_i) with D_i, U_i
-from (T_i, p_i).  The LJ parameters are the published sets of REFERENCES.md
+air: Lemmon et al. 2000; docs/references.md section 5.2): T_f = T(D_i / r, U_i) with D_i, U_i
+from (T_i, p_i).  The LJ parameters are the published sets of docs/references.md section 6
 (from memory).
 
 How well can LJ do?  A two-parameter spherical potential is an effective
@@ -53,7 +53,7 @@ def test_argon_virial_fit_against_coolprop(argon_hcb, monatomic_cv, p_i):
 
 
 def test_viscosity_fit_does_worse_for_argon(argon_hcb, monatomic_cv):
-    # REFERENCES.md: parameters fitted to viscosity (Bird, Stewart and Lightfoot,
+    # docs/references.md section 6: parameters fitted to viscosity (Bird, Stewart and Lightfoot,
     # 124 K / 3.418 A) reproduce B2, hence the cooling, worse than virial-fitted ones.
     ref = coolprop_delta_T("Argon", T_ROOM, 20e5, 2.0)
     hcb = ex.virial_expansion(argon_hcb, monatomic_cv, T_ROOM, 2.0, p_i=20e5, order=3)
@@ -72,7 +72,7 @@ def test_air_cools_about_3_K():
     assert -3.6 < res.delta_T_K < -2.4
     ref = coolprop_delta_T("Air", T_ROOM, 22e5, 2.0)
     assert res.delta_T_K == pytest.approx(ref, rel=0.15)  # one viscosity-fit sphere for air
-    # with only the translational 3/2 R the cooling is overstated by about 2/3 (DESIGN 2.1)
+    # with only the translational 3/2 R the cooling is overstated by about 2/3 (docs/physics.md section 1.2)
     mono = ex.virial_expansion(air, ConstantHeatCapacity.in_units_of_R(1.5), T_ROOM, 2.0,
                                p_i=22e5, order=3)
     assert mono.delta_T_K / res.delta_T_K == pytest.approx(2.5 / 1.5, rel=0.02)  # u_res(T) weakly T-dependent

@@ -193,22 +193,22 @@ def own_root(func, lo, hi):
 
 def test_boyle_temperature():
     T = virial.boyle_temperature(LJ)
-    assert T == pytest.approx(3.418, abs=6e-4)  # HCB 1954 (REFERENCES.md); 4 figures
+    assert T == pytest.approx(3.418, abs=6e-4)  # HCB 1954 (docs/references.md section 2.3); 4 figures
     assert T == pytest.approx(own_root(lambda t: quad_b2(lj_u, t), 3.0, 4.0), rel=1e-8)
 
 
 def test_b2_maximum_is_the_zero_density_joule_inversion():
     T = virial.b2_maximum_temperature(LJ)
-    assert T == pytest.approx(25.15, abs=6e-3)  # REFERENCES.md; 4 figures
+    assert T == pytest.approx(25.15, abs=6e-3)  # docs/references.md section 2.4; 4 figures
     assert T == pytest.approx(own_root(lambda t: quad_db2(lj_u, t), 20.0, 30.0), rel=1e-7)
 
 
 def test_joule_thomson_zero_pressure_inversion():
     T = virial.joule_thomson_inversion_zero_pressure(LJ)
-    assert T == pytest.approx(6.43, abs=6e-3)  # REFERENCES.md; 3 figures
+    assert T == pytest.approx(6.43, abs=6e-3)  # docs/references.md section 2.4; 3 figures
     own = own_root(lambda t: t * quad_db2(lj_u, t) - quad_b2(lj_u, t), 5.0, 8.0)
     assert T == pytest.approx(own, rel=1e-7)
-    # the two inversions must never be confused (DESIGN.md 2.4)
+    # the two inversions must never be confused (docs/physics.md section 5.5)
     assert virial.b2_maximum_temperature(LJ) > 3.0 * T
 
 
@@ -336,7 +336,7 @@ def test_bad_fractions_rejected():
 def test_quantum_b_I_at_T1():
     # Delta B / sigma^3 = Lambda*^2 b_I(T*); with Lambda* = 1, h^2/(mu k) = 2 (like pair)
     b_I = virial.b2_quantum(LJ, 1.0, 2.0)[0]
-    assert b_I == pytest.approx(0.870, abs=6e-4)  # REFERENCES.md (derived), 3 figures
+    assert b_I == pytest.approx(0.870, abs=6e-4)  # docs/references.md section 3 (derived), 3 figures
     own = quad(lambda r: math.exp(-lj_u(r)) * lj_du(r) ** 2 * r * r, 0.5, 10.0,
                epsabs=1e-12, limit=200)[0] / (24.0 * math.pi)
     assert b_I == pytest.approx(own, rel=1e-8)
@@ -351,7 +351,7 @@ def test_quantum_derivatives_match_finite_differences():
 
 
 # molar masses (kg/mol): IUPAC standard atomic weights; LJ parameters from
-# HCB 1954 second-virial fits (REFERENCES.md, from memory)
+# HCB 1954 second-virial fits (docs/references.md section 6, from memory)
 HELIUM = (LennardJones(10.22, 2.556), 4.002602e-3)
 HYDROGEN = (LennardJones(37.0, 2.928), 2.01588e-3)
 NEON = (LennardJones(35.6, 2.749), 20.1797e-3)

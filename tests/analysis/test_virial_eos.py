@@ -13,7 +13,7 @@ from analysis.virial_eos import VirialGas, VirialSeriesError
 from mdsim.errors import StudyError
 from mdsim.engine.potentials import LennardJones, PairMatrix
 
-# argon: LJ fitted to second-virial data, HCB 1954 (REFERENCES.md, from memory);
+# argon: LJ fitted to second-virial data, HCB 1954 (docs/references.md section 6, from memory);
 # molar mass 39.948 g/mol (IUPAC)
 ARGON_LJ = LennardJones(119.8, 3.405)
 M_AR = 39.948e-3
@@ -31,7 +31,7 @@ def test_u_res_is_minus_R_T2_dBdT_rho(argon):
     assert argon.u_res_J_mol(T, rho, order=2) == pytest.approx(-R * T * T * argon.dB_dT(T) * rho,
                                                                rel=1e-13)
     assert argon.u_res_J_mol(T, rho, order=2) == pytest.approx(-R * T * T * dB_fd * rho, rel=1e-6)
-    # with C: -R T^2 (B' rho + C' rho^2 / 2)  (DESIGN.md 2.2)
+    # with C: -R T^2 (B' rho + C' rho^2 / 2)  (docs/physics.md section 2.1)
     want = -R * T * T * (argon.dB_dT(T) * rho + 0.5 * argon.dC_dT(T) * rho ** 2)
     assert argon.u_res_J_mol(T, rho, order=3) == pytest.approx(want, rel=1e-13)
 
@@ -152,7 +152,7 @@ def test_series_convergence_and_check(argon):
 
 
 def test_quantum_correction_raises_B_and_warns_for_helium():
-    helium = LennardJones(10.22, 2.556)  # HCB 1954 (REFERENCES.md, from memory)
+    helium = LennardJones(10.22, 2.556)  # HCB 1954 (docs/references.md section 6, from memory)
     with pytest.warns(virial.QuantumCorrectionWarning):
         quantum = VirialGas(helium, [1.0], 4.002602e-3, quantum_correction=True)
     with pytest.warns(virial.QuantumCorrectionWarning):

@@ -48,7 +48,7 @@ def test_sample_json_through_main(capsys, tmp_path):
 @pytest.mark.slow
 def test_dilute_lj_gas_against_nist_through_the_command_line():
     # NIST Standard Reference Simulation Website, LJ fluid NVT MC, T* = 0.85, rho* = 0.005,
-    # rc = 3 sigma with tails: U/N = -5.1901e-2, p* = 4.1003e-3 (REFERENCES.md)
+    # rc = 3 sigma with tails: U/N = -5.1901e-2, p* = 4.1003e-3 (docs/references.md section 4)
     T = f"{0.85 * EPS_K!r} K"
     rho = f"{si_density(0.005)!r} mol/m^3"
     proc = subprocess.run([sys.executable, "-m", "mdsim", "sample", ARGON, "--temperature", T,

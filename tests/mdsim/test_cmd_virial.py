@@ -81,7 +81,7 @@ def _lj_b2_reduced(T):
 
 def test_inversion_temperatures_of_lj_argon(capsys):
     out = run_json(capsys, "inversion", str(CONFIGS / "argon.toml"), "--json")
-    # REFERENCES.md: maximum of B2 at T* = 25.15, zero-pressure Joule-Thomson at T* = 6.43
+    # docs/references.md section 2.4: maximum of B2 at T* = 25.15, zero-pressure Joule-Thomson at T* = 6.43
     assert out["joule_inversion_zero_density_K"] == pytest.approx(25.15 * EPS_K, rel=1e-3)
     assert out["joule_thomson_inversion_zero_pressure_K"] == pytest.approx(6.43 * EPS_K, rel=1e-3)
     # and against an independent scipy quadrature (1e-4: numerical derivative of the quadrature)

@@ -69,7 +69,7 @@ def _reference_delta_T_K(T_K, rho_mol_m3, eps_K, sigma_m, r=2.0):
     z = np.array([1.0])
 
     def u(T, rho):
-        return 1.5 * T + T * model.get_Ar10(T, rho, z)  # REFERENCES.md: u_res = T Ar10
+        return 1.5 * T + T * model.get_Ar10(T, rho, z)  # docs/references.md section 5.1: u_res = T Ar10
 
     T = T_K / eps_K
     rho = rho_mol_m3 * N_A * sigma_m ** 3

@@ -164,10 +164,10 @@ def test_cell_grid_is_bounded_in_a_dilute_gas():
 # --- (b) LJ fluid against published simulation data and the reference EOS -------
 
 # NIST Standard Reference Simulation Website, LJ pure fluid, NVT MC, N = 500,
-# rc = 3 sigma with analytic long-range corrections, T* = 0.85 (REFERENCES.md).
+# rc = 3 sigma with analytic long-range corrections, T* = 0.85 (docs/references.md section 4).
 # Same N and cut-off as the reference, so no finite-size difference is expected.
 NIST_GAS = [(0.005, -5.1901e-2, 4.1003e-3), (0.009, -9.3973e-2, 7.1641e-3)]
-NIST_SIGMA_U_GAS = 2e-4      # "a few 1e-4" (REFERENCES.md); lower end taken
+NIST_SIGMA_U_GAS = 2e-4      # "a few 1e-4" (docs/references.md section 4); lower end taken
 
 
 @pytest.mark.parametrize("density,u_ref,p_ref", NIST_GAS)
@@ -179,7 +179,7 @@ def test_lj_gas_against_nist(density, u_ref, p_ref):
     p, sp = mean_and_error(out["pressure"])
     # 4 combined standard errors: fixed seed, false-alarm chance 6e-5 for a correct sampler
     assert abs(u - u_ref) < 4 * math.hypot(su, NIST_SIGMA_U_GAS)
-    # NIST's gas-pressure uncertainty is not in REFERENCES.md: 0.1 % of p allowed for it
+    # NIST's gas-pressure uncertainty is not in docs/references.md section 4: 0.1 % of p allowed for it
     assert abs(p - p_ref) < 4 * math.hypot(sp, 1e-3 * p_ref)
     assert np.all(out["pressure"] - out["pressure_conf"] == pytest.approx(density * 0.85))
 
@@ -215,7 +215,7 @@ def test_lj_supercritical_against_teqp():
     u, su = mean_and_error(out["u_full"])
     p, sp = mean_and_error(out["pressure"])
     # EOS uncertainty in this region taken as 0.5 % in U and p (Thol et al. 2016, from
-    # memory; REFERENCES.md gives no figure); 4 combined standard errors as above
+    # memory; docs/references.md section 5.1 gives no figure); 4 combined standard errors as above
     assert abs(u - u_ref) < 4 * math.hypot(su, 5e-3 * abs(u_ref))
     assert abs(p - p_ref) < 4 * math.hypot(sp, 5e-3 * p_ref)
 

@@ -144,7 +144,7 @@ def test_low_pressure_simulation_agrees_with_virial(summary):
 def test_inversion_temperatures_match_the_published_lj_values(summary):
     inv = summary["inversion"]
     # maximum of B2 at T* = 25.15, zero-pressure Joule-Thomson inversion at T* = 6.43
-    # (REFERENCES.md, following from the B2 integral); 0.2 %: both are given to 4 figures
+    # (docs/references.md section 2.4, following from the B2 integral); 0.2 %: both are given to 4 figures
     assert inv["joule_inversion_zero_density_K"] / EPS_K == pytest.approx(25.15, rel=2e-3)
     assert inv["joule_thomson_inversion_zero_pressure_K"] / EPS_K == pytest.approx(6.43,
                                                                                     rel=2e-3)

@@ -155,7 +155,7 @@ def test_summary_follows_the_fluctuation_formula():
     cv = s["c_v_res"]
     from analysis.stats import variance_and_stderr
     var = variance_and_stderr(u)
-    # c_v_res = N Var(u_full) / T^2 (DESIGN.md 2.3, canonical fluctuation formula)
+    # c_v_res = N Var(u_full) / T^2 (docs/physics.md section 3.1, canonical fluctuation formula)
     assert cv.value == pytest.approx(N * var.value / T_RED ** 2, rel=1e-12)
     assert s["temperature"].value == T_RED and s["temperature"].stderr == 0.0
     assert np.min(u) <= s["u_full"].value <= np.max(u)

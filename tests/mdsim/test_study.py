@@ -121,7 +121,7 @@ def test_mixture(tmp_path):
     assert np.allclose(gas.fractions, [0.79, 0.21], rtol=0, atol=1e-15)
     pm = gas.pairs_K_angstrom
     cross = pm.pots[0][1]
-    # Lorentz-Berthelot with k_ij (DESIGN.md 2.6)
+    # Lorentz-Berthelot with k_ij (docs/physics.md section 7)
     assert cross.epsilon == pytest.approx(0.98 * math.sqrt(95.05 * 118.0), rel=1e-13)
     assert cross.sigma == pytest.approx(0.5 * (3.698 + 3.46), rel=1e-13)
     assert pm.cutoff == 3.5
@@ -459,7 +459,7 @@ def test_every_example_validates():
 def test_k_ij_by_species_names(tmp_path):
     named = MIXTURE.replace("k_ij = 0.02", 'k_ij = { "oxygen-nitrogen" = 0.02 }')
     cross = read_study(write(tmp_path, named)).gas.pairs_K_angstrom.pots[0][1]
-    # the same Lorentz-Berthelot cross term as the plain number (DESIGN.md 2.6)
+    # the same Lorentz-Berthelot cross term as the plain number (docs/physics.md section 7)
     assert cross.epsilon == pytest.approx(0.98 * math.sqrt(95.05 * 118.0), rel=1e-13)
     with pytest.raises(StudyError, match="unknown species 'oxygn'.*did you mean 'oxygen'"):
         read_study(write(tmp_path, MIXTURE.replace("k_ij = 0.02",
