@@ -34,7 +34,8 @@ def task_figures(study, points_by_index, gathered, vg, cv, plots_dir):
             data, why = plot_data.series_plot_data(sp, route, result, series)
             if data is not None:
                 made[k] = plots.plot_series(data["series"], data["title"], stem, x=data["x"],
-                                            final_T_K=data["final_T_K"])
+                                            final_T_K=data["final_T_K"],
+                                            final_T_stderr_K=data["final_T_stderr_K"])
         if k not in made:
             notes.append(f"task {k} ({route}, state point {sp.index}): no plot ({why})")
     return made, notes
