@@ -243,3 +243,34 @@ def test_command_modules_are_independent_of_the_dispatcher():
                 assert node.module != "mdsim.cli", (name, ast.unparse(node))
             if isinstance(node, ast.Import):
                 assert all(a.name != "mdsim.cli" for a in node.names), name
+
+
+def test_sample_text_rounds_each_value_to_its_error():
+    from mdsim.cli.cmd_sample import format_sample
+    entry = {"value": -1234.5678, "stderr": 12.345}
+    out = {"study": "s", "method": "mc-nvt", "particles": 64, "samples": 100, "interval": 1,
+           "temperature_K": {"value": 150.0, "stderr": 0.0}, "density_mol_m3": 6000.0,
+           "energy_J_mol": entry, "pressure_Pa": {"value": 2.0e6, "stderr": 3.14159e4},
+           "heat_capacity_res_J_molK": {"unavailable": "too few samples"},
+           "reduced": {"temperature": {"value": 1.2521, "stderr": 0.0}, "density": 0.141,
+                       "energy_J_mol": {"value": -1.23994, "stderr": 0.0123986},
+                       "pressure_Pa": {"value": 0.1, "stderr": 0.00157}},
+           "run_file": None, "resumed": False}
+    lines = format_sample(out)
+    assert lines[1] == "  temperature             150 (set) K   (reduced 1.2521 (set))"
+    # errors to two figures (12.345 -> 12, 31416 -> 31000, 0.0123986 -> 0.012), values to match
+    assert lines[3] == ("  configurational energy  -1235 ± 12 J/mol   "
+                        "(reduced -1.240 ± 0.012)")
+    assert lines[4] == "  pressure                2000000 ± 31000 Pa   (reduced 0.1000 ± 0.0016)"
+    assert lines[5] == "  residual heat capacity  unavailable: too few samples"
+
+
+def test_sample_text_through_main_matches_its_json(capsys):
+    from mdsim.numbers import value_with_error
+    argv = ["sample", ARGON, "--temperature", "150 K", "--density", "6000 mol/m^3"] + FAST
+    assert main(argv + ["--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert main(argv) == 0
+    text = capsys.readouterr().out
+    e = data["energy_J_mol"]
+    assert f"configurational energy  {value_with_error(e['value'], e['stderr'])} J/mol" in text
