@@ -274,3 +274,22 @@ def test_sample_text_through_main_matches_its_json(capsys):
     text = capsys.readouterr().out
     e = data["energy_J_mol"]
     assert f"configurational energy  {value_with_error(e['value'], e['stderr'])} J/mol" in text
+
+
+def test_run_prints_each_state_point_with_rounded_errors(capsys, tmp_path):
+    from types import SimpleNamespace
+    from mdsim.cli.run_output import print_study_run
+    energy = {"index": 0, "delta_T_K": {"energy": {"value": -5.4666, "stderr": 0.04237}},
+              "final": {"temperature_K": 289.6834, "temperature_stderr_K": 0.04237,
+                        "source": "energy"}}
+    virial = {"index": 1, "delta_T_K": {"virial_b2b3": {"value": -10.98765, "stderr": None}},
+              "final": {"temperature_K": 284.16235, "temperature_stderr_K": None,
+                        "source": "virial_b2b3"}}
+    run = SimpleNamespace(summary={"state_points": [energy, virial]}, tasks=[{}], failed=[],
+                          run_dir=tmp_path, array_state=None)
+    assert print_study_run(run, "s.toml") == 0
+    err = capsys.readouterr().err.splitlines()
+    # 0.04237 K -> 0.042 K, the values to three decimals; a virial value keeps its figures
+    assert err[0] == "state point 0: Delta T = -5.467 ± 0.042 K, T_f = 289.683 ± 0.042 K (energy)"
+    assert err[1] == "state point 1: Delta T = -10.988 K, T_f = 284.162 K (virial B2+B3)"
+    assert err[2].startswith(f"run directory {tmp_path}: 1 of 1 tasks complete")
