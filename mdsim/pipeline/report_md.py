@@ -186,7 +186,8 @@ def _what_was_run(study, gathered, rd):
 def _results(points, records, rd):
     """The results table and where the full numbers are."""
     L = ["## Results", "",
-         "Delta T = T_f - T_i (negative: the gas cools), one standard error after ±. "
+         "Delta T = T_f - T_i (negative: the gas cools), one standard error after ± (to two "
+         "significant figures, the value rounded to the same place). "
          "T_f is from the best route available (energy, then microcanonical, then direct, "
          "then virial B2+B3). Δs is the entropy generated per mole.", ""]
     L += results_table(points, records) + [""]
