@@ -29,6 +29,7 @@ from pathlib import Path
 
 from mdsim.cli.options import nonnegative_int, positive_int, print_json, quantity, quantity_pair
 from mdsim.errors import StudyError
+from mdsim.numbers import value_with_error
 
 HELP = ("check a study's potential against measured free expansions; fit, sensitivities and "
         "next experiments")
@@ -159,11 +160,11 @@ def format_check(result):
         state = (f"{r['initial_pressure_Pa'] / 1e5:.5g} bar" if r["initial_pressure_Pa"]
                  is not None else f"{r['initial_density_mol_m3']:.5g} mol/m3")
         pred = ("not predicted" if r["predicted_delta_T_K"] is None else
-                f"{r['predicted_delta_T_K']:.4f}" + (f" +/- {r['prediction_stderr_K']:.2g}"
-                                                     if r["prediction_stderr_K"] else ""))
+                value_with_error(r["predicted_delta_T_K"], r["prediction_stderr_K"]))
+        measured = value_with_error(r["measured_delta_T_K"], r["measured_uncertainty_K"])
         lines.append(f"  {r['line']:>5} {r['initial_temperature_K']:8.5g} {state:>14} "
-                     f"{r['volume_ratio']:5.3g} {r['measured_delta_T_K']:9.4f} +/- "
-                     f"{r['measured_uncertainty_K']:<4.2g} {pred:>16} {_g(r['residual_K'], '.3f'):>9} "
+                     f"{r['volume_ratio']:5.3g} {measured:>16} {pred:>16} "
+                     f"{_g(r['residual_K'], '.3f'):>9} "
                      f"{_g(r['z'], '.2f'):>7}  {_g(r['d_delta_T_d_epsilon_K_per_K'], '8.3g')} "
                      f"{_g(r['d_delta_T_d_sigma_K_per_angstrom'], '8.3g')}  {r['route'] or ''}")
     lines.append("  (sensitivities: K per K of epsilon/k, K per angstrom of sigma)")
@@ -177,8 +178,9 @@ def format_check(result):
         lines.append(f"fit ({f['form']}, through {f['route']}, {f['points_used']} points):")
         for name in f["parameters"]:
             e = f[name]
-            lines.append(f"  {name:<20} {e['value']:.6g} +/- {e['stderr']:.2g}   "
-                         f"(scaled by sqrt(chi2/dof): +/- {e['stderr_scaled']:.2g})")
+            lines.append(f"  {name:<20} {value_with_error(e['value'], e['stderr'])}   "
+                         "(scaled by sqrt(chi2/dof): "
+                         f"{value_with_error(e['value'], e['stderr_scaled'])})")
         lines.append(f"  correlation(epsilon, sigma) {f['correlation']:.4f}; chi2/dof "
                      f"{f['chi2_per_dof']:.3g} ({f['dof']} dof), p = {f['p_value']:.2g}")
         lines.append(f"  {f['verdict']}")

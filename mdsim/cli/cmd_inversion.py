@@ -12,6 +12,7 @@ import sys
 
 from mdsim.cli.options import (add_renamed_option, nonnegative_int, positive_int, print_json,
                                quantity)
+from mdsim.numbers import value_with_error
 from mdsim.pipeline.inversion_study import DEFAULT_CURVE_POINTS, SIMULATION_DEFAULTS
 
 HELP = ("the Joule (free-expansion) inversion curve and, apart, the zero-pressure "
@@ -58,20 +59,25 @@ def add_arguments(p):
 
 
 def format_inversion_table(out):
-    """Plain-text lines for ``mdsim inversion``."""
+    """Plain-text lines for ``mdsim inversion``.
+
+    A simulated point's temperature is written with its standard error
+    (two figures, the value rounded to match); virial points without one.
+    """
     lines = [f"study {out['study']}: inversion temperatures",
              f"  Joule (free expansion) inversion, zero density      "
-             f"{out['joule_inversion_zero_density_K']:.6g} K   (maximum of B2)",
+             f"{value_with_error(out['joule_inversion_zero_density_K'], None, 'K', 6)}   "
+             "(maximum of B2)",
              f"  Joule-Thomson (throttling) inversion, zero pressure "
-             f"{out['joule_thomson_inversion_zero_pressure_K']:.6g} K   (T dB2/dT = B2; "
-             "a different process)",
+             f"{value_with_error(out['joule_thomson_inversion_zero_pressure_K'], None, 'K', 6)}"
+             "   (T dB2/dT = B2; a different process)",
              "  Joule (free-expansion) inversion curve, T (dp/dT)_rho = p:",
-             f"    {'T [K]':>12} {'rho [mol/m^3]':>14} {'p [bar]':>12}  source"]
+             f"    {'T [K]':>18} {'rho [mol/m^3]':>14} {'p [bar]':>12}  source"]
     for pt in out["joule_inversion_curve"]:
-        err = f" +/- {pt['stderr_K']:.3g} K" if pt.get("stderr_K") is not None else ""
+        T = value_with_error(pt["temperature_K"], pt.get("stderr_K"), digits=6)
         p = pt["pressure_Pa"]
-        lines.append(f"    {pt['temperature_K']:12.6g} {pt['density_mol_m3']:14.6g} "
-                     f"{(p / 1e5 if p is not None else math.nan):12.6g}  {pt['source']}{err}")
+        lines.append(f"    {T:>18} {pt['density_mol_m3']:14.6g} "
+                     f"{(p / 1e5 if p is not None else math.nan):12.6g}  {pt['source']}")
     lines += [f"  note: {n}" for n in out["notes"]]
     return lines
 

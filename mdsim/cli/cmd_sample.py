@@ -6,6 +6,7 @@ module reads the options and prints, in SI with the reduced values beside.
 import math
 
 from mdsim.cli.options import nonnegative_int, positive_int, print_json, quantity
+from mdsim.numbers import value_with_error
 from mdsim.pipeline.single_state import DEFAULTS, METHODS
 
 HELP = "sample one state point of a study and print energy, pressure and heat capacity"
@@ -46,12 +47,13 @@ def add_arguments(p):
                    "{value, stderr} in SI, and 'reduced' holding the same keys in reduced units")
 
 
-def _fmt(value, stderr, digits=4):
+def _fmt(value, stderr, digits=5):
+    """'value ± error' by the two-figure rule; a set value (zero error) marked so."""
     if value is None or not math.isfinite(value):
         return "unavailable"
     if stderr == 0.0:
-        return f"{value:.{digits}g} (set)"
-    return f"{value:.{digits}g} +/- {stderr:.2g}"
+        return f"{value_with_error(value, None, digits=digits)} (set)"
+    return value_with_error(value, stderr, digits=digits)
 
 
 def format_sample(out):

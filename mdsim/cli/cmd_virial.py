@@ -7,6 +7,8 @@ study's own pair potential, truncated after B2 and after B3
 ``virial`` coefficients).
 """
 from mdsim.cli.options import print_json
+from mdsim.numbers import value_with_error
+from mdsim.pipeline.report_tables import VIRIAL_IN_CM
 
 HELP = "the virial routes only (B2, B2 + B3) for every state point of a study, in seconds"
 
@@ -22,6 +24,15 @@ def _g(x, fmt=".6g", unit=""):
     return "unavailable" if x is None else f"{x:{fmt}}{(' ' + unit) if unit else ''}"
 
 
+def _coefficients(v):
+    """{SI key: 'value unit'} of B2, B3 and their T-derivatives in cm^3 units (SI in the JSON)."""
+    out = {}
+    for key, scale, unit in VIRIAL_IN_CM:
+        x = v.get(key)
+        out[key] = "unavailable" if x is None else value_with_error(x * scale, None, unit)
+    return out
+
+
 def _bar(p_Pa):
     return None if p_Pa is None else p_Pa / 1e5
 
@@ -32,19 +43,21 @@ def _state_point_lines(rec):
              else f"rho = {sp['density_mol_m3']:.6g} mol/m^3")
     how = f" ({ini['density_from']})" if ini.get("density_from") else ""
     q = " (with quantum correction)" if v["quantum_correction"] else ""
+    c = _coefficients(v)
     lines = [f"state point {rec['index']}: T = {sp['temperature_K']:.6g} K, {state}, "
              f"volume ratio {sp['volume_ratio']:.6g}",
              f"  initial density        {_g(ini['density_mol_m3'])} mol/m^3{how}",
              f"  initial pressure       {_g(_bar(ini['pressure_Pa']))} bar",
-             f"  B2, dB2/dT at T_i      {_g(v['B2_m3_mol'], '.5g')} m^3/mol, "
-             f"{_g(v['dB2_dT_m3_molK'], '.5g')} m^3/(mol K){q}",
-             f"  B3, dB3/dT at T_i      {_g(v['B3_m6_mol2'], '.5g')} m^6/mol^2, "
-             f"{_g(v['dB3_dT_m6_mol2K'], '.5g')} m^6/(mol^2 K)"]
+             f"  B2, dB2/dT at T_i      {c['B2_m3_mol']}, {c['dB2_dT_m3_molK']}{q}",
+             f"  B3, dB3/dT at T_i      {c['B3_m6_mol2']}, {c['dB3_dT_m6_mol2K']}"]
     for route, label in (("virial_b2", "Delta T, B2 only"), ("virial_b2b3", "Delta T, B2 + B3")):
         entry = rec["delta_T_K"].get(route)
         lines.append(f"  {label:<22} {_g(entry['value'] if entry else None, '.5g', 'K')}")
     if fin["source"] is not None:
-        lines.append(f"  final state ({fin['source']})  T = {_g(fin['temperature_K'])} K, "
+        T_f = ("unavailable" if fin["temperature_K"] is None else
+               value_with_error(fin["temperature_K"], fin.get("temperature_stderr_K"), "K",
+                                digits=6))
+        lines.append(f"  final state ({fin['source']})  T = {T_f}, "
                      f"p = {_g(_bar(fin['pressure_Pa']))} bar, "
                      f"rho = {_g(fin['density_mol_m3'])} mol/m^3")
     lines.append(f"  entropy generated      {_g(rec['entropy_generated_J_molK'], '.5g')} "

@@ -2,12 +2,16 @@
 
 Both commands run a study through :func:`mdsim.pipeline.run_study.run_study`
 and report its :class:`~mdsim.pipeline.run_study.StudyRun` the same way:
-the summary as JSON when asked, a closing line, and, with a job array, what
-was written or submitted and the command lines to watch, submit or gather.
+the summary as JSON when asked, one result line per state point (Delta T
+and T_f with their errors, by :func:`mdsim.numbers.value_with_error`), a
+closing line, and, with a job array, what was written or submitted and the
+command lines to watch, submit or gather.
 """
 from mdsim.cli.options import print_json, say
+from mdsim.numbers import value_with_error
+from mdsim.study.routes import ROUTE_LABELS
 
-__all__ = ["EXIT_TASKS_FAILED", "print_study_run"]
+__all__ = ["EXIT_TASKS_FAILED", "print_study_run", "result_lines"]
 
 #: Exit status of a run in which some task has no result.
 EXIT_TASKS_FAILED = 1
@@ -43,6 +47,41 @@ def _array_lines(result, study_arg):
     return []
 
 
+def result_lines(summary):
+    """One line per state point: Delta T and T_f of its best route, each with its error.
+
+    Parameters
+    ----------
+    summary : dict
+        :func:`mdsim.pipeline.summary.run_summary` (``state_points``: records).
+
+    Returns
+    -------
+    list of str
+
+    Examples
+    --------
+    >>> rec = {"index": 0, "delta_T_K": {"energy": {"value": -5.4666, "stderr": 0.04237}},
+    ...        "final": {"temperature_K": 289.6834, "temperature_stderr_K": 0.04237,
+    ...                  "source": "energy"}}
+    >>> result_lines({"state_points": [rec]})
+    ['state point 0: Delta T = -5.467 ± 0.042 K, T_f = 289.683 ± 0.042 K (energy)']
+    """
+    lines = []
+    for rec in summary.get("state_points", []):
+        fin = rec.get("final") or {}
+        source = fin.get("source")
+        entry = rec.get("delta_T_K", {}).get(source) if source else None
+        if not entry or entry.get("value") is None or fin.get("temperature_K") is None:
+            lines.append(f"state point {rec['index']}: no route gave a result")
+            continue
+        dT = value_with_error(entry["value"], entry.get("stderr"), "K")
+        T_f = value_with_error(fin["temperature_K"], fin.get("temperature_stderr_K"), "K", 6)
+        lines.append(f"state point {rec['index']}: Delta T = {dT}, T_f = {T_f} "
+                     f"({ROUTE_LABELS.get(source, source)})")
+    return lines
+
+
 def print_study_run(result, study_arg, json_out=False, quiet=False):
     """Print what a study run did; return the exit status.
 
@@ -72,6 +111,9 @@ def print_study_run(result, study_arg, json_out=False, quiet=False):
     if json_out:
         print_json(result.summary)
     from mdsim.pipeline.prepare import as_run_dir
+    lines = result_lines(result.summary)
+    if lines:
+        say("\n".join(lines), quiet)
     n = len(result.tasks)
     say(f"run directory {result.run_dir}: {n - len(result.failed)} of {n} tasks complete; "
         f"report {as_run_dir(result.run_dir).report_md}", quiet)

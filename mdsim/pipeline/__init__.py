@@ -14,7 +14,7 @@ and its CPU ledger), ``chain`` (pilot and production stage files),
 ``routes/`` (one runner per simulation route), ``runner`` (``run_task``)
 and ``taskfile`` (task and failure files); ``jobs`` (a task as an executor
 job); ``collect``, ``summary``, ``results_files``, ``plot_data``, ``plots``,
-``figures``, ``report_md`` and ``report`` (``build_report``).
+``figures``, ``report_tables``, ``report_md`` and ``report`` (``build_report``).
 """
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.plan import plan_tasks

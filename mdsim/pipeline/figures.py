@@ -8,7 +8,7 @@ from mdsim.errors import ConvergenceError, StudyError
 from mdsim.pipeline import plot_data, plots
 from mdsim.pipeline.collect import task_state_point
 
-__all__ = ["draw_figures", "task_figures", "earlier_figures"]
+__all__ = ["draw_figures", "task_figures", "earlier_figures", "run_inversion"]
 
 
 def task_figures(study, points_by_index, gathered, vg, cv, plots_dir):
@@ -34,13 +34,40 @@ def task_figures(study, points_by_index, gathered, vg, cv, plots_dir):
             data, why = plot_data.series_plot_data(sp, route, result, series)
             if data is not None:
                 made[k] = plots.plot_series(data["series"], data["title"], stem, x=data["x"],
-                                            final_T_K=data["final_T_K"])
+                                            final_T_K=data["final_T_K"],
+                                            final_T_stderr_K=data["final_T_stderr_K"])
         if k not in made:
             notes.append(f"task {k} ({route}, state point {sp.index}): no plot ({why})")
     return made, notes
 
 
-def draw_figures(rd, study, points, records, gathered, vg, cv):
+def run_inversion(vg, records):
+    """The virial Joule inversion of a run, computed whether or not figures are drawn.
+
+    Parameters
+    ----------
+    vg : analysis.virial.VirialGas
+    records : list of dict
+        The state-point records.
+
+    Returns
+    -------
+    inversion : dict or None
+        :func:`mdsim.pipeline.plot_data.inversion_data`'s inversion; None
+        when it could not be computed.
+    states : list of tuple
+        The run's expansions (rho_i, T_i, rho_f, T_f) for the inversion plot.
+    notes : list of str
+        Why the inversion is absent, when it is.
+    """
+    try:
+        inversion, states = plot_data.inversion_data(vg, records)
+    except (StudyError, ConvergenceError) as exc:
+        return None, [], [f"Joule inversion curve not computed: {exc}"]
+    return inversion, states, []
+
+
+def draw_figures(rd, study, points, records, gathered, vg, cv, inversion=None, states=()):
     """Draw every figure of a run.
 
     Parameters
@@ -54,6 +81,10 @@ def draw_figures(rd, study, points, records, gathered, vg, cv):
         :func:`mdsim.pipeline.collect.gather_tasks`.
     vg, cv
         :func:`mdsim.pipeline.plot_data.virial_model`.
+    inversion : dict or None
+        :func:`run_inversion`; its curve is drawn when given.
+    states : sequence of tuple
+        The run's expansions, from :func:`run_inversion`.
 
     Returns
     -------
@@ -61,8 +92,6 @@ def draw_figures(rd, study, points, records, gathered, vg, cv):
         Title and files of each figure drawn.
     plot_notes : list of str
         Figures not drawn, and why.
-    inversion : dict or None
-        The virial Joule inversion, None when it could not be computed.
     """
     rd.plots_dir.mkdir(parents=True, exist_ok=True)
     panels = plot_data.delta_T_panels(study, points, records, vg, cv)
@@ -74,17 +103,12 @@ def draw_figures(rd, study, points, records, gathered, vg, cv):
         task = gathered["results"][k][0]
         plot_files.append((f"Task {k}: {task.get('route')} route, state point "
                            f"{task_state_point(task)}", paths))
-    inversion = None
-    try:
-        inversion, states = plot_data.inversion_data(vg, records)
-    except (StudyError, ConvergenceError) as exc:
-        plot_notes.append(f"Joule inversion curve not computed: {exc}")
-    else:
+    if inversion is not None:
         plot_files.append(("Joule inversion curve", plots.plot_inversion(
-            {**inversion, "states": states,
+            {**inversion, "states": list(states),
              "title": f"{study.name}: Joule inversion curve (virial B2 + B3) and the run's "
                       "expansions"}, rd.plots_dir / "inversion")))
-    return plot_files, plot_notes, inversion
+    return plot_files, plot_notes
 
 
 def earlier_figures(rd):

@@ -200,7 +200,7 @@ def series_plot_data(sp, route, result, series):
         return None, "no time series stored"
     final = result.get("final_temperature_K") or {}
     return {"series": one_d, "title": f"{route} route, state point {sp.index}: convergence",
-            "x": x, "final_T_K": final.get("value")}, None
+            "x": x, "final_T_K": final.get("value"), "final_T_stderr_K": final.get("stderr")}, None
 
 
 def inversion_data(vg, records):

@@ -15,6 +15,8 @@ from pathlib import Path
 
 import numpy as np
 
+from mdsim.numbers import value_with_error
+
 __all__ = ["figure", "save", "plot_delta_T", "plot_energy_route", "plot_direct", "plot_series",
            "plot_inversion", "ROUTE_STYLE"]
 
@@ -186,7 +188,7 @@ def plot_energy_route(data, stem):
         width = s_f if (s_f is not None and np.isfinite(s_f)) else 0.0
         ax.axvspan(T_f - width, T_f + width, color="tab:red", alpha=0.15, lw=0)
         ax.axvline(T_f, color="tab:red", lw=1.0,
-                   label=f"T_f = {T_f:.2f} +/- {width:.2g} K")
+                   label=f"T_f = {value_with_error(T_f, s_f, 'K')}")
     ax.set_xlabel("temperature T (K)")
     ax.set_ylabel("residual energy u_res (J/mol)")
     ax.set_title(data["title"], fontsize=10)
@@ -220,7 +222,7 @@ def plot_direct(data, stem):
     T_f = data.get("final_T_K")
     if T_f is not None and np.isfinite(T_f):
         ax.axhline(T_f, color="tab:purple", ls="--", lw=1.0,
-                   label=f"T_f = {T_f:.2f} +/- {data.get('final_T_stderr_K') or 0.0:.2g} K "
+                   label=f"T_f = {value_with_error(T_f, data.get('final_T_stderr_K'), 'K')} "
                          "(corrected to the full potential)")
     ax.set_ylabel("temperature (K)")
     ax.set_title(data["title"], fontsize=10)
@@ -239,7 +241,8 @@ def plot_direct(data, stem):
     return save(fig, stem)
 
 
-def plot_series(series, title, stem, x_label="sample", x=None, final_T_K=None):
+def plot_series(series, title, stem, x_label="sample", x=None, final_T_K=None,
+                final_T_stderr_K=None):
     """Convergence series of a route (for example the microcanonical kinetic temperature).
 
     Parameters
@@ -253,6 +256,8 @@ def plot_series(series, title, stem, x_label="sample", x=None, final_T_K=None):
         The abscissa (default 0, 1, 2, ...).
     final_T_K : float, optional
         The route's T_f, drawn on the panels whose name holds "temperature".
+    final_T_stderr_K : float, optional
+        Its standard error, written in the label.
 
     Returns
     -------
@@ -265,7 +270,8 @@ def plot_series(series, title, stem, x_label="sample", x=None, final_T_K=None):
         xs = np.arange(y.size) if x is None or np.size(x) != y.size else np.asarray(x, float)
         ax.plot(xs, y, lw=0.8, color="tab:green")
         if final_T_K is not None and np.isfinite(final_T_K) and "temperature" in name:
-            ax.axhline(final_T_K, color="k", ls="--", lw=0.9, label=f"T_f = {final_T_K:.2f} K")
+            ax.axhline(final_T_K, color="k", ls="--", lw=0.9,
+                       label=f"T_f = {value_with_error(final_T_K, final_T_stderr_K, 'K')}")
             ax.legend(fontsize=8, loc="best")
         ax.set_ylabel(name, fontsize=8)
         ax.grid(alpha=0.3)
@@ -303,10 +309,11 @@ def plot_inversion(data, stem):
     ax.plot([0.0], [data["joule_inversion_zero_density_K"]], "*", color="tab:blue", ms=11,
             clip_on=False,
             label=f"zero-density Joule inversion (max of B2): "
-                  f"{data['joule_inversion_zero_density_K']:.4g} K")
+                  f"{value_with_error(data['joule_inversion_zero_density_K'], None, 'K')}")
     ax.plot([0.0], [data["joule_thomson_inversion_zero_pressure_K"]], "x", color="tab:gray",
             ms=9, mew=2, clip_on=False, label="Joule-Thomson (throttling) inversion at p -> 0: "
-            f"{data['joule_thomson_inversion_zero_pressure_K']:.4g} K (a different process)")
+            f"{value_with_error(data['joule_thomson_inversion_zero_pressure_K'], None, 'K')} "
+            "(a different process)")
     for k, (rho_i, T_i, rho_f, T_f) in enumerate(data["states"]):
         ax.plot([rho_i], [T_i], "o", color="k", ms=5, label="initial states" if k == 0 else None)
         if np.isfinite(T_f):

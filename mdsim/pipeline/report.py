@@ -25,7 +25,7 @@ import os
 
 from mdsim.errors import StudyError
 from mdsim.pipeline.collect import gather_tasks, state_point_records
-from mdsim.pipeline.figures import draw_figures, earlier_figures
+from mdsim.pipeline.figures import draw_figures, earlier_figures, run_inversion
 from mdsim.pipeline.plot_data import virial_model
 from mdsim.pipeline.report_md import write_report_md
 from mdsim.pipeline.results_files import csv_rows, write_csv, write_results_json
@@ -55,8 +55,9 @@ def build_report(run_dir, *, plots=True):
         JSON of ``mdsim run --json``), with two more keys: ``tasks``
         (``done``: indices; ``failed``: {index, route, state_point_index,
         error}; ``missing``: {index, route, state_point_index, state}) and
-        ``files`` (paths written, relative to the run directory); with
-        plots, also ``inversion`` (the virial Joule inversion).
+        ``files`` (paths written, relative to the run directory); and
+        ``inversion`` (the virial Joule inversion) when it could be
+        computed, with or without plots.
 
     Raises
     ------
@@ -77,16 +78,19 @@ def build_report(run_dir, *, plots=True):
     summary["tasks"] = {"done": sorted(gathered["results"]), "failed": gathered["failed"],
                         "missing": gathered["missing"]}
     vg, cv = virial_model(study)
+    # the inversion is a result, not a figure: computed with or without plots
+    inversion, states, inversion_notes = run_inversion(vg, records)
+    if inversion is not None:
+        summary["inversion"] = inversion
     written = []
     if plots:
-        plot_files, plot_notes, inversion = draw_figures(rd, study, points, records, gathered,
-                                                         vg, cv)
-        if inversion is not None:
-            summary["inversion"] = inversion
+        plot_files, plot_notes = draw_figures(rd, study, points, records, gathered, vg, cv,
+                                              inversion, states)
         for _, paths in plot_files:
             written += paths
     else:  # not redrawn this time: keep pointing at the figures an earlier build made
-        (plot_files, plot_notes), inversion = earlier_figures(rd), None
+        plot_files, plot_notes = earlier_figures(rd)
+    plot_notes = plot_notes + inversion_notes
     write_csv(rd.results_csv, csv_rows(points, records, gathered))
     written += [rd.results_csv, rd.report_md, rd.results_json]
     summary["files"] = sorted(os.path.relpath(p, rd.path) for p in written)

@@ -11,10 +11,12 @@ import platform
 import time
 
 from mdsim.files import atomic_write_text
+from mdsim.numbers import value_with_error
+from mdsim.pipeline.report_tables import results_table, virial_table
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.results_files import seed_text
-from mdsim.pipeline.summary import best_simulation, value_stderr
-from mdsim.study.routes import ROUTE_LABELS as ROUTE_NAMES, ROUTES, VIRIAL_ROUTES
+from mdsim.pipeline.summary import best_simulation
+from mdsim.study.routes import ROUTE_LABELS as ROUTE_NAMES, VIRIAL_ROUTES
 
 __all__ = ["write_report_md", "CAUTIONS", "PACKAGES"]
 
@@ -44,13 +46,9 @@ def _versions():
     return out
 
 
-def _fmt(value, stderr=None, digits=4):
-    """A value (and its standard error) for a table cell; "-" when absent."""
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "-"
-    if stderr is None or not math.isfinite(stderr):
-        return f"{value:.{digits}g}"
-    return f"{value:.{digits}g} ± {stderr:.2g}"
+def _signed(text):
+    """A difference written with its sign, '+' included."""
+    return text if text.startswith("-") else "+" + text
 
 
 def _potential_lines(study):
@@ -90,8 +88,6 @@ def _settings_lines(study, gathered):
     sim = study.simulation or {}
     routes = sorted({t.get("route") for t in gathered["planned"]} - {None})
     seeds = sorted({seed_text(t) for t in gathered["planned"]})
-    particles = sorted({str(res.get("n_particles")) for _, res, _ in
-                        gathered["results"].values() if res.get("n_particles") is not None})
     cpu = sum(float(res.get("cpu_seconds") or 0.0) for _, res, _ in gathered["results"].values())
     stopped = {}
     for _, res, _ in gathered["results"].values():
@@ -101,34 +97,12 @@ def _settings_lines(study, gathered):
         f"{', '.join(routes) if routes else 'none'}",
         f"- target standard error of Delta T: {_with_unit(sim.get('target_stderr'), 'K')}; "
         f"CPU budget per task: {_with_unit(sim.get('max_cpu_time'), 's')}",
-        f"- particles: {', '.join(particles) if particles else 'no finished simulation task'}",
         f"- study seed: {sim.get('seed', 'default')}; task seeds: {', '.join(seeds) or '-'}",
         f"- simulation tasks: {len(gathered['planned'])} planned, {len(gathered['results'])} done "
         f"(stopped by: " + (", ".join(f"{k} {v}" for k, v in sorted(stopped.items())) or "-")
         + f"), {len(gathered['failed'])} failed, {len(gathered['missing'])} not finished; "
         f"CPU time of the finished tasks {cpu:.1f} s",
     ]
-
-
-def _results_table(points, records):
-    """The Markdown results table: one row per state point, Delta T of every route."""
-    head = ["state point", "T_i (K)", "p_i (bar)", "rho_i (mol/m^3)", "V_f/V_i"]
-    head += [f"ΔT {ROUTE_NAMES[r]} (K)" for r in ROUTES]
-    head += ["T_f (K)", "T_f from", "Δs (J/(mol K))"]
-    lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
-    for sp, rec in zip(points, records):
-        ini, fin = rec["initial"], rec["final"]
-        p = ini.get("pressure_Pa")
-        cells = [str(sp.index), _fmt(ini.get("temperature_K"), None, 6),
-                 _fmt(None if p is None else p / 1e5), _fmt(ini.get("density_mol_m3")),
-                 f"{sp.volume_ratio:g}"]
-        for route in ROUTES:
-            v, s = value_stderr(rec["delta_T_K"].get(route))
-            cells.append(_fmt(v, s))
-        cells += [_fmt(fin.get("temperature_K"), None, 6), str(fin.get("source") or "-"),
-                  _fmt(rec.get("entropy_generated_J_molK"))]
-        lines.append("| " + " | ".join(cells) + " |")
-    return lines
 
 
 def _assumptions(study, cv):
@@ -177,10 +151,12 @@ def _comparison_lines(points, records):
                 continue
             d = vir["value"] - sim["value"]
             z = abs(d) / sim["stderr"] if sim.get("stderr") else math.inf
-            parts.append(f"{ROUTE_NAMES[route]} {d:+.3g} K ({z:.1f} standard errors"
+            diff = _signed(value_with_error(d, sim.get("stderr"), "K"))
+            parts.append(f"{ROUTE_NAMES[route]} {diff} ({z:.1f} standard errors"
                          + (", departs" if z > 3.0 else "") + ")")
         rows.append(f"- state point {sp.index} ({sp.label()}): against the {sim['route']} route "
-                    f"({_fmt(sim['value'], sim.get('stderr'))} K): " + "; ".join(parts))
+                    f"({value_with_error(sim['value'], sim.get('stderr'), 'K')}): "
+                    + "; ".join(parts))
     if not rows:
         return L + ["No simulation route finished: the virial estimates stand unchecked.", ""]
     return L + ["Virial Delta T minus the simulation's; more than 3 standard errors apart is "
@@ -210,10 +186,15 @@ def _what_was_run(study, gathered, rd):
 def _results(points, records, rd):
     """The results table and where the full numbers are."""
     L = ["## Results", "",
-         "Delta T = T_f - T_i (negative: the gas cools), one standard error after ±. "
+         "Delta T = T_f - T_i (negative: the gas cools), one standard error after ± (to two "
+         "significant figures, the value rounded to the same place). "
          "T_f is from the best route available (energy, then microcanonical, then direct, "
          "then virial B2+B3). Δs is the entropy generated per mole.", ""]
-    L += _results_table(points, records) + [""]
+    L += results_table(points, records) + [""]
+    L += ["The particles column gives N of the state point's simulation tasks, per route "
+          "when the routes differ. The virial coefficients of the pair potential at T_i "
+          "(with the quantum correction when the study asks for it):", ""]
+    L += virial_table(points, records) + [""]
     L += ["Every state point and route, with the final states and the task settings, is in "
           f"`{rd.results_csv.name}`; the same numbers as JSON in `{rd.results_json.name}`.", ""]
     return L
@@ -262,10 +243,12 @@ def _inversion(inversion):
         return []
     L = ["## Joule inversion (virial route, B2 + B3)", "",
          f"- zero-density Joule (free-expansion) inversion temperature, the maximum of "
-         f"B2(T): {inversion['joule_inversion_zero_density_K']:.5g} K; a free expansion "
+         f"B2(T): {value_with_error(inversion['joule_inversion_zero_density_K'], None, 'K')}; "
+         "a free expansion "
          "from a dilute state cools the gas below it and warms it above it.",
          f"- zero-pressure Joule-Thomson (throttling) inversion temperature: "
-         f"{inversion['joule_thomson_inversion_zero_pressure_K']:.5g} K. This is a "
+         f"{value_with_error(inversion['joule_thomson_inversion_zero_pressure_K'], None, 'K')}. "
+         "This is a "
          "different process (flow through a valve at constant enthalpy), listed because "
          "the two are often confused.", ""]
     L += [f"- {n}" for n in inversion.get("notes", [])[1:]]

@@ -286,3 +286,23 @@ def test_check_simulates_measured_states_when_the_study_asks(tmp_path, capsys):
     assert main(["check", str(study_path), "--data", str(data), "--out", str(tmp_path / "o2"),
                  "--json", "--quiet", "--no-simulate"]) == 0
     assert "virial" in _json.loads(capsys.readouterr().out)["rows"][0]["route"]
+
+
+def test_check_text_rounds_each_value_to_its_error(result):
+    from mdsim.cli.cmd_check import format_check
+    text = "\n".join(format_check(result))
+    # configs/demo_measurements.csv line 5: -3.91072 +- 0.05 K, written -3.911 ± 0.050;
+    # line 8: -18.14249 +- 0.1 K, written -18.14 ± 0.10
+    assert "  -3.911 ± 0.050 " in text and "  -18.14 ± 0.10 " in text
+    assert "+/-" not in text
+
+
+def test_check_text_writes_fit_parameters_by_the_two_figure_rule(result):
+    from mdsim.cli.cmd_check import format_check
+    fit = {"form": "lennard-jones", "route": "virial B2+B3", "points_used": 19,
+           "parameters": ["epsilon_K"], "correlation": -0.9975, "chi2_per_dof": 0.686,
+           "dof": 17, "p_value": 0.82, "verdict": "consistent",
+           "epsilon_K": {"value": 170.7049, "stderr": 2.4123, "stderr_scaled": 1.9981}}
+    lines = format_check({**result, "fit": fit})
+    # 2.4123 -> 2.4 and 1.9981 -> 2.0: one decimal each, the value to match
+    assert "  epsilon_K            170.7 ± 2.4   (scaled by sqrt(chi2/dof): 170.7 ± 2.0)" in lines

@@ -243,3 +243,53 @@ def test_command_modules_are_independent_of_the_dispatcher():
                 assert node.module != "mdsim.cli", (name, ast.unparse(node))
             if isinstance(node, ast.Import):
                 assert all(a.name != "mdsim.cli" for a in node.names), name
+
+
+def test_sample_text_rounds_each_value_to_its_error():
+    from mdsim.cli.cmd_sample import format_sample
+    entry = {"value": -1234.5678, "stderr": 12.345}
+    out = {"study": "s", "method": "mc-nvt", "particles": 64, "samples": 100, "interval": 1,
+           "temperature_K": {"value": 150.0, "stderr": 0.0}, "density_mol_m3": 6000.0,
+           "energy_J_mol": entry, "pressure_Pa": {"value": 2.0e6, "stderr": 3.14159e4},
+           "heat_capacity_res_J_molK": {"unavailable": "too few samples"},
+           "reduced": {"temperature": {"value": 1.2521, "stderr": 0.0}, "density": 0.141,
+                       "energy_J_mol": {"value": -1.23994, "stderr": 0.0123986},
+                       "pressure_Pa": {"value": 0.1, "stderr": 0.00157}},
+           "run_file": None, "resumed": False}
+    lines = format_sample(out)
+    assert lines[1] == "  temperature             150 (set) K   (reduced 1.2521 (set))"
+    # errors to two figures (12.345 -> 12, 31416 -> 31000, 0.0123986 -> 0.012), values to match
+    assert lines[3] == ("  configurational energy  -1235 ± 12 J/mol   "
+                        "(reduced -1.240 ± 0.012)")
+    assert lines[4] == "  pressure                2000000 ± 31000 Pa   (reduced 0.1000 ± 0.0016)"
+    assert lines[5] == "  residual heat capacity  unavailable: too few samples"
+
+
+def test_sample_text_through_main_matches_its_json(capsys):
+    from mdsim.numbers import value_with_error
+    argv = ["sample", ARGON, "--temperature", "150 K", "--density", "6000 mol/m^3"] + FAST
+    assert main(argv + ["--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert main(argv) == 0
+    text = capsys.readouterr().out
+    e = data["energy_J_mol"]
+    assert f"configurational energy  {value_with_error(e['value'], e['stderr'])} J/mol" in text
+
+
+def test_run_prints_each_state_point_with_rounded_errors(capsys, tmp_path):
+    from types import SimpleNamespace
+    from mdsim.cli.run_output import print_study_run
+    energy = {"index": 0, "delta_T_K": {"energy": {"value": -5.4666, "stderr": 0.04237}},
+              "final": {"temperature_K": 289.6834, "temperature_stderr_K": 0.04237,
+                        "source": "energy"}}
+    virial = {"index": 1, "delta_T_K": {"virial_b2b3": {"value": -10.98765, "stderr": None}},
+              "final": {"temperature_K": 284.16235, "temperature_stderr_K": None,
+                        "source": "virial_b2b3"}}
+    run = SimpleNamespace(summary={"state_points": [energy, virial]}, tasks=[{}], failed=[],
+                          run_dir=tmp_path, array_state=None)
+    assert print_study_run(run, "s.toml") == 0
+    err = capsys.readouterr().err.splitlines()
+    # 0.04237 K -> 0.042 K, the values to three decimals; a virial value keeps its figures
+    assert err[0] == "state point 0: Delta T = -5.467 ± 0.042 K, T_f = 289.683 ± 0.042 K (energy)"
+    assert err[1] == "state point 1: Delta T = -10.988 K, T_f = 284.162 K (virial B2+B3)"
+    assert err[2].startswith(f"run directory {tmp_path}: 1 of 1 tasks complete")

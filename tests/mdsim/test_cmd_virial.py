@@ -143,3 +143,58 @@ def test_inversion_simulated_points_agree_with_virial(capsys):
     signs = [joule_sign_virial_Pa(gas, g["temperature_K"], g["density_mol_m3"], order=3)
              for g in grid]
     assert signs[0] > 0 > signs[1]
+
+
+def test_virial_text_gives_coefficients_in_cm_units(capsys):
+    path = str(CONFIGS / "argon.toml")
+    rec = run_json(capsys, "virial", path, "--json")["state_points"][0]
+    assert main(["virial", path]) == 0
+    text = capsys.readouterr().out
+    b2_line = next(line for line in text.splitlines() if "B2, dB2/dT at T_i" in line)
+    b3_line = next(line for line in text.splitlines() if "B3, dB3/dT at T_i" in line)
+    assert b2_line.endswith(" cm^3/(mol K)") and " cm^3/mol, " in b2_line
+    assert b3_line.endswith(" cm^6/(mol^2 K)") and " cm^6/mol^2, " in b3_line
+    b2_cm3 = float(b2_line.split("T_i")[1].split()[0])
+    b3_cm6 = float(b3_line.split("T_i")[1].split()[0])
+    # 1 m^3 = 1e6 cm^3; five significant figures printed, so 1e-4 relative
+    assert b2_cm3 == pytest.approx(rec["virial"]["B2_m3_mol"] * 1e6, rel=1e-4)
+    assert b3_cm6 == pytest.approx(rec["virial"]["B3_m6_mol2"] * 1e12, rel=1e-4)
+    # against the independent quadrature above: B2 = N_A sigma^3 B2*(T/eps), sigma 3.405 A
+    # (configs/argon.toml); 1e-4 for the five printed figures
+    n_a_sigma3_cm3 = 6.02214076e23 * (3.405e-8) ** 3
+    assert b2_cm3 == pytest.approx(n_a_sigma3_cm3 * _lj_b2_reduced(295.15 / EPS_K), rel=1e-4)
+
+
+def test_virial_text_rounds_the_final_temperature_to_its_error():
+    from mdsim.cli.cmd_virial import format_virial_table
+    rec = {"index": 0, "state_point": {"pressure_Pa": 2.2e6, "density_mol_m3": None,
+                                       "temperature_K": 295.15, "volume_ratio": 2.0},
+           "initial": {"density_mol_m3": 909.4, "pressure_Pa": 2.2e6, "density_from": None},
+           "final": {"temperature_K": 289.6834, "temperature_stderr_K": 0.04237,
+                     "pressure_Pa": 1.0866e6, "density_mol_m3": 454.7, "source": "energy"},
+           "virial": {"B2_m3_mol": -1.646e-5, "dB2_dT_m3_molK": 2.09e-7,
+                      "B3_m6_mol2": 9.5188e-10, "dB3_dT_m6_mol2K": -1.6939e-12,
+                      "quantum_correction": False},
+           "delta_T_K": {"virial_b2": {"value": -5.4876, "stderr": None}},
+           "entropy_generated_J_molK": 5.7, "warnings": []}
+    lines = format_virial_table({"study": "s", "state_points": [rec]})
+    assert "  B2, dB2/dT at T_i      -16.46 cm^3/mol, 0.209 cm^3/(mol K)" in lines
+    assert "  B3, dB3/dT at T_i      951.88 cm^6/mol^2, -1.6939 cm^6/(mol^2 K)" in lines
+    # error 0.04237 K -> 0.042 K, the value to the same three decimals
+    assert any("T = 289.683 ± 0.042 K, p = 10.866 bar" in line for line in lines)
+
+
+def test_inversion_text_writes_a_simulated_point_with_its_error():
+    from mdsim.cli.cmd_inversion import format_inversion_table
+    out = {"study": "s", "joule_inversion_zero_density_K": 3013.28,
+           "joule_thomson_inversion_zero_pressure_K": 770.41, "notes": [],
+           "joule_inversion_curve": [
+               {"temperature_K": 3013.28, "density_mol_m3": 0.0, "pressure_Pa": 0.0,
+                "source": "virial"},
+               {"temperature_K": 2801.234, "stderr_K": 43.7, "density_mol_m3": 1000.0,
+                "pressure_Pa": 2.3e7, "source": "simulation"}]}
+    lines = format_inversion_table(out)
+    # error 43.7 K -> 44 K (two figures), so the value to whole kelvin
+    assert lines[-1].split() == ["2801", "±", "44", "1000", "230", "simulation"]
+    assert lines[-2].split() == ["3013.28", "0", "0", "virial"]
+    assert "3013.28 K   (maximum of B2)" in lines[1]

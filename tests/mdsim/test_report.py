@@ -12,6 +12,7 @@ import pytest
 from mdsim.cli import main
 from mdsim.errors import StudyError
 from mdsim.pipeline import build_report
+from mdsim.pipeline.report_tables import particle_cell, results_table, virial_table
 from mdsim.pipeline.results_files import CSV_COLUMNS
 
 EPS_K = 175.0  # epsilon/k of the test gas (K)
@@ -191,9 +192,16 @@ def test_report_md_has_cautions_settings_and_results(run_dir, summary):
     assert "None: every planned task finished." in text
     for stem in ("delta_T", "inversion"):
         assert f"(plots/{stem}.png)" in text
-    # the results table has one line per state point
-    assert sum(line.startswith("| 0 |") or line.startswith("| 1 |")
-               for line in text.splitlines()) == N_POINTS
+    # the results table has one line per state point, the particles of its tasks in a column
+    rows = [line for line in text.splitlines() if line.startswith(("| 0 |", "| 1 |"))]
+    assert len(rows) == 2 * N_POINTS  # the results table and the virial-coefficient table
+    assert all(line.split(" | ")[5] == "64" for line in rows[:N_POINTS])
+    assert "- particles:" not in text  # no separate list of particle counts
+    # T_f carries its error: the cell is exactly the two-figure rounding of the JSON numbers
+    from mdsim.numbers import value_with_error
+    fin = summary["state_points"][0]["final"]
+    tf_cell = value_with_error(fin["temperature_K"], fin["temperature_stderr_K"])
+    assert " ± " in tf_cell and f" {tf_cell} | energy |" in rows[0]
 
 
 @pytest.fixture()
@@ -240,6 +248,10 @@ def test_rebuild_from_the_files_gives_the_same_numbers(run_dir, summary, tmp_pat
     # a rebuild without drawing keeps showing the figures that are there, and says so
     text = (copy / "report.md").read_text()
     assert "](plots/delta_T.png)" in text and "not redrawn" in text
+    # and keeps every result: the Joule inversion is computed without drawing
+    assert again["inversion"] == summary["inversion"]
+    assert "## Joule inversion (virial route, B2 + B3)" in text
+    assert "## Results" in text and "## Virial estimates against simulation" in text
 
 
 def test_report_command_rebuilds_and_prints_json(damaged_copy, capsys):
@@ -253,3 +265,57 @@ def test_not_a_run_directory(tmp_path, capsys):
         build_report(tmp_path)
     assert main(["report", str(tmp_path / "nowhere")]) == 2
     assert "is not a directory" in capsys.readouterr().err
+
+
+def _synthetic_point():
+    """A state point and its record with made-up numbers whose rounding is worked by hand."""
+    from types import SimpleNamespace
+    sp = SimpleNamespace(index=0, volume_ratio=2.0, temperature_K=295.15)
+    rec = {"initial": {"temperature_K": 295.15, "pressure_Pa": 1.0e6,
+                       "density_mol_m3": 412.3456},
+           "final": {"temperature_K": 289.6834, "temperature_stderr_K": 0.04237,
+                     "source": "energy"},
+           "delta_T_K": {"virial_b2": {"value": -5.41234, "stderr": None},
+                         "energy": {"value": -5.4666, "stderr": 0.04237}},
+           "entropy_generated_J_molK": 5.7312,
+           "simulation": {"energy": {"n_particles": 1092}, "direct": {"n_particles": 2000}},
+           "virial": {"temperature_K": 295.15, "B2_m3_mol": -1.8765e-4,
+                      "dB2_dT_m3_molK": 1.234e-6, "B3_m6_mol2": 1.1e-8,
+                      "dB3_dT_m6_mol2K": -2.2e-11}}
+    return sp, rec
+
+
+def test_results_row_rounds_each_value_to_its_error():
+    sp, rec = _synthetic_point()
+    cells = results_table([sp], [rec])[2].strip("| ").split(" | ")
+    # error 0.04237 -> 0.042 (two figures), so the value to three decimals
+    assert cells[8] == "-5.467 ± 0.042"  # Delta T, energy route
+    assert cells[11] == "289.683 ± 0.042"  # T_f with its error
+    assert cells[6] == "-5.4123"  # a virial value has no error: five figures
+    assert cells[5] == "energy 1092, direct 2000"  # routes with different N, per route
+    assert cells[2] == "10" and cells[7] == "-"  # p_i in bar; a route not run
+
+
+def test_particle_cell_is_one_number_when_the_routes_agree():
+    assert particle_cell({"simulation": {"energy": {"n_particles": 64},
+                                         "direct": {"n_particles": 64}}}) == "64"
+    assert particle_cell({"simulation": {}}) == "-"
+
+
+def test_virial_table_is_in_cm_units():
+    sp, rec = _synthetic_point()
+    head, _, row = virial_table([sp], [rec])
+    assert "B2 (cm^3/mol)" in head and "B3 (cm^6/mol^2)" in head
+    assert "dB2/dT (cm^3/(mol K))" in head and "dB3/dT (cm^6/(mol^2 K))" in head
+    # -1.8765e-4 m^3/mol = -187.65 cm^3/mol; 1.1e-8 m^6/mol^2 = 11000 cm^6/mol^2
+    assert row.strip("| ").split(" | ") == ["0", "295.15", "-187.65", "1.234", "11000", "-22"]
+
+
+def test_plot_labels_write_T_f_with_its_rounded_error(monkeypatch, tmp_path):
+    from mdsim.pipeline import plots
+    drawn = []
+    monkeypatch.setattr(plots, "save", lambda fig, stem: drawn.append(fig) or [])
+    plots.plot_series({"temperature_K": np.linspace(290.0, 289.7, 20)}, "t", tmp_path / "s",
+                      final_T_K=289.6834, final_T_stderr_K=0.04237)
+    labels = [t.get_text() for ax in drawn[0].axes for t in ax.get_legend().get_texts()]
+    assert labels == ["T_f = 289.683 ± 0.042 K"]
