@@ -10,7 +10,6 @@ is named by :class:`~mdsim.pipeline.rundir.RunDir` (``docs/run-directory.md``).
 """
 import json
 import shutil
-from pathlib import Path
 
 from mdsim.errors import StudyError
 from mdsim.pipeline.rundir import RunDir
