@@ -298,22 +298,60 @@ class RunDir:
             path.unlink(missing_ok=True)
 
     # -- task states -----------------------------------------------------------------
-    def task_state(self, index):
-        """'done', 'partial' (a checkpoint exists), 'failed' or 'pending'.
+    def task_look(self, index):
+        """A task's state and, for a damaged task file, why; changes nothing.
 
-        A task file that is damaged (no completion marker, checksum mismatch,
-        unreadable) is moved aside as ``NNNN.h5.corrupt-<time>`` with a
-        warning, and the task counts as not done.
+        Returns
+        -------
+        state : str
+            'done' (a sound task file), 'damaged' (a task file that cannot
+            be trusted: no completion marker, checksum mismatch, unreadable),
+            'failed' (a failure note), 'partial' (a ``.part`` task file or a
+            stages folder: it resumes) or 'pending'.
+        reason : str or None
+            Why a damaged task file cannot be trusted (None for the others).
+
+        Notes
+        -----
+        Read-only, for ``mdsim status`` and the report: nothing is moved and
+        no warning is issued.  Only running the task (:meth:`task_state_for_run`)
+        moves a damaged task file aside.
+        """
+        from mdsim.sampling.store import verify
+        path = self.task_file(index)
+        if path.is_file():
+            reason = verify(path)
+            if reason is None:
+                return "done", None
+            return "damaged", reason
+        if self.failure_file(index).is_file():
+            return "failed", None
+        if self.partial_file(index).is_file() or self.stages_dir(index).is_dir():
+            return "partial", None
+        return "pending", None
+
+    def task_state(self, index):
+        """'done', 'damaged', 'failed', 'partial' or 'pending' (:meth:`task_look`; read-only)."""
+        return self.task_look(index)[0]
+
+    def task_state_for_run(self, index):
+        """A task's state as running it sees it: a damaged task file is moved aside first.
+
+        The damaged file is renamed ``NNNN.h5.corrupt-<time>``
+        (:func:`mdsim.sampling.store.move_aside`, with a
+        :class:`~mdsim.sampling.store.CorruptFileWarning` and a log line) and
+        the task counts as not done, so it is run again.  Only the run path
+        (``mdsim run``, ``mdsim task``) calls this.
+
+        Returns
+        -------
+        str
+            'done', 'failed', 'partial' or 'pending'.
         """
         from mdsim.sampling.store import check_finished
         if check_finished(self.task_file(index)):
             return "done"
-        if self.failure_file(index).is_file():
-            return "failed"
-        if self.partial_file(index).is_file() or self.stages_dir(index).is_dir():
-            return "partial"
-        return "pending"
-
+        return self.task_state(index)
 
 def _read_lock(path):
     try:

@@ -20,7 +20,6 @@ from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.routes import ROUTE_RUNNERS
 from mdsim.pipeline.task import RunningTask
 from mdsim.pipeline.taskfile import read_task_result, write_failure, write_task_file
-from mdsim.sampling import store
 
 __all__ = ["run_task", "DISK_ERRNOS"]
 
@@ -63,7 +62,7 @@ def run_task(run_dir, index, progress=None):
             or not 0 <= int(index) < len(tasks):
         raise StudyError(f"task index {index!r}: '{rd.path}' has tasks 0 to {len(tasks) - 1}")
     index = int(index)
-    if store.check_finished(rd.task_file(index)):  # a damaged task file is moved aside, re-run
+    if rd.task_state_for_run(index) == "done":  # a damaged task file is moved aside, re-run
         return read_task_result(rd.task_file(index))[1]
     rd.failure_file(index).unlink(missing_ok=True)
     try:
