@@ -97,6 +97,7 @@ def _run(rd, index, task, progress):
     wall0 = time.time()
     job = RunningTask(rd, task, progress=progress)
     res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)
+    job.stop_reason(res.delta_T_stderr_K)  # the target met is the reason, budget spent or not
     result = _result(job, res, pressure, extra)
     result["wall_seconds_last_run"] = time.time() - wall0
     if job.stopped_by == "cpu budget":
