@@ -61,20 +61,6 @@ class CpuLedger:
         """CPU seconds of every stage booked, s."""
         return float(sum(v["cpu_s"] for v in self.rows.values()))
 
-    def stop_reason(self, stderr_K):
-        """What ended the sampling, given the standard error of Delta T reached (K).
-
-        "target" whenever ``stderr_K`` is at or below the target, even when
-        the CPU budget ran out as well (the last stage cut short by the budget
-        may still have brought the error below the target); "cpu budget" only
-        when the budget ended sampling short of the target.  Sets
-        :attr:`stopped_by`, which the routes use while sampling to know that
-        the budget forbids more, and returns it.
-        """
-        if stderr_K <= self.target_K:
-            self.stopped_by = "target"
-        return self.stopped_by
-
     def cost_per_unit(self, kind):
         """CPU seconds per (particle x sweep or step) measured so far for a kind, or None."""
         rows = [v for v in self.rows.values() if v["kind"] == kind and v["units"] > 0]
