@@ -30,6 +30,7 @@ The lock file holds the owner's host name and process id.  A second
 a lock left by a process that no longer exists on this host is taken over.
 """
 import json
+import logging
 import os
 import shutil
 import socket
@@ -40,11 +41,13 @@ from mdsim.errors import StudyError
 from mdsim.files import atomic_write_text
 from mdsim.study.writer import INPUTS_DIR
 
-__all__ = ["RunDir", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
+__all__ = ["RunDir", "LOG_FORMAT", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
            "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
            "WALL_REMOVED_RELAXED", "STAGE_LABELS"]
 
 TASKS_FILE = "tasks.json"
+LOG_FORMAT = "%(asctime)s %(levelname)s %(name)s: %(message)s"
+"""One line of ``log.txt``: time, level, logger, message (every writer of the log uses it)."""
 LOCK_FILE = ".lock"
 SPACE_PER_TASK_BYTES = 4_000_000
 """Disk space one task needs, generously: its stage files (samples, checkpoints, final
@@ -134,8 +137,32 @@ class RunDir:
 
     @property
     def log_file(self):
-        """The log of ``mdsim run``, ``log.txt``."""
+        """The log of ``mdsim run`` and of each task, ``log.txt`` (:meth:`append_log`)."""
         return self.path / "log.txt"
+
+    def append_log(self, message, level=logging.INFO, name="mdsim"):
+        """Append one line to ``log.txt`` in the log's format (:data:`LOG_FORMAT`).
+
+        For a task that writes its own lines, in whatever process runs it
+        (a pool worker, a Dask worker, a job-array element) and whether or not
+        a terminal is attached.  The file is opened for appending and the line
+        written in one call, so lines of tasks running at once do not mix.
+
+        Parameters
+        ----------
+        message : str
+            Written on one line (runs of white space, line ends too, become one space).
+        level : int
+            A :mod:`logging` level.
+        name : str
+            The logger named in the line.
+        """
+        record = logging.makeLogRecord({"name": name, "levelno": level,
+                                        "levelname": logging.getLevelName(level),
+                                        "msg": " ".join(str(message).split())})
+        line = logging.Formatter(LOG_FORMAT).format(record) + "\n"
+        with open(self.log_file, "a", encoding="utf-8") as fh:
+            fh.write(line)
 
     @property
     def array_script(self):

@@ -213,3 +213,30 @@ def test_status_into_a_closed_pipe_ends_quietly(tmp_path, as_json):
     assert done.stderr == ""
     assert done.returncode == 0
     assert len(done.stdout) == 10
+
+
+def test_an_array_element_writes_its_start_and_end_into_log_txt(tmp_path):
+    import re
+    study = write_study(tmp_path, extra=SWEEP, initial_T="")
+    out = tmp_path / "run"
+    assert main(["run", str(study), "--out", str(out), "--on", "array", "--quiet"]) == 0
+    before = (out / "log.txt").read_text(encoding="utf-8")
+    # as a Slurm element runs it: no terminal on stdin, stdout or stderr
+    done = _cli("task", str(out), "--index", "1", stdin=subprocess.DEVNULL, timeout=300)
+    assert done.returncode == 0, done.stderr
+    _, res, _ = read_task_result(out / "tasks" / "0001.h5")
+    added = (out / "log.txt").read_text(encoding="utf-8")[len(before):].splitlines()
+    ours = [line for line in added if "mdsim.pipeline.runner" in line]
+    assert len(ours) == 2
+    stamp = r"\d{4}-\d\d-\d\d \d\d:\d\d:\d\d,\d{3} INFO mdsim\.pipeline\.runner: "
+    assert re.fullmatch(stamp + r"task 0001 started: energy route, state point 1 "
+                        r"\(T = 180 K, 2000 mol/m\^3\), 100 particles", ours[0])
+    end = re.fullmatch(stamp + r"task 0001 ended: stopped by (target|cpu budget); "
+                       r"(\d+) particles, standard error of Delta T (\S+) K "
+                       r"\(target (\S+) K\), (\S+) s CPU", ours[1])
+    assert end is not None, ours[1]
+    assert end.group(1) == res["stopped_by"] == "target"
+    assert int(end.group(2)) == res["n_particles"] == 100
+    assert float(end.group(3)) == pytest.approx(res["delta_T_K"]["stderr"], rel=5e-3)  # 3 figures
+    assert float(end.group(3)) <= float(end.group(4)) == pytest.approx(0.5)
+    assert float(end.group(5)) == pytest.approx(res["cpu_seconds"], abs=0.05)  # 0.1 s printed

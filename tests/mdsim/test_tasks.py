@@ -118,6 +118,13 @@ def test_a_user_error_in_a_task_keeps_its_message(tmp_path):
         run_task(rd.path, 0)
     info = json.loads(rd.failure_file(0).read_text())
     assert "outside the range" in info["error"]
+    # the task's own lines in log.txt: its start, then its failure with the error
+    lines = rd.log_file.read_text(encoding="utf-8").splitlines()
+    assert len(lines) == 2
+    assert lines[0].endswith("INFO mdsim.pipeline.runner: task 0000 started: energy route, "
+                             "state point 0 (T = 150 K, 2000 mol/m^3), 100 particles")
+    assert "ERROR mdsim.pipeline.runner: task 0000 ended: failed (100 particles, " in lines[1]
+    assert lines[1].endswith(": " + " ".join(info["error"].split()))
     assert "traceback" not in info  # a user error keeps its message, not a traceback
     assert rd.task_state(0) == "failed"
 
