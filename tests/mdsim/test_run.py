@@ -9,6 +9,7 @@ import time
 import pytest
 
 from mdsim.cli import main
+from mdsim.numbers import value_with_error
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline import read_task_result
 
@@ -196,6 +197,11 @@ def test_status_reports_a_damaged_task_file_and_leaves_it_only_run_moves_it(tmp_
     assert len(aside) == 1 and aside[0].read_bytes() == damaged
     assert RunDir(out).task_state(0) == "done"
     assert _results(out) == first  # redone from its stage files to the same numbers
+    seen = _cli("status", str(out), timeout=120)
+    _, res, _ = read_task_result(out / "tasks" / "0000.h5")
+    d = res["delta_T_K"]
+    assert f" done     Delta T = {value_with_error(d['value'], d['stderr'], 'K')} (stopped by " \
+           f"target, {res['cpu_seconds']:.1f} s CPU)" in seen.stdout
 
 
 @pytest.mark.parametrize("as_json", [True, False])
@@ -240,3 +246,8 @@ def test_an_array_element_writes_its_start_and_end_into_log_txt(tmp_path):
     assert float(end.group(3)) == pytest.approx(res["delta_T_K"]["stderr"], rel=5e-3)  # 3 figures
     assert float(end.group(3)) <= float(end.group(4)) == pytest.approx(0.5)
     assert float(end.group(5)) == pytest.approx(res["cpu_seconds"], abs=0.05)  # 0.1 s printed
+    # its one line on stderr writes the error by the two-figure rule
+    d = res["delta_T_K"]
+    assert done.stderr.splitlines()[-1] == (
+        f"task 0001 (energy): Delta T = {value_with_error(d['value'], d['stderr'], 'K')}, "
+        f"stopped by target, {res['cpu_seconds']:.1f} s CPU")
