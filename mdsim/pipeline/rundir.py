@@ -141,21 +141,13 @@ class RunDir:
         return self.path / "log.txt"
 
     def append_log(self, message, level=logging.INFO, name="mdsim"):
-        """Append one line to ``log.txt`` in the log's format (:data:`LOG_FORMAT`).
+        """Append ``message`` as one line to ``log.txt`` (:data:`LOG_FORMAT`, logger ``name``).
 
-        For a task that writes its own lines, in whatever process runs it
-        (a pool worker, a Dask worker, a job-array element) and whether or not
-        a terminal is attached.  The file is opened for appending and the line
-        written in one call, so lines of tasks running at once do not mix.
-
-        Parameters
-        ----------
-        message : str
-            Written on one line (runs of white space, line ends too, become one space).
-        level : int
-            A :mod:`logging` level.
-        name : str
-            The logger named in the line.
+        For a task's own lines, from whatever process runs it (pool worker,
+        Dask worker, job-array element), with or without a terminal.  One
+        write in append mode: lines of tasks running at once do not mix.
+        White space in ``message`` (line ends too) becomes single spaces;
+        ``level`` is a :mod:`logging` level.
         """
         record = logging.makeLogRecord({"name": name, "levelno": level,
                                         "levelname": logging.getLevelName(level),
@@ -326,23 +318,15 @@ class RunDir:
 
     # -- task states -----------------------------------------------------------------
     def task_look(self, index):
-        """A task's state and, for a damaged task file, why; changes nothing.
+        """(state, reason): a task's state and why its task file is damaged; changes nothing.
 
-        Returns
-        -------
-        state : str
-            'done' (a sound task file), 'damaged' (a task file that cannot
-            be trusted: no completion marker, checksum mismatch, unreadable),
-            'failed' (a failure note), 'partial' (a ``.part`` task file or a
-            stages folder: it resumes) or 'pending'.
-        reason : str or None
-            Why a damaged task file cannot be trusted (None for the others).
-
-        Notes
-        -----
-        Read-only, for ``mdsim status`` and the report: nothing is moved and
-        no warning is issued.  Only running the task (:meth:`task_state_for_run`)
-        moves a damaged task file aside.
+        ``state`` is 'done' (a sound task file), 'damaged' (a task file that
+        cannot be trusted: no completion marker, checksum mismatch,
+        unreadable; ``reason`` says which, else None), 'failed' (a failure
+        note), 'partial' (a ``.part`` task file or a stages folder: it
+        resumes) or 'pending'.  Read-only, for ``mdsim status`` and the
+        report: nothing is moved, no warning issued; only running the task
+        (:meth:`task_state_for_run`) moves a damaged task file aside.
         """
         from mdsim.sampling.store import verify
         path = self.task_file(index)
@@ -362,18 +346,11 @@ class RunDir:
         return self.task_look(index)[0]
 
     def task_state_for_run(self, index):
-        """A task's state as running it sees it: a damaged task file is moved aside first.
+        """'done', 'failed', 'partial' or 'pending': a damaged task file is moved aside first.
 
-        The damaged file is renamed ``NNNN.h5.corrupt-<time>``
-        (:func:`mdsim.sampling.store.move_aside`, with a
-        :class:`~mdsim.sampling.store.CorruptFileWarning` and a log line) and
-        the task counts as not done, so it is run again.  Only the run path
-        (``mdsim run``, ``mdsim task``) calls this.
-
-        Returns
-        -------
-        str
-            'done', 'failed', 'partial' or 'pending'.
+        It is renamed ``NNNN.h5.corrupt-<time>`` (:func:`mdsim.sampling.store.move_aside`,
+        with a ``CorruptFileWarning`` and a log line) and the task runs again.
+        Only the run path (``mdsim run``, ``mdsim task``) calls this.
         """
         from mdsim.sampling.store import check_finished
         if check_finished(self.task_file(index)):
