@@ -346,16 +346,21 @@ class RunDir:
         return self.task_look(index)[0]
 
     def task_state_for_run(self, index):
-        """'done', 'failed', 'partial' or 'pending': a damaged task file is moved aside first.
+        """(state, damage): as :meth:`task_look`, but a damaged task file is moved aside first.
 
         It is renamed ``NNNN.h5.corrupt-<time>`` (:func:`mdsim.sampling.store.move_aside`,
-        with a ``CorruptFileWarning`` and a log line) and the task runs again.
-        Only the run path (``mdsim run``, ``mdsim task``) calls this.
+        with a ``CorruptFileWarning`` and a log line), ``state`` is what is left
+        ('failed', 'partial' or 'pending': the task runs again) and ``damage``
+        says why the file was moved (None when nothing was).  Only the run path
+        (``mdsim run``, ``mdsim task``) calls this.
         """
-        from mdsim.sampling.store import check_finished
-        if check_finished(self.task_file(index)):
-            return "done"
-        return self.task_state(index)
+        from mdsim.sampling.store import move_aside
+        state, damage = self.task_look(index)
+        if state != "damaged":
+            return state, None
+        move_aside(self.task_file(index), damage)
+        return self.task_state(index), damage
+
 
 def _read_lock(path):
     try:

@@ -62,10 +62,11 @@ def run_task(run_dir, index, progress=None):
             or not 0 <= int(index) < len(tasks):
         raise StudyError(f"task index {index!r}: '{rd.path}' has tasks 0 to {len(tasks) - 1}")
     index = int(index)
-    if rd.task_state_for_run(index) == "done":  # a damaged task file is moved aside, re-run
+    state, damage = rd.task_state_for_run(index)  # a damaged task file is moved aside, re-run
+    if state == "done":
         return read_task_result(rd.task_file(index))[1]
     rd.failure_file(index).unlink(missing_ok=True)
-    seen = {}
+    seen = {"damage": damage}
     try:
         result = _run_noting_failure(rd, index, tasks[index], progress, seen)
     except Exception as exc:
@@ -105,11 +106,14 @@ def _log_line(rd, message, level=logging.INFO):
         log.debug("'%s' cannot be written: %s", rd.log_file, exc)
 
 
-def _log_start(rd, job):
+def _log_start(rd, job, damage):
+    """The task's start line; ``damage``: why its task file was moved aside (or None)."""
     task = job.task
+    again = (f"; its task file was damaged ({damage}), moved aside: the task runs again"
+             if damage else "")
     _log_line(rd, f"task {job.index:04d} started: {task['route']} route, state point "
                   f"{job.state_point_index} (T = {job.T_i:.6g} K, "
-                  f"{job.rho_i:.6g} mol/m^3), {job.n_particles} particles")
+                  f"{job.rho_i:.6g} mol/m^3), {job.n_particles} particles{again}")
 
 
 def _cpu_text(rd, index, job):
@@ -150,7 +154,7 @@ def _run(rd, index, task, progress, seen):
                          "task files stay readable)")
     wall0 = time.time()
     job = seen["job"] = RunningTask(rd, task, progress=progress)
-    _log_start(rd, job)
+    _log_start(rd, job, seen["damage"])
     res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)
     job.stop_reason(res.delta_T_stderr_K)  # the target met is the reason, budget spent or not
     result = _result(job, res, pressure, extra)

@@ -99,7 +99,8 @@ def test_damaged_task_and_stage_files_are_moved_aside_and_redone(reference, tmp_
         assert rd.task_look(0) == ("damaged", "its checksum does not match its contents")
     assert rd.task_file(0).is_file() and not list(rd.tasks_dir.glob("0000.h5.corrupt-*"))
     with pytest.warns(store.CorruptFileWarning, match="moved aside"):
-        assert rd.task_state_for_run(0) == "partial"  # its stages folder is kept
+        assert rd.task_state_for_run(0) == ("partial",  # its stages folder is kept
+                                            "its checksum does not match its contents")
     assert len(list(rd.tasks_dir.glob("0000.h5.corrupt-*"))) == 1
     with pytest.warns(store.CorruptFileWarning) as caught:
         run_task(rd.path, 0)

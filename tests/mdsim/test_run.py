@@ -197,6 +197,11 @@ def test_status_reports_a_damaged_task_file_and_leaves_it_only_run_moves_it(tmp_
     assert len(aside) == 1 and aside[0].read_bytes() == damaged
     assert RunDir(out).task_state(0) == "done"
     assert _results(out) == first  # redone from its stage files to the same numbers
+    started = [line for line in (out / "log.txt").read_text(encoding="utf-8").splitlines()
+               if "task 0000 started" in line]
+    assert len(started) == 2  # the first run, then the run that redid it
+    assert started[1].endswith("100 particles; its task file was damaged (its completion "
+                               "marker is not set), moved aside: the task runs again")
     seen = _cli("status", str(out), timeout=120)
     _, res, _ = read_task_result(out / "tasks" / "0000.h5")
     d = res["delta_T_K"]
