@@ -1,5 +1,6 @@
 """``mdsim status RUN_DIR``: the tasks' states and the time spent; the scheduler's view beside them."""
-from mdsim.cli.options import print_json
+from mdsim.cli.options import print_json, print_out
+from mdsim.numbers import value_with_error
 
 HELP = "show the tasks of a run directory: done, running, failed, left; time spent"
 
@@ -24,8 +25,11 @@ def _task_line(row):
            f"{row['state']:<8}"
     if row["state"] == "done":
         d = row["delta_T_K"]
-        line += f" Delta T = {d['value']:.5g} +/- {d['stderr']:.2g} K " \
-                f"({row['stopped_by']}, {row['cpu_seconds']:.1f} s CPU)"
+        line += f" Delta T = {value_with_error(d['value'], d['stderr'], 'K')} " \
+                f"(stopped by {row['stopped_by']}, {row['cpu_seconds']:.1f} s CPU)"
+    elif row["state"] == "damaged":
+        line += f" task file damaged ({row['damage']}); 'mdsim run' moves it aside and " \
+                "runs the task again"
     elif row["state"] == "failed":
         line += f" {row['error']}"
     elif row["state"] == "running":
@@ -47,11 +51,13 @@ def run(args):
         print_json(data)
         return 0
     c = data["counts"]
+    damaged = sum(row["state"] == "damaged" for row in data["tasks"])
     lines = [f"{data['run_dir']}: {len(data['tasks'])} tasks: {c['done']} done, "
-             f"{c['running']} running, {c['failed']} failed, {c['left']} left; "
-             f"{data['cpu_seconds_total']:.1f} s CPU spent"]
+             f"{c['running']} running, {c['failed']} failed, {c['left']} left"
+             + (f" ({damaged} with a damaged task file)" if damaged else "")
+             + f"; {data['cpu_seconds_total']:.1f} s CPU spent"]
     if data.get("scheduler") is not None:
         lines.append(_scheduler_line(data["scheduler"]))
     lines += [_task_line(row) for row in data["tasks"]]
-    print("\n".join(lines))
+    print_out("\n".join(lines))
     return 0

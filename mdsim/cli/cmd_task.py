@@ -2,6 +2,7 @@
 import sys
 
 from mdsim.cli.options import nonnegative_int, print_json, verbose_logging
+from mdsim.numbers import value_with_error
 
 HELP = "run one task of a run directory (what an array-job element does)"
 OPTION_FOR_SETTING = {"index": "--index"}
@@ -23,7 +24,7 @@ def run(args):
         print_json(result)
     else:
         d = result["delta_T_K"]
-        print(f"task {args.index:04d} ({result['route']}): Delta T = {d['value']:.5g} +/- "
-              f"{d['stderr']:.2g} K, stopped by {result['stopped_by']}, "
-              f"{result['cpu_seconds']:.1f} s CPU", file=sys.stderr)
+        print(f"task {args.index:04d} ({result['route']}): Delta T = "
+              f"{value_with_error(d['value'], d['stderr'], 'K')}, stopped by "
+              f"{result['stopped_by']}, {result['cpu_seconds']:.1f} s CPU", file=sys.stderr)
     return 0

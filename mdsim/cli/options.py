@@ -13,7 +13,7 @@ import sys
 from mdsim.errors import StudyError
 
 __all__ = ["positive_int", "nonnegative_int", "quantity", "quantity_pair", "add_renamed_option",
-           "print_json", "say", "verbose_logging"]
+           "print_out", "print_json", "say", "verbose_logging"]
 
 
 def _int_at_least(name, minimum):
@@ -88,16 +88,24 @@ def add_renamed_option(parser, old, new):
                         default=argparse.SUPPRESS)
 
 
-def print_json(data, default=None):
-    """Print JSON on stdout; a reader that closed the pipe (``| head``) ends the output quietly.
+def print_out(text):
+    """Print text on stdout; a reader that closed the pipe (``| head``) ends the output quietly.
 
-    ``default`` converts what JSON cannot hold, as in :func:`json.dumps`.
+    The rest of the text is dropped: the reader asked for no more of it.
     """
     try:
-        print(json.dumps(data, indent=2, default=default), flush=True)
+        print(text, flush=True)
     except BrokenPipeError:
         # stdout is gone: point it at devnull so the interpreter's final flush cannot fail
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+
+
+def print_json(data, default=None):
+    """Print JSON on stdout, quietly cut short by a closed pipe (:func:`print_out`).
+
+    ``default`` converts what JSON cannot hold, as in :func:`json.dumps`.
+    """
+    print_out(json.dumps(data, indent=2, default=default))
 
 
 def say(text, quiet=False):

@@ -2,7 +2,8 @@
 
 Read from the run directory's files only (task files, failure files,
 progress files, CPU ledgers) and, when a job array was submitted from it,
-from the scheduler; safe to call while a run works in the directory.
+from the scheduler; safe to call while a run works in the directory.  It
+changes nothing: a damaged task file is reported, not moved aside.
 """
 import json
 import time
@@ -40,9 +41,14 @@ def _task_row(rd, task, sched):
     from mdsim.pipeline import read_task_result
     k = task["index"]
     paths = as_run_dir(rd)
-    state = rd.task_state(k)
+    state, damage = rd.task_look(k)
     row = {"index": k, "route": task["route"], "state_point_index": task["state_point"]["index"],
            "state": state}
+    if state == "damaged":
+        # left as it is: only running the task moves the file aside and redoes the work
+        row["damage"] = damage
+        row["cpu_seconds"] = _cpu_spent(paths.cpu_ledger(k))
+        return row, "left"
     if state == "done":
         _, res, _ = read_task_result(rd.task_file(k))
         row.update({"cpu_seconds": res["cpu_seconds"], "delta_T_K": res["delta_T_K"],
@@ -99,10 +105,12 @@ def run_status(run_dir):
     dict
         JSON-ready: ``run_dir``; ``tasks``, one row per task (``index``,
         ``route``, ``state_point_index``, ``state`` done/running/failed/
-        pending/partial, ``cpu_seconds``; done: ``delta_T_K``,
-        ``stopped_by``; failed: ``error``; running: ``progress``; with a
+        pending/partial/damaged, ``cpu_seconds``; done: ``delta_T_K``,
+        ``stopped_by``; failed: ``error``; damaged: ``damage``, why the
+        task file cannot be trusted; running: ``progress``; with a
         job array ``scheduler``, the element's view); ``counts`` (done,
-        running, failed, left); ``cpu_seconds_total``; ``locked``; and,
+        running, failed, left: a damaged task counts as left, for it is
+        run again); ``cpu_seconds_total``; ``locked``; and,
         with a job array, ``scheduler`` (``job_ids``, ``counts``,
         ``error``, ``active``).
     """

@@ -19,7 +19,7 @@ from mdsim.checks import count
 from mdsim.errors import SettingError
 from mdsim.pipeline.array_jobs import choose_executor, refuse_while_array_runs, run_array
 from mdsim.pipeline.prepare import check_run_dir_place, prepare_run_dir
-from mdsim.pipeline.rundir import RunDir
+from mdsim.pipeline.rundir import LOG_FORMAT, RunDir
 
 __all__ = ["StudyRun", "default_run_dir", "run_study", "execute_tasks", "package_log_to",
            "run_dir_logging", "run_logged_task"]
@@ -98,7 +98,7 @@ def package_log_to(handler, level=logging.INFO):
 def run_dir_logging(log_file):
     """The package's log, INFO and above, appended to a run directory's log file (``with`` block)."""
     handler = logging.FileHandler(log_file, encoding="utf-8")
-    handler.setFormatter(logging.Formatter("%(asctime)s %(levelname)s %(name)s: %(message)s"))
+    handler.setFormatter(logging.Formatter(LOG_FORMAT))
     return package_log_to(handler, logging.INFO)
 
 

@@ -30,6 +30,7 @@ The lock file holds the owner's host name and process id.  A second
 a lock left by a process that no longer exists on this host is taken over.
 """
 import json
+import logging
 import os
 import shutil
 import socket
@@ -40,11 +41,13 @@ from mdsim.errors import StudyError
 from mdsim.files import atomic_write_text
 from mdsim.study.writer import INPUTS_DIR
 
-__all__ = ["RunDir", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
+__all__ = ["RunDir", "LOG_FORMAT", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
            "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
            "WALL_REMOVED_RELAXED", "STAGE_LABELS"]
 
 TASKS_FILE = "tasks.json"
+LOG_FORMAT = "%(asctime)s %(levelname)s %(name)s: %(message)s"
+"""One line of ``log.txt``: time, level, logger, message (every writer of the log uses it)."""
 LOCK_FILE = ".lock"
 SPACE_PER_TASK_BYTES = 4_000_000
 """Disk space one task needs, generously: its stage files (samples, checkpoints, final
@@ -134,8 +137,24 @@ class RunDir:
 
     @property
     def log_file(self):
-        """The log of ``mdsim run``, ``log.txt``."""
+        """The log of ``mdsim run`` and of each task, ``log.txt`` (:meth:`append_log`)."""
         return self.path / "log.txt"
+
+    def append_log(self, message, level=logging.INFO, name="mdsim"):
+        """Append ``message`` as one line to ``log.txt`` (:data:`LOG_FORMAT`, logger ``name``).
+
+        For a task's own lines, from whatever process runs it (pool worker,
+        Dask worker, job-array element), with or without a terminal.  One
+        write in append mode: lines of tasks running at once do not mix.
+        White space in ``message`` (line ends too) becomes single spaces;
+        ``level`` is a :mod:`logging` level.
+        """
+        record = logging.makeLogRecord({"name": name, "levelno": level,
+                                        "levelname": logging.getLevelName(level),
+                                        "msg": " ".join(str(message).split())})
+        line = logging.Formatter(LOG_FORMAT).format(record) + "\n"
+        with open(self.log_file, "a", encoding="utf-8") as fh:
+            fh.write(line)
 
     @property
     def array_script(self):
@@ -298,21 +317,49 @@ class RunDir:
             path.unlink(missing_ok=True)
 
     # -- task states -----------------------------------------------------------------
-    def task_state(self, index):
-        """'done', 'partial' (a checkpoint exists), 'failed' or 'pending'.
+    def task_look(self, index):
+        """(state, reason): a task's state and why its task file is damaged; changes nothing.
 
-        A task file that is damaged (no completion marker, checksum mismatch,
-        unreadable) is moved aside as ``NNNN.h5.corrupt-<time>`` with a
-        warning, and the task counts as not done.
+        ``state`` is 'done' (a sound task file), 'damaged' (a task file that
+        cannot be trusted: no completion marker, checksum mismatch,
+        unreadable; ``reason`` says which, else None), 'failed' (a failure
+        note), 'partial' (a ``.part`` task file or a stages folder: it
+        resumes) or 'pending'.  Read-only, for ``mdsim status`` and the
+        report: nothing is moved, no warning issued; only running the task
+        (:meth:`task_state_for_run`) moves a damaged task file aside.
         """
-        from mdsim.sampling.store import check_finished
-        if check_finished(self.task_file(index)):
-            return "done"
+        from mdsim.sampling.store import verify
+        path = self.task_file(index)
+        if path.is_file():
+            reason = verify(path)
+            if reason is None:
+                return "done", None
+            return "damaged", reason
         if self.failure_file(index).is_file():
-            return "failed"
+            return "failed", None
         if self.partial_file(index).is_file() or self.stages_dir(index).is_dir():
-            return "partial"
-        return "pending"
+            return "partial", None
+        return "pending", None
+
+    def task_state(self, index):
+        """'done', 'damaged', 'failed', 'partial' or 'pending' (:meth:`task_look`; read-only)."""
+        return self.task_look(index)[0]
+
+    def task_state_for_run(self, index):
+        """(state, damage): as :meth:`task_look`, but a damaged task file is moved aside first.
+
+        It is renamed ``NNNN.h5.corrupt-<time>`` (:func:`mdsim.sampling.store.move_aside`,
+        with a ``CorruptFileWarning`` and a log line), ``state`` is what is left
+        ('failed', 'partial' or 'pending': the task runs again) and ``damage``
+        says why the file was moved (None when nothing was).  Only the run path
+        (``mdsim run``, ``mdsim task``) calls this.
+        """
+        from mdsim.sampling.store import move_aside
+        state, damage = self.task_look(index)
+        if state != "damaged":
+            return state, None
+        move_aside(self.task_file(index), damage)
+        return self.task_state(index), damage
 
 
 def _read_lock(path):

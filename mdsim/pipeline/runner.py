@@ -18,9 +18,8 @@ from analysis.results import to_plain
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.routes import ROUTE_RUNNERS
-from mdsim.pipeline.task import RunningTask
+from mdsim.pipeline.task import CpuLedger, RunningTask
 from mdsim.pipeline.taskfile import read_task_result, write_failure, write_task_file
-from mdsim.sampling import store
 
 __all__ = ["run_task", "DISK_ERRNOS"]
 
@@ -63,11 +62,24 @@ def run_task(run_dir, index, progress=None):
             or not 0 <= int(index) < len(tasks):
         raise StudyError(f"task index {index!r}: '{rd.path}' has tasks 0 to {len(tasks) - 1}")
     index = int(index)
-    if store.check_finished(rd.task_file(index)):  # a damaged task file is moved aside, re-run
+    state, damage = rd.task_state_for_run(index)  # a damaged task file is moved aside, re-run
+    if state == "done":
         return read_task_result(rd.task_file(index))[1]
     rd.failure_file(index).unlink(missing_ok=True)
+    seen = {"damage": damage}
     try:
-        return _run(rd, index, tasks[index], progress)
+        result = _run_noting_failure(rd, index, tasks[index], progress, seen)
+    except Exception as exc:
+        _log_end(rd, index, seen.get("job"), error=exc)
+        raise
+    _log_end(rd, index, seen["job"], result=result)
+    return result
+
+
+def _run_noting_failure(rd, index, task, progress, seen):
+    """:func:`_run`; a failure writes the failure file and is raised again."""
+    try:
+        return _run(rd, index, task, progress, seen)
     except (StudyError, SimulationError, ConvergenceError) as exc:
         write_failure(rd, index, exc, user=True)
         raise
@@ -86,8 +98,53 @@ def run_task(run_dir, index, progress=None):
         raise
 
 
-def _run(rd, index, task, progress):
-    """Run the task's route, write its task file and return its result."""
+def _log_line(rd, message, level=logging.INFO):
+    """One line of the task in ``log.txt``; a log that cannot be written does not stop the task."""
+    try:
+        rd.append_log(message, level=level, name=__name__)
+    except OSError as exc:
+        log.debug("'%s' cannot be written: %s", rd.log_file, exc)
+
+
+def _log_start(rd, job, damage):
+    """The task's start line; ``damage``: why its task file was moved aside (or None)."""
+    task = job.task
+    again = (f"; its task file was damaged ({damage}), moved aside: the task runs again"
+             if damage else "")
+    _log_line(rd, f"task {job.index:04d} started: {task['route']} route, state point "
+                  f"{job.state_point_index} (T = {job.T_i:.6g} K, "
+                  f"{job.rho_i:.6g} mol/m^3), {job.n_particles} particles{again}")
+
+
+def _cpu_text(rd, index, job):
+    """The task's CPU time so far, for its end line (the ledger when the task was not built)."""
+    try:
+        cpu = job.cpu_spent() if job is not None else CpuLedger(rd.cpu_ledger(index)).spent()
+    except (OSError, ValueError, KeyError, TypeError):
+        return "CPU time unknown: its ledger cannot be read"
+    return f"{cpu:.1f} s CPU"
+
+
+def _log_end(rd, index, job, result=None, error=None):
+    """The task's end line: particles, the standard error reached against the target, the CPU
+    time and what stopped it (the target, the CPU budget, or a failure with its error)."""
+    if error is not None:
+        who = f"{job.n_particles} particles, " if job is not None else ""
+        text = str(error) if isinstance(error, (StudyError, SimulationError, ConvergenceError)) \
+            else f"{type(error).__name__}: {error}"
+        _log_line(rd, f"task {index:04d} ended: failed ({who}{_cpu_text(rd, index, job)}): "
+                      f"{text}", logging.ERROR)
+        return
+    reached = result["delta_T_K"]["stderr"]
+    _log_line(rd, f"task {index:04d} ended: stopped by {result['stopped_by']}; "
+                  f"{result['n_particles']} particles, standard error of Delta T "
+                  f"{reached:.3g} K (target {result['target_stderr_K']:g} K), "
+                  f"{result['cpu_seconds']:.1f} s CPU")
+
+
+def _run(rd, index, task, progress, seen):
+    """Run the task's route, write its task file and return its result (``seen['job']``: the
+    running task, once built)."""
     older = rd.older_stage_files(index)
     if older:
         raise StudyError(f"task {index:04d}: '{rd.stages_dir(index)}' holds stage files of an "
@@ -96,8 +153,10 @@ def _run(rd, index, task, progress):
                          "that task; run the study again into a new run directory (finished "
                          "task files stay readable)")
     wall0 = time.time()
-    job = RunningTask(rd, task, progress=progress)
+    job = seen["job"] = RunningTask(rd, task, progress=progress)
+    _log_start(rd, job, seen["damage"])
     res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)
+    job.stop_reason(res.delta_T_stderr_K)  # the target met is the reason, budget spent or not
     result = _result(job, res, pressure, extra)
     result["wall_seconds_last_run"] = time.time() - wall0
     if job.stopped_by == "cpu budget":

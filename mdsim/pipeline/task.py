@@ -95,7 +95,9 @@ class RunningTask:
         The virial B2 + B3 final temperature and Delta T (K), the first guesses.
     n_particles : int
     stopped_by : str
-        "target" or "cpu budget": what ended the sampling.
+        "target" or "cpu budget": what ended the sampling (final after
+        :meth:`stop_reason`; while sampling, "cpu budget" says the budget
+        forbids more).
     warnings, notes : list of str
     initial_chain : mdsim.pipeline.chain.Chain or None
         The route's chain at the initial state, once run (its pressure is reported).
@@ -194,6 +196,20 @@ class RunningTask:
 
     def budget_left(self):
         return self.budget_s - self.cpu_spent()
+
+    def stop_reason(self, stderr_K):
+        """What ended the sampling, given the standard error of Delta T reached (K).
+
+        "target" whenever ``stderr_K`` is at or below the target, even when
+        the CPU budget ran out as well (the last stage cut short by the budget
+        may still have brought the error below the target); "cpu budget" only
+        when the budget ended sampling short of the target.  Sets
+        :attr:`stopped_by`, which the routes use while sampling to know that
+        the budget forbids more, and returns it.
+        """
+        if stderr_K <= self.target_K:
+            self.stopped_by = "target"
+        return self.stopped_by
 
     def cost_per_unit(self, kind):
         """CPU seconds per (particle x sweep or step) measured so far for a sampler kind."""

@@ -12,6 +12,7 @@ import sys
 import textwrap
 import threading
 import time
+import warnings
 from pathlib import Path
 
 import h5py
@@ -93,8 +94,13 @@ def test_damaged_task_and_stage_files_are_moved_aside_and_redone(reference, tmp_
         f.attrs["complete"] = False
     for name in ("initial-state-00.h5", "final-density-guess0-pilot.h5", "initial-state-pilot.h5"):
         assert store.verify(stages / name) is not None, name
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # the read-only look warns about nothing
+        assert rd.task_look(0) == ("damaged", "its checksum does not match its contents")
+    assert rd.task_file(0).is_file() and not list(rd.tasks_dir.glob("0000.h5.corrupt-*"))
     with pytest.warns(store.CorruptFileWarning, match="moved aside"):
-        assert rd.task_state(0) != "done"
+        assert rd.task_state_for_run(0) == ("partial",  # its stages folder is kept
+                                            "its checksum does not match its contents")
     assert len(list(rd.tasks_dir.glob("0000.h5.corrupt-*"))) == 1
     with pytest.warns(store.CorruptFileWarning) as caught:
         run_task(rd.path, 0)

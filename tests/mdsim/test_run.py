@@ -9,6 +9,7 @@ import time
 import pytest
 
 from mdsim.cli import main
+from mdsim.numbers import value_with_error
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline import read_task_result
 
@@ -165,3 +166,93 @@ def test_run_directory_keeps_copies_of_the_data_files_it_needs(tmp_path):
     again = read_study(moved / "study.toml")  # reads the copy, relative to the run directory
     original = read_study(configs / "argon_table.toml")
     assert again.gas.pairs_K_angstrom.pots[0][0].epsilon == original.gas.pairs_K_angstrom.pots[0][0].epsilon
+
+
+def test_status_reports_a_damaged_task_file_and_leaves_it_only_run_moves_it(tmp_path):
+    import h5py
+    study = write_study(tmp_path)
+    out = tmp_path / "run"
+    assert main(["run", str(study), "--out", str(out), "--workers", "1", "--quiet"]) == 0
+    first = _results(out)
+    task_file = out / "tasks" / "0000.h5"
+    with h5py.File(task_file, "r+") as f:
+        f.attrs["complete"] = False  # as a run cut short while writing leaves it
+    damaged = task_file.read_bytes()
+    for _ in range(2):  # looking twice changes nothing
+        seen = _cli("status", str(out), timeout=120)
+        assert seen.returncode == 0, seen.stderr
+        assert seen.stderr == ""  # no warning text, no traceback
+        line = [t for t in seen.stdout.splitlines() if t.startswith("  0000")]
+        assert len(line) == 1 and " damaged " in line[0]
+        assert "its completion marker is not set" in line[0]
+        assert "1 left (1 with a damaged task file)" in seen.stdout
+        assert task_file.read_bytes() == damaged
+        assert not list(task_file.parent.glob("0000.h5.corrupt-*"))
+    as_json = json.loads(_cli("status", str(out), "--json", timeout=120).stdout)
+    assert as_json["tasks"][0]["state"] == "damaged"
+    assert as_json["counts"] == {"done": 0, "running": 0, "failed": 0, "left": 1}
+    again = _cli("run", str(study), "--out", str(out), "--workers", "1", "--quiet", timeout=300)
+    assert again.returncode == 0, again.stderr
+    aside = list(task_file.parent.glob("0000.h5.corrupt-*"))
+    assert len(aside) == 1 and aside[0].read_bytes() == damaged
+    assert RunDir(out).task_state(0) == "done"
+    assert _results(out) == first  # redone from its stage files to the same numbers
+    started = [line for line in (out / "log.txt").read_text(encoding="utf-8").splitlines()
+               if "task 0000 started" in line]
+    assert len(started) == 2  # the first run, then the run that redid it
+    assert started[1].endswith("100 particles; its task file was damaged (its completion "
+                               "marker is not set), moved aside: the task runs again")
+    seen = _cli("status", str(out), timeout=120)
+    _, res, _ = read_task_result(out / "tasks" / "0000.h5")
+    d = res["delta_T_K"]
+    assert f" done     Delta T = {value_with_error(d['value'], d['stderr'], 'K')} (stopped by " \
+           f"target, {res['cpu_seconds']:.1f} s CPU)" in seen.stdout
+
+
+@pytest.mark.parametrize("as_json", [True, False])
+def test_status_into_a_closed_pipe_ends_quietly(tmp_path, as_json):
+    from test_tasks import make_run_dir
+    temps = ", ".join(f'"{150 + k} K"' for k in range(1000))
+    study = write_study(tmp_path, routes='["energy", "direct"]', initial_T="",
+                        extra=f"[sweep]\ntemperature = [{temps}]")
+    rd, tasks = make_run_dir(tmp_path, study)  # planned only: 2000 pending tasks
+    assert len(tasks) == 2000  # well over a pipe's 64 KiB of output, in either form
+    flag = " --json" if as_json else ""
+    shell = f"'{sys.executable}' -m mdsim status '{rd.path}'{flag} | head -c 10"
+    done = subprocess.run(["bash", "-o", "pipefail", "-c", shell], capture_output=True,
+                          text=True, timeout=120)
+    assert done.stderr == ""
+    assert done.returncode == 0
+    assert len(done.stdout) == 10
+
+
+def test_an_array_element_writes_its_start_and_end_into_log_txt(tmp_path):
+    import re
+    study = write_study(tmp_path, extra=SWEEP, initial_T="")
+    out = tmp_path / "run"
+    assert main(["run", str(study), "--out", str(out), "--on", "array", "--quiet"]) == 0
+    before = (out / "log.txt").read_text(encoding="utf-8")
+    # as a Slurm element runs it: no terminal on stdin, stdout or stderr
+    done = _cli("task", str(out), "--index", "1", stdin=subprocess.DEVNULL, timeout=300)
+    assert done.returncode == 0, done.stderr
+    _, res, _ = read_task_result(out / "tasks" / "0001.h5")
+    added = (out / "log.txt").read_text(encoding="utf-8")[len(before):].splitlines()
+    ours = [line for line in added if "mdsim.pipeline.runner" in line]
+    assert len(ours) == 2
+    stamp = r"\d{4}-\d\d-\d\d \d\d:\d\d:\d\d,\d{3} INFO mdsim\.pipeline\.runner: "
+    assert re.fullmatch(stamp + r"task 0001 started: energy route, state point 1 "
+                        r"\(T = 180 K, 2000 mol/m\^3\), 100 particles", ours[0])
+    end = re.fullmatch(stamp + r"task 0001 ended: stopped by (target|cpu budget); "
+                       r"(\d+) particles, standard error of Delta T (\S+) K "
+                       r"\(target (\S+) K\), (\S+) s CPU", ours[1])
+    assert end is not None, ours[1]
+    assert end.group(1) == res["stopped_by"] == "target"
+    assert int(end.group(2)) == res["n_particles"] == 100
+    assert float(end.group(3)) == pytest.approx(res["delta_T_K"]["stderr"], rel=5e-3)  # 3 figures
+    assert float(end.group(3)) <= float(end.group(4)) == pytest.approx(0.5)
+    assert float(end.group(5)) == pytest.approx(res["cpu_seconds"], abs=0.05)  # 0.1 s printed
+    # its one line on stderr writes the error by the two-figure rule
+    d = res["delta_T_K"]
+    assert done.stderr.splitlines()[-1] == (
+        f"task 0001 (energy): Delta T = {value_with_error(d['value'], d['stderr'], 'K')}, "
+        f"stopped by target, {res['cpu_seconds']:.1f} s CPU")

@@ -118,6 +118,13 @@ def test_a_user_error_in_a_task_keeps_its_message(tmp_path):
         run_task(rd.path, 0)
     info = json.loads(rd.failure_file(0).read_text())
     assert "outside the range" in info["error"]
+    # the task's own lines in log.txt: its start, then its failure with the error
+    lines = rd.log_file.read_text(encoding="utf-8").splitlines()
+    assert len(lines) == 2
+    assert lines[0].endswith("INFO mdsim.pipeline.runner: task 0000 started: energy route, "
+                             "state point 0 (T = 150 K, 2000 mol/m^3), 100 particles")
+    assert "ERROR mdsim.pipeline.runner: task 0000 ended: failed (100 particles, " in lines[1]
+    assert lines[1].endswith(": " + " ".join(info["error"].split()))
     assert "traceback" not in info  # a user error keeps its message, not a traceback
     assert rd.task_state(0) == "failed"
 
@@ -252,3 +259,22 @@ def test_a_task_with_stage_files_of_an_earlier_version_is_refused_not_mixed(tmp_
     assert "cpu.json, final0-00.h5, initial-pilot.h5" in str(err.value)
     assert "earlier version" in json.loads(rd.failure_file(0).read_text())["error"]
     assert not rd.task_file(0).exists()
+
+
+@pytest.mark.parametrize("target, stopped_by", [("5 K", "target"), ("0.2 K", "cpu budget")])
+def test_a_task_met_target_is_stopped_by_the_target_even_when_the_budget_ran_out(
+        tmp_path, target, stopped_by):
+    study = write_study(tmp_path, target=target)
+    study.write_text(study.read_text().replace('max_cpu_time = "120 s"',
+                                               'max_cpu_time = "0.01 s"'))
+    rd, _ = make_run_dir(tmp_path, study)
+    res = run_task(rd.path, 0)
+    assert res["cpu_seconds"] > 0.01  # the budget ran out: the first stages always run
+    reached, goal = res["delta_T_K"]["stderr"], res["target_stderr_K"]
+    # the first stages are sized for the target and always run; then the spent budget allows
+    # no more. 100 particles reach about 0.5 K for a 5 K target (met) and about 0.24 K for a
+    # 0.2 K target (missed, by the seeded samples: the same on every machine)
+    assert (reached <= goal) == (stopped_by == "target")
+    assert res["stopped_by"] == stopped_by
+    budget_warnings = [w for w in res["warnings"] if "CPU budget" in w]
+    assert len(budget_warnings) == (stopped_by == "cpu budget")
