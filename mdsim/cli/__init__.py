@@ -14,6 +14,7 @@ cannot go on prints one line and exits with 1.
 import argparse
 import errno
 import sys
+import warnings
 
 from mdsim.cli import (cmd_check, cmd_demo, cmd_inversion, cmd_report, cmd_run, cmd_sample,
                        cmd_status, cmd_table, cmd_task, cmd_virial)
@@ -82,8 +83,19 @@ def _error(exc, status):
     return status
 
 
+def _show_warning(message, category, filename, lineno, file=None, line=None):
+    """A warning as one line 'mdsim: warning: ...' (no source path, no code line)."""
+    print(f"{PROG}: warning: {_one_line(message)}", file=file or sys.stderr)
+
+
 def main(argv=None):
     """Run the command line; returns the exit status (0 ok, 1 failed run, 2 bad input)."""
+    with warnings.catch_warnings():  # restores the warning display on the way out
+        warnings.showwarning = _show_warning
+        return _main(argv)
+
+
+def _main(argv):
     command = None
     try:
         args = build_parser().parse_args(argv)

@@ -195,6 +195,10 @@ def test_status_reports_a_damaged_task_file_and_leaves_it_only_run_moves_it(tmp_
     assert again.returncode == 0, again.stderr
     aside = list(task_file.parent.glob("0000.h5.corrupt-*"))
     assert len(aside) == 1 and aside[0].read_bytes() == damaged
+    # the run says so in one line of its own, not Python's warning text with a source path
+    said = [line for line in again.stderr.splitlines() if "moved aside" in line or "damaged" in line]
+    assert said and all(line.startswith("mdsim: warning: ") for line in said), again.stderr
+    assert "Warning:" not in again.stderr and ".py:" not in again.stderr
     assert RunDir(out).task_state(0) == "done"
     assert _results(out) == first  # redone from its stage files to the same numbers
     started = [line for line in (out / "log.txt").read_text(encoding="utf-8").splitlines()
