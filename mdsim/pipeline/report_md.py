@@ -213,8 +213,9 @@ def _unfinished(gathered):
         L.append(f"- task {f['index']} ({f['route']}, state point {f['state_point_index']}): "
                  f"FAILED: {' '.join(str(f['error']).split())}")
     for m in gathered["missing"]:
-        what = ("interrupted (a checkpoint is kept and will be resumed)"
-                if m["state"] == "partial" else "not run")
+        what = {"partial": "interrupted (a checkpoint is kept and will be resumed)",
+                "damaged": "its task file is damaged (running the study again moves it aside "
+                           "and redoes the task)"}.get(m["state"], "not run")
         L.append(f"- task {m['index']} ({m['route']}, state point "
                  f"{m['state_point_index']}): {what}")
     return L + [""]

@@ -62,6 +62,14 @@ def _virial_rows(sp, rec, base):
     return rows
 
 
+#: How a planned task without a result is described, by its state (RunDir.task_state).
+MISSING_STATUS = {
+    "partial": "missing (interrupted, checkpoint kept)",
+    "damaged": "missing (task file damaged; 'mdsim run' moves it aside and redoes the task)",
+    "pending": "missing (not run)",
+}
+
+
 def _task_row(task, base, gathered, failed, missing):
     """The row of one planned simulation task: its result, its failure or what is missing."""
     k = int(task["index"])
@@ -84,8 +92,7 @@ def _task_row(task, base, gathered, failed, missing):
         row.update(status="failed", warnings=failed[k]["error"])
     else:
         state = missing.get(k, {}).get("state", "pending")
-        row.update(status="missing (interrupted, checkpoint kept)" if state == "partial"
-                   else "missing (not run)")
+        row.update(status=MISSING_STATUS.get(state, "missing (not run)"))
     return row
 
 

@@ -191,6 +191,11 @@ def test_status_reports_a_damaged_task_file_and_leaves_it_only_run_moves_it(tmp_
     as_json = json.loads(_cli("status", str(out), "--json", timeout=120).stdout)
     assert as_json["tasks"][0]["state"] == "damaged"
     assert as_json["counts"] == {"done": 0, "running": 0, "failed": 0, "left": 1}
+    rebuilt = _cli("report", str(out), "--no-plots", timeout=120)  # a report only reads, too
+    assert rebuilt.returncode == 0, rebuilt.stderr
+    assert "its task file is damaged" in (out / "report.md").read_text(encoding="utf-8")
+    assert "task file damaged" in (out / "results.csv").read_text(encoding="utf-8")
+    assert task_file.read_bytes() == damaged
     again = _cli("run", str(study), "--out", str(out), "--workers", "1", "--quiet", timeout=300)
     assert again.returncode == 0, again.stderr
     aside = list(task_file.parent.glob("0000.h5.corrupt-*"))
