@@ -216,14 +216,14 @@ def describe_task(entry):
 
     Examples
     --------
-    >>> describe_task({"index": 0, "route": "energy", "particles": 64,
-    ...                "particles_from": "study", "initial_density_mol_m3": 412.5,
-    ...                "state_point": {"index": 0, "temperature_K": 295.15,
-    ...                                "volume_ratio": 2.0, "pressure_Pa": 1e6,
-    ...                                "density_mol_m3": None},
-    ...                "cpu_time_s": None, "cpu_time_from": "not estimated",
-    ...                "warnings": []})
-    'task 0: state point 0 (T_i 295.15 K, p_i 10 bar, rho_i 412.5 mol/m^3, V_f/V_i 2), energy route, 64 particles (the study\\'s), CPU time not estimated'
+    >>> entry = {"index": 0, "route": "energy", "particles": 64,
+    ...          "particles_from": "study", "initial_density_mol_m3": 412.5,
+    ...          "state_point": {"index": 0, "temperature_K": 295.15, "volume_ratio": 2.0,
+    ...                          "pressure_Pa": 1e6, "density_mol_m3": None},
+    ...          "cpu_time_s": None, "cpu_time_from": "not estimated", "warnings": []}
+    >>> print(describe_task(entry))  # doctest: +NORMALIZE_WHITESPACE
+    task 0: state point 0 (T_i 295.15 K, p_i 10 bar, rho_i 412.5 mol/m^3, V_f/V_i 2),
+    energy route, 64 particles (the study's), CPU time not estimated
     """
     sp = entry["state_point"]
     where = [f"T_i {plain(sp['temperature_K'])} K"]
