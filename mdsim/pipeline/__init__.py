@@ -14,7 +14,11 @@ and its CPU ledger), ``chain`` (pilot and production stage files),
 ``routes/`` (one runner per simulation route), ``runner`` (``run_task``)
 and ``taskfile`` (task and failure files); ``jobs`` (a task as an executor
 job); ``collect``, ``summary``, ``results_files``, ``plot_data``, ``plots``,
-``figures``, ``report_tables``, ``report_md`` and ``report`` (``build_report``).
+``figures``, ``report_tables``, ``report_md`` and ``report`` (``build_report``);
+``plan_preview`` (``mdsim run --plan``); ``prepare``, ``run_study``,
+``array_jobs`` and ``run_status`` (a whole study run, its job array, its
+status); ``virial_study``, ``inversion_study`` and ``single_state`` (the
+answers that need no run directory).
 """
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.plan import plan_tasks
@@ -23,6 +27,8 @@ from mdsim.pipeline.settings import simulation_settings
 from mdsim.pipeline.taskfile import read_task_result
 from mdsim.pipeline.jobs import task_job
 from mdsim.pipeline.report import build_report
+from mdsim.pipeline.plan_preview import preview_plan
+from mdsim.pipeline.run_study import StudyRun, run_study
 
 __all__ = ["RunDir", "plan_tasks", "read_task_result", "run_task", "simulation_settings",
-           "task_job", "build_report"]
+           "task_job", "build_report", "preview_plan", "run_study", "StudyRun"]

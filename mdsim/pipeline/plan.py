@@ -8,14 +8,19 @@ work: enough particles for the cut-off, and the assumptions of each route.
 import dataclasses
 import math
 
-from mdsim.errors import StudyError
+from mdsim.errors import ConvergenceError, StudyError
 from mdsim.pipeline.settings import simulation_settings
 from mdsim.units import R_GAS
 
-__all__ = ["plan_tasks", "particles_for_cutoff", "check_particles", "check_route_applies"]
+__all__ = ["plan_tasks", "particles_for_cutoff", "check_particles", "check_route_applies",
+           "virial_start_guess", "choose_particles", "N_MIN", "N_MAX"]
 
 CUTOFF_BOX_MARGIN = 1.05
 """The box edge is kept 5 % above twice the cut-off (minimum image with room to spare)."""
+N_MIN = 128
+"""Fewest particles a task chooses by itself."""
+N_MAX = 4000
+"""Most particles a task chooses by itself (the study's ``particles`` may say more)."""
 
 
 def particles_for_cutoff(study, density_mol_m3):
@@ -54,6 +59,86 @@ def check_particles(study, n, density_mol_m3, state_point_index):
                          f"{state_point_index}): the cut-off {rc:g} sigma must stay below half "
                          f"the box edge; use at least {n_cut} particles, or a smaller "
                          "[potential] cutoff")
+
+
+def virial_start_guess(gas, cv_ig, T_i, r, rho_i):
+    """The B2 + B3 virial final temperature and Delta T of a task: its first guesses.
+
+    Parameters
+    ----------
+    gas : analysis.virial_eos.VirialGas
+    cv_ig : ideal-gas heat capacity model
+    T_i : float
+        Initial temperature, K.
+    r : float
+        Volume ratio V_f / V_i.
+    rho_i : float
+        Initial molar density, mol/m^3.
+
+    Returns
+    -------
+    T_f : float
+        K; T_i when the virial series gives no answer.
+    dT : float or None
+        K; None when the virial series gives no answer.
+    note : str or None
+        Why there is no virial guess, when there is none.
+    """
+    from analysis.expansion import virial_expansion
+    try:
+        v = virial_expansion(gas, cv_ig, T_i, r, rho_i=rho_i, order=3)
+    except (StudyError, ConvergenceError) as exc:
+        return T_i, None, (f"no virial start guess ({' '.join(str(exc).split())}); the first "
+                           "final-state temperature is T_i")
+    return float(v.final_temperature_K), float(v.delta_T_K), None
+
+
+def choose_particles(study, given, rho_i, state_point_index, dT_guess, target_K):
+    """The particle number of a task: the study's, or the fewest that keep the bias small.
+
+    The cut-off must stay below half the box edge at the initial density,
+    and the O(1/N) finite-size bias of a canonical u_res (the (N - 1)/N of
+    the pair sum) must stay below a quarter of the target:
+    N >= 4 |Delta T_virial| / target; clipped to [N_MIN, N_MAX].
+
+    Parameters
+    ----------
+    study : mdsim.study.reader.Study
+    given : int or None
+        ``[simulation] particles`` (checked against the cut-off), or None to choose.
+    rho_i : float
+        Initial molar density, mol/m^3.
+    state_point_index : int
+    dT_guess : float or None
+        The virial Delta T, K (:func:`virial_start_guess`).
+    target_K : float
+        The target standard error of Delta T, K.
+
+    Returns
+    -------
+    n : int
+    warning : str or None
+        Set when the bias rule asked for more than N_MAX particles.
+
+    Raises
+    ------
+    StudyError
+        When the study's particles are too few, or the cut-off alone needs more than N_MAX.
+    """
+    if given is not None:
+        check_particles(study, int(given), rho_i, state_point_index)
+        return int(given), None
+    n_cut, _ = particles_for_cutoff(study, rho_i)
+    n_bias = 0 if dT_guess is None else int(math.ceil(4.0 * abs(dT_guess) / target_K))
+    n = max(N_MIN, n_cut, n_bias)
+    if n <= N_MAX:
+        return n, None
+    if n_cut > N_MAX:
+        raise StudyError(f"the state at {rho_i:.6g} mol/m^3 needs {n_cut} particles for the "
+                         f"cut-off to stay below half the box (more than {N_MAX}); give "
+                         "[simulation] particles, or a smaller cutoff")
+    return N_MAX, (f"{n} particles would keep the finite-size bias below a quarter of the "
+                   f"target; using {N_MAX}")
 
 
 def check_route_applies(study, route, cv_ig, T_i):

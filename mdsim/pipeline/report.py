@@ -24,8 +24,9 @@ import logging
 import os
 
 from mdsim.errors import StudyError
-from mdsim.pipeline.collect import gather_tasks, state_point_records
+from mdsim.pipeline.collect import check_plan_consistent, gather_tasks, state_point_records
 from mdsim.pipeline.figures import draw_figures, earlier_figures, run_inversion
+from mdsim.pipeline.plan import plan_tasks
 from mdsim.pipeline.plot_data import virial_model
 from mdsim.pipeline.report_md import write_report_md
 from mdsim.pipeline.results_files import csv_rows, write_csv, write_results_json
@@ -63,7 +64,11 @@ def build_report(run_dir, *, plots=True):
     ------
     StudyError
         When ``run_dir`` is not a run directory or its study does not
-        validate.  Missing or failed tasks never raise: they are listed.
+        validate; when its ``study.toml`` now plans other tasks than its
+        ``tasks.json``, or a task file holds another task than its entry
+        there (:func:`mdsim.pipeline.collect.check_plan_consistent`): then
+        nothing is written.  Missing or failed tasks never raise: they are
+        listed.
     """
     from mdsim.study.reader import read_study
     rd = RunDir(run_dir)
@@ -72,6 +77,8 @@ def build_report(run_dir, *, plots=True):
                          "make one by running a study into it ('mdsim run')")
     study = read_study(rd.study_file)
     gathered = gather_tasks(rd)
+    # before anything is written: one plan behind study.toml, tasks.json and every task file
+    check_plan_consistent(rd, plan_tasks(study), gathered)
     points = study.state_points()
     records = state_point_records(study, points, gathered)
     summary = run_summary(study, records)

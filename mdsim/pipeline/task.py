@@ -12,21 +12,15 @@ the task's own numbers (temperatures, densities, the target) are SI.
 """
 import functools
 import json
-import math
 import time
 from pathlib import Path
 
-from mdsim.errors import ConvergenceError, StudyError
+from mdsim.errors import ConvergenceError
 from mdsim.files import atomic_write_text
-from mdsim.pipeline.plan import check_particles, particles_for_cutoff
+from mdsim.pipeline.plan import N_MAX, N_MIN, choose_particles, virial_start_guess
 from mdsim.sampling import store
 
 __all__ = ["RunningTask", "CpuLedger", "N_MIN", "N_MAX"]
-
-N_MIN = 128
-"""Fewest particles a task chooses by itself."""
-N_MAX = 4000
-"""Most particles a task chooses by itself (the study's ``particles`` may say more)."""
 
 
 def _stage_progress(report, stage, done, total):
@@ -142,39 +136,18 @@ class RunningTask:
 
     # -- numbers chosen from the target -------------------------------------------------
     def _virial_guess(self):
-        from analysis.expansion import virial_expansion
-        try:
-            v = virial_expansion(self.virial_gas, self.cv_ig, self.T_i, self.r, rho_i=self.rho_i,
-                                 order=3)
-        except (StudyError, ConvergenceError) as exc:
-            self.notes.append(f"no virial start guess ({' '.join(str(exc).split())}); the "
-                              "first final-state temperature is T_i")
-            return self.T_i, None
-        return float(v.final_temperature_K), float(v.delta_T_K)
+        T_f, dT, note = virial_start_guess(self.virial_gas, self.cv_ig, self.T_i, self.r,
+                                           self.rho_i)
+        if note is not None:
+            self.notes.append(note)
+        return T_f, dT
 
     def choose_particles(self, given):
-        """The particle number: the study's, or the fewest that keep the bias small.
-
-        The cut-off must stay below half the box edge at the initial
-        density, and the O(1/N) finite-size bias of a canonical u_res (the
-        (N - 1)/N of the pair sum) must stay below a quarter of the target:
-        N >= 4 |Delta T_virial| / target; clipped to [N_MIN, N_MAX].
-        """
-        if given is not None:
-            check_particles(self.study, int(given), self.rho_i, self.state_point_index)
-            return int(given)
-        n_cut, _ = particles_for_cutoff(self.study, self.rho_i)
-        n_bias = 0 if self.dT_guess is None else int(math.ceil(4.0 * abs(self.dT_guess)
-                                                               / self.target_K))
-        n = max(N_MIN, n_cut, n_bias)
-        if n > N_MAX:
-            if n_cut > N_MAX:
-                raise StudyError(f"the state at {self.rho_i:.6g} mol/m^3 needs {n_cut} particles "
-                                 f"for the cut-off to stay below half the box (more than "
-                                 f"{N_MAX}); give [simulation] particles, or a smaller cutoff")
-            self.warnings.append(f"{n} particles would keep the finite-size bias below a quarter "
-                                 f"of the target; using {N_MAX}")
-            n = N_MAX
+        """The particle number (:func:`mdsim.pipeline.plan.choose_particles`)."""
+        n, warning = choose_particles(self.study, given, self.rho_i, self.state_point_index,
+                                      self.dT_guess, self.target_K)
+        if warning is not None:
+            self.warnings.append(warning)
         return n
 
     def system_maker(self, rho_mol_m3, tag):
