@@ -28,7 +28,7 @@ from mdsim.pipeline.taskfile import read_task_result
 from mdsim.pipeline.jobs import task_job
 from mdsim.pipeline.report import build_report
 from mdsim.pipeline.plan_preview import preview_plan
-from mdsim.pipeline.run_study import StudyRun, run_study
 
+# run_study is not re-exported here: the name would hide the module mdsim.pipeline.run_study
 __all__ = ["RunDir", "plan_tasks", "read_task_result", "run_task", "simulation_settings",
-           "task_job", "build_report", "preview_plan", "run_study", "StudyRun"]
+           "task_job", "build_report", "preview_plan"]
