@@ -11,6 +11,7 @@ from pathlib import Path
 
 from mdsim.cli.options import add_renamed_option, positive_int, print_json
 from mdsim.errors import StudyError
+from mdsim.numbers import value_with_error
 
 HELP = "build or show a corresponding-states table u_res*(T*, rho*)"
 # build_table's settings (its executor argument under either name) and the options giving them
@@ -90,7 +91,7 @@ def _show(args):
     if at is not None:
         print(f"  at T* = {at['temperature_red']:g}, rho* = {at['density_red']:g}:")
         for key in QUANTITIES:
-            print(f"    {key:<10} {at[key]['value']:.6g} +/- {at[key]['stderr']:.2g}")
+            print(f"    {key:<10} {value_with_error(at[key]['value'], at[key]['stderr'])}")
     return 0
 
 

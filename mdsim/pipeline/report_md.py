@@ -189,7 +189,8 @@ def _results(points, records, rd):
          "Delta T = T_f - T_i (negative: the gas cools), one standard error after ± (to two "
          "significant figures, the value rounded to the same place). "
          "T_f is from the best route available (energy, then microcanonical, then direct, "
-         "then virial B2+B3). Δs is the entropy generated per mole.", ""]
+         "then virial B2+B3). Δs is the entropy generated per mole, from the virial B2+B3 "
+         "route's end states for every row (not yet from the simulation routes' own).", ""]
     L += results_table(points, records) + [""]
     L += ["The particles column gives N of the state point's simulation tasks, per route "
           "when the routes differ. The virial coefficients of the pair potential at T_i "

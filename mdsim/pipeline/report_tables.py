@@ -71,7 +71,7 @@ def results_table(points, records):
     """The Markdown results table: one row per state point, Delta T of every route."""
     head = ["state point", "T_i (K)", "p_i (bar)", "rho_i (mol/m^3)", "V_f/V_i", "particles"]
     head += [f"ΔT {ROUTE_NAMES[r]} (K)" for r in ROUTES]
-    head += ["T_f (K)", "T_f from", "Δs (J/(mol K))"]
+    head += ["T_f (K)", "T_f from", "Δs, virial B2+B3 (J/(mol K))"]
     lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
     for sp, rec in zip(points, records):
         ini, fin = rec["initial"], rec["final"]

@@ -30,6 +30,7 @@ Non-finite numbers become null.
 import math
 
 from mdsim.errors import ConvergenceError, StudyError
+from mdsim.numbers import value_with_error
 from mdsim.study.routes import FINAL_PREFERENCE, SIMULATION_ROUTES, VIRIAL_ROUTES
 from mdsim.study.statepoints import (ideal_heat_capacity, resolve_initial_density, virial_gas,
                                      virial_warnings)
@@ -246,7 +247,7 @@ def _disagreement(delta):
     s = delta[sim]["stderr"]
     if s is not None and s > 0 and abs(d) > DISAGREEMENT_Z * s:
         return (f"virial B2+B3 gives Delta T {delta['virial_b2b3']['value']:.4g} K, "
-                f"the {sim} route {delta[sim]['value']:.4g} +/- {s:.2g} K "
+                f"the {sim} route {value_with_error(delta[sim]['value'], s, 'K')} "
                 f"({abs(d) / s:.1f} standard errors apart): the virial estimate "
                 "is not good enough at this state")
     return None

@@ -106,7 +106,9 @@ def test_disagreement_with_simulation_is_a_warning(argon):
     assert not any("standard errors apart" in w for w in agree["warnings"])
     off = state_point_record(argon, sp, {"energy": result(dT + 1.0, 0.02, 290, rho_f)},
                              virial=vs)
-    assert any("standard errors apart" in w for w in off["warnings"])
+    said = [w for w in off["warnings"] if "standard errors apart" in w]
+    # the simulation's value with its error by the two-figure rule (mdsim.numbers)
+    assert said and f"the energy route {dT + 1.0:.3f} ± 0.020 K" in said[0]
 
 
 def test_dense_state_keeps_simulation_results(tmp_path):
