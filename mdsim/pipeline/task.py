@@ -176,11 +176,13 @@ class RunningTask:
         "target" whenever ``stderr_K`` is at or below the target, even when
         the CPU budget ran out as well (the last stage cut short by the budget
         may still have brought the error below the target); "cpu budget" only
-        when the budget ended sampling short of the target.  Sets
+        when the budget ended sampling short of the target.  A route that
+        ended for another reason (the energy route's temperature guesses used
+        up with the balance unsolved) keeps that reason, whatever the error.  Sets
         :attr:`stopped_by`, which the routes use while sampling to know that
         the budget forbids more, and returns it.
         """
-        if stderr_K <= self.target_K:
+        if stderr_K <= self.target_K and self.stopped_by in (None, "target", "cpu budget"):
             self.stopped_by = "target"
         return self.stopped_by
 

@@ -278,3 +278,15 @@ def test_a_task_met_target_is_stopped_by_the_target_even_when_the_budget_ran_out
     assert res["stopped_by"] == stopped_by
     budget_warnings = [w for w in res["warnings"] if "CPU budget" in w]
     assert len(budget_warnings) == (stopped_by == "cpu budget")
+
+
+def test_an_unsolved_energy_balance_is_not_called_stopped_by_the_target():
+    """Temperature guesses used up with the Newton step unconverged: the error may meet the
+    target, but T_f is not solved, and the stop reason says so (not 'target')."""
+    from mdsim.pipeline.routes.energy import UNSOLVED
+    from mdsim.pipeline.task import RunningTask
+    job = RunningTask.__new__(RunningTask)  # only the stop bookkeeping is exercised
+    job.target_K, job.stopped_by = 0.5, UNSOLVED
+    assert job.stop_reason(0.1) == UNSOLVED
+    job.stopped_by = "cpu budget"
+    assert job.stop_reason(0.1) == "target"  # the budget ran out after the target was met

@@ -16,7 +16,7 @@ from mdsim.pipeline.chain import Chain, mean_se, run_to, stage_share
 from mdsim.pipeline.rundir import INITIAL_STATE, final_density_guess
 from mdsim.units import R_GAS
 
-__all__ = ["run_energy", "SAMPLERS"]
+__all__ = ["run_energy", "SAMPLERS", "next_temperature", "UNSOLVED"]
 
 SAMPLERS = {"mc": "mc-nvt", "md": "md-nvt"}
 """The NVT sampler of ``[simulation] sampler``, as an engine method."""
@@ -99,8 +99,64 @@ def _newton(job, init, finals, method, share, is_md):
             break
         if job.stopped_by == "cpu budget":
             break
-        T_k = res.details["newton_start_temperature_K"] + res.details["newton_step_K"]
+        T_k = next_temperature(res.details["newton_start_temperature_K"]
+                               + res.details["newton_step_K"],
+                               [s.temperature_K for s in samples],
+                               [_balance(job, s, res) for s in samples])
+    else:
+        if res.method == "newton" and not res.details["newton_converged"]:
+            job.stopped_by = UNSOLVED  # the error may meet the target; T_f is not solved
     return res, samples
+
+
+UNSOLVED = "temperature guesses used up"
+"""The stop reason when every temperature guess is spent and the balance is not solved."""
+
+
+def _balance(job, sample, res):
+    """U(T_k, rho_f) - U_i at a sampled final-density temperature, J/mol."""
+    cv, T = job.cv_ig, sample.temperature_K
+    U_i = cv.u(job.T_i) + res.details["initial_u_res_J_mol"]
+    return cv.u(T) + sample.u_res_J_mol - U_i
+
+
+def next_temperature(T_newton, T_k, g_k):
+    """The next temperature to sample: Newton's, kept inside the bracket the samples make.
+
+    Parameters
+    ----------
+    T_newton : float
+        The Newton step's temperature from the sample nearest to balance, K.
+    T_k : sequence of float
+        The final-density temperatures sampled so far, K.
+    g_k : sequence of float
+        The energy balance U(T_k, rho_f) - U_i at each, J/mol.
+
+    Returns
+    -------
+    float
+        ``T_newton`` unless two samples on either side of the balance bracket
+        the root and ``T_newton`` falls outside that bracket (a Newton step
+        thrown far by a noisy or wildly varying heat capacity, as where the
+        final state is near phase separation); then the secant point of the
+        tightest bracket (safeguarded Newton, common practice in root
+        finding, no source).
+
+    Examples
+    --------
+    >>> next_temperature(250.0, [150.0, 60.0], [40.0, -50.0])  # Newton overshoots the bracket
+    110.0
+    >>> next_temperature(100.0, [150.0, 60.0], [40.0, -50.0])  # inside it: Newton's kept
+    100.0
+    """
+    pairs = sorted(zip(T_k, g_k))
+    brackets = [(a, b) for a, b in zip(pairs, pairs[1:]) if a[1] * b[1] < 0.0]
+    if not brackets:
+        return float(T_newton)
+    (T_lo, g_lo), (T_hi, g_hi) = min(brackets, key=lambda ab: ab[1][0] - ab[0][0])
+    if T_lo < T_newton < T_hi:
+        return float(T_newton)
+    return float(T_lo - g_lo * (T_hi - T_lo) / (g_hi - g_lo))
 
 
 def _nearest(job, finals, res):
