@@ -35,8 +35,8 @@ from scipy.integrate import quad
 from analysis import inputs
 from analysis.roots import find_root_bracketed
 from analysis.results import Result
-from mdsim.checks import positive
-from mdsim.errors import ConvergenceError, StudyError
+from mdsim.checks import non_negative, positive
+from mdsim.errors import ConvergenceError
 from mdsim.units import R_GAS
 
 
@@ -157,10 +157,8 @@ def lost_work_J(entropy_generated_J_K, reference_temperature_K):
     """
     t0 = positive("reference_temperature_K", reference_temperature_K,
                    "the temperature of the surroundings, for example 298.15 K")
-    s = float(entropy_generated_J_K)
-    if not math.isfinite(s) or s < 0.0:
-        raise StudyError(f"entropy generated = {entropy_generated_J_K!r} J/K: must be a finite "
-                         "number >= 0 (an isolated process cannot destroy entropy)")
+    s = non_negative("entropy_generated_J_K", entropy_generated_J_K,
+                     "J/K; an isolated process cannot destroy entropy")
     return t0 * s
 
 

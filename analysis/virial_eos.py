@@ -17,7 +17,7 @@ import numpy as np
 from analysis import inputs
 from analysis import virial
 from analysis.virial.quadrature import check_fractions
-from mdsim.checks import non_negative_array, positive_array
+from mdsim.checks import non_negative_array, positive, positive_array
 from mdsim.engine.potentials import PairMatrix, PairPotential
 from mdsim.errors import StudyError
 from mdsim.units import N_A, R_GAS
@@ -299,9 +299,7 @@ class VirialGas:
         VirialSeriesError
             Saying that a simulation is needed.
         """
-        limit = float(limit)
-        if not math.isfinite(limit) or limit <= 0.0:
-            raise StudyError(f"setting 'limit' = {limit!r}: must be a positive fraction (e.g. 0.05)")
+        limit = positive("limit", limit, "a fraction, e.g. 0.05")
         ind = self.series_convergence(T, rho_mol_m3)
         worst = float(np.max(ind["z_ratio"]))
         if worst > limit:

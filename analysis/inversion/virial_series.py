@@ -13,7 +13,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from analysis import inputs
-from mdsim.checks import positive
+from mdsim.checks import non_negative, positive
 from mdsim.errors import ConvergenceError, StudyError
 from mdsim.units import R_GAS
 
@@ -100,10 +100,7 @@ def joule_sign_virial_Pa(gas, temperature_K, density_mol_m3, order=2):
     """
     order = inputs.order(order)
     T = positive("temperature_K", temperature_K, "give the temperature in K")
-    rho = float(density_mol_m3)
-    if not math.isfinite(rho) or rho < 0.0:
-        raise StudyError(f"setting 'density_mol_m3' = {density_mol_m3!r}: must be a finite "
-                         "number >= 0 (mol/m^3)")
+    rho = non_negative("density_mol_m3", density_mol_m3, "mol/m^3")
     return float(T * gas.dp_dT_Pa_K(T, rho, order) - gas.pressure_Pa(T, rho, order))
 
 

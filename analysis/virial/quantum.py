@@ -12,7 +12,7 @@ import numpy as np
 from analysis.virial.quadrature import (DEFAULT_NODES_B2, b2_layout, check_nodes, check_pot,
                                         check_temperature, mayer, register, shape_out)
 from analysis.virial.si import ANGSTROM_M
-from mdsim.errors import StudyError
+from mdsim.checks import non_negative, positive
 from mdsim.units import K_B, PLANCK
 
 __all__ = ["DE_BOER_FIRST_ORDER_LIMIT", "DE_BOER_NEGLIGIBLE", "QuantumCorrectionWarning",
@@ -55,10 +55,7 @@ def b2_quantum(pot, T, h2_over_mu, n_nodes=DEFAULT_NODES_B2):
     """
     check_pot(pot)
     T_t = check_temperature(T).ravel()
-    q = float(h2_over_mu)
-    if not math.isfinite(q) or q < 0.0:
-        raise StudyError(f"'h2_over_mu' = {h2_over_mu!r}: must be a non-negative number "
-                         "(h^2 / (mu k) in energy x length^2)")
+    q = non_negative("h2_over_mu", h2_over_mu, "h^2 / (mu k) in energy x length^2")
     n = check_nodes(n_nodes, "n_nodes")
     r, w, u, dudr = b2_layout(register(pot), n)
     with np.errstate(over="ignore", invalid="ignore"):
@@ -77,11 +74,8 @@ def b2_quantum(pot, T, h2_over_mu, n_nodes=DEFAULT_NODES_B2):
 
 def h2_over_mu_K_A2(mass_a_kg, mass_b_kg):
     """h^2 / (mu k) in K angstrom^2 for a pair of molecular masses (kg)."""
-    ma, mb = float(mass_a_kg), float(mass_b_kg)
-    for name, m in (("mass_a_kg", ma), ("mass_b_kg", mb)):
-        if not math.isfinite(m) or m <= 0.0:
-            raise StudyError(f"'{name}' = {m!r}: a molecular mass must be positive (kg per molecule; "
-                             "divide the molar mass in kg/mol by N_A)")
+    hint = "kg per molecule: divide the molar mass in kg/mol by N_A"
+    ma, mb = positive("mass_a_kg", mass_a_kg, hint), positive("mass_b_kg", mass_b_kg, hint)
     mu = ma * mb / (ma + mb)
     return PLANCK ** 2 / (mu * K_B) / ANGSTROM_M ** 2
 
@@ -102,9 +96,7 @@ def de_boer_parameter(pot_K_A, mass_kg):
         About 2.6 for helium, 1.7 for H2, 0.6 for neon, 0.19 for argon.
     """
     check_pot(pot_K_A, "pot_K_A")
-    m = float(mass_kg)
-    if not math.isfinite(m) or m <= 0.0:
-        raise StudyError(f"'mass_kg' = {mass_kg!r}: must be a positive molecular mass in kg")
+    m = positive("mass_kg", mass_kg, "a molecular mass in kg")
     eps_J = pot_K_A.epsilon * K_B
     sigma_m = pot_K_A.sigma * ANGSTROM_M
     return PLANCK / (sigma_m * math.sqrt(m * eps_J))

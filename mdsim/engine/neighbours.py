@@ -33,7 +33,7 @@ import math
 import numpy as np
 from numba import njit
 
-from mdsim.errors import StudyError
+from mdsim.checks import positive
 
 #: Smallest and largest skins chosen automatically (in sigma).
 SKIN_MIN, SKIN_MAX = 0.3, 1.0
@@ -259,10 +259,8 @@ class NeighbourList:
     """
 
     def __init__(self, n_particles, box_i, rc_max, skin):
-        skin = float(skin)
-        if not math.isfinite(skin) or skin <= 0.0:
-            raise StudyError(f"setting 'skin' = {skin!r}: must be a positive length in sigma "
-                             "(typically 0.3 for a liquid to 1.0 for a dilute gas)")
+        skin = positive("skin", skin, "a length in sigma, typically 0.3 for a liquid to 1.0 "
+                        "for a dilute gas")
         self.n = int(n_particles)
         self.rc_max = float(rc_max)
         self.skin = skin
