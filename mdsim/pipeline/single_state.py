@@ -123,7 +123,8 @@ def sample_single_state(study, density_mol_m3, method="mc-nvt", temperature_K=No
     rho = positive("density_mol_m3", density_mol_m3, "for example 500 mol/m^3")
     T_red, energy_red = _reduced_state(units, method, temperature_K, energy_J_mol)
     interval = DEFAULT_INTERVAL[method[:2]] if interval is None else count("interval", interval)
-    system = study.system(count("particles", particles), rho, seed=count("seed", seed, minimum=0))
+    system = study.system(count("particles", particles), rho, seed=count("seed", seed, minimum=0),
+                          temperature_K=None if T_red is None else temperature_K)
     attrs = {"study_name": study.name, "study_file": str(study.path),
              **{f"units_{k}": v for k, v in units.as_dict().items()},
              "density_mol_m3": rho}
