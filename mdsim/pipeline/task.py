@@ -19,7 +19,7 @@ from mdsim.errors import ConvergenceError
 from mdsim.files import atomic_write_text
 from mdsim.pipeline.plan import N_MAX, N_MIN, choose_particles, virial_start_guess
 from mdsim.sampling import store
-from mdsim.study.quantum_potential import uses_feynman_hibbs
+from mdsim.study.quantum_potential import feynman_hibbs_validity, uses_feynman_hibbs
 
 __all__ = ["RunningTask", "CpuLedger", "N_MIN", "N_MAX"]
 
@@ -138,6 +138,11 @@ class RunningTask:
             self.warnings.append("the study asks for the quantum correction: it applies to the "
                                  "virial routes only; simulations are classical")
         self.T_f_guess, self.dT_guess = self._virial_guess()
+        if self.feynman_hibbs:  # the lowest temperature sampled decides
+            note, warning = feynman_hibbs_validity(self.study, min(self.T_i, self.T_f_guess))
+            self.notes.append(note)
+            if warning is not None:
+                self.warnings.append(warning)
         self.n_particles = self.choose_particles(task.get("particles"))
 
     # -- numbers chosen from the target -------------------------------------------------

@@ -12,7 +12,8 @@ from mdsim.errors import SettingError
 from mdsim.study.schema import ANGSTROM
 from mdsim.units import N_A
 
-__all__ = ["uses_feynman_hibbs", "feynman_hibbs_q_reduced", "pairs_at_temperature"]
+__all__ = ["uses_feynman_hibbs", "feynman_hibbs_q_reduced", "pairs_at_temperature",
+           "feynman_hibbs_validity"]
 
 
 def uses_feynman_hibbs(study):
@@ -70,3 +71,29 @@ def pairs_at_temperature(study, pairs_red, temperature_K, cache):
     if T_red not in cache:
         cache[T_red] = feynman_hibbs_pairs(pairs_red, feynman_hibbs_q_reduced(study.gas), T_red)
     return cache[T_red]
+
+
+def feynman_hibbs_validity(study, temperature_K):
+    """A note on the quadratic Feynman-Hibbs potential at a temperature, and a warning when
+    it is not enough there (else None).
+
+    Returns
+    -------
+    note : str
+        The next-order ratio (:func:`mdsim.engine.feynman_hibbs.next_order_ratio`).
+    warning : str or None
+        When the ratio exceeds ``NEXT_ORDER_LIMIT``.
+    """
+    from mdsim.engine.feynman_hibbs import NEXT_ORDER_LIMIT, next_order_ratio
+    T_K = float(temperature_K)
+    ratio = next_order_ratio(study.reduced_pairs().pots[0][0],
+                             feynman_hibbs_q_reduced(study.gas),
+                             study.units.temperature_to_reduced(T_K))
+    note = (f"Feynman-Hibbs next-order ratio {ratio:.2g} at {T_K:.4g} K (the quadratic form is "
+            f"enough up to {NEXT_ORDER_LIMIT})")
+    if ratio <= NEXT_ORDER_LIMIT:
+        return note, None
+    return note, (f"at {T_K:.4g} K the quadratic Feynman-Hibbs potential is not enough: its "
+                  f"next (quartic) term is {ratio:.2f} of the quadratic one at the closest "
+                  f"thermal approach (limit {NEXT_ORDER_LIMIT}); treat the simulated Delta T "
+                  "as indicative (docs/physics.md)")

@@ -67,6 +67,26 @@ def test_pair_matrix_keeps_the_cut_off_radius():
     assert fh.pots[0][0].sigma > 1.0  # the effective wall lies further out (common practice)
 
 
+def test_next_order_ratio_against_the_closed_form_and_where_the_quadratic_form_fails(tmp_path):
+    """(s^2/4) |lap lap u / lap u| at u(r_T) = kT, s^2 = 2 q / kT; for LJ
+    lap lap u = 4 (24024 r^-16 - 1680 r^-10) (n(n-1)(n+1)(n+2) for r^-n)."""
+    from mdsim.engine.feynman_hibbs import next_order_ratio
+    from mdsim.study.quantum_potential import feynman_hibbs_validity
+    from mdsim.study.reader import read_study
+    for q, T in ((_q_neon(), 50.0 / EPS_K), (0.0143, 20.0 / 10.22)):
+        r_t = brentq(lambda r: _lj(r)[0] - T, 0.5, 1.0, xtol=1e-14)
+        closed = 0.5 * q / T * 4 * (24024 * r_t ** -16 - 1680 * r_t ** -10) / _lj(r_t)[2]
+        assert next_order_ratio(LennardJones(1.0, 1.0), q, T) == pytest.approx(closed, rel=1e-4)
+    assert feynman_hibbs_validity(read_study(_write(tmp_path)), 50.0)[1] is None  # neon, 0.06
+    # helium as LJ (10.22 K, 2.556 angstrom; Hirschfelder, Curtiss and Bird) at 20 K: 0.89
+    helium = tmp_path / "helium.toml"
+    helium.write_text(NEON_STUDY.format(routes='["energy"]', sampler="mc").replace(
+        "35.6 K", "10.22 K").replace("2.749", "2.556").replace("20.18 g/mol", "4.0026 g/mol")
+        .replace("50 K", "20 K").replace("3000 mol", "300 mol"), encoding="utf-8")
+    note, warning = feynman_hibbs_validity(read_study(helium), 20.0)
+    assert "0.89" in note and "not enough" in warning
+
+
 # -- the sampler's estimator against a slow NumPy all-pairs reference ------------------------
 
 def _reference_sums(r_ni, box, rc, q, T):
