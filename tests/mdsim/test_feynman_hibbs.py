@@ -114,7 +114,8 @@ def test_monte_carlo_energy_estimator_against_numpy_all_pairs():
     du_c, lap_c = _lj(rc)[1], _lj(rc)[2]
     tail_u = 2 * math.pi * rho * 4 * (rc ** -9 / 9 - rc ** -3 / 3)
     tail_c = 2 * math.pi * rho * (-rc * rc * du_c)  # times q; int (u''+2u'/r) r^2 = -rc^2 u'
-    i_w = 4 * (-4.0 / 3.0 * rc ** -9 + 2 * rc ** -3) + q / T * (3 * rc * rc * du_c - rc ** 3 * lap_c)
+    i_w = (4 * (-4.0 / 3.0 * rc ** -9 + 2 * rc ** -3)
+           + q / T * (3 * rc * rc * du_c - rc ** 3 * lap_c))
     expect_eff = u_pp + c_pp / T + tail_u + q * tail_c / T
     expect_thermo = u_pp + 2 * c_pp / T + tail_u + 2 * q * tail_c / T
     expect_p = rho * T + w / (3 * system.volume) - 2 * math.pi / 3 * rho ** 2 * i_w
@@ -257,6 +258,18 @@ def test_study_refuses_routes_the_potential_cannot_serve(tmp_path, routes, sampl
     from mdsim.study.reader import read_study
     with pytest.raises(StudyError, match=f"quantum_potential.*{words}"):
         read_study(_write(tmp_path, routes, sampler))
+
+
+def test_corresponding_states_table_refuses_the_quantum_potential(tmp_path):
+    """A table of one potential shape serves every epsilon and sigma; Feynman-Hibbs depends on
+    the mass too (through Lambda*), so a table of an FH study is refused, not built classically."""
+    from mdsim.cstable import table_settings
+    from mdsim.study.reader import read_study
+    path = _write(tmp_path)
+    path.write_text(path.read_text() + "[table]\ntemperatures = [1.5, 2, 3, 4]\n"
+                    "densities = [0.05, 0.1, 0.2, 0.3]\n")
+    with pytest.raises(StudyError, match="quantum_potential"):
+        table_settings(read_study(path))
 
 
 def _coolprop_delta_T(T_i, rho_i, r):
