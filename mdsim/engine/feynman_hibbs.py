@@ -298,10 +298,14 @@ def sampling_reference(system, method, temperature):
     if ref is None:
         return None
     kT_fh = system.pairs.pots[0][0].temperature
-    if method != "mc-nvt" or not math.isclose(kT_fh, float(temperature), rel_tol=1e-9):
+    if method != "mc-nvt":
+        raise StudyError(f"sampler {method!r}: a Feynman-Hibbs system can only be sampled "
+                         "canonically by Monte Carlo (mc-nvt), whose sampler computes the "
+                         "thermodynamic energy estimator of the temperature-dependent potential")
+    if not math.isclose(kT_fh, float(temperature), rel_tol=1e-9):
         raise StudyError(f"sampler {method!r} at kT = {temperature!r}: the system's "
-                         f"Feynman-Hibbs potential is built for kT = {kT_fh!r}; it can only be "
-                         "sampled canonically (mc-nvt) at the temperature it was built for")
+                         f"Feynman-Hibbs potential is built for kT = {kT_fh!r}; build the "
+                         "system at the temperature it is sampled at")
     u_tail, _ = ref.tail_corrections(system.density, system.fractions_a)
     return (np.ascontiguousarray(ref.params_ab), np.ascontiguousarray(ref.table), int(ref.form),
             float(u_tail))

@@ -64,8 +64,10 @@ def pairs_at_temperature(study, pairs_red, temperature_K, cache):
     if temperature_K is None:
         raise SettingError("temperature_K", None,
                            "the study's [simulation] quantum_potential = 'feynman-hibbs' makes "
-                           "the pair potential depend on temperature, and this calculation gives "
-                           "none; it supports the classical potential only (remove the key)")
+                           "the pair potential depend on temperature, and this calculation has "
+                           "none (a fixed-energy method, or a calculation for the classical "
+                           "potential only); use canonical Monte Carlo at a temperature, or "
+                           "remove the key")
     from mdsim.engine.feynman_hibbs import feynman_hibbs_pairs
     T_red = study.units.temperature_to_reduced(float(temperature_K))
     if T_red not in cache:

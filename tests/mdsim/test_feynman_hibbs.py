@@ -304,6 +304,18 @@ def test_study_refuses_routes_the_potential_cannot_serve(tmp_path, routes, sampl
         read_study(_write(tmp_path, routes, sampler))
 
 
+def test_sample_command_says_which_potential_and_refuses_fixed_energy(tmp_path, capsys):
+    from mdsim.cli import main
+    path = str(_write(tmp_path))
+    common = ["sample", path, "--density", "3000 mol/m^3", "--particles", "100",
+              "--samples", "200"]
+    assert main(common + ["--method", "mc-nvt", "--temperature", "50 K"]) == 0
+    assert "quadratic Feynman-Hibbs" in capsys.readouterr().out
+    assert main(common + ["--method", "mc-nve", "--energy", "100 J/mol"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "quantum_potential = 'feynman-hibbs'" in err[0]
+
+
 def test_corresponding_states_table_refuses_the_quantum_potential(tmp_path):
     """A table of one potential shape serves every epsilon and sigma; Feynman-Hibbs depends on
     the mass too (through Lambda*), so a table of an FH study is refused, not built classically."""
