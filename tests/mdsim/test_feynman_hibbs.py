@@ -138,6 +138,7 @@ def test_samplers_refuse_what_the_potential_does_not_allow():
         feynman_hibbs_pairs(mix, 1e-3, 1.5)
 
 
+@pytest.mark.slow
 def test_two_particles_energy_and_heat_capacity_against_exact_integrals():
     """Two particles in a periodic box (rc < L/2, so one pair and one image): the exact
     canonical averages are radial integrals.  The heat capacity is checked against the
@@ -233,6 +234,7 @@ def test_dilute_limit_reproduces_the_wigner_kirkwood_second_virial_coefficient()
     assert abs(u1) < 0.12 * abs(u_wk - u_cl)
 
 
+@pytest.mark.slow
 def test_low_density_simulation_against_the_virial_series():
     """u_res and c_v,res of FH Monte Carlo at rho* = 0.01, neon at 50 K, against the virial
     series with B2 + first-order Wigner-Kirkwood and classical B3 (analysis.virial).
