@@ -77,6 +77,10 @@ def format_sample(out):
                      f"   (reduced {_fmt(red[key]['value'], red[key]['stderr'])})")
     lines.append("  (energy: full potential, tail included; errors: one standard error from the "
                  "statistical inefficiency)")
+    if out.get("quantum_potential") == "feynman-hibbs":
+        lines.append("  (pair potential: quadratic Feynman-Hibbs at the set temperature; energy: "
+                     "its thermodynamic estimator <u + 2 beta c>, heat capacity with its extra "
+                     "term; docs/physics.md section 3.5)")
     if out["run_file"]:
         lines.append(f"  run file {out['run_file']}" + ("  (resumed)" if out["resumed"] else ""))
     return lines

@@ -34,6 +34,12 @@ def _potential_shape(study):
         raise StudyError(f"study '{study.path}': a corresponding-states table needs a pure gas; "
                          f"this one has {gas.n_species} species; write a study with one "
                          "[potential] table")
+    from mdsim.study.quantum_potential import uses_feynman_hibbs
+    if uses_feynman_hibbs(study):
+        raise StudyError(f"study '{study.path}': [simulation] quantum_potential = "
+                         "'feynman-hibbs': a corresponding-states table is classical (the "
+                         "Feynman-Hibbs potential depends on the mass and the temperature, not "
+                         "on the shape alone); remove the key to build the classical table")
     pairs = study.reduced_pairs()
     pot = pairs.pots[0][0]
     from mdsim.engine.potentials import FORM_NAMES

@@ -9,7 +9,8 @@ API below; each kernel is compiled, or loaded from the cache, on first use.
 Modules: :mod:`~mdsim.engine.forms` (form codes, parameter rows, the scalar
 pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.potentials` (analytic forms, mixing, pair matrix),
-:mod:`~mdsim.engine.tabulated` (tables), :mod:`~mdsim.engine.system`,
+:mod:`~mdsim.engine.tabulated` (tables), :mod:`~mdsim.engine.feynman_hibbs`
+(the quadratic Feynman-Hibbs effective potential), :mod:`~mdsim.engine.system`,
 :mod:`~mdsim.engine.rng`, :mod:`~mdsim.engine.neighbours`,
 :mod:`~mdsim.engine.forces`, :mod:`~mdsim.engine.integrator` and
 :mod:`~mdsim.engine.md` (molecular dynamics), :mod:`~mdsim.engine.mc_cells`,

@@ -20,6 +20,7 @@ import numpy as np
 
 from mdsim.checks import count, positive
 from mdsim.engine import rng as _rng
+from mdsim.engine.feynman_hibbs import sampling_reference
 from mdsim.engine.forces import check_finite, forces_half, forces_half_parallel
 from mdsim.engine.integrator import (default_time_step, kick_drift, kick_thermostat,
                                      kinetic_energy, maxwell_boltzmann, verlet_block)
@@ -92,6 +93,7 @@ class MDSampler:
         if system.r_ni is None:
             raise StudyError("the system has no positions: call place_on_lattice() or "
                              "place_at_random() before making a sampler")
+        sampling_reference(system, method, temperature)  # refuses a Feynman-Hibbs system
         self.method = method
         self.system = system
         self.pairs = system.pairs

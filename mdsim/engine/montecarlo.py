@@ -38,6 +38,7 @@ import numpy as np
 
 from mdsim.checks import count
 from mdsim.engine import rng as _rng
+from mdsim.engine.feynman_hibbs import sampling_reference
 from mdsim.engine.mc_cells import build_cells, cell_grid
 from mdsim.engine.mc_kernels import MODE_NVE, MODE_NVT, energy_virial, mc_moves
 from mdsim.engine.system import System
@@ -104,8 +105,6 @@ def _number(name, value, lo, hi, hint, *, lo_open=True):
         raise StudyError(f"Monte Carlo setting '{name}' = {value!r}: must lie in "
                          f"{left}{lo:g}, {hi:g}] ({hint})")
     return v
-
-
 
 
 # --- sampler -------------------------------------------------------------------
@@ -216,6 +215,8 @@ class MCSampler:
         self.cell_n = np.empty(n, dtype=np.int64)
         self.n_moves = 0
         self.n_accepted = 0
+        # (params, table, form, u_tail) of the classical u under Feynman-Hibbs, else None
+        self.reference = sampling_reference(system, self.method, self.temperature)
         self._load_positions(system.r_ni)
         if self.mode == MODE_NVE and self.u_trunc + n * self.u_tail >= n * self.energy:
             raise StudyError(
@@ -295,6 +296,11 @@ class MCSampler:
             "u_trunc", "u_full" (per particle), "pressure_conf", "pressure"
             (NaN for mc-nve), "acceptance" (fraction accepted since the
             previous sample), and for mc-nve "kinetic" = (E - U_full) / N.
+            Under a Feynman-Hibbs potential u_FH = u + beta c
+            (:mod:`mdsim.engine.feynman_hibbs`) "u_full" is the thermodynamic
+            estimator sum (u + 2 beta c) / N = 2 u_FH - u per particle and
+            "u_effective" the mean of u_FH itself; the pressure is the virial
+            of u_FH.
 
         Notes
         -----
@@ -312,6 +318,8 @@ class MCSampler:
                                                "pressure", "acceptance")}
         if self.mode == MODE_NVE:
             out["kinetic"] = np.empty(n_samples)
+        if self.reference is not None:
+            out["u_effective"] = np.empty(n_samples)
         for t in range(n_samples):
             m = interval * n
             acc = self._moves(m)
@@ -320,6 +328,13 @@ class MCSampler:
             self._check_budget()
             out["u_trunc"][t] = u / n
             out["u_full"][t] = u / n + self.u_tail
+            if self.reference is not None:  # Feynman-Hibbs: the thermodynamic estimator
+                params, table, form, u_tail_cl = self.reference
+                u_cl = energy_virial(self.r_ni, self.species_n, params, form, table,
+                                     self.box_i, self.ncell_i, self.head_c, self.next_n,
+                                     self.cell_n)[0] / n + u_tail_cl
+                out["u_effective"][t] = out["u_full"][t]
+                out["u_full"][t] = 2.0 * out["u_effective"][t] - u_cl
             out["pressure_conf"][t] = w / (3.0 * vol) + self.p_tail
             out["acceptance"][t] = acc / m
             if self.mode == MODE_NVT:

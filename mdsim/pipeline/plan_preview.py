@@ -69,7 +69,8 @@ def _pilot(study, method, n, rho_i, T_red, seed):
     interval = MD_PILOT_INTERVAL if is_md else 1
 
     def run(n_equilibration, n_samples):
-        system = study.system(n, rho_i, seed=seed)
+        system = study.system(n, rho_i, seed=seed,
+                              temperature_K=study.units.temperature_to_K(T_red))
         return sample_state_point(system, method, T_red, n_equilibration=n_equilibration,
                                   n_samples=n_samples, interval=interval, seed=seed,
                                   **settings)

@@ -105,9 +105,22 @@ def _settings_lines(study, gathered):
     ]
 
 
+def _quantum_line(study):
+    """The report's line on quantum effects: the virial routes' and the simulations'."""
+    from mdsim.study.quantum_potential import uses_feynman_hibbs
+    virial = ("the first-order Wigner-Kirkwood correction is added to B2 (virial routes)"
+              if study.gas.quantum_correction else "the virial routes are classical")
+    if uses_feynman_hibbs(study):
+        return (f"- Quantum effects: {virial}; the simulations use the quadratic Feynman-Hibbs "
+                "effective potential of each sampled temperature with its thermodynamic energy "
+                "estimator (docs/physics.md section 3.5).")
+    if study.gas.quantum_correction:
+        return f"- Quantum effects: {virial}; the simulations are classical."
+    return "- Quantum effects: classical statistics throughout (no quantum correction asked for)."
+
+
 def _assumptions(study, cv):
     """What every number of the report assumes."""
-    gas = study.gas
     lines = [
         f"- Ideal-gas heat capacity: {cv.describe()}. A simulation of spherical particles "
         "carries only translation (3/2 R); rotations and vibrations enter only through this "
@@ -115,11 +128,7 @@ def _assumptions(study, cv):
         "its cooling by about 2/3).",
         "- Pair-additive, spherical potential: three-body forces are neglected; B3 is the "
         "additive third virial coefficient of the same pair potential.",
-        "- Quantum effects: " + ("the first-order Wigner-Kirkwood correction is added to B2 "
-                                 "(virial routes); the simulations are classical."
-                                 if gas.quantum_correction else
-                                 "classical statistics throughout (no quantum correction asked "
-                                 "for)."),
+        _quantum_line(study),
         "- Long-range part: the potential is cut at the cut-off and the analytic tail correction "
         "of the full potential added to energies and pressures; the direct route (NVE MD of "
         "the truncated and shifted potential) is corrected to the full potential by the change "

@@ -116,14 +116,18 @@ def sample_single_state(study, density_mol_m3, method="mc-nvt", temperature_K=No
         ``temperature_K``, ``density_mol_m3``; ``reduced``, the same keys
         in reduced units (``temperature``, ``density``) and ``units``
         saying which; and ``study``, ``method``, ``particles``,
-        ``samples``, ``interval``, ``seed``, ``run_file``, ``resumed``.
+        ``samples``, ``interval``, ``seed``, ``run_file``, ``resumed``,
+        ``quantum_potential`` (the study's ``[simulation]`` key: with
+        "feynman-hibbs" the energy is the thermodynamic estimator of that
+        potential, docs/physics.md section 3.5).
     """
     from mdsim.sampling.state_point import sample_state_point
     units = study.units
     rho = positive("density_mol_m3", density_mol_m3, "for example 500 mol/m^3")
     T_red, energy_red = _reduced_state(units, method, temperature_K, energy_J_mol)
     interval = DEFAULT_INTERVAL[method[:2]] if interval is None else count("interval", interval)
-    system = study.system(count("particles", particles), rho, seed=count("seed", seed, minimum=0))
+    system = study.system(count("particles", particles), rho, seed=count("seed", seed, minimum=0),
+                          temperature_K=None if T_red is None else temperature_K)
     attrs = {"study_name": study.name, "study_file": str(study.path),
              **{f"units_{k}": v for k, v in units.as_dict().items()},
              "density_mol_m3": rho}
@@ -133,6 +137,7 @@ def sample_single_state(study, density_mol_m3, method="mc-nvt", temperature_K=No
                                 seed=seed, path=out, attrs=attrs)
     data = _summary_dict(study, result.summary, rho)
     data.update({"study": study.name, "method": method, "particles": system.n_particles,
+                 "quantum_potential": study.simulation["quantum_potential"],
                  "samples": samples, "interval": interval, "seed": seed,
                  "run_file": str(result.path) if result.path else None,
                  "resumed": result.resumed})

@@ -19,6 +19,7 @@ from mdsim.errors import ConvergenceError
 from mdsim.files import atomic_write_text
 from mdsim.pipeline.plan import N_MAX, N_MIN, choose_particles, virial_start_guess
 from mdsim.sampling import store
+from mdsim.study.quantum_potential import feynman_hibbs_validity, uses_feynman_hibbs
 
 __all__ = ["RunningTask", "CpuLedger", "N_MIN", "N_MAX"]
 
@@ -128,10 +129,20 @@ class RunningTask:
         g = self.study.gas
         self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
                                     quantum_correction=False)
-        if g.quantum_correction:
+        self.feynman_hibbs = uses_feynman_hibbs(self.study)
+        if self.feynman_hibbs:
+            self.notes.append("simulations use the quadratic Feynman-Hibbs effective pair "
+                              "potential at each sampled temperature, with its thermodynamic "
+                              "energy estimator (docs/physics.md)")
+        elif g.quantum_correction:
             self.warnings.append("the study asks for the quantum correction: it applies to the "
                                  "virial routes only; simulations are classical")
         self.T_f_guess, self.dT_guess = self._virial_guess()
+        if self.feynman_hibbs:  # the lowest temperature sampled decides
+            note, warning = feynman_hibbs_validity(self.study, min(self.T_i, self.T_f_guess))
+            self.notes.append(note)
+            if warning is not None:
+                self.warnings.append(warning)
         self.n_particles = self.choose_particles(task.get("particles"))
 
     # -- numbers chosen from the target -------------------------------------------------
@@ -150,10 +161,15 @@ class RunningTask:
             self.warnings.append(warning)
         return n
 
-    def system_maker(self, rho_mol_m3, tag):
-        """A function making a fresh system of the task at a density (seeded start)."""
+    def system_maker(self, rho_mol_m3, tag, temperature_K=None):
+        """A function making a fresh system of the task at a density (seeded start).
+
+        ``temperature_K``: the temperature it will be sampled at, needed by a
+        temperature-dependent (Feynman-Hibbs) potential.
+        """
         def make():
-            return self.study.system(self.n_particles, rho_mol_m3, seed=self.start_seed(tag))
+            return self.study.system(self.n_particles, rho_mol_m3, seed=self.start_seed(tag),
+                                     temperature_K=temperature_K)
         return make
 
     def md_time_step(self, T_red):

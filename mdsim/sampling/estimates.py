@@ -77,7 +77,14 @@ def summarise(samples, method, n_particles, volume, temperature=None, dof_per_pa
     Notes
     -----
     c_v_res = N Var(u_full) / T^2 per particle in k (canonical fluctuation
-    formula, Var of the per-particle energy).  For mc-nve the temperature
+    formula, Var of the per-particle energy).  With a Feynman-Hibbs
+    potential u_FH = u + beta c (samples carry "u_effective", the mean of
+    u_FH, and "u_full" is the thermodynamic estimator e = u + 2 beta c per
+    particle) the derivative of <E> = <e> in T has one more term:
+    c_v_res = [N Var(e) - 2 T <u_FH - u>] / T^2, from
+    d<e>/d(beta) = <de/d(beta)> - Cov(e, d(beta U_FH)/d(beta)) with
+    d(beta U_FH)/d(beta) = e and de/d(beta) = 2 c (``docs/physics.md``,
+    "Quantum-corrected simulation").  For mc-nve the temperature
     is 1/kT = (F/2 - 1) <1/(E - U)> (Ray, Phys. Rev. A 44, 4061, 1991), its
     error by the delta method; the pressure is rho kT + <p_conf> with the two
     errors added in quadrature (their covariance neglected).  The canonical
@@ -100,7 +107,11 @@ def summarise(samples, method, n_particles, volume, temperature=None, dof_per_pa
             p = mean_and_stderr(samples["pressure"])
             out["pressure"] = Estimate(p.mean, p.stderr, p.g)
         var = variance_and_stderr(samples["u_full"])
-        out["c_v_res"] = Estimate(n * var.value / T ** 2, n * var.stderr / T ** 2, var.g)
+        c_v, s_c = n * var.value / T ** 2, n * var.stderr / T ** 2
+        if "u_effective" in samples:  # Feynman-Hibbs: minus 2 <sum c> / (N T^2) (Notes)
+            d = mean_and_stderr(np.asarray(samples["u_full"]) - samples["u_effective"])
+            c_v, s_c = c_v - 2.0 * d.mean / T, math.hypot(s_c, 2.0 * d.stderr / T)
+        out["c_v_res"] = Estimate(c_v, s_c, var.g)
     elif method == "md-nve":
         t = mean_and_stderr(samples["temperature_inst"])
         out["temperature"] = Estimate(t.mean, t.stderr, t.g)

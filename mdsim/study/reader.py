@@ -45,7 +45,9 @@ Tables read here:
     ["energy"]; [] for the virial routes only), ``particles`` (optional:
     chosen by the tool from the target when absent), ``target_stderr``
     ("0.05 K"), ``max_cpu_time`` ("10 min"), ``seed`` (int, default 1),
-    ``sampler`` ("mc" or "md": the energy route's NVT sampler).
+    ``sampler`` ("mc" or "md": the energy route's NVT sampler),
+    ``quantum_potential`` ("none" or "feynman-hibbs": the quantum-corrected
+    simulation, :mod:`mdsim.study.quantum_potential`).
 ``[sweep]``
     Lists over ``temperature``, ``pressure`` or ``density`` (not both), and
     ``volume_ratio``; every combination is a state point
@@ -90,6 +92,7 @@ import numpy as np
 from mdsim.checks import count
 from mdsim.errors import SettingError, StudyError
 from mdsim.study.gas import Gas, close_packed_density_mol_m3, read_gas
+from mdsim.study.quantum_potential import pairs_at_temperature
 from mdsim.study.runtables import read_run_tables
 from mdsim.study.statepoints import state_points
 from mdsim.study.schema import ANGSTROM, SCHEMA, TOP_LEVEL, Key
@@ -141,7 +144,9 @@ class Study:
         - ``max_cpu_time`` : float -- CPU budget per task, s, > 0
           (default 600);
         - ``seed`` : int -- >= 0 (default 1);
-        - ``sampler`` : str -- "mc" or "md" (default "mc").
+        - ``sampler`` : str -- "mc" or "md" (default "mc");
+        - ``quantum_potential`` : str -- "none" or "feynman-hibbs" (default
+          "none").
     sweep : dict
         Lists of SI values for the swept keys (``temperature``,
         ``pressure`` or ``density``, ``volume_ratio``).
@@ -164,6 +169,9 @@ class Study:
     sweep: dict
     cluster: dict
     raw: dict
+    #: Feynman-Hibbs pair matrices already built, by reduced temperature
+    effective_pairs: dict = dataclasses.field(default_factory=dict, init=False, repr=False,
+                                              compare=False)
 
     @property
     def units(self):
@@ -201,7 +209,7 @@ class Study:
         u = self.gas.units
         return self.gas.pairs_K_angstrom.scaled(u.epsilon_K, u.sigma_m / ANGSTROM)
 
-    def system(self, n_particles, density_mol_m3, start="auto", seed=0):
+    def system(self, n_particles, density_mol_m3, start="auto", seed=0, temperature_K=None):
         """A System in reduced units at a molar density, with a start configuration.
 
         Parameters
@@ -215,6 +223,10 @@ class Study:
             ``RANDOM_START_MAX_DENSITY_RED``, a lattice above it.
         seed : int
             Seed for the start configuration.
+        temperature_K : float, optional
+            The temperature the system will be sampled at; needed with
+            ``[simulation] quantum_potential = "feynman-hibbs"``, whose pair
+            potential depends on it (:mod:`mdsim.study.quantum_potential`).
 
         Returns
         -------
@@ -230,7 +242,9 @@ class Study:
             raise SettingError("particles", n_particles, f"too few for the mixture (counts "
                                f"{counts.tolist()}); use more particles")
         masses = self.gas.molar_masses_kg_mol / self.gas.molar_masses_kg_mol[0]
-        system = System.cubic(self.reduced_pairs(), counts, rho_red, masses_a=masses,
+        pairs = pairs_at_temperature(self, self.reduced_pairs(), temperature_K,
+                                     self.effective_pairs)
+        system = System.cubic(pairs, counts, rho_red, masses_a=masses,
                               dof_per_particle=self.gas.dof_per_particle)
         if start == "auto":
             start = "random" if rho_red < RANDOM_START_MAX_DENSITY_RED else "lattice"
@@ -314,7 +328,7 @@ def read_study(path):
     {'temperature': 295.15, 'pressure': 2200000.0}
     >>> study.simulation
     {'routes': ['energy'], 'particles': None, 'target_stderr': 0.05, 'max_cpu_time': 600.0,
-     'seed': 1, 'sampler': 'mc'}
+     'seed': 1, 'sampler': 'mc', 'quantum_potential': 'none'}
     >>> study.state_points()[0].label()
     'T = 295.15 K, p = 22 bar, r = 2'
     >>> study.units.epsilon_K, study.gas.species_names

@@ -56,6 +56,29 @@ def _check_densities(ctx, doc, out, gas):
                          "check the unit (mol/m^3, not mol/L) and the value")
 
 
+def _check_quantum_potential(ctx, doc, out, gas):
+    """The Feynman-Hibbs simulation: energy route, Monte Carlo, a pure gas."""
+    sim = out["simulation"]
+    if sim["quantum_potential"] == "none":
+        return
+    raw = doc["simulation"]["quantum_potential"]
+    if gas.n_species != 1:
+        ctx.fail("simulation", "quantum_potential", raw, f"the gas has {gas.n_species} species",
+                 "a pure gas", "remove the key (the quantum-corrected simulation is for pure "
+                 "gases)")
+    other = [r for r in sim["routes"] if r != "energy"]
+    if other:
+        ctx.fail("simulation", "quantum_potential", raw,
+                 f"the routes {other} run at fixed energy, where the Feynman-Hibbs "
+                 "potential's temperature is the unknown final temperature",
+                 'routes = ["energy"]', "use the energy route with this key")
+    if sim["sampler"] != "mc":
+        ctx.fail("simulation", "quantum_potential", raw,
+                 f"sampler = {sim['sampler']!r}: the thermodynamic energy estimator of the "
+                 "temperature-dependent potential is computed by the Monte Carlo sampler",
+                 'sampler = "mc"', "set sampler = \"mc\" or remove the key")
+
+
 def read_run_tables(ctx, doc, gas):
     """Validate [initial], [expansion], [simulation], [sweep], [cluster].
 
@@ -79,4 +102,5 @@ def read_run_tables(ctx, doc, gas):
            for table in PIPELINE_TABLES}
     _check_state_keys(ctx, doc, out)
     _check_densities(ctx, doc, out, gas)
+    _check_quantum_potential(ctx, doc, out, gas)
     return out

@@ -19,7 +19,7 @@ import dataclasses
 from mdsim.study.routes import DEFAULT_ROUTES, SIMULATION_ROUTES
 
 __all__ = ["ANGSTROM", "NO_DEFAULT", "Key", "SCHEMA", "TOP_LEVEL", "PIPELINE_TABLES",
-           "RENAMED_KEYS", "FORMS", "SAMPLERS", "CLUSTER_SYSTEMS", "TEMPERATURE_RANGE_K",
+           "RENAMED_KEYS", "FORMS", "SAMPLERS", "QUANTUM_POTENTIALS", "CLUSTER_SYSTEMS", "TEMPERATURE_RANGE_K",
            "PRESSURE_RANGE_PA", "DENSITY_RANGE_MOL_M3", "VOLUME_RATIO_MAX", "MAX_SWEEP_VALUES", "SEED_MAX"]
 
 #: One angstrom in metres (potential lengths are kept in angstrom).
@@ -83,6 +83,7 @@ class Key:
 
 FORMS = ("lennard-jones", "mie", "exp-6", "table")
 SAMPLERS = ("mc", "md")
+QUANTUM_POTENTIALS = ("none", "feynman-hibbs")
 CLUSTER_SYSTEMS = ("slurm", "pbs")
 TEMPERATURE_RANGE_K = (1e-3, 1e5)
 PRESSURE_RANGE_PA = (0.0, 1e10)
@@ -187,6 +188,10 @@ _RUN_TABLES = {
         "seed": Key("int", default=1, low=0, high=SEED_MAX, low_inclusive=True, example="1"),
         "sampler": Key("string", default="mc", choices=SAMPLERS, example='"mc"',
                        help="NVT Monte Carlo or thermostatted MD for the energy route"),
+        "quantum_potential": Key("string", default="none", choices=QUANTUM_POTENTIALS,
+                                 example='"feynman-hibbs"',
+                                 help="the quadratic Feynman-Hibbs effective potential for light "
+                                 "gases (energy route, Monte Carlo, pure gas)"),
     },
     "cluster": {
         "system": Key("string", choices=CLUSTER_SYSTEMS, example='"slurm"',

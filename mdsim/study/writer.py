@@ -92,7 +92,7 @@ def _simulation_table(study):
     routes = list(dict.fromkeys(r for r in s["routes"] if r in SIMULATION_ROUTES))
     table = {"routes": routes, "target_stderr": f"{float(s['target_stderr'])!r} K",
              "max_cpu_time": f"{float(s['max_cpu_time'])!r} s", "seed": int(s["seed"]),
-             "sampler": s["sampler"]}
+             "sampler": s["sampler"], "quantum_potential": s["quantum_potential"]}
     if s.get("particles") is not None:
         table["particles"] = int(s["particles"])
     return table

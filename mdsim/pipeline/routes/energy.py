@@ -5,7 +5,11 @@ at (T_i, rho_i); then at rho_f, from the B2 + B3 virial estimate of T_f,
 sample, Newton-step, and sample again at the new temperature until the step
 is below a quarter of its standard error or MBAR reweighting over two or
 more temperatures brackets the balance (:func:`analysis.expansion.energy_route`).
-Any c_v_ig(T).  Stage files: ``initial-state-*`` and
+Any c_v_ig(T).  With the Feynman-Hibbs potential each temperature is
+sampled with the potential of that temperature, u_full is its thermodynamic
+energy estimator and c_v_res its fluctuation formula
+(:mod:`mdsim.sampling.estimates`), and MBAR is not used (it reweights between
+temperatures under one potential): Newton steps only.  Stage files: ``initial-state-*`` and
 ``final-density-guessK-*`` (the K-th temperature guess at the final density).
 """
 import math
@@ -45,8 +49,8 @@ def run_energy(job):
     T_i_red = job.units.temperature_to_reduced(job.T_i)
     share = stage_share(job, job.cv_ig.cv(job.T_i) / R_GAS)
     md = {"time_step": job.md_time_step(T_i_red)} if method.startswith("md") else None
-    init = Chain(job, INITIAL_STATE, 0, job.system_maker(job.rho_i, 0), method, T_red=T_i_red,
-                 md_settings=md).run_pilot()
+    init = Chain(job, INITIAL_STATE, 0, job.system_maker(job.rho_i, 0, job.T_i), method,
+                 T_red=T_i_red, md_settings=md).run_pilot()
     run_to(init, share)
     job.initial_chain = init
     finals = []
@@ -79,8 +83,10 @@ def _solve(job, init, finals):
                                    u.heat_capacity_to_J_molK(s["c_v_res"].value),
                                    u.heat_capacity_to_J_molK(s["c_v_res"].stderr)))
         series.append(u.energy_to_J_mol(ch.samples()["u_full"]))
+    # MBAR reweights between temperatures with one potential: not with a Feynman-Hibbs one
+    mbar = len(finals) > 1 and not job.feynman_hibbs
     res = energy_route((u.energy_to_J_mol(mi), u.energy_to_J_mol(si)), job.T_i, job.rho_f,
-                       samples, job.cv_ig, series_final=series if len(finals) > 1 else None,
+                       samples, job.cv_ig, series_final=series if mbar else None,
                        n_particles=job.n_particles)
     return res, samples
 
@@ -90,8 +96,8 @@ def _newton(job, init, finals, method, share, is_md):
     T_k = job.T_f_guess
     for it in range(MAX_NEWTON_TEMPERATURES):
         md_f = {"time_step": job.md_time_step(T_k / job.eps_K)} if is_md else None
-        ch = Chain(job, final_density_guess(it), 1 + it, job.system_maker(job.rho_f, 1), method,
-                   T_red=T_k / job.eps_K, md_settings=md_f).run_pilot()
+        ch = Chain(job, final_density_guess(it), 1 + it, job.system_maker(job.rho_f, 1, T_k),
+                   method, T_red=T_k / job.eps_K, md_settings=md_f).run_pilot()
         run_to(ch, share)
         finals.append(ch)
         res, samples = _solve(job, init, finals)
