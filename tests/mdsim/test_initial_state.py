@@ -18,40 +18,29 @@ from mdsim.pipeline import RunDir, read_task_result
 from mdsim.pipeline.prepare import prepare_run_dir
 from mdsim.study.reader import read_study
 from mdsim.units import K_B, N_A
+from test_routes_across_states import EPS_K, SIGMA_M, STUDY as LJ_STUDY
 
-EPS_K, SIGMA_M = 100.0, 3.4e-10
 T_STAR, RHO_STAR = 10.0, 0.21
 RHO_UNIT = N_A * SIGMA_M ** 3  # rho* per mol/m^3
 P_UNIT = K_B * EPS_K / SIGMA_M ** 3  # Pa per p*
 
-STUDY = """[study]
-name = "lj-initial-state"
-[gas]
-molar_mass = "40 g/mol"
-ideal_heat_capacity = "1.5 R"
-[potential]
-form = "lennard-jones"
-epsilon = "100 K"
-sigma = "3.4 angstrom"
-cutoff = 3.0
-[initial]
-temperature = "{T_K} K"
-{state}
-[expansion]
-volume_ratio = 2.0
-[simulation]
-routes = ["microcanonical"]
-particles = {particles}
-target_stderr = "{target}"
-max_cpu_time = "60 s"
-seed = 11
-"""
+ROUTES_LINE = 'routes = ["energy", "microcanonical", "direct"]'
+
+
+def _study_text(state, particles, target):
+    """The Lennard-Jones study of tests/mdsim/test_routes_across_states.py at T_STAR, its
+    [initial] density line replaced by ``state`` and the microcanonical route alone."""
+    text = LJ_STUDY.format(t=T_STAR, rho=RHO_STAR, T_K=T_STAR * EPS_K, rho_mol_m3=0.0, r=2.0,
+                           particles=particles, target=target, max_cpu="60 s", seed=11)
+    assert ROUTES_LINE in text
+    lines = [state if line.startswith("density = ") else line
+             for line in text.replace(ROUTES_LINE, 'routes = ["microcanonical"]').splitlines()]
+    return "\n".join(lines) + "\n"
 
 
 def _thol():
     """The reference EOS: Thol et al., J. Phys. Chem. Ref. Data 45, 023101 (2016), via teqp."""
-    teqp = pytest.importorskip("teqp")
-    return teqp.build_LJ126_TholJPCRD2016()
+    return pytest.importorskip("teqp").build_LJ126_TholJPCRD2016()
 
 
 def _thol_pressure(rho_star):
@@ -82,8 +71,7 @@ def _pressure_allowance(rho_star, cutoff=3.0, h_max=0.05):
 
 def _study(tmp_path, state, particles, target):
     path = tmp_path / "study.toml"
-    path.write_text(STUDY.format(T_K=T_STAR * EPS_K, state=state, particles=particles,
-                                 target=target), encoding="utf-8")
+    path.write_text(_study_text(state, particles, target), encoding="utf-8")
     return read_study(path)
 
 
