@@ -32,7 +32,8 @@ from mdsim.errors import ConvergenceError
 from mdsim.numbers import value_with_error
 from mdsim.pipeline.chain import Chain, run_to, solve_or_extend
 from mdsim.pipeline.plan import particles_for_cutoff
-from mdsim.pipeline.rundir import INITIAL_STATE, initial_state_try
+from mdsim.pipeline.rundir import INITIAL_STATE, initial_state_try, stage_name
+from mdsim.sampling import store
 from mdsim.units import R_GAS
 
 __all__ = ["run_initial_state", "next_density", "sampled_pressure", "MAX_PRESSURE_TRIES", "ITERATION_BUDGET_SHARE",
@@ -90,6 +91,9 @@ def next_density(tries, p_target, virial_slope):
     >>> rho, slope, how = next_density([(100.0, 2.5e5, 1e3), (96.0, 2.39e5, 1e3)], 2.4e5, 2500.0)
     >>> round(rho, 4), round(slope, 6), how  # the slope of the two tries, and both agree
     (96.3636, 2750.0, 'sampled')
+    >>> rho, slope, how = next_density([(100.0, 2.5e5, 1e3), (99.9, 2.49e5, 1e3)], 2.4e5, 2500.0)
+    >>> round(rho, 4), slope, how  # two tries too close for a slope: the virial one, averaged
+    (96.15, 2500.0, 'virial B2+B3')
     """
     rho = np.array([t[0] for t in tries], dtype=float)
     p = np.array([t[1] for t in tries], dtype=float)
@@ -136,8 +140,9 @@ def _why_stop(job, k, rho_next):
     """Why no further density can be tried (None when it can)."""
     if k + 1 >= MAX_PRESSURE_TRIES:
         return f"its {MAX_PRESSURE_TRIES} densities are used up"
-    if job.stage_path(f"{initial_state_try(k + 1)}-pilot").is_file():
-        return None  # already sampled by an earlier run of the task: read back
+    pilot = job.stage_path(stage_name(initial_state_try(k + 1)))
+    if pilot.is_file() or store.part_path(pilot).is_file():
+        return None  # begun by an earlier run of the task: read back or resumed
     if job.cpu_spent() >= ITERATION_BUDGET_SHARE * job.budget_s:
         return (f"the CPU budget it may use ({ITERATION_BUDGET_SHARE:.0%} of [simulation] "
                 f"max_cpu_time = {job.budget_s:g} s) is spent")
