@@ -168,6 +168,18 @@ def test_a_state_given_by_pressure_reports_the_pressure_sampled_and_the_density_
     from mdsim.numbers import value_with_error
     assert f"| {value_with_error(p / 1e5, se / 1e5)} |" in report and f"| {how} |" in report
 
+    # run again (as a resumed task does): the stage files are read back, the same densities
+    # are tried and no CPU is spent (decisions come from the stage files and seeds alone)
+    from mdsim.pipeline.chain import stage_share
+    from mdsim.pipeline.initial_state import run_initial_state
+    from mdsim.pipeline.task import RunningTask
+    rd = RunDir(tmp_path / "run")
+    job = RunningTask(rd, rd.read_tasks()[0])
+    spent = job.cpu_spent()
+    run_initial_state(job, "mc-nvt", T_STAR, stage_share(job, 1.5))
+    assert job.pressure_tries == tries and job.rho_i == res["initial_density_mol_m3"]
+    assert job.cpu_spent() == spent
+
 
 def test_a_state_given_by_density_reports_the_pressure_sampled_there(tmp_path):
     """Given rho* = 0.21 at T* = 10: sampled once there, the pressure reported agrees with the
