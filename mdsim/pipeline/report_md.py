@@ -12,7 +12,7 @@ import time
 
 from mdsim.files import atomic_write_text
 from mdsim.numbers import value_with_error
-from mdsim.pipeline.report_tables import results_table, virial_table
+from mdsim.pipeline.report_tables import initial_state_table, results_table, virial_table
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.results_files import seed_text
 from mdsim.pipeline.summary import best_simulation
@@ -205,6 +205,13 @@ def _results(points, records, rd):
           "when the routes differ. The virial coefficients of the pair potential at T_i "
           "(with the quantum correction when the study asks for it):", ""]
     L += virial_table(points, records) + [""]
+    L += ["The initial state of each route. A state given by pressure is placed by the virial "
+          "routes at the density of the B2 + B3 series; every simulation route finds the "
+          "model's own density instead, sampling the pressure at T_i and correcting the "
+          "density until the sampled pressure is within one standard error of the pressure "
+          "asked for (\"pressure iteration, N steps\": N densities sampled). A state given "
+          "by density shows the pressure each route sampled there.", ""]
+    L += initial_state_table(points, records) + [""]
     L += ["Every state point and route, with the final states and the task settings, is in "
           f"`{rd.results_csv.name}`; the same numbers as JSON in `{rd.results_json.name}`.", ""]
     return L

@@ -8,9 +8,10 @@ import math
 
 from mdsim.numbers import value_with_error
 from mdsim.pipeline.summary import value_stderr
-from mdsim.study.routes import ROUTE_LABELS as ROUTE_NAMES, ROUTES
+from mdsim.study.routes import ROUTE_LABELS as ROUTE_NAMES, ROUTES, SIMULATION_ROUTES
 
-__all__ = ["cell", "particle_cell", "results_table", "virial_table", "VIRIAL_IN_CM"]
+__all__ = ["cell", "particle_cell", "results_table", "virial_table", "initial_state_table",
+           "VIRIAL_IN_CM"]
 
 VIRIAL_IN_CM = (("B2_m3_mol", 1e6, "cm^3/mol"), ("dB2_dT_m3_molK", 1e6, "cm^3/(mol K)"),
                 ("B3_m6_mol2", 1e12, "cm^6/mol^2"), ("dB3_dT_m6_mol2K", 1e12, "cm^6/(mol^2 K)"))
@@ -100,4 +101,52 @@ def virial_table(points, records):
         for key, scale, _ in VIRIAL_IN_CM:
             cells.append(cell(None if v.get(key) is None else v[key] * scale))
         lines.append("| " + " | ".join(cells) + " |")
+    return lines
+
+
+def _bar(entry):
+    """(value, stderr) in bar of a {value, stderr} in Pa (or None)."""
+    v, e = value_stderr(entry)
+    return (None if v is None else v / 1e5), (None if e is None else e / 1e5)
+
+
+def initial_state_table(points, records):
+    """The initial state of every route: the pressure asked for and sampled, the density used.
+
+    One row for the virial routes of a state point (the density given, or the
+    B2 + B3 density of the pressure given) and one per simulation route (its
+    density found by the pressure iteration, or given), with the pressure
+    the route sampled there.
+
+    Examples
+    --------
+    >>> from mdsim.study.statepoints import StatePoint
+    >>> sp = StatePoint(index=0, temperature_K=295.15, volume_ratio=2.0, pressure_Pa=6e6,
+    ...                 density_mol_m3=None)
+    >>> rec = {"initial": {"pressure_Pa": 6e6, "density_mol_m3": 2612.3,
+    ...                    "density_from": "virial B2+B3 (virial routes)"},
+    ...        "simulation": {"energy": {"initial_density_mol_m3": 2607.9,
+    ...                                  "initial_density_from": "pressure iteration, 2 steps",
+    ...                                  "initial_pressure_Pa": {"value": 6.003e6,
+    ...                                                          "stderr": 9.1e3}}}}
+    >>> print("\\n".join(initial_state_table([sp], [rec])[2:]))
+    | 0 | virial | 60 | - | 2612.3 | virial B2+B3 (virial routes) |
+    | 0 | energy | 60 | 60.030 ± 0.091 | 2607.9 | pressure iteration, 2 steps |
+    """
+    head = ["state point", "route", "p_i asked (bar)", "p_i sampled (bar)", "rho_i (mol/m^3)",
+            "rho_i from"]
+    lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
+    for sp, rec in zip(points, records):
+        ini = rec["initial"]
+        asked = cell(None if sp.pressure_Pa is None else sp.pressure_Pa / 1e5)
+        lines.append(f"| {sp.index} | virial | {asked} | - | {cell(ini.get('density_mol_m3'))} "
+                     f"| {ini.get('density_from') or '-'} |")
+        for route in SIMULATION_ROUTES:
+            sim = (rec.get("simulation") or {}).get(route)
+            if sim is None:
+                continue
+            lines.append(f"| {sp.index} | {ROUTE_NAMES[route]} | {asked} | "
+                         f"{cell(*_bar(sim.get('initial_pressure_Pa')))} | "
+                         f"{cell(sim.get('initial_density_mol_m3'))} | "
+                         f"{sim.get('initial_density_from') or '-'} |")
     return lines

@@ -3,7 +3,11 @@
 ``results.csv``
     One row per state point and route, columns with their units in their
     names (:data:`CSV_COLUMNS`); a route that did not finish has a row with
-    its ``status`` and empty numbers.
+    its ``status`` and empty numbers.  ``initial_density_mol_m3`` is the
+    route's own (a simulation route's found from a given pressure, the
+    virial routes' from the B2 + B3 series), ``initial_density_from`` says
+    how, and ``initial_pressure_sampled_*`` is the pressure a simulation
+    route sampled at its initial state.
 ``results.json``
     :func:`mdsim.pipeline.summary.run_summary` of the state-point records
     (the shape ``mdsim run --json`` prints), plus ``tasks`` and ``files``
@@ -25,6 +29,7 @@ __all__ = ["CSV_COLUMNS", "csv_rows", "write_csv", "write_results_json", "seed_t
 CSV_COLUMNS = (
     "state_point_index", "route", "status",
     "initial_temperature_K", "initial_pressure_Pa", "initial_density_mol_m3", "volume_ratio",
+    "initial_density_from", "initial_pressure_sampled_Pa", "initial_pressure_sampled_stderr_Pa",
     "delta_T_K", "delta_T_stderr_K", "final_temperature_K", "final_temperature_stderr_K",
     "final_density_mol_m3", "final_pressure_Pa", "final_pressure_stderr_Pa",
     "task_index", "seed", "n_particles", "stopped_by", "cpu_seconds", "warnings",
@@ -51,7 +56,8 @@ def _virial_rows(sp, rec, base):
     for route in VIRIAL_ROUTES:
         value, _ = value_stderr(rec["delta_T_K"].get(route))
         row = dict.fromkeys(CSV_COLUMNS, "")
-        row.update(base, route=route, status="done" if value is not None else "unavailable")
+        row.update(base, route=route, status="done" if value is not None else "unavailable",
+                   initial_density_from=ini.get("density_from") or "")
         if value is not None:
             T_f = sp.temperature_K + value
             rho = ini.get("density_mol_m3")
@@ -80,6 +86,12 @@ def _task_row(task, base, gathered, failed, missing):
         dT, dTs = value_stderr(res.get("delta_T_K"))
         Tf, Tfs = value_stderr(res.get("final_temperature_K"))
         pf, pfs = value_stderr(res.get("final_pressure_Pa"))
+        pi, pis = value_stderr(res.get("initial_pressure_Pa"))
+        if res.get("initial_density_mol_m3") is not None:
+            row["initial_density_mol_m3"] = _num(res["initial_density_mol_m3"])
+        row.update(initial_density_from=res.get("initial_density_from") or "",
+                   initial_pressure_sampled_Pa=_num(pi),
+                   initial_pressure_sampled_stderr_Pa=_num(pis))
         row.update(status="done", delta_T_K=_num(dT), delta_T_stderr_K=_num(dTs),
                    final_temperature_K=_num(Tf), final_temperature_stderr_K=_num(Tfs),
                    final_density_mol_m3=_num(res.get("final_density_mol_m3")),

@@ -17,7 +17,9 @@ Layout (all under one directory, ``runs/NAME`` by default; ``docs/run-directory.
 Stage files are named by what they sample (:func:`stage_name`): a chain
 ``LABEL`` has the pilot ``LABEL-pilot.h5`` and the production stages
 ``LABEL-00.h5``, ``LABEL-01.h5``, ...  The labels are
-:data:`INITIAL_STATE` (NVT at the initial state), ``final-density-guessK``
+:data:`INITIAL_STATE` (NVT at the initial state; ``initial-state-tryK``,
+:func:`initial_state_try`, the K-th density of the pressure iteration of a
+state given by pressure), ``final-density-guessK``
 (:func:`final_density_guess`: the energy route's K-th temperature guess at
 the final density), :data:`FINAL_STATE_NVE` (the microcanonical route's
 final state), :data:`WALL_REMOVED_FILLING` and :data:`WALL_REMOVED_RELAXED`
@@ -41,7 +43,8 @@ from mdsim.errors import StudyError
 from mdsim.files import atomic_write_text
 from mdsim.study.writer import INPUTS_DIR
 
-__all__ = ["RunDir", "LOG_FORMAT", "space_needed_bytes", "stage_name", "final_density_guess", "INITIAL_STATE",
+__all__ = ["RunDir", "LOG_FORMAT", "space_needed_bytes", "stage_name", "final_density_guess",
+           "initial_state_try", "INITIAL_STATE",
            "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
            "WALL_REMOVED_RELAXED", "STAGE_LABELS"]
 
@@ -77,6 +80,15 @@ def final_density_guess(k):
     'final-density-guess0'
     """
     return f"{FINAL_DENSITY_GUESS}{int(k)}"
+
+
+def initial_state_try(k):
+    """Stage label of the ``k``-th density tried by the pressure iteration at the initial state.
+
+    >>> initial_state_try(0)
+    'initial-state-try0'
+    """
+    return f"{INITIAL_STATE}-try{int(k)}"
 
 
 def stage_name(label, k=None):

@@ -16,6 +16,7 @@ import numpy as np
 
 from analysis.results import to_plain
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
+from mdsim.pipeline.initial_state import sampled_pressure
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.routes import ROUTE_RUNNERS
 from mdsim.pipeline.task import CpuLedger, RunningTask
@@ -45,8 +46,11 @@ def run_task(run_dir, index, progress=None):
     dict
         The task result: ``route``, ``state_point_index``, ``delta_T_K`` and
         ``final_temperature_K`` ({value, stderr}, K), ``initial_pressure_Pa``
-        and ``final_pressure_Pa`` ({value, stderr} or None), initial and
-        final density (mol/m^3), ``stopped_by``, ``cpu_seconds``,
+        (sampled) and ``final_pressure_Pa`` ({value, stderr} or None), initial and
+        final density (mol/m^3; the initial one found at a given pressure,
+        :mod:`mdsim.pipeline.initial_state`), ``initial_density_from`` (how),
+        ``planned_initial_density_mol_m3`` (the plan's), ``requested_initial_pressure_Pa``
+        (or None), ``pressure_iteration`` (the densities tried), ``stopped_by``, ``cpu_seconds``,
         ``n_particles``, ``warnings``, ``notes``, ``method``, ``details``,
         ``n_stages``, ``target_stderr_K``, ``wall_seconds_last_run``.  A
         complete task file is read back, not run again.
@@ -170,13 +174,8 @@ def _run(rd, index, task, progress, seen):
 
 def _initial_pressure(job):
     """The pressure sampled at the initial state {value, stderr} in Pa, or None."""
-    if job.initial_chain is None:
-        return None
-    est = job.initial_chain.summary().get("pressure")
-    if est is None or not est.available:
-        return None
-    return {"value": job.units.pressure_to_Pa(est.value),
-            "stderr": job.units.pressure_to_Pa(est.stderr)}
+    p = None if job.initial_chain is None else sampled_pressure(job, job.initial_chain)
+    return None if p is None else {"value": p[0], "stderr": p[1]}
 
 
 def _result(job, res, pressure, extra):
@@ -190,6 +189,10 @@ def _result(job, res, pressure, extra):
         "final_temperature_K": {"value": float(res.final_temperature_K),
                                 "stderr": float(res.final_temperature_stderr_K)},
         "initial_density_mol_m3": job.rho_i,
+        "initial_density_from": job.initial_density_from,
+        "planned_initial_density_mol_m3": job.planned_rho_i,
+        "requested_initial_pressure_Pa": task["state_point"].get("pressure_Pa"),
+        "pressure_iteration": list(job.pressure_tries),
         "final_density_mol_m3": job.rho_f,
         "final_pressure_Pa": pressure,
         "stopped_by": job.stopped_by,

@@ -7,7 +7,8 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
       "index": 0,
       "state_point": {StatePoint as a dict},
       "volume_ratio": 2.0,
-      "initial": {"temperature_K", "pressure_Pa", "density_mol_m3", "density_from"},
+      "initial": {"temperature_K", "pressure_Pa", "density_mol_m3", "density_from",
+                  "sampled_pressure_Pa": {"value", "stderr"} or null},
       "final": {"temperature_K", "temperature_stderr_K", "pressure_Pa",
                 "density_mol_m3", "source"},
       "delta_T_K": {"virial_b2": {"value", "stderr": null}, "virial_b2b3": {...},
@@ -15,7 +16,9 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
       "entropy_generated_J_molK": float or null,
       "virial": {"B2_m3_mol", "dB2_dT_m3_molK", "B3_m6_mol2", "dB3_dT_m6_mol2K",
                  "temperature_K", "quantum_correction"},
-      "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method"}},
+      "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method",
+                             "initial_density_mol_m3", "initial_density_from",
+                             "initial_pressure_Pa": {"value", "stderr"}}},
       "warnings": [str, ...]
     }
 
@@ -23,6 +26,14 @@ Routes not run (or not available, such as a virial route where the series
 does not converge) are absent from ``delta_T_K``, and a warning says why.
 ``final`` comes from the best route available, in the order
 :data:`FINAL_PREFERENCE`; ``final.source`` names it.
+
+The initial state: ``initial`` is the virial routes' (the density given,
+or the B2 + B3 density of the pressure given, then said so:
+"virial B2+B3 (virial routes)"), with the pressure the first simulation
+route sampled there (``sampled_pressure_Pa``); each simulation route's own
+initial density (found from a given pressure by the pressure iteration,
+:mod:`mdsim.pipeline.initial_state`), how it was found and its sampled
+pressure are in ``simulation``.
 
 All numbers are SI: K, Pa, mol/m^3, J/(mol K), m^3/mol, m^6/mol^2.
 Non-finite numbers become null.
@@ -198,18 +209,47 @@ def _simulation_entries(route_results, delta, finals, warnings):
         if initial_pressure is None:
             initial_pressure, _ = value_stderr(res.get("initial_pressure_Pa"))
         simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
-                                                      "method")}
+                                                      "method", "initial_density_from")}
+        simulation[route]["initial_density_mol_m3"] = _num(res.get("initial_density_mol_m3"))
+        simulation[route]["initial_pressure_Pa"] = _value_stderr_dict(
+            res.get("initial_pressure_Pa"))
         for w in res.get("warnings") or []:
             warnings.append(f"{route}: {w}")
     return simulation, initial_pressure
 
 
+def _value_stderr_dict(entry):
+    """{value, stderr} (finite numbers or None) of a task result's entry, or None."""
+    value, stderr = value_stderr(entry)
+    return None if value is None else {"value": value, "stderr": stderr}
+
+
+def _sampled_initial_pressure(route_results):
+    """{value, stderr} of the first simulation route's sampled initial pressure (Pa), or None."""
+    for route in SIMULATION_ROUTES:
+        res = route_results.get(route)
+        entry = _value_stderr_dict(res.get("initial_pressure_Pa")) if res else None
+        if entry is not None:
+            return entry
+    return None
+
+
 def _initial_state(vs, sp, route_results, initial_pressure):
     """The record's ``initial``: from the virial summary, else from the state point and tasks."""
+    initial = _virial_initial_state(vs, sp, route_results, initial_pressure)
+    initial["sampled_pressure_Pa"] = _sampled_initial_pressure(route_results)
+    return initial
+
+
+def _virial_initial_state(vs, sp, route_results, initial_pressure):
+    """The initial state of the virial routes (or, without them, of the first task)."""
     if vs is not None:
         initial = dict(vs["initial"])
         if initial["pressure_Pa"] is None:
             initial["pressure_Pa"] = initial_pressure
+        if sp.pressure_Pa is not None and any(route_results.values()):
+            # the simulation routes found their own density: say whose this one is
+            initial["density_from"] = f"{initial['density_from']} (virial routes)"
         return initial
     initial = {"temperature_K": sp.temperature_K, "pressure_Pa": sp.pressure_Pa
                if sp.pressure_Pa is not None else initial_pressure,

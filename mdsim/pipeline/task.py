@@ -83,7 +83,17 @@ class RunningTask:
     Attributes
     ----------
     T_i, r, rho_i, rho_f : float
-        Initial temperature (K), volume ratio, initial and final molar density (mol/m^3).
+        Initial temperature (K), volume ratio, initial and final molar density
+        (mol/m^3): the planned ones until the initial state is sampled, then the
+        density found (:mod:`mdsim.pipeline.initial_state`) and its r-th part.
+    planned_rho_i : float
+        The initial density of the plan (``tasks.json``), mol/m^3.
+    initial_density_from : str
+        How ``rho_i`` was found: "given", "pressure iteration, N steps" (N
+        densities sampled), or the plan's "virial B2+B3" before sampling.
+    pressure_tries : list of dict
+        The densities the pressure iteration tried (``density_mol_m3``,
+        ``pressure_Pa``, ``pressure_stderr_Pa``).
     target_K, budget_s : float
         The target standard error of Delta T (K) and the CPU budget (s).
     T_f_guess, dT_guess : float, float or None
@@ -114,8 +124,10 @@ class RunningTask:
         self.state_point_index = int(sp["index"])
         self.T_i = float(sp["temperature_K"])
         self.r = float(sp["volume_ratio"])
-        self.rho_i = float(task["initial_density_mol_m3"])
+        self.rho_i = self.planned_rho_i = float(task["initial_density_mol_m3"])
         self.rho_f = self.rho_i / self.r
+        self.initial_density_from = task.get("initial_density_from")
+        self.pressure_tries = []
         self.target_K = float(task["target_stderr_K"])
         self.budget_s = float(task["max_cpu_time_s"])
         self.seed = [int(s) for s in task["seed"]]
@@ -152,6 +164,15 @@ class RunningTask:
         if note is not None:
             self.notes.append(note)
         return T_f, dT
+
+    def set_initial_density(self, rho_mol_m3):
+        """Start from the density found at the initial state (mol/m^3): sets rho_i, rho_f and
+        the virial first guesses of the final state."""
+        if float(rho_mol_m3) == self.rho_i:
+            return
+        self.rho_i = float(rho_mol_m3)
+        self.rho_f = self.rho_i / self.r
+        self.T_f_guess, self.dT_guess = self._virial_guess()
 
     def choose_particles(self, given):
         """The particle number (:func:`mdsim.pipeline.plan.choose_particles`)."""

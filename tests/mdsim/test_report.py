@@ -159,7 +159,7 @@ def _read_csv(path):
 
 UNIT_SUFFIXES = ("_K", "_Pa", "_mol_m3", "_seconds")
 DIMENSIONLESS = {"volume_ratio", "n_particles", "seed", "task_index", "state_point_index"}
-TEXT = {"route", "status", "stopped_by", "warnings"}
+TEXT = {"route", "status", "stopped_by", "warnings", "initial_density_from"}
 
 
 def test_csv_columns_carry_units_and_match_the_json(run_dir, summary):
@@ -194,7 +194,9 @@ def test_report_md_has_cautions_settings_and_results(run_dir, summary):
         assert f"(plots/{stem}.png)" in text
     # the results table has one line per state point, the particles of its tasks in a column
     rows = [line for line in text.splitlines() if line.startswith(("| 0 |", "| 1 |"))]
-    assert len(rows) == 2 * N_POINTS  # the results table and the virial-coefficient table
+    # the results table, the virial-coefficient table, and the initial-state table (a row for
+    # the virial routes and one per simulation route)
+    assert len(rows) == 2 * N_POINTS + N_POINTS * (1 + 3)
     assert all(line.split(" | ")[5] == "64" for line in rows[:N_POINTS])
     assert "- particles:" not in text  # no separate list of particle counts
     # T_f carries its error: the cell is exactly the two-figure rounding of the JSON numbers

@@ -1,6 +1,7 @@
 """The direct route: remove the wall and follow the gas filling the larger box.
 
-MD NVT at (T_i, rho_i); the box enlarged r-fold along z with the particles
+MD NVT at (T_i, rho_i) (rho_i found from a given pressure by
+:mod:`mdsim.pipeline.initial_state`); the box enlarged r-fold along z with the particles
 left in place (the wall removed); MD NVE while the gas fills the box, in
 short stages whose end configurations give the density profile along z over
 time, then a relaxed tail of the same NVE run
@@ -13,10 +14,10 @@ import math
 import numpy as np
 
 from mdsim.errors import ConvergenceError, SimulationError
-from mdsim.pipeline.chain import (MAX_STAGES_PER_CHAIN, MIN_STAGE_SAMPLES, Chain, run_to,
+from mdsim.pipeline.chain import (MAX_STAGES_PER_CHAIN, MIN_STAGE_SAMPLES, Chain,
                                   solve_or_extend, stage_share)
-from mdsim.pipeline.rundir import (INITIAL_STATE, WALL_REMOVED_FILLING, WALL_REMOVED_RELAXED,
-                                   stage_name)
+from mdsim.pipeline.initial_state import run_initial_state
+from mdsim.pipeline.rundir import WALL_REMOVED_FILLING, WALL_REMOVED_RELAXED, stage_name
 from mdsim.sampling import store
 
 __all__ = ["run_direct", "WallRemovedChain", "start_at_canonical_energy"]
@@ -47,14 +48,9 @@ def run_direct(job):
     T_i_red = job.units.temperature_to_reduced(job.T_i)
     dt = job.md_time_step(T_i_red)
     share = stage_share(job, 1.5)
-    init = Chain(job, INITIAL_STATE, 0, job.system_maker(job.rho_i, 0), "md-nvt", T_red=T_i_red,
-                 md_settings={"time_step": dt}, key="u_model").run_pilot()
-    init.resume_existing()
-    if not init.results:
-        init.extend(init.samples_for(share), mandatory=True)
+    init = run_initial_state(job, "md-nvt", T_i_red, share, key="u_model",
+                             md_settings={"time_step": dt})
     start = init.results[0]  # the expansion always starts from the end of the first stage
-    run_to(init, share, key="u_model")
-    job.initial_chain = init
 
     nve = WallRemovedChain(job, init.make_system(), dt, T_i_red)
     nve.fill(start)

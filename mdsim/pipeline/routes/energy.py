@@ -1,7 +1,8 @@
 """The energy route: U(T_f, rho_f) = U(T_i, rho_i) by sampled residual energies.
 
 NVT sampling (Monte Carlo by default, ``sampler = "md"`` for MD) of u_res
-at (T_i, rho_i); then at rho_f, from the B2 + B3 virial estimate of T_f,
+at (T_i, rho_i) (rho_i found from a given pressure by
+:mod:`mdsim.pipeline.initial_state`); then at rho_f, from the B2 + B3 virial estimate of T_f,
 sample, Newton-step, and sample again at the new temperature until the step
 is below a quarter of its standard error or MBAR reweighting over two or
 more temperatures brackets the balance (:func:`analysis.expansion.energy_route`).
@@ -17,7 +18,8 @@ import math
 import numpy as np
 
 from mdsim.pipeline.chain import Chain, mean_se, run_to, stage_share
-from mdsim.pipeline.rundir import INITIAL_STATE, final_density_guess
+from mdsim.pipeline.initial_state import run_initial_state
+from mdsim.pipeline.rundir import final_density_guess
 from mdsim.units import R_GAS
 
 __all__ = ["run_energy", "SAMPLERS", "next_temperature", "UNSOLVED"]
@@ -49,10 +51,7 @@ def run_energy(job):
     T_i_red = job.units.temperature_to_reduced(job.T_i)
     share = stage_share(job, job.cv_ig.cv(job.T_i) / R_GAS)
     md = {"time_step": job.md_time_step(T_i_red)} if method.startswith("md") else None
-    init = Chain(job, INITIAL_STATE, 0, job.system_maker(job.rho_i, 0, job.T_i), method,
-                 T_red=T_i_red, md_settings=md).run_pilot()
-    run_to(init, share)
-    job.initial_chain = init
+    init = run_initial_state(job, method, T_i_red, share, md_settings=md)
     finals = []
     res, samples = _newton(job, init, finals, method, share, md is not None)
     res, samples = _refine(job, init, finals, res, samples)

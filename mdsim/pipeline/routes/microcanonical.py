@@ -10,8 +10,9 @@ import math
 
 import numpy as np
 
-from mdsim.pipeline.chain import Chain, mean_se, run_to, solve_or_extend, stage_share
-from mdsim.pipeline.rundir import FINAL_STATE_NVE, INITIAL_STATE
+from mdsim.pipeline.chain import Chain, mean_se, solve_or_extend, stage_share
+from mdsim.pipeline.initial_state import run_initial_state
+from mdsim.pipeline.rundir import FINAL_STATE_NVE
 
 __all__ = ["run_microcanonical"]
 
@@ -32,10 +33,7 @@ def run_microcanonical(job):
     f = job.study.gas.dof_per_particle
     T_i_red = job.units.temperature_to_reduced(job.T_i)
     share = stage_share(job, 0.5 * f)
-    init = Chain(job, INITIAL_STATE, 0, job.system_maker(job.rho_i, 0), "mc-nvt",
-                 T_red=T_i_red).run_pilot()
-    run_to(init, share)
-    job.initial_chain = init
+    init = run_initial_state(job, "mc-nvt", T_i_red, share)
     mi, si = mean_se(init, "u_full")
     # Kinetic part (F/2 - 1) kT_i / N, not (f/2) kT_i: the Ray temperature of a finite
     # microcanonical system, 1/kT = (F/2 - 1) <1/(E - U)>, then returns T_i for an ideal gas

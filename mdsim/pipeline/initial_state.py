@@ -1,0 +1,226 @@
+"""The initial state of a task: the model's own density at the pressure the study asks for.
+
+A state point given by pressure is planned at the density of the B2 + B3
+virial series (:func:`mdsim.study.statepoints.resolve_initial_density`,
+kept in ``tasks.json`` as the plan); the model's own density differs by
+what the truncated series leaves out.  Every simulation route therefore
+finds it by a pressure iteration (:func:`run_initial_state`):
+
+1. NVT at T_i and the planned density, sampled as long as the route's
+   initial state needs (the route's ``share`` of the target), and its
+   mean pressure p_k with standard error s_k;
+2. accepted when |p_k - p| <= s_k (p the pressure asked for);
+3. otherwise a Newton step on the sampled pressures
+   (:func:`next_density`) and a fresh chain at the new density, until
+   accepted, :data:`MAX_PRESSURE_TRIES` densities are used up, or the
+   tries have spent :data:`ITERATION_BUDGET_SHARE` of the task's CPU
+   budget (the rest is left to the final state).  A warning then says so
+   and the last density tried is used.
+
+The accepted try is the route's initial-state chain (same T, same density,
+same sampler): no work is lost when the planned density already holds.  A
+state given by density is sampled once at that density and its sampled
+pressure reported.  Stage files: ``initial-state-tryK-*``
+(:func:`mdsim.pipeline.rundir.initial_state_try`) for a state given by
+pressure, ``initial-state-*`` for one given by density.
+"""
+import math
+
+import numpy as np
+
+from mdsim.errors import ConvergenceError
+from mdsim.numbers import value_with_error
+from mdsim.pipeline.chain import Chain, run_to, solve_or_extend
+from mdsim.pipeline.plan import particles_for_cutoff
+from mdsim.pipeline.rundir import INITIAL_STATE, initial_state_try, stage_name
+from mdsim.sampling import store
+from mdsim.units import R_GAS
+
+__all__ = ["run_initial_state", "next_density", "sampled_pressure", "MAX_PRESSURE_TRIES", "ITERATION_BUDGET_SHARE",
+           "SLOPE_RTOL", "MAX_DENSITY_STEP"]
+
+MAX_PRESSURE_TRIES = 6
+"""Most densities the pressure iteration samples."""
+ITERATION_BUDGET_SHARE = 0.5
+"""No new density is tried once the task has spent this share of its CPU budget."""
+SLOPE_RTOL = 0.25
+"""The sampled dp/drho replaces the virial one when its standard error is below this share."""
+MAX_DENSITY_STEP = 0.2
+"""One Newton step changes the density by at most this fraction."""
+TRY_CHAIN_ID = 20
+"""Chain ids (the seed part) of the tries: TRY_CHAIN_ID + k, apart from every route's chains."""
+
+
+def next_density(tries, p_target, virial_slope):
+    """The next density of the pressure iteration: a Newton step on the sampled pressures.
+
+    Parameters
+    ----------
+    tries : sequence of (float, float, float)
+        The densities tried, mol/m^3, with their sampled pressure and its
+        standard error, Pa.
+    p_target : float
+        The pressure asked for, Pa.
+    virial_slope : float
+        dp/drho at the last density from the B2 + B3 series, Pa m^3/mol.
+
+    Returns
+    -------
+    rho : float
+        The next density, mol/m^3, within :data:`MAX_DENSITY_STEP` of the last.
+    slope : float
+        The dp/drho used, Pa m^3/mol.
+    slope_from : str
+        "sampled" or "virial B2+B3".
+
+    Notes
+    -----
+    With two or more densities the slope is the weighted least-squares slope
+    of p_k against rho_k (weights 1 / s_k^2), used when positive and known to
+    :data:`SLOPE_RTOL` (a secant through noisy points close together is
+    not); otherwise the virial slope R T (1 + 2 B rho + 3 C rho^2).  Each
+    try then estimates the density rho_k + (p - p_k) / slope, and the
+    estimates are averaged with the same weights, so the noise of one try
+    does not throw the next density (Newton's method, common practice, no
+    source).
+
+    Examples
+    --------
+    >>> next_density([(100.0, 2.5e5, 1e3)], 2.4e5, 2500.0)
+    (96.0, 2500.0, 'virial B2+B3')
+    >>> rho, slope, how = next_density([(100.0, 2.5e5, 1e3), (96.0, 2.39e5, 1e3)], 2.4e5, 2500.0)
+    >>> round(rho, 4), round(slope, 6), how  # the slope of the two tries, and both agree
+    (96.3636, 2750.0, 'sampled')
+    >>> rho, slope, how = next_density([(100.0, 2.5e5, 1e3), (99.9, 2.49e5, 1e3)], 2.4e5, 2500.0)
+    >>> round(rho, 4), slope, how  # two tries too close for a slope: the virial one, averaged
+    (96.15, 2500.0, 'virial B2+B3')
+    """
+    rho = np.array([t[0] for t in tries], dtype=float)
+    p = np.array([t[1] for t in tries], dtype=float)
+    w = 1.0 / np.array([t[2] for t in tries], dtype=float) ** 2
+    slope, slope_from = float(virial_slope), "virial B2+B3"
+    if np.unique(rho).size >= 2:
+        x = rho - np.sum(w * rho) / np.sum(w)
+        sxx = float(np.sum(w * x * x))
+        fitted = float(np.sum(w * x * p) / sxx)
+        if fitted > 0.0 and 1.0 / math.sqrt(sxx) < SLOPE_RTOL * fitted:
+            slope, slope_from = fitted, "sampled"
+    estimate = float(np.sum(w * (rho + (p_target - p) / slope)) / np.sum(w))
+    last = float(rho[-1])
+    rho_next = min(max(estimate, (1.0 - MAX_DENSITY_STEP) * last), (1.0 + MAX_DENSITY_STEP) * last)
+    return rho_next, slope, slope_from
+
+
+def _sampled_chain(job, label, chain_id, rho, method, T_red, share, key, md_settings):
+    """An NVT chain at density rho, run (or read back) to the route's share of the target."""
+    chain = Chain(job, label, chain_id, job.system_maker(rho, chain_id, job.T_i), method, T_red=T_red,
+                  key=key, md_settings=md_settings).run_pilot()
+    run_to(chain, share, key=key)
+    return chain
+
+
+def sampled_pressure(job, chain):
+    """The chain's mean pressure and its standard error (Pa), or None when it has none."""
+    try:
+        est = solve_or_extend(chain, lambda: chain.summary().get("pressure"))
+    except ConvergenceError:
+        return None
+    if est is None or not est.available:
+        return None
+    return job.units.pressure_to_Pa(est.value), job.units.pressure_to_Pa(est.stderr)
+
+
+def _virial_slope(job, rho):
+    """dp/drho of the B2 + B3 series at (T_i, rho), Pa m^3/mol."""
+    B, C = float(job.virial_gas.B(job.T_i)), float(job.virial_gas.C(job.T_i))
+    return R_GAS * job.T_i * (1.0 + 2.0 * B * rho + 3.0 * C * rho * rho)
+
+
+def _why_stop(job, k, rho_next):
+    """Why no further density can be tried (None when it can)."""
+    if k + 1 >= MAX_PRESSURE_TRIES:
+        return f"its {MAX_PRESSURE_TRIES} densities are used up"
+    pilot = job.stage_path(stage_name(initial_state_try(k + 1)))
+    if pilot.is_file() or store.part_path(pilot).is_file():
+        return None  # begun by an earlier run of the task: read back or resumed
+    if job.cpu_spent() >= ITERATION_BUDGET_SHARE * job.budget_s:
+        return (f"the CPU budget it may use ({ITERATION_BUDGET_SHARE:.0%} of [simulation] "
+                f"max_cpu_time = {job.budget_s:g} s) is spent")
+    n_cut, _ = particles_for_cutoff(job.study, rho_next)
+    if n_cut > job.n_particles:
+        return (f"the next density, {rho_next:.6g} mol/m^3, needs {n_cut} particles for the "
+                f"cut-off (the task has {job.n_particles}); give [simulation] particles")
+    return None
+
+
+def _pressure_iteration(job, p_target, method, T_red, share, key, md_settings):
+    """The pressure iteration (module docstring); returns the chain of the density used."""
+    rho, k = job.rho_i, 0
+    while True:
+        chain = _sampled_chain(job, initial_state_try(k), TRY_CHAIN_ID + k, rho, method, T_red,
+                               share, key, md_settings)
+        p = sampled_pressure(job, chain)
+        if p is None:
+            job.initial_density_from = "virial B2+B3 (no sampled pressure)"
+            job.warnings.append("initial state: the sampler gives no pressure at this state, so "
+                                "the density cannot be matched to the pressure asked for; the "
+                                "B2 + B3 virial density is used")
+            return chain
+        job.pressure_tries.append({"density_mol_m3": rho, "pressure_Pa": p[0],
+                                   "pressure_stderr_Pa": p[1]})
+        steps = f"pressure iteration, {k + 1} step{'s' if k else ''}"
+        if abs(p[0] - p_target) <= p[1]:
+            job.initial_density_from = steps
+            job.set_initial_density(rho)
+            return chain
+        tries = [(t["density_mol_m3"], t["pressure_Pa"], t["pressure_stderr_Pa"])
+                 for t in job.pressure_tries]
+        rho_next, _, _ = next_density(tries, p_target, _virial_slope(job, rho))
+        why = _why_stop(job, k, rho_next)
+        if why is not None:
+            job.initial_density_from = f"{steps}, not converged"
+            job.set_initial_density(rho)
+            job.warnings.append(
+                f"initial state: the pressure iteration stopped after {k + 1} densities because "
+                f"{why}: the sampled pressure {value_with_error(p[0] / 1e5, p[1] / 1e5, 'bar')} "
+                f"is {abs(p[0] - p_target) / p[1]:.1f} standard errors from the {p_target / 1e5:g}"
+                f" bar asked for; the last density tried, {rho:.6g} mol/m^3, is used")
+            return chain
+        rho, k = rho_next, k + 1
+
+
+def run_initial_state(job, method, T_red, share, key="u_full", md_settings=None):
+    """The route's NVT chain at the initial state, at the model's own density.
+
+    Parameters
+    ----------
+    job : mdsim.pipeline.task.RunningTask
+    method : str
+        "mc-nvt" or "md-nvt".
+    T_red : float
+        Initial temperature, reduced.
+    share : float
+        The standard error of ``key`` the route needs at the initial state (reduced).
+    key : str
+        The series the route averages ("u_full", or "u_model" for the direct route).
+    md_settings : dict, optional
+        Settings of the MD stages (``time_step``).
+
+    Returns
+    -------
+    mdsim.pipeline.chain.Chain
+        Run to ``share``; also kept as ``job.initial_chain``.  ``job.rho_i``
+        and ``job.rho_f`` are the density found (or given) and its r-th part;
+        ``job.initial_density_from`` says how it was found, and
+        ``job.pressure_tries`` lists the densities tried with their pressures.
+    """
+    p_target = job.task["state_point"].get("pressure_Pa")
+    if p_target is None:
+        chain = _sampled_chain(job, INITIAL_STATE, 0, job.rho_i, method, T_red, share, key,
+                               md_settings)
+        job.initial_density_from = "given"
+    else:
+        chain = _pressure_iteration(job, float(p_target), method, T_red, share, key,
+                                    md_settings)
+    job.initial_chain = chain
+    return chain
