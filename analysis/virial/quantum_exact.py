@@ -203,13 +203,14 @@ def b2_exact(pot, T, h2_over_mu, components=None, E_max=None):
 
     Examples
     --------
-    A heavy Lennard-Jones gas is classical (h2_over_mu tiny, B2* = -2.5381
-    at T* = 1, Hirschfelder, Curtiss and Bird 1954, Table I-B):
+    A Lennard-Jones gas with Lambda*^2 = 0.25 (h2_over_mu = 2 Lambda*^2) at
+    T* = 2: B2* = -1.263, between the classical -1.314 and the classical plus
+    first-order Wigner-Kirkwood -1.262:
 
     >>> from mdsim.engine.potentials import LennardJones
-    >>> B, _, _ = b2_exact(LennardJones(1.0, 1.0), 1.0, 0.02)
-    >>> round(B / (2.0 * math.pi / 3.0), 2)
-    -2.54
+    >>> B, _, _ = b2_exact(LennardJones(1.0, 1.0), 2.0, 0.5, E_max=40.0)
+    >>> round(B, 3)
+    -1.263
     """
     check_pot(pot)
     T_t = check_temperature(T).ravel()

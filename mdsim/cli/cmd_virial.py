@@ -42,7 +42,7 @@ def _state_point_lines(rec):
     state = (f"p = {sp['pressure_Pa'] / 1e5:.6g} bar" if sp["pressure_Pa"] is not None
              else f"rho = {sp['density_mol_m3']:.6g} mol/m^3")
     how = f" ({ini['density_from']})" if ini.get("density_from") else ""
-    q = " (with quantum correction)" if v["quantum_correction"] else ""
+    q = f" ({v['quantum']})" if v.get("quantum_correction") else ""
     c = _coefficients(v)
     lines = [f"state point {rec['index']}: T = {sp['temperature_K']:.6g} K, {state}, "
              f"volume ratio {sp['volume_ratio']:.6g}",

@@ -115,8 +115,8 @@ def _assumptions(study, cv):
         "its cooling by about 2/3).",
         "- Pair-additive, spherical potential: three-body forces are neglected; B3 is the "
         "additive third virial coefficient of the same pair potential.",
-        "- Quantum effects: " + ("the first-order Wigner-Kirkwood correction is added to B2 "
-                                 "(virial routes); the simulations are classical."
+        "- Quantum effects: " + (f"virial routes: {gas.describe_quantum()}, B3 classical; "
+                                 "the simulations are classical."
                                  if gas.quantum_correction else
                                  "classical statistics throughout (no quantum correction asked "
                                  "for)."),

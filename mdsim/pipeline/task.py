@@ -127,10 +127,10 @@ class RunningTask:
         self.initial_chain = None
         g = self.study.gas
         self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
-                                    quantum_correction=False)
+                                    quantum="classical")
         if g.quantum_correction:
-            self.warnings.append("the study asks for the quantum correction: it applies to the "
-                                 "virial routes only; simulations are classical")
+            self.warnings.append(f"the study asks for quantum = \"{g.quantum}\": it applies to "
+                                 "the virial routes only; simulations are classical")
         self.T_f_guess, self.dT_guess = self._virial_guess()
         self.n_particles = self.choose_particles(task.get("particles"))
 

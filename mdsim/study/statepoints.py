@@ -149,7 +149,8 @@ def virial_gas(study):
             warnings.simplefilter("always")
             gas = VirialGas(study.gas.pairs_K_angstrom, study.gas.fractions,
                             study.gas.molar_masses_kg_mol,
-                            quantum_correction=study.gas.quantum_correction)
+                            quantum=study.gas.quantum,
+                            spin=study.gas.spin_components())
         study._virial_gas = gas
         study._virial_warnings = [str(w.message) for w in caught]
     return gas

@@ -1,0 +1,116 @@
+"""Exact quantum B2 (phase shifts), the second-order Wigner-Kirkwood term and the light-gas studies.
+
+References: CoolProp's reference equations of state (test-only) for helium
+(Ortiz-Vega et al.), normal hydrogen (Leachman et al.) and neon (Katti et al.),
+B2 from PropsSI('Bvirial', 'T', T, 'Dmolar', 1e-6, fluid).
+"""
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from analysis import virial
+from analysis.virial.phase_shifts import MATCH_SIGMA, bound_states, phase_shifts_at
+from analysis.virial_eos import VirialGas
+from mdsim.engine.potentials import LennardJones, read_table
+from mdsim.study import read_study
+from mdsim.units import N_A
+
+CP = pytest.importorskip("CoolProp.CoolProp")
+CONFIGS = Path(__file__).resolve().parents[2] / "configs"
+CM3 = virial.M3_MOL_PER_A3 * 1e6  # angstrom^3 per molecule -> cm^3/mol
+
+
+def _coolprop_b2_cm3(fluid, T):
+    return CP.PropsSI("Bvirial", "T", T, "Dmolar", 1e-6, fluid) * 1e6
+
+
+def test_exact_b2_of_a_mildly_quantum_lj_gas_tends_to_the_wigner_kirkwood_series():
+    # Lambda*^2 = 0.25 at T* = 2: the exact B2 minus the classical one is the
+    # first-order term to within a few percent of it, and adding the second-order
+    # term brings it closer (Wigner-Kirkwood series, HCB 1954 section 6.5).
+    lj, q, T = LennardJones(1.0, 1.0), 0.5, 2.0
+    exact = virial.b2_exact(lj, T, q, E_max=40.0)
+    cl = virial.b2(lj, T)
+    first = virial.b2_quantum(lj, T, q)
+    second = virial.b2_second_order(lj, T, q)
+    gap1 = exact[0] - cl[0] - first[0]
+    gap2 = gap1 - second[0]
+    assert abs(gap1) < 0.03 * first[0]
+    assert abs(gap2) < 0.6 * abs(gap1)
+    # dB/dT and d2B/dT2 from the same phase shifts: the same check (2 % of the correction).
+    assert exact[1] - cl[1] == pytest.approx(first[1] + second[1], rel=0.02)
+    assert exact[2] - cl[2] == pytest.approx(first[2] + second[2], rel=0.05)
+
+
+def test_levinson_bound_states_of_neon():
+    # Levinson's theorem: delta_l(k -> 0) = n_bound(l) pi (l >= 1, no threshold state);
+    # the HFD-B neon dimer is bound (several vibrational levels, fact of the trade).
+    pot = read_table(CONFIGS / "neon_hfdb.csv")
+    c = virial.h2_over_mu_K_A2(20.1797e-3 / N_A, 20.1797e-3 / N_A) / (8.0 * math.pi ** 2)
+    r_match = MATCH_SIGMA * pot.sigma
+    levels = bound_states(pot, c, r_match)
+    assert levels and all(-pot.epsilon < E < 0.0 for _, E in levels)
+    for l in (1, 2):
+        n_b = sum(1 for ll, _ in levels if ll == l)
+        delta = phase_shifts_at(pot, c, 1e-3, [l], r_match)[0]
+        assert delta == pytest.approx(n_b * math.pi, abs=1e-3)
+
+
+@pytest.mark.parametrize("T, tol", [(10.0, 0.5), (100.0, 0.08), (300.0, 0.08), (1000.0, 0.08)])
+def test_helium_exact_b2_against_the_reference_equation_of_state(T, tol):
+    # CoolProp helium EOS; tolerance: the EOS's B2 uncertainty near 0.05 cm^3/mol above
+    # 50 K (from memory), wider at 10 K near the EOS's low-T end.  Ab initio B2 of
+    # helium-4 at 300 K is 11.8 cm^3/mol (Cencek et al. 2012, from memory).
+    study = read_study(CONFIGS / "helium.toml")
+    g = study.gas
+    gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol, quantum=g.quantum,
+                    spin=g.spin_components())
+    assert gas.B(T) * 1e6 == pytest.approx(_coolprop_b2_cm3("Helium", T), abs=tol)
+
+
+@pytest.mark.parametrize("T", [50.0, 100.0, 300.0])
+def test_hydrogen_exact_b2_against_the_reference_equation_of_state(T):
+    # CoolProp normal hydrogen EOS.  The isotropic Silvera-Goldman potential gives B2
+    # up to 1.3 cm^3/mol below it (measured: -1.8 at 50 K, -0.2 at 100 K, -1.3 at 300 K;
+    # a limit of the potential, not of the method: its classical + first-order B2 agrees
+    # with the exact one to 0.04 cm^3/mol at 300 K).
+    study = read_study(CONFIGS / "hydrogen.toml")
+    g = study.gas
+    gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol, quantum=g.quantum,
+                    spin=g.spin_components())
+    assert gas.B(T) * 1e6 == pytest.approx(_coolprop_b2_cm3("Hydrogen", T), abs=2.0)
+
+
+def test_neon_second_order_b2_against_the_reference_equation_of_state():
+    # CoolProp neon EOS at 300 K: 11.57 cm^3/mol; HFD-B gives 11.36 (tolerance 0.3,
+    # the spread between published neon B2 data near room temperature, from memory).
+    pot = read_table(CONFIGS / "neon_hfdb.csv")
+    gas = VirialGas(pot, [1.0], 20.1797e-3, quantum="second-order")
+    assert gas.B(300.0) * 1e6 == pytest.approx(_coolprop_b2_cm3("Neon", 300.0), abs=0.3)
+
+
+def _coolprop_free_expansion(fluid, T, p):
+    from scipy.optimize import brentq
+    rho = CP.PropsSI("Dmolar", "T", T, "P", p, fluid)
+    u = CP.PropsSI("Umolar", "T", T, "P", p, fluid)
+    return brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho / 2.0, fluid) - u,
+                  T - 20.0, T + 20.0) - T
+
+
+@pytest.mark.parametrize("name, fluid, tol", [("helium", "Helium", 0.05),
+                                               ("hydrogen", "Hydrogen", 0.25)])
+def test_free_expansion_of_light_gases_against_the_reference_equations(name, fluid, tol):
+    # Helium warms and hydrogen cools at 295.15 K, 100 bar into twice the volume (fact of
+    # the trade).  CoolProp: +0.52 K and -1.32 K; tolerances: helium from the 0.01 cm^3/mol
+    # B2 agreement and the classical B3; hydrogen from the Silvera-Goldman dB2/dT and the
+    # constant 2.5 R c_v (real normal hydrogen differs by about 1 % at 295 K).
+    from mdsim.pipeline.summary import virial_summary
+    from mdsim.study.statepoints import state_points
+    study = read_study(CONFIGS / f"{name}.toml")
+    rec = virial_summary(study, state_points(study)[0])
+    dT = rec["delta_T_K"]["virial_b2b3"]["value"]
+    ref = _coolprop_free_expansion(fluid, 295.15, 1e7)
+    assert np.sign(dT) == np.sign(ref)
+    assert dT == pytest.approx(ref, abs=tol)
