@@ -46,15 +46,17 @@ _BARRIER = 18.0
 
 
 @njit(cache=True)
-def _numerov_run(f_base, r0, h, l, k2, i_start):
+def _numerov_run(f_base, inv_r2, h, l, k2, i_start):
     """Integrate y'' + (k2 - v - l(l+1)/r^2) y = 0 outward from index i_start.
 
     Parameters
     ----------
     f_base : ndarray, shape=(n_r,)
-        -v(r) = -u(r)/c on the grid r = r0 + i h (1/length^2).
-    r0, h : float
-        Grid start and step.
+        -v(r) = -u(r)/c on the uniform grid (1/length^2).
+    inv_r2 : ndarray, shape=(n_r,)
+        1/r^2 on the grid.
+    h : float
+        Grid step.
     l : int
     k2 : float
         k^2 (negative for bound-state energies).
@@ -73,16 +75,13 @@ def _numerov_run(f_base, r0, h, l, k2, i_start):
     h12 = h * h / 12.0
     y_prev = 0.0
     y = 1e-30
-    r = r0 + (i_start + 1) * h
-    rp = r0 + i_start * h
-    f_prev = f_base[i_start] + k2 - (ll / (rp * rp) if rp > 0.0 else 0.0)
-    f_cur = f_base[i_start + 1] + k2 - ll / (r * r)
+    w_prev = 1.0 + h12 * (f_base[i_start] + k2 - ll * inv_r2[i_start])
+    w_cur = 1.0 + h12 * (f_base[i_start + 1] + k2 - ll * inv_r2[i_start + 1])
     nodes = 0
     for i in range(i_start + 1, n - 1):
-        rn = r0 + (i + 1) * h
-        f_next = f_base[i + 1] + k2 - ll / (rn * rn)
-        y_next = (2.0 * y * (1.0 - 5.0 * h12 * f_cur) - y_prev * (1.0 + h12 * f_prev)) / (
-            1.0 + h12 * f_next)
+        w_next = 1.0 + h12 * (f_base[i + 1] + k2 - ll * inv_r2[i + 1])
+        # Numerov with w = 1 + h^2 f / 12: w+ y+ = (12 - 10 w) y - w- y-.
+        y_next = ((12.0 - 10.0 * w_cur) * y - w_prev * y_prev) / w_next
         if (y_next < 0.0 and y > 0.0) or (y_next > 0.0 and y < 0.0):
             nodes += 1
         elif y_next == 0.0:
@@ -90,8 +89,8 @@ def _numerov_run(f_base, r0, h, l, k2, i_start):
             nodes += 1
         y_prev = y
         y = y_next
-        f_prev = f_cur
-        f_cur = f_next
+        w_prev = w_cur
+        w_cur = w_next
         if abs(y) > 1e200:
             y *= 1e-200
             y_prev *= 1e-200
@@ -99,26 +98,34 @@ def _numerov_run(f_base, r0, h, l, k2, i_start):
 
 
 @njit(cache=True)
-def _start_index(f_base, r0, h, l, k2):
-    """Grid index to start from: deep enough under the barrier (WKB exponent >= _BARRIER)."""
+def _start_index(f_base, inv_r2, h, l, k2, i_from):
+    """Grid index to start from (WKB exponent under the barrier >= _BARRIER) and the
+    innermost classically allowed index, searched from ``i_from`` outward."""
     n = f_base.size
     ll = l * (l + 1.0)
-    # The innermost classically allowed point.
     it = n - 2
-    for i in range(1, n - 1):
-        r = r0 + i * h
-        if f_base[i] + k2 - ll / (r * r) > 0.0:
+    for i in range(max(i_from, 1), n - 1):
+        if f_base[i] + k2 - ll * inv_r2[i] > 0.0:
             it = i
             break
     acc = 0.0
     i = it
     while i > 1 and acc < _BARRIER:
         i -= 1
-        r = r0 + i * h
-        q = -(f_base[i] + k2 - ll / (r * r))
+        q = -(f_base[i] + k2 - ll * inv_r2[i])
         if q > 0.0:
             acc += math.sqrt(q) * h
-    return max(i - 1, 0)
+    return max(i - 1, 0), it
+
+
+@njit(cache=True)
+def _numerov_all(f_base, inv_r2, h, k2, y1_l, y2_l, nodes_l):
+    """:func:`_numerov_run` for l = 0 .. n_l - 1 (outputs filled in place)."""
+    it = 1
+    for l in range(y1_l.size):
+        # The allowed region only shrinks as l grows: search on from the last turning point.
+        i0, it = _start_index(f_base, inv_r2, h, l, k2, it)
+        y1_l[l], y2_l[l], nodes_l[l] = _numerov_run(f_base, inv_r2, h, l, k2, i0)
 
 
 def radial_grid_start(pot, E_max):
@@ -154,6 +161,7 @@ class _Grid:
     r0: float
     h: float
     f_base: np.ndarray
+    inv_r2: np.ndarray
 
     @property
     def r_end(self):
@@ -166,7 +174,7 @@ def _grid(pot, c, r_start, r_match, h):
     r = r_start + h * np.arange(n)
     u = np.asarray(pot.energy(np.maximum(r, 1e-12)), dtype=float)
     u = np.where(np.isfinite(u), u, 1e300)
-    return _Grid(r_start, h, -u / c)
+    return _Grid(r_start, h, -u / c, 1.0 / (r * r))
 
 
 @njit(cache=True)
@@ -223,16 +231,8 @@ def _free_phase(l, x, j, y):
     L = l + 0.5
     xs = np.maximum(x, L)
     wkb = np.where(x > L, np.sqrt(xs * xs - L * L) - L * np.arccos(L / xs) + 0.25 * np.pi,
-                   0.25 * np.pi * np.minimum(1.0, (x / L) ** (2 * l + 1)))
+                   0.25 * np.pi * np.minimum(x / L, 1.0) ** (2 * l + 1))
     return ang + 2.0 * np.pi * np.round((wkb - ang) / (2.0 * np.pi))
-
-
-@njit(cache=True)
-def _numerov_all(f_base, r0, h, k2, y1_l, y2_l, nodes_l):
-    """:func:`_numerov_run` for l = 0 .. n_l - 1 (outputs filled in place)."""
-    for l in range(y1_l.size):
-        i0 = _start_index(f_base, r0, h, l, k2)
-        y1_l[l], y2_l[l], nodes_l[l] = _numerov_run(f_base, r0, h, l, k2, i0)
 
 
 def phase_shifts_at(pot, c, k, l_values, r_match, h=None, r_start=None):
@@ -272,7 +272,7 @@ def _shifts_on_grid(grid, k, n_l):
     y1 = np.empty(n_l)
     y2 = np.empty(n_l)
     nodes = np.empty(n_l, dtype=np.int64)
-    _numerov_all(grid.f_base, grid.r0, grid.h, k * k, y1, y2, nodes)
+    _numerov_all(grid.f_base, grid.inv_r2, grid.h, k * k, y1, y2, nodes)
     r2 = grid.r_end
     r1 = r2 - grid.h
     j1, n1 = _riccati(n_l, k * r1)
@@ -289,17 +289,18 @@ def _shifts_on_grid(grid, k, n_l):
 def _count_below(grid, l, E, c):
     """Bound states of partial wave l below E < 0 (oscillation theorem, decaying tail beyond R)."""
     kappa2 = -E / c
-    i0 = _start_index(grid.f_base, grid.r0, grid.h, l, -kappa2)
-    y1, y2, nodes = _numerov_run(grid.f_base, grid.r0, grid.h, l, -kappa2, i0)
+    i0, _ = _start_index(grid.f_base, grid.inv_r2, grid.h, l, -kappa2, 1)
+    y1, y2, nodes = _numerov_run(grid.f_base, grid.inv_r2, grid.h, l, -kappa2, i0)
     r2 = grid.r_end
     r1 = r2 - grid.h
     kap = math.sqrt(kappa2)
     if kap * r2 < 1e-8:
         w1, w2 = r1 ** (-l), r2 ** (-l)
     else:
-        # x k_l(x) scaled by exp(x) to stay finite; only ratios matter.
-        w1 = kap * r1 * spherical_kn(l, kap * r1) * math.exp(kap * r1 - kap * r2)
-        w2 = kap * r2 * spherical_kn(l, kap * r2)
+        # x k_l(x), both points scaled by the same exp(kappa r2) to stay finite.
+        scale = math.exp(min(kap * r2, 600.0))
+        w1 = kap * r1 * spherical_kn(l, kap * r1) * scale
+        w2 = kap * r2 * spherical_kn(l, kap * r2) * scale
     wronski = w1 * y2 - w2 * y1
     return nodes + (1 if y2 * wronski < 0.0 else 0)
 

@@ -30,8 +30,9 @@ __all__ = ["SpinComponent", "STATISTICS", "spin_components", "b2_exact", "exact_
 
 STATISTICS = ("boltzmann", "bose", "fermi")
 # The energy range of the phase shifts: E_max = _E_OVER_T x the highest T
-# (exp(-25) ~ 1e-11), rounded up to a power of sqrt(2) so that a scan reuses one table.
-_E_OVER_T = 25.0
+# (the phase-shift sums grow as E^(3/2); E^(3/2) exp(-E/kT) is then negligible),
+# rounded up to a power of sqrt(2) so that a scan reuses one table.
+_E_OVER_T = 32.0
 
 
 @dataclasses.dataclass(frozen=True)
@@ -111,6 +112,10 @@ def spin_components(statistics, internal_states=1, ortho_fraction=None):
 def exact_energy_bucket(T_max):
     """E_max (K) of the phase-shift table used for temperatures up to T_max (K)."""
     return 2.0 ** (0.5 * math.ceil(2.0 * math.log2(_E_OVER_T * T_max)))
+
+
+# (potential key, c) -> the largest E_max built.
+_LARGEST = {}
 
 
 @functools.lru_cache(maxsize=16)
@@ -216,9 +221,16 @@ def b2_exact(pot, T, h2_over_mu, components=None, E_max=None):
     T_t = check_temperature(T).ravel()
     q = positive("h2_over_mu", h2_over_mu, "h^2 / (mu k) in K x length^2")
     comps = components if components is not None else spin_components("boltzmann")
-    E_top = exact_energy_bucket(float(T_t.max())) if E_max is None else float(E_max)
     c = q / (8.0 * math.pi ** 2)
-    ps = _table(register(pot), c, E_top)
+    key = register(pot)
+    if E_max is None:
+        # A table built for a wider range serves lower temperatures too (a scan from low
+        # to high T builds a few, each larger; a later scan reuses the largest).
+        E_top = max(exact_energy_bucket(float(T_t.max())), _LARGEST.get((key, c), 0.0))
+        _LARGEST[(key, c)] = E_top
+    else:
+        E_top = float(E_max)
+    ps = _table(key, c, E_top)
     # lambda^3 = (h^2 / (2 pi m k T))^(3/2) with m = 2 mu: h^2/(m k) = q / 2.
     lam3 = (0.5 * q / (2.0 * math.pi * T_t)) ** 1.5
     even, odd = _scattering(ps, T_t)

@@ -27,21 +27,21 @@ def _coolprop_b2_cm3(fluid, T):
 
 
 def test_exact_b2_of_a_mildly_quantum_lj_gas_tends_to_the_wigner_kirkwood_series():
-    # Lambda*^2 = 0.25 at T* = 2: the exact B2 minus the classical one is the
-    # first-order term to within a few percent of it, and adding the second-order
-    # term brings it closer (Wigner-Kirkwood series, HCB 1954 section 6.5).
+    # Lambda*^2 = 0.25 at T* = 2: exact B2 - classical - first order is the second-order
+    # Wigner-Kirkwood term (HCB 1954 section 6.5) up to higher orders (measured: 0.5 %
+    # of it); for the T-derivatives, where higher orders weigh more, adding the second
+    # order shrinks the gap to a quarter (dB/dT) and a third (d2B/dT2).
     lj, q, T = LennardJones(1.0, 1.0), 0.5, 2.0
-    exact = virial.b2_exact(lj, T, q, E_max=40.0)
+    exact = virial.b2_exact(lj, T, q, E_max=48.0)
     cl = virial.b2(lj, T)
     first = virial.b2_quantum(lj, T, q)
     second = virial.b2_second_order(lj, T, q)
-    gap1 = exact[0] - cl[0] - first[0]
-    gap2 = gap1 - second[0]
-    assert abs(gap1) < 0.03 * first[0]
-    assert abs(gap2) < 0.6 * abs(gap1)
-    # dB/dT and d2B/dT2 from the same phase shifts: the same check (2 % of the correction).
-    assert exact[1] - cl[1] == pytest.approx(first[1] + second[1], rel=0.02)
-    assert exact[2] - cl[2] == pytest.approx(first[2] + second[2], rel=0.05)
+    gap1 = [exact[k] - cl[k] - first[k] for k in range(3)]
+    gap2 = [gap1[k] - second[k] for k in range(3)]
+    assert abs(gap1[0]) < 0.03 * first[0]
+    assert abs(gap2[0]) < 0.05 * abs(second[0])
+    assert abs(gap2[1]) < 0.35 * abs(gap1[1])
+    assert abs(gap2[2]) < 0.5 * abs(gap1[2])
 
 
 def test_levinson_bound_states_of_neon():
@@ -114,3 +114,45 @@ def test_free_expansion_of_light_gases_against_the_reference_equations(name, flu
     ref = _coolprop_free_expansion(fluid, 295.15, 1e7)
     assert np.sign(dT) == np.sign(ref)
     assert dT == pytest.approx(ref, abs=tol)
+
+
+def test_helium_dimer_is_the_known_halo_state():
+    # LM2M2 binds one He-4 dimer level, l = 0, at about -1.31 mK (Aziz and Slaman 1991;
+    # from memory).  The full table (to 30 angstrom) is needed: the state reaches far out.
+    pot = read_table(CONFIGS / "helium_lm2m2.csv")
+    c = virial.h2_over_mu_K_A2(4.002602e-3 / N_A, 4.002602e-3 / N_A) / (8.0 * math.pi ** 2)
+    levels = bound_states(pot, c, pot.r_max - 0.05)
+    assert len(levels) == 1 and levels[0][0] == 0
+    assert levels[0][1] * 1e3 == pytest.approx(-1.31, abs=0.05)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("name, fluid, joule_range, jt_range, tol_joule, tol_jt", [
+    ("helium", "Helium", (60.0, 400.0), (15.0, 100.0), 5.0, 3.0),
+    ("hydrogen", "Hydrogen", (300.0, 1200.0), (60.0, 400.0), 50.0, 15.0),
+])
+def test_joule_and_joule_thomson_inversions_with_the_exact_b2(name, fluid, joule_range,
+                                                              jt_range, tol_joule, tol_jt):
+    # Free-expansion (Joule) inversion at zero density: the maximum of B2; the
+    # zero-pressure Joule-Thomson inversion T dB/dT = B is another process, far lower
+    # (facts of the trade: helium about 40 K, hydrogen about 200 K).  References:
+    # the same roots of CoolProp's B2 (helium 174.5 K and 45.6 K, normal hydrogen
+    # 657.6 K and 200.8 K); the hydrogen tolerance carries the Silvera-Goldman B2 error.
+    from analysis.inversion import virial_series as vs
+    from scipy.optimize import brentq
+    study = read_study(CONFIGS / f"{name}.toml")
+    g = study.gas
+    gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol, quantum=g.quantum,
+                    spin=g.spin_components())
+    t_joule = vs.zero_density_joule_inversion_K(gas, temperature_range_K=joule_range)
+    t_jt = vs.joule_thomson_inversion_zero_pressure_K(gas, temperature_range_K=jt_range)
+
+    def dB(T):
+        return CP.PropsSI("dBvirial_dT", "T", T, "Dmolar", 1e-6, fluid)
+
+    ref_joule = brentq(dB, *joule_range)
+    ref_jt = brentq(lambda T: T * dB(T) - CP.PropsSI("Bvirial", "T", T, "Dmolar", 1e-6, fluid),
+                    *jt_range)
+    assert t_joule == pytest.approx(ref_joule, abs=tol_joule)
+    assert t_jt == pytest.approx(ref_jt, abs=tol_jt)
+    assert t_joule > 3.0 * t_jt

@@ -198,3 +198,24 @@ def test_inversion_text_writes_a_simulated_point_with_its_error():
     assert lines[-1].split() == ["2801", "±", "44", "1000", "230", "simulation"]
     assert lines[-2].split() == ["3013.28", "0", "0", "virial"]
     assert "3013.28 K   (maximum of B2)" in lines[1]
+
+
+def test_virial_and_inversion_take_the_initial_state_from_options(capsys):
+    # The options replace [initial] (and its [sweep]); the numbers are those of a study
+    # file that says the same (the same functions: round-off only).
+    out = run_json(capsys, "virial", str(CONFIGS / "argon_sweep.toml"), "--json",
+                   "--temperature", "150 K", "--density", "500 mol/m^3")
+    assert len(out["state_points"]) == 1  # the temperature and pressure sweeps replaced
+    rec = out["state_points"][0]
+    assert rec["initial"]["temperature_K"] == 150.0
+    assert rec["initial"]["density_mol_m3"] == 500.0
+    study = read_study(CONFIGS / "argon.toml")
+    g = study.gas
+    gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol)
+    res = virial_expansion(gas, heat_capacity_from_spec("1.5 R"), 150.0,
+                           rec["state_point"]["volume_ratio"], rho_i=500.0, order=3)
+    assert rec["delta_T_K"]["virial_b2b3"]["value"] == pytest.approx(res.delta_T_K, rel=1e-10)
+    assert main(["virial", str(CONFIGS / "argon.toml"), "--pressure", "1 bar",
+                 "--density", "5 mol/m^3"]) == 2
+    assert main(["virial", str(CONFIGS / "argon.toml"), "--temperature", "-5 K"]) == 2
+    assert "--temperature" in capsys.readouterr().err
