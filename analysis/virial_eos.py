@@ -6,8 +6,10 @@ entropy and heat capacity that follow from it at fixed (T, rho).  B and C
 come from :mod:`analysis.virial` for potentials given as u/k in kelvin and
 lengths in angstrom.  B is classical, or carries the first- or
 second-order Wigner-Kirkwood correction, or is the exact quantum B2
-(Beth-Uhlenbeck, like pairs); C is always classical and pairwise
-additive (no quantum correction of B3 yet: :attr:`VirialGas.c_note`).
+(Beth-Uhlenbeck, like pairs).  C is pairwise additive: classical, plus
+its first-order Wigner-Kirkwood term with the second-order and exact B2
+of a pure gas (:mod:`analysis.virial.quantum_third`; ``VirialGas.c_note``
+says which).
 
 Units: T in K, rho in mol/m^3, p in Pa, B in m^3/mol, C in m^6/mol^2,
 molar energies in J/mol, entropies and heat capacities in J/(mol K).
@@ -21,6 +23,7 @@ from analysis import virial
 from analysis.virial.quadrature import check_fractions
 from analysis.virial.quantum_exact import b2_exact, spin_components
 from analysis.virial.quantum_second import b2_second_order
+from analysis.virial.quantum_third import b3_quantum_first_order
 from mdsim.checks import non_negative_array, positive, positive_array
 from mdsim.engine.potentials import PairMatrix, PairPotential
 from mdsim.errors import StudyError
@@ -116,9 +119,13 @@ class VirialGas:
         self.quantum = quantum
         self.quantum_correction = quantum != "classical"
         self.spin = spin_components("boltzmann") if spin is None else tuple(spin)
+        # The first-order Wigner-Kirkwood B3 goes with the second-order and exact B2 of
+        # a pure gas.
+        self._quantum_b3 = quantum in ("second-order", "exact") and ns == 1
         #: What C is, for outputs that print it.
-        self.c_note = ("B3 classical (no quantum correction of B3)" if self.quantum_correction
-                       else "B3 classical")
+        self.c_note = ("B3 classical + first-order Wigner-Kirkwood" if self._quantum_b3 else
+                       "B3 classical (no quantum correction of B3 at this level)"
+                       if self.quantum_correction else "B3 classical")
         self.de_boer = np.array([
             virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, quantum,
                                   label=f"species {a}")
@@ -154,6 +161,11 @@ class VirialGas:
         if inputs.order(order) == 2:
             return [np.zeros_like(T)] * 3
         vals = virial.b3_mixture(self.pairs, self.fractions, T)
+        if self._quantum_b3:
+            m = self.molar_masses_kg_mol[0] / N_A
+            q = virial.h2_over_mu_K_A2(m, m)
+            dC = b3_quantum_first_order(self.pairs.pots[0][0], T, q)
+            vals = [v + dv for v, dv in zip(vals, dC)]
         return [virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
 
     def B(self, T, order=3):

@@ -105,6 +105,11 @@ def _settings_lines(study, gathered):
     ]
 
 
+def _virial_gas(study):
+    from mdsim.study.statepoints import virial_gas
+    return virial_gas(study)
+
+
 def _assumptions(study, cv):
     """What every number of the report assumes."""
     gas = study.gas
@@ -115,7 +120,8 @@ def _assumptions(study, cv):
         "its cooling by about 2/3).",
         "- Pair-additive, spherical potential: three-body forces are neglected; B3 is the "
         "additive third virial coefficient of the same pair potential.",
-        "- Quantum effects: " + (f"virial routes: {gas.describe_quantum()}, B3 classical; "
+        "- Quantum effects: " + (f"virial routes: {gas.describe_quantum()}, "
+                                 f"{_virial_gas(study).c_note}; "
                                  "the simulations are classical."
                                  if gas.quantum_correction else
                                  "classical statistics throughout (no quantum correction asked "

@@ -58,8 +58,9 @@ def _one_line(exc):
 def virial_coefficients(study, temperature_K):
     """B2, dB2/dT, B3, dB3/dT of the study's gas at one temperature (SI).
 
-    B2 carries the quantum treatment the study asks for (``[gas] quantum``,
-    named in ``quantum``); B3 is classical.
+    B2 carries the quantum treatment the study asks for (``[gas] quantum``),
+    B3 its first-order term with the second-order and exact levels; both
+    are named in ``quantum``.
 
     Returns
     -------

@@ -156,3 +156,17 @@ def test_joule_and_joule_thomson_inversions_with_the_exact_b2(name, fluid, joule
     assert t_joule == pytest.approx(ref_joule, abs=tol_joule)
     assert t_jt == pytest.approx(ref_jt, abs=tol_jt)
     assert t_joule > 3.0 * t_jt
+
+
+def test_helium_b3_with_its_first_order_quantum_term():
+    # CoolProp's helium EOS: C(100 K) = 165.3 cm^6/mol^2; the classical additive B3 of
+    # LM2M2 is 146.1, with the first-order Wigner-Kirkwood term 164.3 (tolerance 3: the
+    # non-additive three-body part, about -2 near room temperature for helium, from memory,
+    # and higher quantum orders).
+    pot = read_table(CONFIGS / "helium_lm2m2.csv")
+    cm6 = virial.M6_MOL2_PER_A6 * 1e12
+    ref = CP.PropsSI("Cvirial", "T", 100.0, "Dmolar", 1e-6, "Helium") * 1e12
+    classical = virial.b3(pot, 100.0)[0] * cm6
+    q = virial.h2_over_mu_K_A2(4.002602e-3 / N_A, 4.002602e-3 / N_A)
+    quantum = classical + virial.b3_quantum_first_order(pot, 100.0, q)[0] * cm6
+    assert abs(quantum - ref) < 3.0 < abs(classical - ref)
