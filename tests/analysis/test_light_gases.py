@@ -100,12 +100,14 @@ def _coolprop_free_expansion(fluid, T, p):
 
 
 @pytest.mark.parametrize("name, fluid, tol", [("helium", "Helium", 0.05),
-                                               ("hydrogen", "Hydrogen", 0.25)])
+                                               ("hydrogen", "Hydrogen", 0.25),
+                                               ("neon", "Neon", 0.1)])
 def test_free_expansion_of_light_gases_against_the_reference_equations(name, fluid, tol):
-    # Helium warms and hydrogen cools at 295.15 K, 100 bar into twice the volume (fact of
-    # the trade).  CoolProp: +0.52 K and -1.32 K; tolerances: helium from the 0.01 cm^3/mol
-    # B2 agreement and the classical B3; hydrogen from the Silvera-Goldman dB2/dT and the
-    # constant 2.5 R c_v (real normal hydrogen differs by about 1 % at 295 K).
+    # Helium warms, hydrogen and neon cool at 295.15 K, 100 bar into twice the volume (fact
+    # of the trade).  CoolProp: +0.52 K, -1.32 K, -2.29 K; tolerances: helium from the
+    # 0.01 cm^3/mol B2 agreement and B3 within 3 cm^6/mol^2; hydrogen from the
+    # Silvera-Goldman dB2/dT and the constant 2.5 R c_v (real normal hydrogen differs by
+    # about 1 % at 295 K); neon from the 0.2 cm^3/mol B2 offset of HFD-B against the EOS.
     from mdsim.pipeline.summary import virial_summary
     from mdsim.study.statepoints import state_points
     study = read_study(CONFIGS / f"{name}.toml")
