@@ -219,3 +219,17 @@ def test_virial_and_inversion_take_the_initial_state_from_options(capsys):
                  "--density", "5 mol/m^3"]) == 2
     assert main(["virial", str(CONFIGS / "argon.toml"), "--temperature", "-5 K"]) == 2
     assert "--temperature" in capsys.readouterr().err
+
+
+def test_initial_state_record_says_whether_a_free_expansion_warms_or_cools():
+    # Lennard-Jones argon: at zero density the free expansion cools below the maximum of
+    # B2, T* = 25.15 (3013 K for epsilon/k = 119.8 K; docs/references.md section 2.4),
+    # and warms above it.
+    from mdsim.pipeline.inversion_study import initial_state_record
+    from mdsim.study import with_initial_state
+    argon = read_study(CONFIGS / "argon.toml")
+    cold = initial_state_record(with_initial_state(argon, 2900.0, density_mol_m3=1.0))
+    hot = initial_state_record(with_initial_state(argon, 3150.0, density_mol_m3=1.0))
+    assert cold["free_expansion"] == "cools" and cold["joule_coefficient_K_mol_m3"] < 0.0
+    assert hot["free_expansion"] == "warms" and hot["joule_coefficient_K_mol_m3"] > 0.0
+    assert cold["pressure_Pa"] == pytest.approx(1.0 * 8.314462618 * 2900.0, rel=1e-3)
