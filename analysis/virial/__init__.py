@@ -15,7 +15,7 @@ Modules: ``quadrature`` (panels, nodes, Mayer function, input checks),
 ``second`` (B2), ``third`` (B3 and its numba kernels), ``quantum``
 (first-order Wigner-Kirkwood correction, de Boer parameter),
 ``quantum_second`` (the second-order term), ``quantum_third`` (the
-first-order term of B3), ``phase_shifts`` and
+first-order term of B3), ``radial`` (Numerov and Riccati-Bessel kernels), ``phase_shifts`` and
 ``quantum_exact`` (the exact quantum B2 from phase shifts), ``temperatures`` (Boyle,
 B2 maximum, zero-pressure Joule-Thomson inversion), ``si`` (molar units).
 This package re-exports their public names: ``from analysis.virial import

@@ -4,8 +4,8 @@ The radial Schroedinger equation of the relative motion,
 
     y''(r) + [k^2 - u(r)/c - l(l+1)/r^2] y(r) = 0,   c = hbar^2 / (2 mu k_B),
 
-is integrated outward by Numerov's method (:func:`_numerov_run`, a numba
-kernel) from deep inside the repulsive wall to the matching radius R,
+is integrated outward by Numerov's method (:mod:`analysis.virial.radial`)
+from deep inside the repulsive wall to the matching radius R,
 beyond which the potential is left to the classical tail term of
 :mod:`analysis.virial.quantum_exact`.  The phase shift follows from the
 solution at two points matched to the Riccati-Bessel functions
@@ -24,13 +24,13 @@ import dataclasses
 import math
 
 import numpy as np
-from numba import njit
 from scipy.special import spherical_kn
 
+from analysis.virial.radial import (numerov_all, numerov_run, radial_grid, radial_grid_start,
+                                    riccati, start_index)
 from mdsim.errors import StudyError
 
-__all__ = ["PhaseShifts", "phase_shift_table", "phase_shifts_at", "bound_states",
-           "radial_grid_start", "MATCH_SIGMA"]
+__all__ = ["PhaseShifts", "phase_shift_table", "phase_shifts_at", "bound_states", "MATCH_SIGMA"]
 
 #: Matching radius in units of sigma; the potential beyond it enters
 #: classically (its quantum correction there is below 1e-3 of a tail term
@@ -39,189 +39,6 @@ MATCH_SIGMA = 3.5
 # Numerov steps per local wavelength bound: h q_max <= _HQ.  The phase error
 # grows as R q^6 h^5 / 240 (below 1e-5 rad here).
 _HQ = 0.2
-# Where the integration starts: the WKB exponent under the barrier from the
-# start to the turning point is at least this (the neglected solution is
-# smaller by exp(-2 x _BARRIER)).
-_BARRIER = 18.0
-
-
-@njit(cache=True)
-def _numerov_run(f_base, inv_r2, h, l, k2, i_start):
-    """Integrate y'' + (k2 - v - l(l+1)/r^2) y = 0 outward from index i_start.
-
-    Parameters
-    ----------
-    f_base : ndarray, shape=(n_r,)
-        -v(r) = -u(r)/c on the uniform grid (1/length^2).
-    inv_r2 : ndarray, shape=(n_r,)
-        1/r^2 on the grid.
-    h : float
-        Grid step.
-    l : int
-    k2 : float
-        k^2 (negative for bound-state energies).
-    i_start : int
-        y = 0 at this index, a small value at the next.
-
-    Returns
-    -------
-    y_end_1, y_end : float
-        The solution at the last two grid points (scaled to stay finite).
-    nodes : int
-        Sign changes of y on the grid after i_start.
-    """
-    n = f_base.size
-    ll = l * (l + 1.0)
-    h12 = h * h / 12.0
-    y_prev = 0.0
-    y = 1e-30
-    w_prev = 1.0 + h12 * (f_base[i_start] + k2 - ll * inv_r2[i_start])
-    w_cur = 1.0 + h12 * (f_base[i_start + 1] + k2 - ll * inv_r2[i_start + 1])
-    nodes = 0
-    for i in range(i_start + 1, n - 1):
-        w_next = 1.0 + h12 * (f_base[i + 1] + k2 - ll * inv_r2[i + 1])
-        # Numerov with w = 1 + h^2 f / 12: w+ y+ = (12 - 10 w) y - w- y-.
-        y_next = ((12.0 - 10.0 * w_cur) * y - w_prev * y_prev) / w_next
-        if (y_next < 0.0 and y > 0.0) or (y_next > 0.0 and y < 0.0):
-            nodes += 1
-        elif y_next == 0.0:
-            y_next = 1e-300 * (1.0 if y < 0.0 else -1.0)
-            nodes += 1
-        y_prev = y
-        y = y_next
-        w_prev = w_cur
-        w_cur = w_next
-        if abs(y) > 1e200:
-            y *= 1e-200
-            y_prev *= 1e-200
-    return y_prev, y, nodes
-
-
-@njit(cache=True)
-def _start_index(f_base, inv_r2, h, l, k2, i_from):
-    """Grid index to start from (WKB exponent under the barrier >= _BARRIER) and the
-    innermost classically allowed index, searched from ``i_from`` outward."""
-    n = f_base.size
-    ll = l * (l + 1.0)
-    it = n - 2
-    for i in range(max(i_from, 1), n - 1):
-        if f_base[i] + k2 - ll * inv_r2[i] > 0.0:
-            it = i
-            break
-    acc = 0.0
-    i = it
-    while i > 1 and acc < _BARRIER:
-        i -= 1
-        q = -(f_base[i] + k2 - ll * inv_r2[i])
-        if q > 0.0:
-            acc += math.sqrt(q) * h
-    return max(i - 1, 0), it
-
-
-@njit(cache=True)
-def _numerov_all(f_base, inv_r2, h, k2, y1_l, y2_l, nodes_l):
-    """:func:`_numerov_run` for l = 0 .. n_l - 1 (outputs filled in place)."""
-    it = 1
-    for l in range(y1_l.size):
-        # The allowed region only shrinks as l grows: search on from the last turning point.
-        i0, it = _start_index(f_base, inv_r2, h, l, k2, it)
-        y1_l[l], y2_l[l], nodes_l[l] = _numerov_run(f_base, inv_r2, h, l, k2, i0)
-
-
-def radial_grid_start(pot, E_max):
-    """Where the radial grid starts: a hard wall, or where u reaches 200 E_max (+ 1000 K).
-
-    Parameters
-    ----------
-    pot : PairPotential (K, length)
-    E_max : float, K
-
-    Returns
-    -------
-    float
-        Length unit; below it the wave function is taken as zero.
-    """
-    if pot.core_radius > 0.0:
-        return float(pot.core_radius) * (1.0 + 1e-12)
-    level = 200.0 * E_max + 1000.0
-    lo, hi = 1e-3 * pot.sigma, pot.sigma
-    if not float(pot.energy(lo)) > level:
-        return lo
-    for _ in range(60):
-        mid = 0.5 * (lo + hi)
-        if float(pot.energy(mid)) > level:
-            lo = mid
-        else:
-            hi = mid
-    return lo
-
-
-@dataclasses.dataclass
-class _Grid:
-    r0: float
-    h: float
-    f_base: np.ndarray
-    inv_r2: np.ndarray
-
-    @property
-    def r_end(self):
-        return self.r0 + (self.f_base.size - 1) * self.h
-
-
-def _grid(pot, c, r_start, r_match, h):
-    n = int(math.ceil((r_match - r_start) / h)) + 1
-    h = (r_match - r_start) / (n - 1)
-    r = r_start + h * np.arange(n)
-    u = np.asarray(pot.energy(np.maximum(r, 1e-12)), dtype=float)
-    u = np.where(np.isfinite(u), u, 1e300)
-    return _Grid(r_start, h, -u / c, 1.0 / (r * r))
-
-
-@njit(cache=True)
-def _riccati_all(x, j_l, n_l):
-    """Riccati-Bessel x j_l(x) and x y_l(x) for l = 0 .. size - 1 (in place).
-
-    x y_l by the upward recurrence (stable); x j_l by Miller's downward
-    recurrence normalised to sin(x).  Values beyond the float range are
-    left as 0 (j) and -inf (y): deep under the centrifugal barrier.
-    """
-    m = j_l.size
-    s = math.sin(x)
-    co = math.cos(x)
-    n_l[0] = -co
-    if m > 1:
-        n_l[1] = -co / x - s
-    for l in range(1, m - 1):
-        nxt = (2.0 * l + 1.0) / x * n_l[l] - n_l[l - 1]
-        n_l[l + 1] = nxt if math.isfinite(nxt) else -np.inf
-    top = m + int(x) + 40
-    a = 0.0
-    b = 1e-300
-    for l in range(top, -1, -1):
-        c = (2.0 * l + 3.0) / x * b - a
-        a = b
-        b = c
-        if l < m:
-            j_l[l] = b
-        if abs(b) > 1e250:
-            b *= 1e-250
-            a *= 1e-250
-            for q in range(l, min(m, l + 1 + top)):
-                j_l[q] *= 1e-250
-    # b is now proportional to x j_0 = sin x (the recurrence of the Riccati form is the same).
-    if abs(s) > 0.3:
-        scale = s / j_l[0]
-    else:
-        scale = (s / x - co) / j_l[1] if m > 1 else s / j_l[0]
-    for l in range(m):
-        j_l[l] *= scale
-
-
-def _riccati(n, x):
-    j = np.empty(n)
-    y = np.empty(n)
-    _riccati_all(float(x), j, y)
-    return j, y
 
 
 def _free_phase(l, x, j, y):
@@ -261,7 +78,7 @@ def phase_shifts_at(pot, c, k, l_values, r_match, h=None, r_start=None):
     if h is None:
         q_max = math.sqrt(k * k + pot.epsilon / c)
         h = min(0.01 * pot.sigma, _HQ / q_max)
-    grid = _grid(pot, c, r_start, r_match, h)
+    grid = radial_grid(pot, c, r_start, r_match, h)
     l_l = np.asarray(l_values, dtype=int)
     return _shifts_on_grid(grid, k, int(l_l.max()) + 1)[l_l]
 
@@ -272,11 +89,11 @@ def _shifts_on_grid(grid, k, n_l):
     y1 = np.empty(n_l)
     y2 = np.empty(n_l)
     nodes = np.empty(n_l, dtype=np.int64)
-    _numerov_all(grid.f_base, grid.inv_r2, grid.h, k * k, y1, y2, nodes)
+    numerov_all(grid.f_base, grid.inv_r2, grid.h, k * k, y1, y2, nodes)
     r2 = grid.r_end
     r1 = r2 - grid.h
-    j1, n1 = _riccati(n_l, k * r1)
-    j2, n2 = _riccati(n_l, k * r2)
+    j1, n1 = riccati(n_l, k * r1)
+    j2, n2 = riccati(n_l, k * r2)
     with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
         delta0 = np.arctan((y1 * j2 - y2 * j1) / (y1 * n2 - y2 * n1))
     delta0 = np.where(np.isfinite(delta0), delta0, 0.0)
@@ -289,8 +106,8 @@ def _shifts_on_grid(grid, k, n_l):
 def _count_below(grid, l, E, c):
     """Bound states of partial wave l below E < 0 (oscillation theorem, decaying tail beyond R)."""
     kappa2 = -E / c
-    i0, _ = _start_index(grid.f_base, grid.inv_r2, grid.h, l, -kappa2, 1)
-    y1, y2, nodes = _numerov_run(grid.f_base, grid.inv_r2, grid.h, l, -kappa2, i0)
+    i0, _ = start_index(grid.f_base, grid.inv_r2, grid.h, l, -kappa2, 1)
+    y1, y2, nodes = numerov_run(grid.f_base, grid.inv_r2, grid.h, l, -kappa2, i0)
     r2 = grid.r_end
     r1 = r2 - grid.h
     kap = math.sqrt(kappa2)
@@ -331,7 +148,7 @@ def bound_states(pot, c, r_match, l_max=400):
     depth = pot.epsilon
     q_max = math.sqrt(depth / c) * 1.5
     h = min(0.005 * pot.sigma, _HQ / q_max)
-    grid = _grid(pot, c, radial_grid_start(pot, depth), r_match, h)
+    grid = radial_grid(pot, c, radial_grid_start(pot, depth), r_match, h)
     u_min = float(-np.max(grid.f_base) * c)
     tiny = 1e-12 * depth
     out = []
@@ -406,7 +223,7 @@ def _summed_shifts(pot, c, k, r_match, r_start):
     the sum stops at k R + 12 + 5 (k R)^(1/3) (tunnelling exponent ~ 20).
     """
     q_max = math.sqrt(k * k + pot.epsilon / c)
-    grid = _grid(pot, c, r_start, r_match, min(0.01 * pot.sigma, _HQ / q_max))
+    grid = radial_grid(pot, c, r_start, r_match, min(0.01 * pot.sigma, _HQ / q_max))
     kr = k * r_match
     n_l = int(kr + 12.0 + 5.0 * kr ** (1.0 / 3.0))
     d = _shifts_on_grid(grid, k, n_l)
