@@ -4,8 +4,12 @@ Z = p / (rho R T) = 1 + B rho + C rho^2, truncated after B (``order=2``) or
 after C (``order=3``), with the residual (ideal-gas-subtracted) energy,
 entropy and heat capacity that follow from it at fixed (T, rho).  B and C
 come from :mod:`analysis.virial` for potentials given as u/k in kelvin and
-lengths in angstrom; B optionally carries the first-order Wigner-Kirkwood
-quantum correction (C is always classical and pairwise additive).
+lengths in angstrom.  B is classical, or carries the first- or
+second-order Wigner-Kirkwood correction, or is the exact quantum B2
+(Beth-Uhlenbeck, like pairs).  C is pairwise additive: classical, plus
+its first-order Wigner-Kirkwood term with the second-order and exact B2
+of a pure gas (:mod:`analysis.virial.quantum_third`; ``VirialGas.c_note``
+says which).
 
 Units: T in K, rho in mol/m^3, p in Pa, B in m^3/mol, C in m^6/mol^2,
 molar energies in J/mol, entropies and heat capacities in J/(mol K).
@@ -17,6 +21,9 @@ import numpy as np
 from analysis import inputs
 from analysis import virial
 from analysis.virial.quadrature import check_fractions
+from analysis.virial.quantum_exact import b2_exact, spin_components
+from analysis.virial.quantum_second import b2_second_order
+from analysis.virial.quantum_third import b3_quantum_first_order
 from mdsim.checks import non_negative_array, positive, positive_array
 from mdsim.engine.potentials import PairMatrix, PairPotential
 from mdsim.errors import StudyError
@@ -26,6 +33,8 @@ from mdsim.units import N_A, R_GAS
 # of the rest of Z.  The next, neglected term D rho^3 is then typically
 # below 1 % of Z for simple gases (D rho / C ~ 0.1-0.2 where C rho^2 ~ 0.05).
 DEFAULT_CONVERGENCE_LIMIT = 0.05
+#: The quantum treatments of B2, from none to the exact phase-shift B2.
+QUANTUM_LEVELS = ("classical", "first-order", "second-order", "exact")
 
 
 class VirialSeriesError(StudyError):
@@ -49,10 +58,18 @@ class VirialGas:
     molar_masses_kg_mol : float or array_like, shape=(n_species,)
         Molar masses in kg/mol (needed for the quantum correction and the
         de Boer check).
+    quantum : {"classical", "first-order", "second-order", "exact"}, optional
+        The quantum treatment of B (default "classical"): the first- or
+        second-order Wigner-Kirkwood terms added, or the exact quantum B2
+        of like pairs (unlike pairs: exact with Boltzmann statistics).  A
+        ``QuantumCorrectionWarning`` names the level that is enough when
+        the one chosen is not (de Boer parameter).
+    spin : tuple of SpinComponent, optional
+        Exchange statistics of the like pairs for ``quantum="exact"``
+        (:func:`analysis.virial.quantum_exact.spin_components`); default
+        Boltzmann.
     quantum_correction : bool, optional
-        Add the first-order Wigner-Kirkwood term to B (default False).
-        A ``QuantumCorrectionWarning`` is issued when it is needed but off
-        (de Boer parameter > 0.3) or on but not enough (> 1).
+        Older spelling: True means ``quantum="first-order"``.
 
     Notes
     -----
@@ -74,7 +91,8 @@ class VirialGas:
     0.98742
     """
 
-    def __init__(self, pairs_K_angstrom, fractions, molar_masses_kg_mol, quantum_correction=False):
+    def __init__(self, pairs_K_angstrom, fractions, molar_masses_kg_mol, quantum="classical",
+                 spin=None, quantum_correction=None):
         pairs = pairs_K_angstrom
         if isinstance(pairs, PairPotential):
             pairs = PairMatrix([pairs], cutoff=3.0)  # the cut-off plays no part in virial sums
@@ -94,9 +112,22 @@ class VirialGas:
             raise StudyError(f"'molar_masses_kg_mol' = {masses.tolist()}: values above 10 kg/mol; "
                              "molar masses are in kg/mol, not g/mol (argon: 0.039948)")
         self.molar_masses_kg_mol = masses
-        self.quantum_correction = bool(quantum_correction)
+        if quantum_correction is not None:
+            quantum = "first-order" if quantum_correction else "classical"
+        if quantum not in QUANTUM_LEVELS:
+            raise StudyError(f"quantum = {quantum!r}: choose one of {', '.join(QUANTUM_LEVELS)}")
+        self.quantum = quantum
+        self.quantum_correction = quantum != "classical"
+        self.spin = spin_components("boltzmann") if spin is None else tuple(spin)
+        # The first-order Wigner-Kirkwood B3 goes with the second-order and exact B2 of
+        # a pure gas.
+        self._quantum_b3 = quantum in ("second-order", "exact") and ns == 1
+        #: What C is, for outputs that print it.
+        self.c_note = ("B3 classical + first-order Wigner-Kirkwood" if self._quantum_b3 else
+                       "B3 classical (no quantum correction of B3 at this level)"
+                       if self.quantum_correction else "B3 classical")
         self.de_boer = np.array([
-            virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, self.quantum_correction,
+            virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, quantum,
                                   label=f"species {a}")
             for a in range(ns)])
 
@@ -113,10 +144,15 @@ class VirialGas:
                 if weight == 0.0:
                     continue
                 pot = self.pairs.pots[a][b]
-                vals = virial.b2(pot, T)
-                if self.quantum_correction:
-                    q = virial.h2_over_mu_K_A2(m[a], m[b])
-                    vals = [v + dv for v, dv in zip(vals, virial.b2_quantum(pot, T, q))]
+                q = virial.h2_over_mu_K_A2(m[a], m[b])
+                if self.quantum == "exact":
+                    vals = b2_exact(pot, T, q, self.spin if a == b else None)
+                else:
+                    vals = virial.b2(pot, T)
+                    if self.quantum != "classical":
+                        vals = [v + dv for v, dv in zip(vals, virial.b2_quantum(pot, T, q))]
+                    if self.quantum == "second-order":
+                        vals = [v + dv for v, dv in zip(vals, b2_second_order(pot, T, q))]
                 out = [o + weight * v for o, v in zip(out, vals)]
         return [virial.M3_MOL_PER_A3 * np.asarray(o, dtype=float) for o in out]
 
@@ -125,10 +161,15 @@ class VirialGas:
         if inputs.order(order) == 2:
             return [np.zeros_like(T)] * 3
         vals = virial.b3_mixture(self.pairs, self.fractions, T)
+        if self._quantum_b3:
+            m = self.molar_masses_kg_mol[0] / N_A
+            q = virial.h2_over_mu_K_A2(m, m)
+            dC = b3_quantum_first_order(self.pairs.pots[0][0], T, q)
+            vals = [v + dv for v, dv in zip(vals, dC)]
         return [virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
 
     def B(self, T, order=3):
-        """Second virial coefficient, m^3/mol (with the quantum term if enabled)."""
+        """Second virial coefficient, m^3/mol (with the quantum treatment chosen)."""
         inputs.order(order)
         return _out(self._b(T)[0])
 

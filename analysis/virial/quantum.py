@@ -15,13 +15,19 @@ from analysis.virial.si import ANGSTROM_M
 from mdsim.checks import non_negative, positive
 from mdsim.units import K_B, PLANCK
 
-__all__ = ["DE_BOER_FIRST_ORDER_LIMIT", "DE_BOER_NEGLIGIBLE", "QuantumCorrectionWarning",
+__all__ = ["DE_BOER_FIRST_ORDER_LIMIT", "DE_BOER_NEGLIGIBLE", "DE_BOER_SECOND_ORDER_LIMIT",
+           "level_enough", "QuantumCorrectionWarning",
            "b2_quantum", "h2_over_mu_K_A2", "de_boer_parameter", "check_de_boer"]
 
 # Above this de Boer parameter the first-order Wigner-Kirkwood term is not
 # enough (see check_de_boer); below DE_BOER_NEGLIGIBLE omitting it is fine.
 DE_BOER_FIRST_ORDER_LIMIT = 1.0
 DE_BOER_NEGLIGIBLE = 0.3
+# Above this the second-order term is not enough either (the h^4 term of
+# helium near T = epsilon/k is as large as the h^2 term): exact B2 needed.
+DE_BOER_SECOND_ORDER_LIMIT = 1.5
+_LEVEL_LIMIT = {"classical": DE_BOER_NEGLIGIBLE, "first-order": DE_BOER_FIRST_ORDER_LIMIT,
+                "second-order": DE_BOER_SECOND_ORDER_LIMIT, "exact": math.inf}
 
 
 class QuantumCorrectionWarning(UserWarning):
@@ -102,6 +108,18 @@ def de_boer_parameter(pot_K_A, mass_kg):
     return PLANCK / (sigma_m * math.sqrt(m * eps_J))
 
 
+def level_enough(de_boer):
+    """The cheapest quantum treatment of B2 that is enough at this de Boer parameter.
+
+    >>> level_enough(0.19), level_enough(0.6), level_enough(2.6)
+    ('classical', 'first-order', 'exact')
+    """
+    for level, limit in _LEVEL_LIMIT.items():
+        if de_boer <= limit:
+            return level
+    return "exact"
+
+
 def check_de_boer(pot_K_A, mass_kg, quantum_correction, label="gas"):
     """Warn when the quantum treatment chosen is not enough for this gas.
 
@@ -109,8 +127,9 @@ def check_de_boer(pot_K_A, mass_kg, quantum_correction, label="gas"):
     ----------
     pot_K_A : PairPotential (kelvin, angstrom)
     mass_kg : float
-    quantum_correction : bool
-        Whether the first-order Wigner-Kirkwood term is applied.
+    quantum_correction : bool or str
+        The quantum treatment: "classical", "first-order", "second-order"
+        or "exact" (True means "first-order", False "classical").
     label : str
         Name used in the message.
 
@@ -132,17 +151,19 @@ def check_de_boer(pot_K_A, mass_kg, quantum_correction, label="gas"):
     for omitting the correction altogether.
     """
     lam = de_boer_parameter(pot_K_A, mass_kg)
-    if quantum_correction and lam > DE_BOER_FIRST_ORDER_LIMIT:
+    level = quantum_correction
+    if isinstance(level, bool) or level is None:
+        level = "first-order" if level else "classical"
+    enough = level_enough(lam)
+    if lam > _LEVEL_LIMIT.get(level, math.inf):
+        what = ("quantum effects change B2 by more than about 1 % near T = epsilon/k"
+                if level == "classical" else
+                f"the {level} Wigner-Kirkwood correction is not enough for so quantum a gas "
+                "near and below T = epsilon/k")
         warnings.warn(
-            f"{label}: de Boer parameter Lambda* = {lam:.3g} > {DE_BOER_FIRST_ORDER_LIMIT}: the "
-            "first-order Wigner-Kirkwood correction is not enough for so quantum a gas (higher "
-            "orders or exact quantum virial coefficients are needed, especially near and below "
-            "T = epsilon/k); treat virial results as indicative only",
-            QuantumCorrectionWarning, stacklevel=3)
-    elif not quantum_correction and lam > DE_BOER_NEGLIGIBLE:
-        warnings.warn(
-            f"{label}: de Boer parameter Lambda* = {lam:.3g} > {DE_BOER_NEGLIGIBLE}: quantum "
-            "effects change B2 by more than about 1 % near T = epsilon/k; enable the quantum "
-            "correction (quantum_correction=True)",
+            f"{label}: de Boer parameter Lambda* = {lam:.3g} > {_LEVEL_LIMIT[level]}: {what}; "
+            f"use quantum = \"{enough}\" (levels: classical up to {DE_BOER_NEGLIGIBLE}, "
+            f"first-order up to {DE_BOER_FIRST_ORDER_LIMIT}, second-order up to "
+            f"{DE_BOER_SECOND_ORDER_LIMIT}, exact beyond)",
             QuantumCorrectionWarning, stacklevel=3)
     return lam

@@ -10,8 +10,8 @@ import logging
 import math
 import sys
 
-from mdsim.cli.options import (add_renamed_option, nonnegative_int, positive_int, print_json,
-                               quantity)
+from mdsim.cli.options import (add_renamed_option, add_state_options, nonnegative_int,
+                               positive_int, print_json, quantity, state_overrides)
 from mdsim.numbers import value_with_error
 from mdsim.pipeline.inversion_study import DEFAULT_CURVE_POINTS, SIMULATION_DEFAULTS
 
@@ -20,7 +20,9 @@ HELP = ("the Joule (free-expansion) inversion curve and, apart, the zero-pressur
 OPTION_FOR_SETTING = {"max_density_mol_m3": "--max-density", "points": "--points",
                       "density_count": "--simulated-density-count",
                       "temperature_count": "--simulated-temperature-count",
-                      "particles": "--particles", "samples": "--samples", "seed": "--seed"}
+                      "particles": "--particles", "samples": "--samples", "seed": "--seed",
+                      "temperature_K": "--temperature", "pressure_Pa": "--pressure",
+                      "density_mol_m3": "--density"}
 
 log = logging.getLogger(__name__)
 
@@ -56,6 +58,7 @@ def add_arguments(p):
     p.add_argument("--seed", type=nonnegative_int("--seed"), default=None,
                    help="random seed (default: the study's [simulation] seed)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    add_state_options(p)
 
 
 def format_inversion_table(out):
@@ -78,6 +81,12 @@ def format_inversion_table(out):
         p = pt["pressure_Pa"]
         lines.append(f"    {T:>18} {pt['density_mol_m3']:14.6g} "
                      f"{(p / 1e5 if p is not None else math.nan):12.6g}  {pt['source']}")
+    st = out.get("initial_state")
+    if st:
+        lines.append(f"  from T = {st['temperature_K']:.6g} K, rho = {st['density_mol_m3']:.6g} "
+                     f"mol/m^3 (p = {st['pressure_Pa'] / 1e5:.6g} bar) a free expansion "
+                     f"{st['free_expansion']}: Joule coefficient (dT/dV)_U = "
+                     f"{st['joule_coefficient_K_mol_m3']:.6g} K mol/m^3 (B2 + B3)")
     lines += [f"  note: {n}" for n in out["notes"]]
     return lines
 
@@ -97,12 +106,17 @@ def run(args):
     from mdsim.pipeline.inversion_study import inversion_summary
     from mdsim.study.reader import read_study
     study = read_study(args.study)
+    overrides = state_overrides(args)
+    if overrides:
+        from mdsim.study import with_initial_state
+        study = with_initial_state(study, **overrides)
     rho_max = quantity(args.max_density, "molar_density", "--max-density")
     simulation = {"density_count": args.simulated_density_count,
                   "temperature_count": args.simulated_temperature_count,
                   "particles": args.particles, "samples": args.samples, "seed": args.seed}
     out = inversion_summary(study, rho_max, args.points, simulate=args.simulate,
-                            simulation=simulation, progress=_progress_printer(args.quiet))
+                            simulation=simulation, progress=_progress_printer(args.quiet),
+                            initial_state=overrides is not None)
     if args.json:
         print_json(out)
     else:

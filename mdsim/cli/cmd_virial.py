@@ -1,16 +1,21 @@
-"""``mdsim virial STUDY [--json]``: the virial answers of every state point of a study, in seconds.
+"""``mdsim virial STUDY [--json] [--temperature T] [--pressure P | --density RHO]``: the virial
+answers of every state point of a study, in seconds.
 
 Every state point is solved with the virial equation of state of the
 study's own pair potential, truncated after B2 and after B3
 (:mod:`mdsim.pipeline.virial_study`).  ``--json`` prints the run summary
 (the record shape of ``mdsim run --json``, each state point with its
-``virial`` coefficients).
+``virial`` coefficients).  ``--temperature``, ``--pressure`` and
+``--density`` replace the study's ``[initial]`` values (as ``mdsim sample``
+takes its state from the command line).
 """
-from mdsim.cli.options import print_json
+from mdsim.cli.options import add_state_options, print_json, state_overrides
 from mdsim.numbers import value_with_error
 from mdsim.pipeline.report_tables import VIRIAL_IN_CM
 
 HELP = "the virial routes only (B2, B2 + B3) for every state point of a study, in seconds"
+OPTION_FOR_SETTING = {"temperature_K": "--temperature", "pressure_Pa": "--pressure",
+                      "density_mol_m3": "--density"}
 
 
 def add_arguments(p):
@@ -18,6 +23,7 @@ def add_arguments(p):
     p.add_argument("--json", action="store_true",
                    help="print the run-summary JSON (state_points with initial, final, "
                    "delta_T_K, entropy_generated_J_molK, virial, warnings)")
+    add_state_options(p)
 
 
 def _g(x, fmt=".6g", unit=""):
@@ -42,7 +48,7 @@ def _state_point_lines(rec):
     state = (f"p = {sp['pressure_Pa'] / 1e5:.6g} bar" if sp["pressure_Pa"] is not None
              else f"rho = {sp['density_mol_m3']:.6g} mol/m^3")
     how = f" ({ini['density_from']})" if ini.get("density_from") else ""
-    q = " (with quantum correction)" if v["quantum_correction"] else ""
+    q = f" ({v['quantum']})" if v.get("quantum_correction") else ""
     c = _coefficients(v)
     lines = [f"state point {rec['index']}: T = {sp['temperature_K']:.6g} K, {state}, "
              f"volume ratio {sp['volume_ratio']:.6g}",
@@ -78,8 +84,12 @@ def format_virial_table(summary):
 
 def run(args):
     from mdsim.pipeline.virial_study import virial_study_summary
-    from mdsim.study.reader import read_study
-    summary = virial_study_summary(read_study(args.study))
+    from mdsim.study import read_study, with_initial_state
+    study = read_study(args.study)
+    overrides = state_overrides(args)
+    if overrides:
+        study = with_initial_state(study, **overrides)
+    summary = virial_study_summary(study)
     if args.json:
         print_json(summary)
     else:

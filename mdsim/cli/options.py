@@ -58,6 +58,26 @@ def quantity(text, kind, option):
     return parse_quantity(text, kind, f"option {option}")
 
 
+def add_state_options(parser):
+    """--temperature and --pressure or --density, overriding the study's [initial]."""
+    parser.add_argument("--temperature", help='initial temperature with unit, for example '
+                        '"150 K" (overrides [initial] and a [sweep] of temperatures)')
+    group = parser.add_mutually_exclusive_group()
+    group.add_argument("--pressure", help='initial pressure with unit, for example "100 bar" '
+                       "(overrides [initial] and a [sweep] of pressures or densities)")
+    group.add_argument("--density", help='initial molar density with unit, for example '
+                       '"500 mol/m^3" (overrides [initial] and a [sweep] of pressures or '
+                       "densities)")
+
+
+def state_overrides(args):
+    """The keyword arguments of ``mdsim.study.with_initial_state`` from the options, or None."""
+    out = {"temperature_K": quantity(args.temperature, "temperature", "--temperature"),
+           "pressure_Pa": quantity(args.pressure, "pressure", "--pressure"),
+           "density_mol_m3": quantity(args.density, "molar_density", "--density")}
+    return out if any(v is not None for v in out.values()) else None
+
+
 def quantity_pair(values, kind, option):
     """(LOW, HIGH) in SI of a two-value quantity option, None when not given."""
     if values is None:

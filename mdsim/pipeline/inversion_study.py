@@ -17,6 +17,7 @@ from mdsim.checks import count, positive
 from mdsim.errors import SettingError
 
 __all__ = ["DEFAULT_CURVE_POINTS", "SIMULATION_DEFAULTS", "default_max_density_mol_m3",
+           "initial_state_record",
            "virial_inversion_curve", "simulation_grid", "sample_inversion_grid",
            "inversion_summary"]
 
@@ -241,8 +242,40 @@ def _simulation_settings(simulation):
     return s
 
 
+def initial_state_record(study):
+    """Whether a free expansion from the study's initial state warms or cools (B2 + B3).
+
+    Parameters
+    ----------
+    study : mdsim.study.reader.Study
+        With ``[initial]`` temperature and pressure or density.
+
+    Returns
+    -------
+    dict
+        ``temperature_K``, ``density_mol_m3``, ``pressure_Pa`` (the series'
+        value when a density was given), ``joule_coefficient_K_mol_m3``
+        ((dT/dV)_U, B2 + B3 virial series), ``free_expansion`` ("cools" or
+        "warms").
+    """
+    from analysis.inversion.virial_series import joule_coefficient_virial
+    from mdsim.study.statepoints import ideal_heat_capacity, state_points, virial_gas
+    sp = state_points(study)[0]
+    gas = virial_gas(study)
+    T = sp.temperature_K
+    if sp.density_mol_m3 is None:
+        rho, p = gas.density_from_pressure(T, sp.pressure_Pa, order=3), sp.pressure_Pa
+    else:
+        rho = sp.density_mol_m3
+        p = gas.pressure_Pa(T, rho, order=3)
+    mu = joule_coefficient_virial(gas, ideal_heat_capacity(study), T, rho, order=3)
+    return {"temperature_K": T, "density_mol_m3": float(rho), "pressure_Pa": float(p),
+            "joule_coefficient_K_mol_m3": float(mu),
+            "free_expansion": "cools" if mu < 0.0 else "warms"}
+
+
 def inversion_summary(study, max_density_mol_m3=None, points=DEFAULT_CURVE_POINTS,
-                      simulate=False, simulation=None, progress=None):
+                      simulate=False, simulation=None, progress=None, initial_state=False):
     """The Joule inversion of a study, virial and (optionally) simulated, JSON-ready.
 
     Parameters
@@ -262,6 +295,8 @@ def inversion_summary(study, max_density_mol_m3=None, points=DEFAULT_CURVE_POINT
         the study's ``[simulation]`` seed).
     progress : callable, optional
         ``progress(k, n, T_K, rho_mol_m3)`` before each grid point.
+    initial_state : bool
+        Add ``initial_state`` (:func:`initial_state_record`).
 
     Returns
     -------
@@ -301,4 +336,5 @@ def inversion_summary(study, max_density_mol_m3=None, points=DEFAULT_CURVE_POINT
         "labels": dict(LABELS),
         "notes": notes,
         "simulation": sim_info,
+        **({"initial_state": initial_state_record(study)} if initial_state else {}),
     })

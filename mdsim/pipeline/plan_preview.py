@@ -192,7 +192,7 @@ def preview_plan(study, *, pilot=True):
     from mdsim.study.statepoints import ideal_heat_capacity
     g = study.gas
     gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
-                    quantum_correction=False)  # as a running task guesses: classical
+                    quantum="classical")  # as a running task guesses: classical
     cv_ig = ideal_heat_capacity(study)
     pilots, out = {}, []
     for task in plan_tasks(study):

@@ -108,13 +108,15 @@ def _settings_lines(study, gathered):
 def _quantum_line(study):
     """The report's line on quantum effects: the virial routes' and the simulations'."""
     from mdsim.study.quantum_potential import uses_feynman_hibbs
-    virial = ("the first-order Wigner-Kirkwood correction is added to B2 (virial routes)"
-              if study.gas.quantum_correction else "the virial routes are classical")
+    from mdsim.study.statepoints import virial_gas
+    gas = study.gas
+    virial = (f"virial routes: {gas.describe_quantum()}, {virial_gas(study).c_note}"
+              if gas.quantum_correction else "the virial routes are classical")
     if uses_feynman_hibbs(study):
         return (f"- Quantum effects: {virial}; the simulations use the quadratic Feynman-Hibbs "
                 "effective potential of each sampled temperature with its thermodynamic energy "
                 "estimator (docs/physics.md section 3.5).")
-    if study.gas.quantum_correction:
+    if gas.quantum_correction:
         return f"- Quantum effects: {virial}; the simulations are classical."
     return "- Quantum effects: classical statistics throughout (no quantum correction asked for)."
 

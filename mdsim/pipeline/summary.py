@@ -69,21 +69,24 @@ def _one_line(exc):
 def virial_coefficients(study, temperature_K):
     """B2, dB2/dT, B3, dB3/dT of the study's gas at one temperature (SI).
 
-    B2 carries the first-order quantum correction when the study asks for
-    it (``[gas] quantum_correction = true``); B3 is classical.
+    B2 carries the quantum treatment the study asks for (``[gas] quantum``),
+    B3 its first-order term with the second-order and exact levels; both
+    are named in ``quantum``.
 
     Returns
     -------
     dict
         ``temperature_K``, ``B2_m3_mol``, ``dB2_dT_m3_molK``, ``B3_m6_mol2``,
-        ``dB3_dT_m6_mol2K``, ``quantum_correction`` (bool).
+        ``dB3_dT_m6_mol2K``, ``quantum_correction`` (bool), ``quantum`` (one line: the
+        treatment of B2 and B3).
     """
     gas = virial_gas(study)
     T = float(temperature_K)
     return {"temperature_K": T,
             "B2_m3_mol": _num(gas.B(T)), "dB2_dT_m3_molK": _num(gas.dB_dT(T)),
             "B3_m6_mol2": _num(gas.C(T)), "dB3_dT_m6_mol2K": _num(gas.dC_dT(T)),
-            "quantum_correction": bool(study.gas.quantum_correction)}
+            "quantum_correction": bool(study.gas.quantum_correction),
+            "quantum": f"{study.gas.describe_quantum()}; {gas.c_note}"}
 
 
 def virial_summary(study, sp):
@@ -381,7 +384,8 @@ def run_summary(study, records):
                 "molar_masses_kg_mol": [float(m) for m in g.molar_masses_kg_mol],
                 "potential_form": g.pairs_K_angstrom.pots[0][0].name,
                 "ideal_heat_capacity": g.ideal_heat_capacity,
-                "quantum_correction": bool(g.quantum_correction)},
+                "quantum_correction": bool(g.quantum_correction),
+                "quantum": g.quantum},
         "routes": list(study.simulation.get("routes", [])),
         "state_points": sorted(records, key=lambda rec: rec["index"]),
         "warnings": virial_warnings(study),

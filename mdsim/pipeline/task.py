@@ -140,15 +140,15 @@ class RunningTask:
         self.initial_chain = None
         g = self.study.gas
         self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
-                                    quantum_correction=False)
+                                    quantum="classical")
         self.feynman_hibbs = uses_feynman_hibbs(self.study)
         if self.feynman_hibbs:
             self.notes.append("simulations use the quadratic Feynman-Hibbs effective pair "
                               "potential at each sampled temperature, with its thermodynamic "
                               "energy estimator (docs/physics.md)")
         elif g.quantum_correction:
-            self.warnings.append("the study asks for the quantum correction: it applies to the "
-                                 "virial routes only; simulations are classical")
+            self.warnings.append(f"the study asks for quantum = \"{g.quantum}\": it applies to "
+                                 "the virial routes only; simulations are classical")
         self.T_f_guess, self.dT_guess = self._virial_guess()
         if self.feynman_hibbs:  # the lowest temperature sampled decides
             note, warning = feynman_hibbs_validity(self.study, min(self.T_i, self.T_f_guess))

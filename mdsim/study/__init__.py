@@ -22,10 +22,12 @@ from mdsim.study.routes import (DEFAULT_ROUTES, FINAL_PREFERENCE, RENAMED_ROUTES
                                 ROUTES, SIMULATION_ROUTES, VIRIAL_ROUTES)
 from mdsim.study.schema import SCHEMA, Key
 from mdsim.study.statepoints import (StatePoint, ideal_heat_capacity, resolve_initial_density,
-                                     state_points, virial_gas, virial_warnings)
+                                     state_points, virial_gas, virial_warnings,
+                                     with_initial_state)
 from mdsim.study.values import Context, check_table
 
-__all__ = ["read_study", "Study", "Gas", "StatePoint", "state_points", "resolve_initial_density",
+__all__ = ["read_study", "Study", "Gas", "StatePoint", "state_points", "with_initial_state",
+           "resolve_initial_density",
            "virial_gas", "virial_warnings", "ideal_heat_capacity", "close_packed_density_mol_m3",
            "SCHEMA", "Key", "Context", "check_table",
            "SIMULATION_ROUTES", "VIRIAL_ROUTES", "ROUTES", "DEFAULT_ROUTES", "FINAL_PREFERENCE",

@@ -21,9 +21,11 @@ from mdsim.study.schema import ANGSTROM, SCHEMA
 from mdsim.study.values import MISSING, check_table, suggest
 from mdsim.units import N_A, R_GAS, ReducedUnits, parse_quantity
 
-__all__ = ["Gas", "read_gas", "check_heat_capacity", "close_packed_density_mol_m3",
+__all__ = ["Gas", "read_gas", "check_quantum", "eval_fraction", "HYDROGEN_SPIN_ISOMERS", "check_heat_capacity", "close_packed_density_mol_m3",
            "CLOSE_PACKED_DENSITY_RED", "HEAT_CAPACITY_CSV_HEADER", "HEAT_CAPACITY_DICT_KEYS"]
 
+#: Hydrogen's spin-isomer choices of [gas] nuclear_spin and their ortho fractions.
+HYDROGEN_SPIN_ISOMERS = {"normal-hydrogen": 0.75, "para-hydrogen": 0.0}
 #: Densest state accepted: close-packed spheres of diameter sigma, rho sigma^3 = sqrt(2).
 CLOSE_PACKED_DENSITY_RED = math.sqrt(2.0)
 #: The header line of a heat-capacity CSV table.
@@ -48,7 +50,14 @@ class Gas:
     fractions : ndarray, shape=(n_species,), float64
         Mole fractions (sum to 1).
     molar_masses_kg_mol : ndarray, shape=(n_species,), float64
-    quantum_correction : bool
+    quantum : str
+        The quantum treatment of B2 ("classical", "first-order",
+        "second-order", "exact").
+    statistics : str
+        "boltzmann", "bose" or "fermi" (used when quantum is "exact").
+    nuclear_spin : str
+        The nuclear spin I ("0", "1/2", ...) or "normal-hydrogen" /
+        "para-hydrogen".
     ideal_heat_capacity : str or dict
         The validated raw specification ("1.5 R", "20.8 J/(mol K)",
         {"polynomial": [...], "unit": ...} or an absolute CSV path).
@@ -62,7 +71,9 @@ class Gas:
     pairs_K_angstrom: PairMatrix
     fractions: np.ndarray
     molar_masses_kg_mol: np.ndarray
-    quantum_correction: bool
+    quantum: str
+    statistics: str
+    nuclear_spin: str
     ideal_heat_capacity: object
     dof_per_particle: int
     units: ReducedUnits
@@ -71,6 +82,28 @@ class Gas:
     def n_species(self):
         """The number of species (1 for a pure gas)."""
         return len(self.species_names)
+
+    @property
+    def quantum_correction(self):
+        """Whether B2 carries any quantum treatment (``quantum`` is not "classical")."""
+        return self.quantum != "classical"
+
+    def spin_components(self):
+        """The exchange statistics of like pairs for the exact B2 (analysis SpinComponents)."""
+        from analysis.virial.quantum_exact import spin_components
+        if self.nuclear_spin in HYDROGEN_SPIN_ISOMERS:
+            return spin_components("bose", ortho_fraction=HYDROGEN_SPIN_ISOMERS[self.nuclear_spin])
+        spin = eval_fraction(self.nuclear_spin)
+        return spin_components(self.statistics, internal_states=int(round(2.0 * spin + 1.0)))
+
+    def describe_quantum(self):
+        """One line: the quantum treatment of the virial routes."""
+        if self.quantum != "exact":
+            return f"B2 {self.quantum} (Wigner-Kirkwood)" if self.quantum_correction else \
+                "B2 classical"
+        stats = (self.nuclear_spin if self.nuclear_spin in HYDROGEN_SPIN_ISOMERS
+                 else f"{self.statistics} statistics, nuclear spin {self.nuclear_spin}")
+        return f"B2 exact quantum (phase shifts, {stats})"
 
 
 def close_packed_density_mol_m3(gas):
@@ -174,6 +207,50 @@ def check_heat_capacity(ctx, value, base_dir):
     return _heat_capacity_polynomial(ctx, value)
 
 
+def check_quantum(ctx, raw, gas):
+    """Refuse statistics and nuclear_spin that do not fit the quantum level or each other.
+
+    Parameters
+    ----------
+    ctx : mdsim.study.values.Context
+    raw : dict
+        ``[gas]`` as written.
+    gas : dict
+        ``[gas]`` checked, defaults filled in.
+    """
+    spin = gas["nuclear_spin"]
+    stats = gas["statistics"]
+    if gas["quantum"] != "exact":
+        for key in ("statistics", "nuclear_spin"):
+            if key in raw:
+                ctx.fail("gas", key, raw[key], f"applies only with quantum = \"exact\" (quantum "
+                         f"is \"{gas['quantum']}\")", "",
+                         f'set quantum = "exact" or remove {key}')
+        return
+    if spin in HYDROGEN_SPIN_ISOMERS:
+        if stats != "bose":
+            ctx.fail("gas", "statistics", stats, f"nuclear_spin = \"{spin}\" is hydrogen, whose "
+                     "molecules are bosons", "", 'write statistics = "bose"')
+        return
+    twice = int(round(2.0 * float(eval_fraction(spin))))
+    if stats == "boltzmann" and "nuclear_spin" in raw and spin != "0":
+        ctx.fail("gas", "nuclear_spin", spin, "Boltzmann statistics have no exchange, so the "
+                 "nuclear spin plays no part", "", 'choose statistics = "bose" or "fermi", or '
+                 "remove nuclear_spin")
+    if stats == "bose" and twice % 2:
+        ctx.fail("gas", "nuclear_spin", spin, "a half-integer spin belongs to fermions", "",
+                 'write statistics = "fermi" (helium-3) or an integer spin')
+    if stats == "fermi" and not twice % 2:
+        ctx.fail("gas", "nuclear_spin", spin, "fermions (statistics = \"fermi\") have a "
+                 "half-integer nuclear spin", "", 'helium-3: nuclear_spin = "1/2"')
+
+
+def eval_fraction(text):
+    """A spin written as "0", "1" or "3/2" as a float."""
+    num, _, den = text.partition("/")
+    return float(num) / (float(den) if den else 1.0)
+
+
 # -- the species and their potentials --------------------------------------------------
 
 @dataclasses.dataclass
@@ -272,6 +349,7 @@ def read_gas(ctx, doc, base_dir):
     pot_raw = doc.get("potential", {})
     if not isinstance(pot_raw, dict):
         ctx.fail("potential", None, pot_raw, "must be a table")
+    check_quantum(ctx, doc["gas"], gas)
     read = _read_mixture if "species" in gas else _read_pure
     sp = read(ctx, doc, gas, pot_raw, base_dir)
     try:
@@ -282,7 +360,8 @@ def read_gas(ctx, doc, base_dir):
     return Gas(name=gas.get("name") or sp.names[0], species_names=sp.names,
                pairs_K_angstrom=pairs, fractions=np.array(sp.fractions, dtype=float),
                molar_masses_kg_mol=np.array(sp.masses, dtype=float),
-               quantum_correction=gas["quantum_correction"],
+               quantum=gas["quantum"], statistics=gas["statistics"],
+               nuclear_spin=gas["nuclear_spin"],
                ideal_heat_capacity=check_heat_capacity(ctx, gas["ideal_heat_capacity"], base_dir),
                dof_per_particle=gas["dof_per_particle"],
                units=ReducedUnits(p0.epsilon, p0.sigma * ANGSTROM, sp.masses[0]))

@@ -16,7 +16,8 @@ Tables read here:
     ``{ polynomial = [a0, a1, ...], unit = "J/(mol K)" }`` meaning
     sum a_k (T/K)^k, or the name of a CSV file with header
     ``temperature_K, cv_J_molK``; kept raw for the analysis package);
-    ``quantum_correction`` (bool, default false); ``dof_per_particle``
+    ``quantum`` (classical, first-order, second-order, exact; default classical),
+    ``statistics`` and ``nuclear_spin`` (for exact); ``dof_per_particle``
     (kinetic degrees of freedom per molecule for the microcanonical route:
     3 atoms, 5 rigid linear molecules, 6 rigid non-linear; default 3);
     ``[[gas.species]]`` for mixtures, each with ``name``, ``mole_fraction``,

@@ -19,7 +19,8 @@ import dataclasses
 from mdsim.study.routes import DEFAULT_ROUTES, SIMULATION_ROUTES
 
 __all__ = ["ANGSTROM", "NO_DEFAULT", "Key", "SCHEMA", "TOP_LEVEL", "PIPELINE_TABLES",
-           "RENAMED_KEYS", "FORMS", "SAMPLERS", "QUANTUM_POTENTIALS", "CLUSTER_SYSTEMS", "TEMPERATURE_RANGE_K",
+           "RENAMED_KEYS", "REMOVED_KEYS", "FORMS", "QUANTUM_LEVELS", "STATISTICS",
+           "NUCLEAR_SPINS", "SAMPLERS", "QUANTUM_POTENTIALS", "CLUSTER_SYSTEMS", "TEMPERATURE_RANGE_K",
            "PRESSURE_RANGE_PA", "DENSITY_RANGE_MOL_M3", "VOLUME_RATIO_MAX", "MAX_SWEEP_VALUES", "SEED_MAX"]
 
 #: One angstrom in metres (potential lengths are kept in angstrom).
@@ -82,6 +83,12 @@ class Key:
 
 
 FORMS = ("lennard-jones", "mie", "exp-6", "table")
+#: [gas] quantum: the quantum treatment of B2 (analysis.virial_eos.QUANTUM_LEVELS).
+QUANTUM_LEVELS = ("classical", "first-order", "second-order", "exact")
+#: [gas] statistics (analysis.virial.quantum_exact.STATISTICS).
+STATISTICS = ("boltzmann", "bose", "fermi")
+#: [gas] nuclear_spin: I as text, or hydrogen's spin-isomer choice.
+NUCLEAR_SPINS = ("0", "1/2", "1", "3/2", "2", "5/2", "3", "normal-hydrogen", "para-hydrogen")
 SAMPLERS = ("mc", "md")
 QUANTUM_POTENTIALS = ("none", "feynman-hibbs")
 CLUSTER_SYSTEMS = ("slurm", "pbs")
@@ -111,7 +118,17 @@ _GAS_TABLES = {
         "molar_mass": Key("molar_mass", low=0.5e-3, high=1.0, example='"39.948 g/mol"', **_MASS),
         "ideal_heat_capacity": Key("heat_capacity", required=True, example='"1.5 R"',
                                    help="the ideal-gas c_v (translation plus internal modes)"),
-        "quantum_correction": Key("bool", default=False, example="true"),
+        "quantum": Key("string", default="classical", choices=QUANTUM_LEVELS,
+                       example='"exact"', help="the quantum treatment of B2 in the virial "
+                       "routes: classical, first-order or second-order Wigner-Kirkwood, or "
+                       "exact (phase shifts)"),
+        "statistics": Key("string", default="boltzmann", choices=STATISTICS,
+                          example='"bose"', help="exchange statistics for quantum = \"exact\": "
+                          "boltzmann, bose (helium-4, hydrogen) or fermi (helium-3)"),
+        "nuclear_spin": Key("string", default="0", choices=NUCLEAR_SPINS, example='"1/2"',
+                            help="the nuclear spin I for quantum = \"exact\" with bose or "
+                            "fermi statistics (helium-3: \"1/2\"), or hydrogen's choice: "
+                            "\"normal-hydrogen\" (3:1 ortho:para) or \"para-hydrogen\""),
         "dof_per_particle": Key("int", default=3, choices=(3, 5, 6), example="3",
                                 help="3 for atoms, 5 for rigid linear, 6 for rigid non-linear"),
         "species": Key("tables", example="[[gas.species]]"),
@@ -247,6 +264,12 @@ SCHEMA = {**_GAS_TABLES, **_STATE_TABLES, **_RUN_TABLES, "table": _CSTABLE}
 PIPELINE_TABLES = ("initial", "expansion", "simulation", "sweep", "cluster")
 #: Every table a study file may have.
 TOP_LEVEL = ("study", "gas", "potential", "table") + PIPELINE_TABLES
+
+#: Keys that earlier versions of the tool read and that are gone: (table, key) -> what to write.
+REMOVED_KEYS = {
+    ("gas", "quantum_correction"): 'it became [gas] quantum = "classical" | "first-order" | '
+                                   '"second-order" | "exact" (true was "first-order")',
+}
 
 #: Keys that earlier versions of the tool read, by table, and their names now.
 RENAMED_KEYS = {

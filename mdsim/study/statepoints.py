@@ -24,9 +24,9 @@ import dataclasses
 import itertools
 import warnings
 
-from mdsim.errors import ConvergenceError, StudyError
+from mdsim.errors import ConvergenceError, SettingError, StudyError
 
-__all__ = ["StatePoint", "state_points", "resolve_initial_density", "virial_gas", "virial_warnings",
+__all__ = ["StatePoint", "state_points", "with_initial_state", "resolve_initial_density", "virial_gas", "virial_warnings",
            "ideal_heat_capacity", "MAX_STATE_POINTS", "PRESSURE_TO_DENSITY_ORDER"]
 
 # Largest number of state points one study may expand to.
@@ -86,6 +86,54 @@ def _missing(study, table, key, example):
     raise StudyError(f"study file '{study.path}', [{table}] key '{key}': missing; the study "
                      f"needs it to define its state points; add {key} = {example} to "
                      f"[{table}], or a list in [sweep]")
+
+
+def with_initial_state(study, temperature_K=None, pressure_Pa=None, density_mol_m3=None):
+    """The study with its initial temperature and pressure or density replaced.
+
+    A value given replaces ``[initial]`` and its ``[sweep]`` list; a
+    pressure replaces a density and the other way round.  What is not given
+    stays as the study file has it.
+
+    Parameters
+    ----------
+    study : Study
+    temperature_K : float, optional
+    pressure_Pa, density_mol_m3 : float, optional
+        At most one of them.
+
+    Returns
+    -------
+    Study
+        A new study object (the one given is left as it was).
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> from mdsim.study.reader import read_study
+    >>> argon = read_study(Path(__file__).parents[2] / "configs" / "argon.toml")
+    >>> sp = state_points(with_initial_state(argon, 150.0, density_mol_m3=500.0))[0]
+    >>> sp.temperature_K, sp.pressure_Pa, sp.density_mol_m3
+    (150.0, None, 500.0)
+    """
+    if pressure_Pa is not None and density_mol_m3 is not None:
+        raise SettingError("density_mol_m3", density_mol_m3, "give a pressure or a density, "
+                           "not both")
+    initial, sweep = dict(study.initial), dict(study.sweep)
+    for setting, key, value in (("temperature_K", "temperature", temperature_K),
+                                ("pressure_Pa", "pressure", pressure_Pa),
+                                ("density_mol_m3", "density", density_mol_m3)):
+        if value is None:
+            continue
+        if not (value > 0.0 and value < float("inf")):
+            raise SettingError(setting, value, "must be a positive number")
+        initial[key] = float(value)
+        sweep.pop(key, None)
+        if key != "temperature":
+            other = "density" if key == "pressure" else "pressure"
+            initial.pop(other, None)
+            sweep.pop(other, None)
+    return dataclasses.replace(study, initial=initial, sweep=sweep)
 
 
 def state_points(study):
@@ -149,7 +197,8 @@ def virial_gas(study):
             warnings.simplefilter("always")
             gas = VirialGas(study.gas.pairs_K_angstrom, study.gas.fractions,
                             study.gas.molar_masses_kg_mol,
-                            quantum_correction=study.gas.quantum_correction)
+                            quantum=study.gas.quantum,
+                            spin=study.gas.spin_components())
         study._virial_gas = gas
         study._virial_warnings = [str(w.message) for w in caught]
     return gas

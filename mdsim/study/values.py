@@ -28,7 +28,7 @@ from pathlib import Path
 
 from mdsim.errors import StudyError
 from mdsim.study.routes import RENAMED_ROUTES
-from mdsim.study.schema import MAX_SWEEP_VALUES, NO_DEFAULT, RENAMED_KEYS
+from mdsim.study.schema import MAX_SWEEP_VALUES, NO_DEFAULT, REMOVED_KEYS, RENAMED_KEYS
 from mdsim.units import parse_epsilon_K, parse_quantity, registry
 
 __all__ = ["MISSING", "Context", "suggest", "describe_range", "check_value", "check_table"]
@@ -243,6 +243,9 @@ def check_value(ctx, table, key, value, spec):
 
 
 def _unknown_key(ctx, table, key, value, schema, valid):
+    if (table, key) in REMOVED_KEYS:
+        ctx.fail(table, key, value, f"the key '{key}' is no longer read",
+                 "", REMOVED_KEYS[(table, key)])
     new = RENAMED_KEYS.get(table, {}).get(key)
     if new in valid:
         ctx.fail(table, key, value, f"the key '{key}' is now called '{new}'", "",

@@ -120,7 +120,7 @@ def resolved_study_document(study, copies=None):
     doc = json.loads(json.dumps(study.raw))  # a deep copy of plain data
     _relocate_data_files(study, doc, copies)
     gas = doc["gas"]
-    gas.setdefault("quantum_correction", bool(study.gas.quantum_correction))
+    gas.setdefault("quantum", study.gas.quantum)
     gas.setdefault("dof_per_particle", int(study.gas.dof_per_particle))
     doc.setdefault("potential", {})
     if "species" not in gas:

@@ -377,9 +377,15 @@ def test_quantum_si_matches_reduced_form():
 
 
 def test_de_boer_warnings():
-    with pytest.warns(virial.QuantumCorrectionWarning, match="first-order"):
+    # The level named is the cheapest enough one (de Boer limits of analysis.virial.quantum).
+    with pytest.warns(virial.QuantumCorrectionWarning, match='use quantum = "exact"'):
         virial.check_de_boer(HELIUM[0], HELIUM[1] / N_A, quantum_correction=True)
-    with pytest.warns(virial.QuantumCorrectionWarning, match="enable the quantum correction"):
+    with pytest.warns(virial.QuantumCorrectionWarning, match='use quantum = "exact"'):
+        virial.check_de_boer(HELIUM[0], HELIUM[1] / N_A, quantum_correction="second-order")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        virial.check_de_boer(HELIUM[0], HELIUM[1] / N_A, quantum_correction="exact")
+    with pytest.warns(virial.QuantumCorrectionWarning, match='use quantum = "first-order"'):
         virial.check_de_boer(NEON[0], NEON[1] / N_A, quantum_correction=False)
     with warnings.catch_warnings():
         warnings.simplefilter("error")

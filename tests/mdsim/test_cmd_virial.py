@@ -198,3 +198,38 @@ def test_inversion_text_writes_a_simulated_point_with_its_error():
     assert lines[-1].split() == ["2801", "±", "44", "1000", "230", "simulation"]
     assert lines[-2].split() == ["3013.28", "0", "0", "virial"]
     assert "3013.28 K   (maximum of B2)" in lines[1]
+
+
+def test_virial_and_inversion_take_the_initial_state_from_options(capsys):
+    # The options replace [initial] (and its [sweep]); the numbers are those of a study
+    # file that says the same (the same functions: round-off only).
+    out = run_json(capsys, "virial", str(CONFIGS / "argon_sweep.toml"), "--json",
+                   "--temperature", "150 K", "--density", "500 mol/m^3")
+    assert len(out["state_points"]) == 1  # the temperature and pressure sweeps replaced
+    rec = out["state_points"][0]
+    assert rec["initial"]["temperature_K"] == 150.0
+    assert rec["initial"]["density_mol_m3"] == 500.0
+    study = read_study(CONFIGS / "argon.toml")
+    g = study.gas
+    gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol)
+    res = virial_expansion(gas, heat_capacity_from_spec("1.5 R"), 150.0,
+                           rec["state_point"]["volume_ratio"], rho_i=500.0, order=3)
+    assert rec["delta_T_K"]["virial_b2b3"]["value"] == pytest.approx(res.delta_T_K, rel=1e-10)
+    assert main(["virial", str(CONFIGS / "argon.toml"), "--pressure", "1 bar",
+                 "--density", "5 mol/m^3"]) == 2
+    assert main(["virial", str(CONFIGS / "argon.toml"), "--temperature", "-5 K"]) == 2
+    assert "--temperature" in capsys.readouterr().err
+
+
+def test_initial_state_record_says_whether_a_free_expansion_warms_or_cools():
+    # Lennard-Jones argon: at zero density the free expansion cools below the maximum of
+    # B2, T* = 25.15 (3013 K for epsilon/k = 119.8 K; docs/references.md section 2.4),
+    # and warms above it.
+    from mdsim.pipeline.inversion_study import initial_state_record
+    from mdsim.study import with_initial_state
+    argon = read_study(CONFIGS / "argon.toml")
+    cold = initial_state_record(with_initial_state(argon, 2900.0, density_mol_m3=1.0))
+    hot = initial_state_record(with_initial_state(argon, 3150.0, density_mol_m3=1.0))
+    assert cold["free_expansion"] == "cools" and cold["joule_coefficient_K_mol_m3"] < 0.0
+    assert hot["free_expansion"] == "warms" and hot["joule_coefficient_K_mol_m3"] > 0.0
+    assert cold["pressure_Pa"] == pytest.approx(1.0 * 8.314462618 * 2900.0, rel=1e-3)

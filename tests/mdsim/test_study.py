@@ -47,7 +47,7 @@ def test_argon_example():
     assert gas.pairs_K_angstrom.cutoff == 3.0
     assert gas.molar_masses_kg_mol[0] == pytest.approx(0.039948, rel=1e-14)
     assert gas.ideal_heat_capacity == "1.5 R"
-    assert gas.quantum_correction is False
+    assert gas.quantum_correction is False and gas.quantum == "classical"
     assert gas.dof_per_particle == 3
     assert study.units.epsilon_K == pytest.approx(119.8)
     assert study.units.sigma_m == pytest.approx(3.405e-10)
@@ -258,8 +258,18 @@ def test_unknown_key_suggests_nearest(tmp_path):
     ('"39.948 g/mol"', "39.948", "needs a unit"),
     ('name = "test-gas"', 'name = "my gas/1"', "file names"),
     ('name = "test-gas"', "name = 3", "must be a string"),
-    ('ideal_heat_capacity = "1.5 R"', 'ideal_heat_capacity = "1.5 R"\nquantum_correction = "yes"',
-     "true or false"),
+    ('ideal_heat_capacity = "1.5 R"', 'ideal_heat_capacity = "1.5 R"\nquantum_correction = true',
+     "quantum = \"classical\" | \"first-order\""),
+    ('ideal_heat_capacity = "1.5 R"', 'ideal_heat_capacity = "1.5 R"\nquantum = "yes"',
+     "unknown choice"),
+    ('ideal_heat_capacity = "1.5 R"', 'ideal_heat_capacity = "1.5 R"\nstatistics = "bose"',
+     "applies only with quantum = \"exact\""),
+    ('ideal_heat_capacity = "1.5 R"',
+     'ideal_heat_capacity = "1.5 R"\nquantum = "exact"\nstatistics = "bose"\nnuclear_spin = "1/2"',
+     "half-integer spin belongs to fermions"),
+    ('ideal_heat_capacity = "1.5 R"',
+     'ideal_heat_capacity = "1.5 R"\nquantum = "exact"\nnuclear_spin = "para-hydrogen"',
+     "molecules are bosons"),
     ('ideal_heat_capacity = "1.5 R"', 'ideal_heat_capacity = "1.5 R"\ndof_per_particle = 4',
      "not an allowed value"),
     ('sigma = "3.405 angstrom"', 'sigma = "3.405 angstrom"\ncutoff = 1.0', "out of range"),
