@@ -17,7 +17,8 @@ import numpy as np
 from analysis import inputs
 from analysis import virial
 from analysis.virial.quadrature import check_fractions
-from mdsim.checks import non_negative_array, positive, positive_array
+from analysis.virial.threebody import b3_nonadditive
+from mdsim.checks import non_negative, non_negative_array, positive, positive_array
 from mdsim.engine.potentials import PairMatrix, PairPotential
 from mdsim.errors import StudyError
 from mdsim.units import N_A, R_GAS
@@ -53,6 +54,10 @@ class VirialGas:
         Add the first-order Wigner-Kirkwood term to B (default False).
         A ``QuantumCorrectionWarning`` is issued when it is needed but off
         (de Boer parameter > 0.3) or on but not enough (> 1).
+    three_body_c9_K_A9 : float, optional
+        Axilrod-Teller coefficient C9/k in K angstrom^9 (default 0: pairwise
+        additive).  When positive, C gets the non-additive part of
+        :func:`analysis.virial.threebody.b3_nonadditive` (a pure gas only).
 
     Notes
     -----
@@ -74,7 +79,8 @@ class VirialGas:
     0.98742
     """
 
-    def __init__(self, pairs_K_angstrom, fractions, molar_masses_kg_mol, quantum_correction=False):
+    def __init__(self, pairs_K_angstrom, fractions, molar_masses_kg_mol, quantum_correction=False,
+                 three_body_c9_K_A9=0.0):
         pairs = pairs_K_angstrom
         if isinstance(pairs, PairPotential):
             pairs = PairMatrix([pairs], cutoff=3.0)  # the cut-off plays no part in virial sums
@@ -95,6 +101,12 @@ class VirialGas:
                              "molar masses are in kg/mol, not g/mol (argon: 0.039948)")
         self.molar_masses_kg_mol = masses
         self.quantum_correction = bool(quantum_correction)
+        self.three_body_c9_K_A9 = non_negative("three_body_c9_K_A9", three_body_c9_K_A9,
+                                               "an Axilrod-Teller C9/k in K angstrom^9")
+        if self.three_body_c9_K_A9 and ns > 1:
+            raise StudyError("'three_body_c9_K_A9': the Axilrod-Teller term is not yet supported "
+                             "for mixtures (it needs C9 of every species triple); remove it or "
+                             "study a pure gas")
         self.de_boer = np.array([
             virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, self.quantum_correction,
                                   label=f"species {a}")
@@ -125,6 +137,9 @@ class VirialGas:
         if inputs.order(order) == 2:
             return [np.zeros_like(T)] * 3
         vals = virial.b3_mixture(self.pairs, self.fractions, T)
+        if self.three_body_c9_K_A9:
+            extra = b3_nonadditive(self.pairs.pots[0][0], self.three_body_c9_K_A9, T)
+            vals = [v + dv for v, dv in zip(vals, extra)]
         return [virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
 
     def B(self, T, order=3):

@@ -61,18 +61,32 @@ def virial_coefficients(study, temperature_K):
     B2 carries the first-order quantum correction when the study asks for
     it (``[gas] quantum_correction = true``); B3 is classical.
 
+    For rigid molecules B3 is a Monte Carlo integral: its standard errors
+    come as ``B3_m6_mol2_stderr`` and ``dB3_dT_m6_mol2K_stderr``, and
+    ``B3_method`` says how it was found.
+
     Returns
     -------
     dict
         ``temperature_K``, ``B2_m3_mol``, ``dB2_dT_m3_molK``, ``B3_m6_mol2``,
-        ``dB3_dT_m6_mol2K``, ``quantum_correction`` (bool).
+        ``dB3_dT_m6_mol2K``, ``quantum_correction`` (bool), ``B3_method``
+        (and the standard errors above for rigid molecules).
     """
     gas = virial_gas(study)
     T = float(temperature_K)
-    return {"temperature_K": T,
-            "B2_m3_mol": _num(gas.B(T)), "dB2_dT_m3_molK": _num(gas.dB_dT(T)),
-            "B3_m6_mol2": _num(gas.C(T)), "dB3_dT_m6_mol2K": _num(gas.dC_dT(T)),
-            "quantum_correction": bool(study.gas.quantum_correction)}
+    out = {"temperature_K": T,
+           "B2_m3_mol": _num(gas.B(T)), "dB2_dT_m3_molK": _num(gas.dB_dT(T)),
+           "B3_m6_mol2": _num(gas.C(T)), "dB3_dT_m6_mol2K": _num(gas.dC_dT(T)),
+           "quantum_correction": bool(study.gas.quantum_correction),
+           "B3_method": "quadrature"}
+    if study.gas.three_body_c9_K_A9:
+        out["B3_method"] = "quadrature, with the Axilrod-Teller three-body part"
+    if hasattr(gas, "C_stderr"):
+        err, d_err, _ = gas.C_stderr(T)
+        out.update({"B3_m6_mol2_stderr": _num(err), "dB3_dT_m6_mol2K_stderr": _num(d_err),
+                    "B3_method": f"Monte Carlo integration ({gas.triplet_draws().n_draws} draws, "
+                    "fixed seed)"})
+    return out
 
 
 def virial_summary(study, sp):
