@@ -84,6 +84,11 @@ class MolecularVirialGas(VirialGas):
                                                   *self._grid_settings)
         return self._grids[(a, b)]
 
+    def well_depths_K(self):
+        """The depth of each species pair's energy minimum on the quadrature grid, K (> 0)."""
+        ns = len(self.molecules)
+        return [-float(np.min(self._grid(a, b).u_ro)) for a in range(ns) for b in range(a, ns)]
+
     def triplet_draws(self):
         """The Monte Carlo draws of the B3 integral (made on first use)."""
         if self._draws is None:

@@ -51,8 +51,9 @@ def _state_point_lines(rec):
              f"  initial density        {_g(ini['density_mol_m3'])} mol/m^3{how}",
              f"  initial pressure       {_g(_bar(ini['pressure_Pa']))} bar",
              f"  B2, dB2/dT at T_i      {c['B2_m3_mol']}, {c['dB2_dT_m3_molK']}{q}",
-             f"  B3, dB3/dT at T_i      {c['B3_m6_mol2']}, {c['dB3_dT_m6_mol2K']} "
-             f"({v.get('B3_method', 'quadrature')})"]
+             f"  B3, dB3/dT at T_i      {c['B3_m6_mol2']}, {c['dB3_dT_m6_mol2K']}"]
+    if v.get("B3_method", "quadrature") != "quadrature":
+        lines.append(f"  B3 from                {v['B3_method']}")
     for route, label in (("virial_b2", "Delta T, B2 only"), ("virial_b2b3", "Delta T, B2 + B3")):
         entry = rec["delta_T_K"].get(route)
         lines.append(f"  {label:<22} {_g(entry['value'] if entry else None, '.5g', 'K')}")

@@ -175,7 +175,9 @@ def check_heat_capacity(ctx, value, base_dir, kinetic_dof=3.0):
     kinetic_dof : float, optional
         Kinetic degrees of freedom the potential's model carries (3 for
         atoms; above 3 for rigid molecules, whose c_v then holds only the
-        vibrational part: a constant from 0 up to below 1.5 R).
+        vibrational part: from 0 up to below 1.5 R at its lowest
+        temperature, the table's first row or the polynomial's lower limit,
+        or 298.15 K without one).
 
     Returns
     -------
@@ -184,6 +186,18 @@ def check_heat_capacity(ctx, value, base_dir, kinetic_dof=3.0):
         polynomial coefficients as floats (the input of
         ``analysis.heatcapacity.heat_capacity_from_spec``).
     """
+    spec = _heat_capacity_spec(ctx, value, base_dir, kinetic_dof)
+    constant = isinstance(spec, str) and not spec.strip().lower().endswith(".csv")
+    if kinetic_dof > 3.0 and not constant:  # a table or polynomial: at its lowest temperature
+        from analysis.heatcapacity import heat_capacity_from_spec
+        model = heat_capacity_from_spec(spec, where=ctx.where("gas", "ideal_heat_capacity"))
+        low = model.valid_range[0] if model.valid_range[0] > 0.0 else 298.15
+        _check_vibrational(ctx, value, float(model.cv(low)), kinetic_dof)
+    return spec
+
+
+def _heat_capacity_spec(ctx, value, base_dir, kinetic_dof):
+    """The checked specification (see :func:`check_heat_capacity`); constants checked here."""
     table, key = "gas", "ideal_heat_capacity"
     if isinstance(value, str):
         if value.strip().lower().endswith(".csv"):

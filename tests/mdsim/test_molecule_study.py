@@ -35,6 +35,8 @@ def test_nitrogen_config_reads_as_a_rigid_linear_molecule():
     # a c_v that already counts the rotations the model carries
     ('ideal_heat_capacity = "0 R"', 'ideal_heat_capacity = "2.5 R"',
      "already counts translations.*vibrational part"),
+    ('ideal_heat_capacity = "0 R"', 'ideal_heat_capacity = { polynomial = [20.8], unit = '
+     '"J/(mol K)" }', "2.502 R already counts translations"),
     # a dof_per_particle that disagrees with the model
     ('ideal_heat_capacity = "0 R"', 'ideal_heat_capacity = "0 R"\ndof_per_particle = 3',
      "dof_per_particle.*model has 5"),
