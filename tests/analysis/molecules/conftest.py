@@ -32,6 +32,12 @@ def atom(name, eps, sigma, mass):
 
 
 @pytest.fixture(scope="session")
+def lj_atom():
+    """The Lennard-Jones atom in reduced units as a one-site molecule."""
+    return atom("LJ", 1.0, 1.0, 0.04)
+
+
+@pytest.fixture(scope="session")
 def nitrogen():
     return two_centre("N2")
 

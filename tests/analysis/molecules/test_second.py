@@ -9,15 +9,13 @@ from analysis.molecules import OrientationGrid, RigidMolecule, Site, b2_molecule
 from analysis.virial import b2
 from mdsim.engine.potentials import LennardJones
 
-from conftest import atom
 
-
-def test_one_site_molecule_is_the_atom():
+def test_one_site_molecule_is_the_atom(lj_atom):
     # the exact radial quadrature of analysis.virial.b2 (itself checked against
     # Hirschfelder, Curtiss and Bird 1954, Table I-B); same panels idea, different code
     lj = LennardJones(1.0, 1.0)
     T = np.array([0.8, 1.0, 2.5, 10.0])
-    got = b2_molecules(atom("LJ", 1.0, 1.0, 0.04), atom("LJ", 1.0, 1.0, 0.04), T)
+    got = b2_molecules(lj_atom, lj_atom, T)
     want = b2(lj, T)
     for g, w in zip(got, want):
         np.testing.assert_allclose(g, w, rtol=2e-5)

@@ -6,14 +6,10 @@ from analysis.molecules import TripletDraws
 from analysis.virial import b3
 from mdsim.engine.potentials import LennardJones
 
-from conftest import atom
-
-LJ_ATOM = atom("LJ", 1.0, 1.0, 0.04)
-
 
 @pytest.fixture(scope="module")
-def atom_draws():
-    return TripletDraws([LJ_ATOM], n_draws=60000, seed=3)
+def atom_draws(lj_atom):
+    return TripletDraws([lj_atom], n_draws=60000, seed=3)
 
 
 @pytest.mark.parametrize("T", [1.5, 3.0])
@@ -35,11 +31,11 @@ def test_derivatives_are_those_of_the_same_draws(atom_draws):
     assert v(T)[2] == pytest.approx((v(T + h)[1] - v(T - h)[1]) / (2 * h), rel=1e-5)
 
 
-def test_mixture_of_identical_species_is_the_pure_gas():
+def test_mixture_of_identical_species_is_the_pure_gas(lj_atom):
     # x_a x_b x_c B_abc summed over species that are all the same molecule: the pure B3
     # exactly (the same draws; combinatorics of the species triples)
-    pure = TripletDraws([LJ_ATOM], n_draws=5000, seed=5).b3([1.0], 2.0)[0]
-    mix = TripletDraws([LJ_ATOM, LJ_ATOM, LJ_ATOM], n_draws=5000, seed=5).b3([0.5, 0.3, 0.2],
+    pure = TripletDraws([lj_atom], n_draws=5000, seed=5).b3([1.0], 2.0)[0]
+    mix = TripletDraws([lj_atom, lj_atom, lj_atom], n_draws=5000, seed=5).b3([0.5, 0.3, 0.2],
                                                                             2.0)[0]
     np.testing.assert_allclose(mix, pure, rtol=1e-12)
 
