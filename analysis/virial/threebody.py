@@ -132,15 +132,20 @@ def b3_nonadditive(pot, c9, T, n_radial=DEFAULT_NODES_NONADDITIVE, n_angle=DEFAU
     T_t = check_temperature(T).ravel()
     n_r = count("n_radial", n_radial, 4)
     n_c = count("n_angle", n_angle, 4)
-    r, s, t, w, U2 = _layout(register(pot), n_r, n_c)
-    u3 = axilrod_teller(c9, r, s, t)
-    scale = -8.0 * math.pi ** 2 / 3.0
-    out = np.empty((3, T_t.size))
-    for k, T1 in enumerate(T_t):
-        with np.errstate(over="ignore", under="ignore"):
-            A = np.exp(-(U2 + u3) / T1)
-            h = np.exp(-U2 / T1) * np.expm1(-u3 / T1)
-        d1 = (U2 * h + u3 * A) / T1 ** 2
-        d2 = (U2 * U2 * h + (2.0 * U2 * u3 + u3 * u3) * A) / T1 ** 4 - 2.0 * d1 / T1
-        out[:, k] = scale * np.array([w @ h, w @ d1, w @ d2])
+    key = register(pot)
+    out = np.array([_at_temperature(key, c9, float(t), n_r, n_c) for t in T_t]).T
     return shape_out(tuple(out), T)
+
+
+@functools.lru_cache(maxsize=1024)
+def _at_temperature(key, c9, T, n_r, n_c):
+    """(dB3, d/dT, d2/dT2) at one T (kept: root finders ask for one T several times)."""
+    r, s, t, w, U2 = _layout(key, n_r, n_c)
+    u3 = axilrod_teller(c9, r, s, t)
+    with np.errstate(over="ignore", under="ignore"):
+        A = np.exp(-(U2 + u3) / T)
+        h = np.exp(-U2 / T) * np.expm1(-u3 / T)
+    d1 = (U2 * h + u3 * A) / T ** 2
+    d2 = (U2 * U2 * h + (2.0 * U2 * u3 + u3 * u3) * A) / T ** 4 - 2.0 * d1 / T
+    scale = -8.0 * math.pi ** 2 / 3.0
+    return scale * (w @ h), scale * (w @ d1), scale * (w @ d2)

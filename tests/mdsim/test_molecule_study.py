@@ -69,3 +69,11 @@ def test_c9_in_atomic_units_or_over_k(tmp_path, text):
     study = read_study(write_study(tmp_path, ARGON_C9.replace('{c9}', text)))
     assert study.gas.three_body_c9_K_A9 == pytest.approx(518 * 315775.02 * 0.529177211 ** 9,
                                                          rel=1e-6)
+
+
+def test_argon_three_body_config_carries_c9():
+    # configs/argon_three_body.toml: 518 hartree bohr^9 (Kumar and Meath 1985, from memory)
+    study = read_study(CONFIGS / "argon_three_body.toml")
+    assert study.gas.three_body_c9_K_A9 == pytest.approx(518 * 315775.02 * 0.529177211 ** 9,
+                                                         rel=1e-6)
+    assert plan_tasks(study) == []
