@@ -14,7 +14,9 @@ well), so they are smooth functions of T, safe inside root finders.
 Modules: ``quadrature`` (panels, nodes, Mayer function, input checks),
 ``second`` (B2), ``third`` (B3 and its numba kernels), ``quantum``
 (Wigner-Kirkwood correction, de Boer parameter), ``temperatures`` (Boyle,
-B2 maximum, zero-pressure Joule-Thomson inversion), ``si`` (molar units).
+B2 maximum, zero-pressure Joule-Thomson inversion), ``si`` (molar units),
+``threebody`` (the Axilrod-Teller energy and its non-additive B3, imported
+from its module).
 This package re-exports their public names: ``from analysis.virial import
 b2, b3`` works.
 
