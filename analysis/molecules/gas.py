@@ -17,6 +17,7 @@ from analysis.virial.si import M3_MOL_PER_A3, M6_MOL2_PER_A6
 from analysis.virial_eos import VirialGas
 from mdsim.checks import positive_array
 from mdsim.errors import StudyError
+from mdsim.units import R_GAS
 
 __all__ = ["MolecularVirialGas"]
 
@@ -137,6 +138,30 @@ class MolecularVirialGas(VirialGas):
         if inputs.order(order) == 2:
             return [np.zeros_like(T)] * 3
         return list(self._c_with_error(T)[0])
+
+    def delta_T_stderr_K(self, T_i, rho_i, T_f, rho_f, cv_ig):
+        """Standard error of a B2 + B3 Delta T from the Monte Carlo error of dB3/dT, K.
+
+        Parameters
+        ----------
+        T_i, T_f : float, K
+        rho_i, rho_f : float, mol/m^3
+        cv_ig : IdealGasHeatCapacity
+
+        Notes
+        -----
+        First-order propagation: u_res carries -R T^2 C' rho^2 / 2, so the
+        balance moves by R/2 (T_i^2 s_i rho_i^2 - T_f^2 s_f rho_f^2), s the
+        standard errors of C' at T_i and T_f (one set of draws: fully
+        correlated), divided by c_v = c_v_ig + c_v_res at T_f.  The error
+        of C itself, through the initial density solved from a pressure,
+        is left out (below 1e-3 of rho for N2 at 100 bar).
+        """
+        s_i = self.C_stderr(T_i)[1]
+        s_f = self.C_stderr(T_f)[1]
+        du = 0.5 * R_GAS * abs(T_i ** 2 * s_i * rho_i ** 2 - T_f ** 2 * s_f * rho_f ** 2)
+        cv = float(cv_ig.cv(T_f)) + float(self.cv_res_J_molK(T_f, rho_f, 3))
+        return du / cv
 
     def C_stderr(self, T):
         """Standard errors of C, dC/dT and d2C/dT2 (m^6/mol^2, /K, /K^2) from the draws."""

@@ -56,7 +56,10 @@ def _state_point_lines(rec):
         lines.append(f"  B3 from                {v['B3_method']}")
     for route, label in (("virial_b2", "Delta T, B2 only"), ("virial_b2b3", "Delta T, B2 + B3")):
         entry = rec["delta_T_K"].get(route)
-        lines.append(f"  {label:<22} {_g(entry['value'] if entry else None, '.5g', 'K')}")
+        if entry and entry.get("stderr") is not None:  # B3 by Monte Carlo (rigid molecules)
+            lines.append(f"  {label:<22} {value_with_error(entry['value'], entry['stderr'], 'K')}")
+        else:
+            lines.append(f"  {label:<22} {_g(entry['value'] if entry else None, '.5g', 'K')}")
     if fin["source"] is not None:
         T_f = ("unavailable" if fin["temperature_K"] is None else
                value_with_error(fin["temperature_K"], fin.get("temperature_stderr_K"), "K",

@@ -104,8 +104,9 @@ def virial_summary(study, sp):
         ``density_mol_m3``, ``density_from``: "given" or "virial B2+B3");
         ``final`` (the B2+B3 final state, or None); ``final_b2`` (the B2-only
         final state, or None); ``delta_T_K`` with ``virial_b2`` and
-        ``virial_b2b3`` entries ``{value, stderr: None}`` (absent when the
-        series does not hold); ``entropy_generated_J_molK`` (B2+B3, else
+        ``virial_b2b3`` entries ``{value, stderr}`` (absent when the
+        series does not hold; stderr None, except for rigid molecules'
+        B2 + B3, where it carries the Monte Carlo error of B3); ``entropy_generated_J_molK`` (B2+B3, else
         B2, else None); ``virial`` (coefficients at T_i, see
         :func:`virial_coefficients`); ``warnings``.
 
@@ -153,13 +154,18 @@ def virial_summary(study, sp):
                 "density_mol_m3": _num(res.final_density_mol_m3)}
 
     best = results.get("virial_b2b3") or results.get("virial_b2")
+    stderr = {route: None for route in results}
+    if "virial_b2b3" in results and hasattr(gas, "delta_T_stderr_K"):
+        res = results["virial_b2b3"]  # B3 by Monte Carlo integration (rigid molecules)
+        stderr["virial_b2b3"] = gas.delta_T_stderr_K(T_i, rho_i, res.final_temperature_K,
+                                                     res.final_density_mol_m3, cv_ig)
     return {
         "index": sp.index,
         "initial": {"temperature_K": T_i, "pressure_Pa": _num(p_i), "density_mol_m3": rho_i,
                     "density_from": how},
         "final": final(results.get("virial_b2b3")),
         "final_b2": final(results.get("virial_b2")),
-        "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": None}
+        "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": _num(stderr[route])}
                       for route, res in sorted(results.items())},
         "entropy_generated_J_molK": _num(best.entropy_generated_J_molK) if best else None,
         "virial": virial_coefficients(study, T_i),
