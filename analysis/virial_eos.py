@@ -24,7 +24,8 @@ from analysis.virial.quadrature import check_fractions
 from analysis.virial.quantum_exact import b2_exact, spin_components
 from analysis.virial.quantum_second import b2_second_order
 from analysis.virial.quantum_third import b3_quantum_first_order
-from mdsim.checks import non_negative_array, positive, positive_array
+from analysis.virial.threebody import b3_nonadditive
+from mdsim.checks import non_negative, non_negative_array, positive, positive_array
 from mdsim.engine.potentials import PairMatrix, PairPotential
 from mdsim.errors import StudyError
 from mdsim.units import N_A, R_GAS
@@ -70,6 +71,10 @@ class VirialGas:
         Boltzmann.
     quantum_correction : bool, optional
         Older spelling: True means ``quantum="first-order"``.
+    three_body_c9_K_A9 : float, optional
+        Axilrod-Teller coefficient C9/k in K angstrom^9 (default 0: pairwise
+        additive).  When positive, C gets the non-additive part of
+        :func:`analysis.virial.threebody.b3_nonadditive` (a pure gas only).
 
     Notes
     -----
@@ -92,7 +97,7 @@ class VirialGas:
     """
 
     def __init__(self, pairs_K_angstrom, fractions, molar_masses_kg_mol, quantum="classical",
-                 spin=None, quantum_correction=None):
+                 spin=None, quantum_correction=None, three_body_c9_K_A9=0.0):
         pairs = pairs_K_angstrom
         if isinstance(pairs, PairPotential):
             pairs = PairMatrix([pairs], cutoff=3.0)  # the cut-off plays no part in virial sums
@@ -126,6 +131,12 @@ class VirialGas:
         self.c_note = ("B3 classical + first-order Wigner-Kirkwood" if self._quantum_b3 else
                        "B3 classical (no quantum correction of B3 at this level)"
                        if self.quantum_correction else "B3 classical")
+        self.three_body_c9_K_A9 = non_negative("three_body_c9_K_A9", three_body_c9_K_A9,
+                                               "an Axilrod-Teller C9/k in K angstrom^9")
+        if self.three_body_c9_K_A9 and ns > 1:
+            raise StudyError("'three_body_c9_K_A9': the Axilrod-Teller term is not yet supported "
+                             "for mixtures (it needs C9 of every species triple); remove it or "
+                             "study a pure gas")
         self.de_boer = np.array([
             virial.check_de_boer(pairs.pots[a][a], masses[a] / N_A, quantum,
                                   label=f"species {a}")
@@ -166,6 +177,9 @@ class VirialGas:
             q = virial.h2_over_mu_K_A2(m, m)
             dC = b3_quantum_first_order(self.pairs.pots[0][0], T, q)
             vals = [v + dv for v, dv in zip(vals, dC)]
+        if self.three_body_c9_K_A9:
+            extra = b3_nonadditive(self.pairs.pots[0][0], self.three_body_c9_K_A9, T)
+            vals = [v + dv for v, dv in zip(vals, extra)]
         return [virial.M6_MOL2_PER_A6 * np.asarray(v, dtype=float) for v in vals]
 
     def B(self, T, order=3):

@@ -57,6 +57,10 @@ KINDS = {
                             "J/(mol K)", "20.8 J/(mol K)"),
     "molar_density": ("[substance] / [length] ** 3", "mol/m^3", "500 mol/m^3"),
     "time": ("[time]", "s", "10 ps"),
+    "dipole_moment": ("[current] * [time] * [length]", "C*m", "1.85 D"),
+    "quadrupole_moment": ("[current] * [time] * [length] ** 2", "C*m^2", "1.44 D angstrom"),
+    "c9": ("[mass] * [length] ** 11 / [time] ** 2", "J*m^9", "518 hartree bohr^9"),
+    "c9_over_k": ("[temperature] * [length] ** 9", "K*angstrom^9", "5.32e5 K angstrom^9"),
 }
 
 

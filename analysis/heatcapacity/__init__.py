@@ -26,10 +26,11 @@ a CSV path); it and the readers are in the module ``reading``.  This package
 re-exports the public names of both.
 """
 from analysis.heatcapacity.models import (ConstantHeatCapacity, IdealGasHeatCapacity,
-                                          PolynomialHeatCapacity, TabulatedHeatCapacity)
+                                          KineticPlusInternal, PolynomialHeatCapacity,
+                                          TabulatedHeatCapacity)
 from analysis.heatcapacity.reading import (TABLE_HEADER, heat_capacity_from_spec,
                                            parse_molar_heat_capacity, read_heat_capacity_table)
 
 __all__ = ["IdealGasHeatCapacity", "ConstantHeatCapacity", "PolynomialHeatCapacity",
-           "TabulatedHeatCapacity", "heat_capacity_from_spec", "parse_molar_heat_capacity",
-           "read_heat_capacity_table", "TABLE_HEADER"]
+           "TabulatedHeatCapacity", "KineticPlusInternal", "heat_capacity_from_spec",
+           "parse_molar_heat_capacity", "read_heat_capacity_table", "TABLE_HEADER"]

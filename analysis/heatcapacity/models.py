@@ -16,7 +16,7 @@ from mdsim.errors import StudyError
 from mdsim.units import R_GAS
 
 __all__ = ["IdealGasHeatCapacity", "ConstantHeatCapacity", "PolynomialHeatCapacity",
-           "TabulatedHeatCapacity"]
+           "TabulatedHeatCapacity", "KineticPlusInternal"]
 
 
 class IdealGasHeatCapacity(abc.ABC):
@@ -267,3 +267,56 @@ def _check_range(valid_range):
     if not (lo >= 0.0 and hi > lo):
         raise StudyError(f"valid_range_K = [{lo:g}, {hi:g}] K must satisfy 0 <= T_low < T_high.")
     return (lo, hi)
+
+
+class KineticPlusInternal(IdealGasHeatCapacity):
+    """c_v_ig = (f/2) R + c_v_internal(T): a rigid model's kinetic part plus the rest.
+
+    For a rigid molecule the model itself carries f = 3 + 2 (linear) or
+    3 + 3 (non-linear) kinetic degrees of freedom; the study's heat capacity
+    then holds only what the rigid model lacks (the vibrations).
+
+    Parameters
+    ----------
+    internal : IdealGasHeatCapacity
+        The internal (vibrational) part.
+    kinetic_dof : float
+        f, the kinetic degrees of freedom per molecule (a mole-fraction
+        mean for a mixture), >= 3.
+
+    Examples
+    --------
+    Rigid linear molecules with a constant vibrational part of 0.1 R:
+
+    >>> cv = KineticPlusInternal(ConstantHeatCapacity.in_units_of_R(0.1), 5)
+    >>> round(cv.cv(300.0) / R_GAS, 6)
+    2.6
+    """
+
+    def __init__(self, internal, kinetic_dof):
+        if not isinstance(internal, IdealGasHeatCapacity):
+            raise StudyError(f"'internal' must be an ideal-gas heat capacity model; got "
+                             f"{type(internal).__name__}")
+        f = float(kinetic_dof)
+        if not (math.isfinite(f) and 3.0 <= f <= 6.0):
+            raise StudyError(f"'kinetic_dof' = {kinetic_dof!r}: kinetic degrees of freedom per "
+                             "molecule lie between 3 (atoms) and 6 (rigid non-linear molecules)")
+        self.internal = internal
+        self.kinetic_dof = f
+        self.valid_range = internal.valid_range
+        self.reference_temperature_K = internal.reference_temperature_K
+
+    def _cv(self, T):
+        return 0.5 * self.kinetic_dof * R_GAS + self.internal._cv(T)
+
+    def _u(self, T):
+        return 0.5 * self.kinetic_dof * R_GAS * (T - self.reference_temperature_K) + \
+            self.internal._u(T)
+
+    def _s(self, T):
+        return 0.5 * self.kinetic_dof * R_GAS * np.log(T / self.reference_temperature_K) + \
+            self.internal._s(T)
+
+    def describe(self):
+        return (f"{self.kinetic_dof:.6g}/2 R (rigid model: translation and rotation) plus "
+                f"{self.internal.describe()}")

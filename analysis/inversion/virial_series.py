@@ -35,6 +35,8 @@ def _cv_ig(cv_ig, temperature_K):
 
 
 def _pair_epsilons_K(gas):
+    if hasattr(gas, "well_depths_K"):  # rigid molecules: the depth of each pair's minimum
+        return gas.well_depths_K()
     pairs = getattr(gas, "pairs", None)
     if pairs is None:
         raise StudyError(f"gas {gas!r}: expected a VirialGas with a 'pairs' PairMatrix "

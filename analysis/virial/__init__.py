@@ -17,7 +17,9 @@ Modules: ``quadrature`` (panels, nodes, Mayer function, input checks),
 ``quantum_second`` (the second-order term), ``quantum_third`` (the
 first-order term of B3), ``radial`` (Numerov and Riccati-Bessel kernels), ``phase_shifts`` and
 ``quantum_exact`` (the exact quantum B2 from phase shifts), ``temperatures`` (Boyle,
-B2 maximum, zero-pressure Joule-Thomson inversion), ``si`` (molar units).
+B2 maximum, zero-pressure Joule-Thomson inversion), ``si`` (molar units),
+``threebody`` (the Axilrod-Teller energy and its non-additive B3, imported
+from its module).
 This package re-exports their public names: ``from analysis.virial import
 b2, b3`` works.
 

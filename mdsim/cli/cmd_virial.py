@@ -35,7 +35,9 @@ def _coefficients(v):
     out = {}
     for key, scale, unit in VIRIAL_IN_CM:
         x = v.get(key)
-        out[key] = "unavailable" if x is None else value_with_error(x * scale, None, unit)
+        err = v.get(key + "_stderr")  # a Monte Carlo B3 (rigid molecules)
+        out[key] = "unavailable" if x is None else value_with_error(
+            x * scale, None if err is None else err * scale, unit)
     return out
 
 
@@ -56,9 +58,14 @@ def _state_point_lines(rec):
              f"  initial pressure       {_g(_bar(ini['pressure_Pa']))} bar",
              f"  B2, dB2/dT at T_i      {c['B2_m3_mol']}, {c['dB2_dT_m3_molK']}{q}",
              f"  B3, dB3/dT at T_i      {c['B3_m6_mol2']}, {c['dB3_dT_m6_mol2K']}"]
+    if v.get("B3_method", "quadrature") != "quadrature":
+        lines.append(f"  B3 from                {v['B3_method']}")
     for route, label in (("virial_b2", "Delta T, B2 only"), ("virial_b2b3", "Delta T, B2 + B3")):
         entry = rec["delta_T_K"].get(route)
-        lines.append(f"  {label:<22} {_g(entry['value'] if entry else None, '.5g', 'K')}")
+        if entry and entry.get("stderr") is not None:  # B3 by Monte Carlo (rigid molecules)
+            lines.append(f"  {label:<22} {value_with_error(entry['value'], entry['stderr'], 'K')}")
+        else:
+            lines.append(f"  {label:<22} {_g(entry['value'] if entry else None, '.5g', 'K')}")
     if fin["source"] is not None:
         T_f = ("unavailable" if fin["temperature_K"] is None else
                value_with_error(fin["temperature_K"], fin.get("temperature_stderr_K"), "K",

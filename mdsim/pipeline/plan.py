@@ -196,10 +196,13 @@ def plan_tasks(study):
         Too few particles for the cut-off, or a route whose assumptions the
         study breaks.
     """
-    from analysis.heatcapacity import heat_capacity_from_spec
-    from mdsim.study.statepoints import resolve_initial_density
+    from mdsim.study.molecule import check_simulation_supported
+    from mdsim.study.statepoints import ideal_heat_capacity, resolve_initial_density
     settings = simulation_settings(study)
-    cv_ig = heat_capacity_from_spec(study.gas.ideal_heat_capacity, "[gas] ideal_heat_capacity")
+    if settings["routes"]:
+        check_simulation_supported(study.gas, f"study file '{study.path}', [simulation] routes = "
+                                   f"{list(settings['routes'])}")
+    cv_ig = ideal_heat_capacity(study)
     tasks = []
     for sp in study.state_points():  # checked even when no route simulates
         if not settings["routes"]:

@@ -99,7 +99,9 @@ def virial_table(points, records):
         v = rec.get("virial") or {}
         cells = [str(sp.index), cell(v.get("temperature_K", sp.temperature_K), None, 6)]
         for key, scale, _ in VIRIAL_IN_CM:
-            cells.append(cell(None if v.get(key) is None else v[key] * scale))
+            err = v.get(key + "_stderr")  # a Monte Carlo B3 (rigid molecules)
+            cells.append(cell(None if v.get(key) is None else v[key] * scale,
+                              None if err is None else err * scale))
         lines.append("| " + " | ".join(cells) + " |")
     return lines
 

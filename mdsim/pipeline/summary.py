@@ -73,20 +73,34 @@ def virial_coefficients(study, temperature_K):
     B3 its first-order term with the second-order and exact levels; both
     are named in ``quantum``.
 
+    For rigid molecules B3 is a Monte Carlo integral: its standard errors
+    come as ``B3_m6_mol2_stderr`` and ``dB3_dT_m6_mol2K_stderr``, and
+    ``B3_method`` says how it was found.
+
     Returns
     -------
     dict
         ``temperature_K``, ``B2_m3_mol``, ``dB2_dT_m3_molK``, ``B3_m6_mol2``,
         ``dB3_dT_m6_mol2K``, ``quantum_correction`` (bool), ``quantum`` (one line: the
-        treatment of B2 and B3).
+        treatment of B2 and B3), ``B3_method`` (and the standard errors above for rigid
+        molecules).
     """
     gas = virial_gas(study)
     T = float(temperature_K)
-    return {"temperature_K": T,
-            "B2_m3_mol": _num(gas.B(T)), "dB2_dT_m3_molK": _num(gas.dB_dT(T)),
-            "B3_m6_mol2": _num(gas.C(T)), "dB3_dT_m6_mol2K": _num(gas.dC_dT(T)),
-            "quantum_correction": bool(study.gas.quantum_correction),
-            "quantum": f"{study.gas.describe_quantum()}; {gas.c_note}"}
+    out = {"temperature_K": T,
+           "B2_m3_mol": _num(gas.B(T)), "dB2_dT_m3_molK": _num(gas.dB_dT(T)),
+           "B3_m6_mol2": _num(gas.C(T)), "dB3_dT_m6_mol2K": _num(gas.dC_dT(T)),
+           "quantum_correction": bool(study.gas.quantum_correction),
+           "quantum": f"{study.gas.describe_quantum()}; {gas.c_note}",
+           "B3_method": "quadrature"}
+    if study.gas.three_body_c9_K_A9:
+        out["B3_method"] = "quadrature, with the Axilrod-Teller three-body part"
+    if hasattr(gas, "C_stderr"):
+        err, d_err, _ = gas.C_stderr(T)
+        out.update({"B3_m6_mol2_stderr": _num(err), "dB3_dT_m6_mol2K_stderr": _num(d_err),
+                    "B3_method": f"Monte Carlo integration ({gas.triplet_draws().n_draws} draws, "
+                    "fixed seed)"})
+    return out
 
 
 def virial_summary(study, sp):
@@ -104,8 +118,9 @@ def virial_summary(study, sp):
         ``density_mol_m3``, ``density_from``: "given" or "virial B2+B3");
         ``final`` (the B2+B3 final state, or None); ``final_b2`` (the B2-only
         final state, or None); ``delta_T_K`` with ``virial_b2`` and
-        ``virial_b2b3`` entries ``{value, stderr: None}`` (absent when the
-        series does not hold); ``entropy_generated_J_molK`` (B2+B3, else
+        ``virial_b2b3`` entries ``{value, stderr}`` (absent when the
+        series does not hold; stderr None, except for rigid molecules'
+        B2 + B3, where it carries the Monte Carlo error of B3); ``entropy_generated_J_molK`` (B2+B3, else
         B2, else None); ``virial`` (coefficients at T_i, see
         :func:`virial_coefficients`); ``warnings``.
 
@@ -153,13 +168,18 @@ def virial_summary(study, sp):
                 "density_mol_m3": _num(res.final_density_mol_m3)}
 
     best = results.get("virial_b2b3") or results.get("virial_b2")
+    stderr = {route: None for route in results}
+    if "virial_b2b3" in results and hasattr(gas, "delta_T_stderr_K"):
+        res = results["virial_b2b3"]  # B3 by Monte Carlo integration (rigid molecules)
+        stderr["virial_b2b3"] = gas.delta_T_stderr_K(T_i, rho_i, res.final_temperature_K,
+                                                     res.final_density_mol_m3, cv_ig)
     return {
         "index": sp.index,
         "initial": {"temperature_K": T_i, "pressure_Pa": _num(p_i), "density_mol_m3": rho_i,
                     "density_from": how},
         "final": final(results.get("virial_b2b3")),
         "final_b2": final(results.get("virial_b2")),
-        "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": None}
+        "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": _num(stderr[route])}
                       for route, res in sorted(results.items())},
         "entropy_generated_J_molK": _num(best.entropy_generated_J_molK) if best else None,
         "virial": virial_coefficients(study, T_i),

@@ -16,6 +16,8 @@ import numpy as np
 from mdsim.errors import StudyError
 from mdsim.engine.potentials import PairMatrix
 from mdsim.study.datafiles import data_file, data_lines
+from mdsim.study.molecule import (MOLECULE_FORM, check_dof, mean_kinetic_dof, read_c9,
+                                  read_molecule, species_molecules)
 from mdsim.study.potential import MIXING_KEYS, build_potential, check_k_ij
 from mdsim.study.schema import ANGSTROM, SCHEMA
 from mdsim.study.values import MISSING, check_table, suggest
@@ -64,6 +66,13 @@ class Gas:
     dof_per_particle : int
     units : ReducedUnits
         Reduced units of species 0.
+    molecules : list of analysis.molecules.RigidMolecule or None
+        One per species when the potential is a rigid molecule (atoms of
+        such a mixture are one-site molecules); None for spherical
+        potentials.  ``pairs_K_angstrom`` then holds each species' first
+        site potential (for its reduced units and density bounds).
+    three_body_c9_K_A9 : float
+        Axilrod-Teller C9/k in K angstrom^9 (0: pairwise additive).
     """
 
     name: str
@@ -77,6 +86,13 @@ class Gas:
     ideal_heat_capacity: object
     dof_per_particle: int
     units: ReducedUnits
+    molecules: list = None
+    three_body_c9_K_A9: float = 0.0
+
+    @property
+    def kinetic_dof(self):
+        """Kinetic degrees of freedom per molecule, the mole-fraction mean (3 for atoms)."""
+        return mean_kinetic_dof(self.fractions, self.molecules)
 
     @property
     def n_species(self):
@@ -164,7 +180,21 @@ def _heat_capacity_polynomial(ctx, value):
     return out
 
 
-def check_heat_capacity(ctx, value, base_dir):
+def _check_vibrational(ctx, value, c, kinetic_dof):
+    """A rigid molecule's c_v: the vibrational part only, 0 <= c < 1.5 R."""
+    if c < 0.0:
+        ctx.fail("gas", "ideal_heat_capacity", value, "a heat capacity cannot be negative",
+                 ">= 0", '"0 R" when the vibrations are frozen')
+    if c >= 1.5 * R_GAS * (1.0 - 1e-9):
+        ctx.fail("gas", "ideal_heat_capacity", value,
+                 f"{c / R_GAS:.4g} R already counts translations (and rotations): with a "
+                 f"rigid-molecule potential the model carries {kinetic_dof:.4g}/2 R of kinetic "
+                 "heat capacity itself and ideal_heat_capacity holds only the vibrational part",
+                 "0 <= c_v < 1.5 R", f'give the vibrational part, e.g. "0 R" (the total c_v '
+                 f'is then {kinetic_dof / 2:.4g} R)')
+
+
+def check_heat_capacity(ctx, value, base_dir, kinetic_dof=3.0):
     """Validate the ideal-gas c_v specification of ``[gas] ideal_heat_capacity``.
 
     Parameters
@@ -175,6 +205,12 @@ def check_heat_capacity(ctx, value, base_dir):
         ``{ table = "cv.csv" }`` or ``{ polynomial = [...], unit = ... }``.
     base_dir : Path
         The study file's folder.
+    kinetic_dof : float, optional
+        Kinetic degrees of freedom the potential's model carries (3 for
+        atoms; above 3 for rigid molecules, whose c_v then holds only the
+        vibrational part: from 0 up to below 1.5 R at its lowest
+        temperature, the table's first row or the polynomial's lower limit,
+        or 298.15 K without one).
 
     Returns
     -------
@@ -183,11 +219,26 @@ def check_heat_capacity(ctx, value, base_dir):
         polynomial coefficients as floats (the input of
         ``analysis.heatcapacity.heat_capacity_from_spec``).
     """
+    spec = _heat_capacity_spec(ctx, value, base_dir, kinetic_dof)
+    constant = isinstance(spec, str) and not spec.strip().lower().endswith(".csv")
+    if kinetic_dof > 3.0 and not constant:  # a table or polynomial: at its lowest temperature
+        from analysis.heatcapacity import heat_capacity_from_spec
+        model = heat_capacity_from_spec(spec, where=ctx.where("gas", "ideal_heat_capacity"))
+        low = model.valid_range[0] if model.valid_range[0] > 0.0 else 298.15
+        _check_vibrational(ctx, value, float(model.cv(low)), kinetic_dof)
+    return spec
+
+
+def _heat_capacity_spec(ctx, value, base_dir, kinetic_dof):
+    """The checked specification (see :func:`check_heat_capacity`); constants checked here."""
     table, key = "gas", "ideal_heat_capacity"
     if isinstance(value, str):
         if value.strip().lower().endswith(".csv"):
             return _heat_capacity_csv(ctx, value, base_dir)
         c = parse_quantity(value, "molar_heat_capacity", ctx.where(table, key))
+        if kinetic_dof > 3.0:
+            _check_vibrational(ctx, value, c, kinetic_dof)
+            return value
         if c < 1.5 * R_GAS * (1.0 - 1e-9):
             ctx.fail(table, key, value, f"{c:.4g} J/(mol K) is below the translational 1.5 R = "
                      f"{1.5 * R_GAS:.4g} J/(mol K)", ">= 1.5 R",
@@ -263,6 +314,8 @@ class _Species:
     pots: list
     cutoff: float
     k_ij: object = None
+    molecules: list = dataclasses.field(default_factory=list)
+    c9: float = 0.0
 
 
 def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
@@ -287,8 +340,9 @@ def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
         out.masses.append(vals["molar_mass"])
         ptable = f"{tname} potential"
         pvals = check_table(ctx, ptable, vals["potential"], SCHEMA["potential"],
-                            allowed=set(SCHEMA["potential"]) - {"cutoff", "k_ij"})
-        out.pots.append(build_potential(ctx, ptable, pvals, base_dir))
+                            allowed=set(SCHEMA["potential"]) - {"cutoff", "k_ij",
+                                                                "three_body_c9"})
+        _add_potential(ctx, out, ptable, pvals, base_dir, vals["name"], vals["molar_mass"])
     total = sum(out.fractions)
     if abs(total - 1.0) > 1e-6:
         ctx.fail("gas.species", "mole_fraction", out.fractions,
@@ -302,6 +356,10 @@ def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
                  "all species of a mixture must use the same potential form", "", "")
     if "k_ij" in mix:
         out.k_ij = check_k_ij(ctx, mix["k_ij"], out.names)
+    if "three_body_c9" in mix:
+        ctx.fail("potential", "three_body_c9", pot_raw["three_body_c9"],
+                 "the Axilrod-Teller term is not yet supported for mixtures", "",
+                 "remove it, or study a pure gas")
     return out
 
 
@@ -316,10 +374,26 @@ def _read_pure(ctx, doc, gas, pot_raw, base_dir):
     if "potential" not in doc:
         ctx.fail("potential", None, MISSING, "missing table", "",
                  'add a [potential] table with form = "lennard-jones", epsilon and sigma')
-    return _Species(names=[gas.get("name") or "gas"], fractions=[1.0],
-                    masses=[gas["molar_mass"]],
-                    pots=[build_potential(ctx, "potential", pvals, base_dir)],
-                    cutoff=pvals["cutoff"])
+    out = _Species(names=[gas.get("name") or "gas"], fractions=[1.0],
+                   masses=[gas["molar_mass"]], pots=[], cutoff=pvals["cutoff"])
+    _add_potential(ctx, out, "potential", pvals, base_dir, out.names[0], gas["molar_mass"])
+    if "three_body_c9" in pvals:
+        if out.molecules != [None]:
+            ctx.fail("potential", "three_body_c9", pot_raw["three_body_c9"],
+                     "the Axilrod-Teller term is for atoms, not rigid molecules", "", "remove it")
+        out.c9 = read_c9(ctx, "potential", pot_raw["three_body_c9"])
+    return out
+
+
+def _add_potential(ctx, out, table, pvals, base_dir, name, molar_mass):
+    """Append a species' potential (and its molecule, or None for a sphere) to ``out``."""
+    if pvals.get("form") == MOLECULE_FORM:
+        mol = read_molecule(ctx, table, pvals, name, molar_mass)
+        out.molecules.append(mol)
+        out.pots.append(mol.sites[0].potential)
+    else:
+        out.molecules.append(None)
+        out.pots.append(build_potential(ctx, table, pvals, base_dir))
 
 
 def read_gas(ctx, doc, base_dir):
@@ -357,11 +431,23 @@ def read_gas(ctx, doc, base_dir):
     except StudyError as exc:
         raise StudyError(f"{ctx.where('potential')}: {exc}") from None
     p0 = pairs.pots[0][0]
+    molecules = species_molecules(ctx, sp.names, sp.masses, sp.pots, sp.molecules)
+    fractions = np.array(sp.fractions, dtype=float)
+    kinetic = mean_kinetic_dof(fractions, molecules)
+    dof = gas["dof_per_particle"]
+    if molecules is not None:
+        if gas["quantum"] != "classical":
+            ctx.fail("gas", "quantum", gas["quantum"], "not yet supported for rigid molecules",
+                     "", "remove it (the rigid N2, O2 and CO2 models are classical)")
+        dof = check_dof(ctx, doc["gas"], molecules)
     return Gas(name=gas.get("name") or sp.names[0], species_names=sp.names,
-               pairs_K_angstrom=pairs, fractions=np.array(sp.fractions, dtype=float),
+               pairs_K_angstrom=pairs, fractions=fractions,
                molar_masses_kg_mol=np.array(sp.masses, dtype=float),
                quantum=gas["quantum"], statistics=gas["statistics"],
                nuclear_spin=gas["nuclear_spin"],
-               ideal_heat_capacity=check_heat_capacity(ctx, gas["ideal_heat_capacity"], base_dir),
-               dof_per_particle=gas["dof_per_particle"],
-               units=ReducedUnits(p0.epsilon, p0.sigma * ANGSTROM, sp.masses[0]))
+               ideal_heat_capacity=check_heat_capacity(ctx, gas["ideal_heat_capacity"], base_dir,
+                                                       kinetic),
+               dof_per_particle=dof,
+               units=ReducedUnits(p0.epsilon, p0.sigma * ANGSTROM, sp.masses[0]),
+               molecules=molecules, three_body_c9_K_A9=sp.c9)
+

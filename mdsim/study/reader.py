@@ -94,6 +94,7 @@ from mdsim.checks import count
 from mdsim.errors import SettingError, StudyError
 from mdsim.study.gas import Gas, close_packed_density_mol_m3, read_gas
 from mdsim.study.quantum_potential import pairs_at_temperature
+from mdsim.study.molecule import check_simulation_supported
 from mdsim.study.runtables import read_run_tables
 from mdsim.study.statepoints import state_points
 from mdsim.study.schema import ANGSTROM, SCHEMA, TOP_LEVEL, Key
@@ -234,6 +235,7 @@ class Study:
         System
         """
         from mdsim.engine.system import System
+        check_simulation_supported(self.gas, f"study file '{self.path}'")
         count("particles", n_particles, minimum=2, hint="typically 200 to 4000")
         if start not in ("auto", "lattice", "random"):
             raise SettingError("start", start, "allowed 'auto', 'lattice', 'random'")

@@ -19,7 +19,7 @@ import dataclasses
 from mdsim.study.routes import DEFAULT_ROUTES, SIMULATION_ROUTES
 
 __all__ = ["ANGSTROM", "NO_DEFAULT", "Key", "SCHEMA", "TOP_LEVEL", "PIPELINE_TABLES",
-           "RENAMED_KEYS", "REMOVED_KEYS", "FORMS", "QUANTUM_LEVELS", "STATISTICS",
+           "RENAMED_KEYS", "REMOVED_KEYS", "FORMS", "SITE_FORMS", "QUANTUM_LEVELS", "STATISTICS",
            "NUCLEAR_SPINS", "SAMPLERS", "QUANTUM_POTENTIALS", "CLUSTER_SYSTEMS", "TEMPERATURE_RANGE_K",
            "PRESSURE_RANGE_PA", "DENSITY_RANGE_MOL_M3", "VOLUME_RATIO_MAX", "MAX_SWEEP_VALUES", "SEED_MAX"]
 
@@ -45,7 +45,8 @@ class Key:
     kind : str
         "string", "bool", "int", "number" (a plain float), "epsilon",
         "routes", "list" (of ``item``), "heat_capacity", "table", "tables",
-        "k_ij", or a quantity kind of :data:`mdsim.units.KINDS` (the value
+        "k_ij", "vector" (three numbers), "c9" (an Axilrod-Teller coefficient,
+        checked by :mod:`mdsim.study.molecule`), or a quantity kind of :data:`mdsim.units.KINDS` (the value
         is returned in SI).
     required : bool
     default : object
@@ -82,7 +83,9 @@ class Key:
     pattern: str = ""
 
 
-FORMS = ("lennard-jones", "mie", "exp-6", "table")
+FORMS = ("lennard-jones", "mie", "exp-6", "table", "rigid-molecule")
+#: The site forms of a rigid molecule.
+SITE_FORMS = ("lennard-jones", "mie")
 #: [gas] quantum: the quantum treatment of B2 (analysis.virial_eos.QUANTUM_LEVELS).
 QUANTUM_LEVELS = ("classical", "first-order", "second-order", "exact")
 #: [gas] statistics (analysis.virial.quantum_exact.STATISTICS).
@@ -157,6 +160,32 @@ _GAS_TABLES = {
         "k_ij": Key("k_ij", example="0.0"),
         "source": Key("string", default="", example='"second-virial fit, HCB 1954"',
                       help="where the parameters come from (shown in reports)"),
+        "sites": Key("tables", example="[[potential.sites]]",
+                     help="the interaction sites of a rigid molecule"),
+        "dipole": Key("dipole_moment", low=0.0, high=1e-28, low_inclusive=True,
+                      example='"0 D"', help="point dipole at the molecule's centre, on its "
+                      "axis", unit="D", unit_si=3.33564e-30),
+        "quadrupole": Key("quadrupole_moment", low=-1e-38, high=1e-38, example='"1.44 D angstrom"',
+                          help="point (Buckingham) quadrupole at the molecule's centre, on its "
+                          "axis", unit="D angstrom", unit_si=3.33564e-40),
+        "three_body_c9": Key("c9", example='"5.32e5 K angstrom^9"',
+                             help="Axilrod-Teller coefficient C9 (C9/k in K angstrom^9, or "
+                             "hartree bohr^9) for atoms"),
+    },
+    "site": {
+        "form": Key("string", required=True, choices=SITE_FORMS, example='"lennard-jones"'),
+        "epsilon": Key("epsilon", required=True, low=0.01, high=1e5, example='"34.897 K"',
+                       unit="K"),
+        "sigma": Key("length", required=True, low=0.5 * ANGSTROM, high=50 * ANGSTROM,
+                     example='"3.3211 angstrom"', **_LENGTH),
+        "repulsive_exponent": Key("number", low=3.0, high=200.0, example="12.0"),
+        "attractive_exponent": Key("number", low=3.0, high=100.0, example="6.0"),
+        "position_angstrom": Key("vector", required=True, example="[0.0, 0.0, -0.5232]",
+                                 help="the site's position in the molecule, angstrom"),
+        "mass": Key("molar_mass", required=True, low=0.0, high=1.0, low_inclusive=True,
+                    example='"14.0067 g/mol"', **_MASS),
+        "charge_e": Key("number", default=0.0, low=-10.0, high=10.0, low_inclusive=True,
+                        example="0.0", help="point charge in elementary charges"),
     },
 }
 
@@ -257,7 +286,8 @@ _CSTABLE = {
                             "(smooth blend in between)"),
 }
 
-#: table name -> {key: Key}.  "species" is one [[gas.species]] block.
+#: table name -> {key: Key}.  "species" is one [[gas.species]] block, "site" one
+#: [[potential.sites]] block of a rigid molecule.
 SCHEMA = {**_GAS_TABLES, **_STATE_TABLES, **_RUN_TABLES, "table": _CSTABLE}
 
 #: The tables of the pipeline, checked into ``Study.initial`` ... ``Study.cluster``.

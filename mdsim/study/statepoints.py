@@ -25,6 +25,7 @@ import itertools
 import warnings
 
 from mdsim.errors import ConvergenceError, SettingError, StudyError
+from mdsim.units import R_GAS
 
 __all__ = ["StatePoint", "state_points", "with_initial_state", "resolve_initial_density", "virial_gas", "virial_warnings",
            "ideal_heat_capacity", "MAX_STATE_POINTS", "PRESSURE_TO_DENSITY_ORDER"]
@@ -187,18 +188,26 @@ def state_points(study):
 def virial_gas(study):
     """The study's virial equation of state (a :class:`analysis.virial_eos.VirialGas`).
 
-    Built once per study object; the de Boer check's warnings are kept in
+    A gas of rigid molecules gets an
+    :class:`analysis.molecules.MolecularVirialGas` (B by orientation
+    quadrature, C by Monte Carlo integration).  Built once per study
+    object; the de Boer check's warnings are kept in
     ``study._virial_warnings`` (see :func:`virial_warnings`).
     """
     gas = getattr(study, "_virial_gas", None)
     if gas is None:
+        from analysis.molecules import MolecularVirialGas
         from analysis.virial_eos import VirialGas
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
-            gas = VirialGas(study.gas.pairs_K_angstrom, study.gas.fractions,
-                            study.gas.molar_masses_kg_mol,
-                            quantum=study.gas.quantum,
-                            spin=study.gas.spin_components())
+            if study.gas.molecules is not None:
+                gas = MolecularVirialGas(study.gas.molecules, study.gas.fractions)
+            else:
+                gas = VirialGas(study.gas.pairs_K_angstrom, study.gas.fractions,
+                                study.gas.molar_masses_kg_mol,
+                                quantum=study.gas.quantum,
+                                spin=study.gas.spin_components(),
+                                three_body_c9_K_A9=study.gas.three_body_c9_K_A9)
         study._virial_gas = gas
         study._virial_warnings = [str(w.message) for w in caught]
     return gas
@@ -211,13 +220,26 @@ def virial_warnings(study):
 
 
 def ideal_heat_capacity(study):
-    """The study's ideal-gas heat capacity model (``analysis.heatcapacity``), built once."""
+    """The study's ideal-gas heat capacity model (``analysis.heatcapacity``), built once.
+
+    For rigid molecules the study gives the vibrational part; the model
+    adds the kinetic (f/2) R of the molecules' translations and rotations.
+    """
     model = getattr(study, "_cv_ig", None)
     if model is None:
-        from analysis.heatcapacity import heat_capacity_from_spec
-        model = heat_capacity_from_spec(study.gas.ideal_heat_capacity,
-                                        where=f"study file '{study.path}', [gas] "
-                                        "key 'ideal_heat_capacity'")
+        from analysis.heatcapacity import (ConstantHeatCapacity, KineticPlusInternal,
+                                           heat_capacity_from_spec, parse_molar_heat_capacity)
+        spec = study.gas.ideal_heat_capacity
+        where = f"study file '{study.path}', [gas] key 'ideal_heat_capacity'"
+        if study.gas.molecules is None:
+            model = heat_capacity_from_spec(spec, where=where)
+        elif isinstance(spec, str) and not spec.strip().lower().endswith(".csv"):
+            # a constant vibrational part, which may be 0: one constant with the kinetic part
+            model = ConstantHeatCapacity(0.5 * study.gas.kinetic_dof * R_GAS
+                                         + parse_molar_heat_capacity(spec, where))
+        else:
+            model = KineticPlusInternal(heat_capacity_from_spec(spec, where=where),
+                                        study.gas.kinetic_dof)
         study._cv_ig = model
     return model
 

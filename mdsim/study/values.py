@@ -209,7 +209,7 @@ def _check_number(ctx, table, key, value, spec):
 _CHECKERS = {"string": _check_string, "bool": _check_bool, "int": _check_int,
              "routes": _check_routes, "list": _check_list}
 # Kinds whose checks need more than the value (a folder, the species): the caller checks them.
-_RAW_KINDS = ("table", "tables", "k_ij", "heat_capacity")
+_RAW_KINDS = ("table", "tables", "k_ij", "heat_capacity", "vector", "c9")
 
 
 def check_value(ctx, table, key, value, spec):
@@ -229,7 +229,7 @@ def check_value(ctx, table, key, value, spec):
     object
         The value converted: quantities as floats in SI, epsilon as
         epsilon/k in K, lists checked item by item; kinds "table",
-        "tables", "k_ij" and "heat_capacity" unchanged (their callers
+        "tables", "k_ij", "heat_capacity", "vector" and "c9" unchanged (their callers
         check them).
 
     Raises

@@ -11,6 +11,7 @@ from analysis.expansion import virial_expansion
 from analysis.heatcapacity import heat_capacity_from_spec
 from analysis.virial_eos import VirialGas
 from mdsim.cli import main
+from mdsim.cli.cmd_virial import format_virial_table
 from mdsim.study.reader import read_study
 
 CONFIGS = Path(__file__).resolve().parents[2] / "configs"
@@ -31,14 +32,19 @@ def test_virial_runs_on_every_example(capsys, path):
     assert len(out["state_points"]) == len(study.state_points())
     for rec in out["state_points"]:
         assert set(rec["delta_T_K"]) == {"virial_b2", "virial_b2b3"}
-        for entry in rec["delta_T_K"].values():
-            assert entry["stderr"] is None and np.isfinite(entry["value"])
+        for route, entry in rec["delta_T_K"].items():
+            assert np.isfinite(entry["value"])
+            if study.gas.molecules is not None and route == "virial_b2b3":
+                assert entry["stderr"] > 0.0  # B3 by Monte Carlo integration
+            else:
+                assert entry["stderr"] is None
         assert set(rec["virial"]) >= {"B2_m3_mol", "dB2_dT_m3_molK", "B3_m6_mol2",
                                       "dB3_dT_m6_mol2K"}
         assert rec["final"]["source"] == "virial_b2b3"
         assert isinstance(rec["warnings"], list)
-    assert main(["virial", str(path)]) == 0
-    assert "Delta T, B2 + B3" in capsys.readouterr().out
+    # the text view of the same summary (what 'mdsim virial STUDY' prints; computing it
+    # again would double the time of the rigid-molecule examples)
+    assert "Delta T, B2 + B3" in "\n".join(format_virial_table(out))
 
 
 def test_virial_numbers_against_analysis(capsys):

@@ -1,0 +1,16 @@
+"""Rigid multi-site molecules for the virial routes.
+
+``model`` (the molecule: sites, charges, axial multipoles, inertia),
+``electrostatics`` (point-charge and axial multipole energies),
+``pair_energy`` (the energy of two molecules), ``second`` (B2 by
+orientation quadrature), ``third`` (B3 by Monte Carlo integration with its
+standard error), ``gas`` (:class:`MolecularVirialGas`, the virial equation
+of state of a gas or mixture of molecules and atoms).
+"""
+from analysis.molecules.model import RigidMolecule, Site
+from analysis.molecules.second import OrientationGrid, b2_molecules
+from analysis.molecules.third import TripletDraws
+from analysis.molecules.gas import MolecularVirialGas
+
+__all__ = ["RigidMolecule", "Site", "OrientationGrid", "b2_molecules", "TripletDraws",
+           "MolecularVirialGas"]

@@ -1,0 +1,79 @@
+"""Study files with rigid molecules and the Axilrod-Teller term: reading, refusals, the CLI line."""
+import pathlib
+
+import pytest
+
+from mdsim.cli import main
+from mdsim.errors import StudyError
+from mdsim.pipeline.plan import plan_tasks
+from mdsim.study.reader import read_study
+
+CONFIGS = pathlib.Path(__file__).resolve().parents[2] / "configs"
+NITROGEN = (CONFIGS / "nitrogen.toml").read_text()
+
+ARGON_C9 = (CONFIGS / "argon.toml").read_text().replace(
+    'sigma = "3.405 angstrom"', 'sigma = "3.405 angstrom"\nthree_body_c9 = "{c9}"')
+
+
+def write_study(tmp_path, text):
+    """``text`` as tmp_path/study.toml."""
+    (tmp_path / "study.toml").write_text(text)
+    return tmp_path / "study.toml"
+
+
+def test_nitrogen_config_reads_as_a_rigid_linear_molecule():
+    study = read_study(CONFIGS / "nitrogen.toml")
+    (mol,) = study.gas.molecules
+    assert (mol.n_sites, mol.kinetic_dof, study.gas.dof_per_particle) == (2, 5, 5)
+    assert mol.quadrupole == pytest.approx(1.4397 * 0.2081943, rel=1e-6)  # D angstrom -> e A^2
+    assert mol.molar_mass_kg_mol == pytest.approx(0.0280134)
+    assert "Vrabec" in mol.source
+    assert plan_tasks(study) == []  # routes = []: the virial routes only
+
+
+@pytest.mark.parametrize("old, new, match", [
+    # a c_v that already counts the rotations the model carries
+    ('ideal_heat_capacity = "0 R"', 'ideal_heat_capacity = "2.5 R"',
+     "already counts translations.*vibrational part"),
+    ('ideal_heat_capacity = "0 R"', 'ideal_heat_capacity = { polynomial = [20.8], unit = '
+     '"J/(mol K)" }', "2.502 R already counts translations"),
+    # a dof_per_particle that disagrees with the model
+    ('ideal_heat_capacity = "0 R"', 'ideal_heat_capacity = "0 R"\ndof_per_particle = 3',
+     "dof_per_particle.*model has 5"),
+    ('molar_mass = "28.0134 g/mol"', 'molar_mass = "32 g/mol"', "site masses do not add up"),
+    # an unknown site key names the site and the nearest valid key
+    ('mass = "14.0067 g/mol"\n\n[initial]', 'mass = "14.0067 g/mol"\ncharge = 0.1\n\n[initial]',
+     r"site #2.*charge.*unknown key.*charge_e"),
+    # the Axilrod-Teller term is for atoms
+    ('quadrupole = "1.4397 D angstrom"',
+     'quadrupole = "1.4397 D angstrom"\nthree_body_c9 = "518 hartree * bohr^9"', "three_body_c9"),
+])
+def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
+    assert old in NITROGEN
+    with pytest.raises(StudyError, match=match):
+        read_study(write_study(tmp_path, NITROGEN.replace(old, new)))
+
+
+def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys):
+    path = write_study(tmp_path, NITROGEN.replace("routes = []", 'routes = ["energy"]'))
+    with pytest.raises(StudyError, match="not yet supported for rigid-molecule potentials"):
+        plan_tasks(read_study(path))
+    assert main(["run", str(path), "--out", str(tmp_path / "run")]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "use the virial routes" in err[0]
+
+
+@pytest.mark.parametrize("text", ["518 hartree * bohr^9", "532252.5 K angstrom^9"])
+def test_c9_in_atomic_units_or_over_k(tmp_path, text):
+    # 1 hartree bohr^9 / k = 315775.02 K * (0.529177211 angstrom)^9 (CODATA)
+    study = read_study(write_study(tmp_path, ARGON_C9.replace('{c9}', text)))
+    assert study.gas.three_body_c9_K_A9 == pytest.approx(518 * 315775.02 * 0.529177211 ** 9,
+                                                         rel=1e-6)
+
+
+def test_argon_three_body_config_carries_c9():
+    # configs/argon_three_body.toml: 518 hartree bohr^9 (Kumar and Meath 1985, from memory)
+    study = read_study(CONFIGS / "argon_three_body.toml")
+    assert study.gas.three_body_c9_K_A9 == pytest.approx(518 * 315775.02 * 0.529177211 ** 9,
+                                                         rel=1e-6)
+    assert plan_tasks(study) == []
