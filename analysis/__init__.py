@@ -5,8 +5,8 @@ series and never runs a simulation itself.  Its modules:
 
 - :mod:`analysis.expansion` - the routes to the final temperature of a
   free expansion: ``virial_expansion``, ``energy_route``,
-  ``microcanonical_route``, ``direct_route``, and ``coexistence_expansion`` for a final state of
-  vapour and liquid;
+  ``microcanonical_route``, ``direct_route``, and ``coexistence_expansion``
+  for a final state of vapour and liquid;
 - :mod:`analysis.virial` - second and third virial coefficients (``b2``,
   ``b3``, mixtures, quantum correction, characteristic temperatures);
 - :mod:`analysis.virial_eos` - ``VirialGas``, the virial equation of state
@@ -30,5 +30,5 @@ pair potentials.  Nothing is imported with the package: ``from analysis
 import *`` loads the modules listed in ``__all__``.
 """
 
-__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "inversion", "phases", "stats",
-           "results", "inputs", "roots"]
+__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "inversion", "phases",
+           "stats", "results", "inputs", "roots"]
