@@ -15,7 +15,10 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
       "entropy_generated_J_molK": float or null,
       "virial": {"B2_m3_mol", "dB2_dT_m3_molK", "B3_m6_mol2", "dB3_dT_m6_mol2K",
                  "temperature_K", "quantum_correction"},
-      "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method"}},
+      "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method",
+                             "two_phase", "two_phase_evidence"}},
+      "two_phase": bool (a simulation route found its final state inside the
+                   vapour-liquid dome or metastable; its warning says why),
       "warnings": [str, ...]
     }
 
@@ -177,7 +180,8 @@ def _simulation_entries(route_results, delta, finals, warnings):
     Returns
     -------
     simulation : dict
-        {route: {stopped_by, cpu_seconds, n_particles, method}}.
+        {route: {stopped_by, cpu_seconds, n_particles, method, two_phase,
+        two_phase_evidence}}.
     initial_pressure : float or None
         The first initial pressure a simulation sampled, Pa.
     """
@@ -198,7 +202,9 @@ def _simulation_entries(route_results, delta, finals, warnings):
         if initial_pressure is None:
             initial_pressure, _ = value_stderr(res.get("initial_pressure_Pa"))
         simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
-                                                      "method")}
+                                                      "method", "two_phase")}
+        simulation[route]["two_phase_evidence"] = (res.get("phase_check") or {}).get("evidence",
+                                                                                      [])
         for w in res.get("warnings") or []:
             warnings.append(f"{route}: {w}")
     return simulation, initial_pressure
@@ -309,6 +315,7 @@ def state_point_record(study, sp, route_results, virial=None):
         "entropy_generated_J_molK": vs["entropy_generated_J_molK"] if vs else None,
         "virial": vs["virial"] if vs else virial_coefficients(study, sp.temperature_K),
         "simulation": simulation,
+        "two_phase": any(bool(entry.get("two_phase")) for entry in simulation.values()),
         "warnings": warnings,
     }
 
