@@ -24,6 +24,8 @@ MIN_PEAK_MASS = 0.1
 """Each class of cells (dilute, dense) must hold at least this fraction of the cells."""
 DILUTE_RATIO = 0.5
 """The dilute class's mean count must be below this fraction of the dense class's."""
+BROAD_RATIO = 2.0
+"""Cell counts scattering by more than this many times an ideal gas's variance are evidence."""
 
 
 def cell_counts(configurations, box):
@@ -40,13 +42,15 @@ def cell_counts(configurations, box):
     counts : ndarray of int, shape=(n_configurations * n_cells,)
     cell_volume : float
         Reduced volume of one cell.
+    n_cells : int
+        Cells per configuration.
 
     Examples
     --------
     >>> r = np.array([[0.5, 0.5, 0.5], [0.6, 0.5, 0.5], [4.5, 4.5, 4.5]])
-    >>> counts, v = cell_counts([r], [6.0, 6.0, 6.0])
-    >>> sorted(counts.tolist())[-2:], v
-    ([1, 2], 27.0)
+    >>> counts, v, n_cells = cell_counts([r], [6.0, 6.0, 6.0])
+    >>> sorted(counts.tolist())[-2:], v, n_cells
+    ([1, 2], 27.0, 8)
     """
     box = np.asarray(box, dtype=float)
     n_cells = np.maximum(2, np.floor(box / CELL_LENGTH_RED).astype(int))
@@ -56,7 +60,7 @@ def cell_counts(configurations, box):
         idx = np.minimum(idx, n_cells - 1)
         flat = np.ravel_multi_index(idx.T, tuple(n_cells))
         out.append(np.bincount(flat, minlength=int(np.prod(n_cells))))
-    return np.concatenate(out), float(np.prod(box / n_cells))
+    return np.concatenate(out), float(np.prod(box / n_cells)), int(np.prod(n_cells))
 
 
 @dataclass(frozen=True)
@@ -72,6 +76,11 @@ class LocalDensityCheck:
     low_side_fraction : float or None
         Fraction of the cells in the dilute class.
     n_counts : int
+    variance_ratio : float or None
+        Variance of the counts over that of an ideal gas of the same particles,
+        m (1 - 1/n_cells) for a mean count m (the multinomial variance).
+    broad : bool or None
+        ``variance_ratio`` above :data:`BROAD_RATIO`.
     """
 
     bimodal: object
@@ -79,9 +88,15 @@ class LocalDensityCheck:
     high_peak_density_red: float = None
     low_side_fraction: float = None
     n_counts: int = 0
+    variance_ratio: float = None
+    broad: object = None
 
     def describe(self):
-        """One line of evidence, or None when not bimodal."""
+        """One line of evidence, or None when the check found none."""
+        if self.broad and not self.bimodal:
+            return (f"local density scatters {self.variance_ratio:.2g} times as much as an ideal "
+                    f"gas's over {self.n_counts} grid cells (phase separation, or the critical "
+                    "region)")
         if not self.bimodal:
             return None
         return (f"local density bimodal over {self.n_counts} grid cells: a dilute "
@@ -112,7 +127,12 @@ def local_density_check(configurations, box):
     fluid's counts scatter by sqrt(S(0) mean count) (S(0) = rho kT kappa_T);
     its Otsu classes lie about 1.6 of those widths apart, so only a fluid
     with S(0) above about 3.5, near the critical point, could pass (common
-    practice, no source).
+    practice, no source).  Apart from that split, counts whose variance
+    exceeds :data:`BROAD_RATIO` times an ideal gas's (``variance_ratio``,
+    an estimate of S(0) over cells of this size: about 1.4 for LJ at
+    T* = 2, rho* = 0.15 by the virial series, S(0) = 1 / (1 + 2 B rho + 3 C
+    rho^2), and below 1 in liquids) are evidence too: a box too small for two clean phases still
+    scatters that much (``broad``; it also flags the critical region).
 
     Examples
     --------
@@ -121,9 +141,12 @@ def local_density_check(configurations, box):
     >>> local_density_check(gas, [10.0, 10.0, 10.0]).bimodal
     False
     """
-    counts, v_cell = cell_counts(configurations, box)
+    counts, v_cell, n_cells = cell_counts(configurations, box)
     if counts.size < MIN_CELL_COUNTS:
         return LocalDensityCheck(None, n_counts=int(counts.size))
+    m = float(np.mean(counts))
+    ratio = float(np.var(counts, ddof=1)) / max(m * (1.0 - 1.0 / n_cells), 1e-300)
+    spread = {"variance_ratio": ratio, "broad": ratio > BROAD_RATIO}
     c = np.sort(counts).astype(float)
     n = c.size
     cum = np.cumsum(c)
@@ -134,10 +157,10 @@ def local_density_check(configurations, box):
         if best is None or between > best[0]:
             best = (between, m_lo, m_hi, k / n)
     if best is None:
-        return LocalDensityCheck(False, n_counts=n)
+        return LocalDensityCheck(False, n_counts=n, **spread)
     _, m_lo, m_hi, frac = best
     two = (MIN_PEAK_MASS <= frac <= 1.0 - MIN_PEAK_MASS and m_lo < DILUTE_RATIO * m_hi
            and m_hi - m_lo > 3.0 * math.sqrt(max(float(np.mean(c)), 1.0)))
     if not two:
-        return LocalDensityCheck(False, n_counts=n)
-    return LocalDensityCheck(True, m_lo / v_cell, m_hi / v_cell, frac, n)
+        return LocalDensityCheck(False, n_counts=n, **spread)
+    return LocalDensityCheck(True, m_lo / v_cell, m_hi / v_cell, frac, n, **spread)

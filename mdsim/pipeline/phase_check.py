@@ -18,8 +18,8 @@ from mdsim.errors import SimulationError
 from mdsim.pipeline.rundir import PHASE_SNAPSHOTS, stage_name
 from mdsim.sampling import store
 
-__all__ = ["check_phases", "state_evidence", "solver_evidence", "SOLVER_JUMP_Z", "N_SNAPSHOTS",
-           "SNAPSHOT_SAMPLES"]
+__all__ = ["check_phases", "state_evidence", "solver_evidence", "pressure_at_initial_temperature",
+           "SOLVER_JUMP_Z", "N_SNAPSHOTS", "SNAPSHOT_SAMPLES"]
 
 SOLVER_JUMP_Z = 2.0
 """An unconverged Newton step larger than this many standard errors of T_f is evidence."""
@@ -117,6 +117,50 @@ def solver_evidence(res):
             f"{res.final_temperature_stderr_K:.2g} K"]
 
 
+def pressure_at_initial_temperature(job, chain):
+    """p(T_i, rho_f) from an NVT Monte Carlo chain at (T_k, rho_f), {value, stderr} in Pa, or None.
+
+    The sampled pressure moved to T_i with (dp/dT)_rho from the fluctuations
+    of the same samples (:func:`analysis.inversion.fluctuation_estimate`;
+    docs/physics.md section 5.3), to first order in T_i - T_k; its standard
+    error is that of the sampled pressure plus the slope's times |T_i - T_k|.
+    None for other samplers (they do not record the truncated energy and the
+    configurational pressure that estimate needs) or when the estimate fails.
+    """
+    from analysis.inversion import fluctuation_estimate
+    from mdsim.errors import ConvergenceError, StudyError
+    if chain.method != "mc-nvt":
+        return None
+    s = chain.samples()
+    u = job.units
+    n = job.n_particles
+    rho_red = u.density_to_reduced(job.rho_f)
+    try:
+        est = fluctuation_estimate(s["u_trunc"], s["pressure_conf"], n, chain.T_red, rho_red,
+                                   discard_equilibration=False)
+    except (ConvergenceError, StudyError, KeyError):
+        return None
+    p = chain.summary()["pressure"]
+    dT = u.temperature_to_reduced(job.T_i) - chain.T_red
+    value = p.value + est.dp_dT_red * dT
+    stderr = float(np.hypot(p.stderr, est.dp_dT_stderr_red * abs(dT)))
+    return {"value": u.pressure_to_Pa(value), "stderr": u.pressure_to_Pa(stderr)}
+
+
+def _falling_with_density(job, initial_pressure):
+    """Evidence that p falls as rho rises between rho_f and rho_i at T_i (energy route), or []."""
+    from analysis.phases import pressure_check
+    if initial_pressure is None or job.final_chain is None:
+        return []
+    p_f = pressure_at_initial_temperature(job, job.final_chain)
+    if p_f is None:
+        return []
+    check = pressure_check(p_f["value"], p_f["stderr"], (
+        job.rho_f, p_f["value"], p_f["stderr"],
+        job.rho_i, initial_pressure["value"], initial_pressure["stderr"]))
+    return [e for e in check.evidence if not e.startswith("negative")]
+
+
 def check_phases(job, res, initial_pressure, final_pressure):
     """Check the task's end states; returns the ``phase_check`` record of the task result.
 
@@ -147,7 +191,7 @@ def check_phases(job, res, initial_pressure, final_pressure):
         configs += _snapshots(job.final_chain)
         final = state_evidence(configs, box, final_pressure)
         _refuse_solid(job, final, "final", res.final_temperature_K, job.rho_f)
-        final["evidence"] += solver_evidence(res)
+        final["evidence"] += solver_evidence(res) + _falling_with_density(job, initial_pressure)
         out.update(two_phase=bool(final["evidence"]), evidence=final["evidence"],
                    crystal_like_fraction=final["crystal_like_fraction"],
                    local_density=final["local_density"])

@@ -45,7 +45,7 @@ def test_a_slab_of_liquid_beside_vapour_is_bimodal():
     rng = np.random.default_rng(5)
     L = 10.0
     check = local_density_check([_slab(rng, L, 0.6, 0.02, 4.0) for _ in range(3)], [L] * 3)
-    assert check.bimodal
+    assert check.bimodal and check.broad
     # the dilute class mixes vapour cells with cells cut by the interface; the dense class
     # holds the liquid cells: its mean local density is near the slab's 0.6
     assert check.high_peak_density_red == pytest.approx(0.6, abs=0.1)
@@ -58,10 +58,15 @@ def test_homogeneous_configurations_are_not_bimodal(density):
     rng = np.random.default_rng(int(density * 100))
     L = 10.0
     gas = [rng.uniform(0.0, L, (int(density * L ** 3), 3)) for _ in range(4)]
-    assert local_density_check(gas, [L] * 3).bimodal is False
+    check = local_density_check(gas, [L] * 3)
+    assert check.bimodal is False and not check.broad and check.describe() is None
+    # an ideal gas's counts have the multinomial variance exactly: ratio 1 within 4 standard
+    # errors of a sample variance of 256 Poisson-like counts (about 0.11 at the lowest density)
+    assert check.variance_ratio == pytest.approx(1.0, abs=0.45)
     r, box = _fcc(6, density)
     lattice = [r + rng.normal(0.0, 0.1, r.shape) for _ in range(4)]
-    assert local_density_check(lattice, box).bimodal is False
+    check = local_density_check(lattice, box)
+    assert check.bimodal is False and check.variance_ratio < 1.0 and check.describe() is None
 
 
 def test_too_few_cells_give_no_verdict():
