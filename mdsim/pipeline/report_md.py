@@ -205,8 +205,8 @@ def _results(points, records, rd):
 def _two_phase_lines(points, records):
     """A paragraph naming the state points whose final state a route found two-phase."""
     flagged = []
-    for sp in points:
-        sim = records[sp.index].get("simulation", {})
+    for sp, rec in zip(points, records):
+        sim = rec.get("simulation", {})
         routes = [route for route, entry in sim.items() if entry.get("two_phase")]
         if routes:
             flagged.append(f"state point {sp.index} ({', '.join(routes)})")
