@@ -14,7 +14,7 @@ coexistence.
 """
 import numpy as np
 
-from mdsim.errors import SimulationError
+from mdsim.errors import ConvergenceError, SimulationError, StudyError
 from mdsim.pipeline.rundir import PHASE_SNAPSHOTS, stage_name
 from mdsim.sampling import store
 
@@ -128,8 +128,8 @@ def pressure_at_initial_temperature(job, chain):
     configurational pressure that estimate needs) or when the estimate fails.
     """
     from analysis.inversion import fluctuation_estimate
-    from mdsim.errors import ConvergenceError, StudyError
-    if chain.method != "mc-nvt":
+    p = chain.summary().get("pressure")
+    if chain.method != "mc-nvt" or p is None or not p.available:
         return None
     s = chain.samples()
     u = job.units
@@ -140,7 +140,6 @@ def pressure_at_initial_temperature(job, chain):
                                    discard_equilibration=False)
     except (ConvergenceError, StudyError, KeyError):
         return None
-    p = chain.summary()["pressure"]
     dT = u.temperature_to_reduced(job.T_i) - chain.T_red
     value = p.value + est.dp_dT_red * dT
     stderr = float(np.hypot(p.stderr, est.dp_dT_stderr_red * abs(dT)))
