@@ -23,7 +23,7 @@ __all__ = ["check_phases", "state_evidence", "solver_evidence", "pressure_at_ini
 
 SOLVER_JUMP_Z = 2.0
 """An unconverged Newton step larger than this many standard errors of T_f is evidence."""
-N_SNAPSHOTS = 6
+N_SNAPSHOTS = 4
 """Short stages continuing the final state, each giving one more end configuration."""
 SNAPSHOT_SAMPLES = 20
 """Samples per snapshot stage at the chain's interval (the fewest a stage file takes)."""
