@@ -47,7 +47,7 @@ def test_propagated_error_matches_a_monte_carlo_of_the_point_errors(thol_lj, poi
     """Each of the four coexistence quantities shifted by one normal draw at every temperature
     (errors fully correlated along T, so the spline carries the shift unchanged) and the balance
     solved again: the spread of T_f is the first-order propagated error (delta method, common
-    practice, no source) within 15 % (300 draws give the spread to about 4 %)."""
+    practice, no source) within 20 % (150 draws give the spread to about 6 %)."""
     cv = ConstantHeatCapacity.in_units_of_R(1.5)
     u_i = UNITS.energy_to_J_mol(thol_lj.u_res(0.8, 0.75))
     rho_f = UNITS.density_to_mol_m3(0.375)
@@ -55,13 +55,13 @@ def test_propagated_error_matches_a_monte_carlo_of_the_point_errors(thol_lj, poi
     rng = np.random.default_rng(2024)
     names = ("rho_liq", "rho_vap", "u_liq", "u_vap")
     T_f = []
-    for _ in range(300):
+    for _ in range(150):
         z = rng.normal(size=4)
         moved = [SimpleNamespace(**{**vars(p), **{k: getattr(p, k) + zk * getattr(p, k + "_err")
                                                   for k, zk in zip(names, z)}}) for p in points]
         T_f.append(expansion_through_coexistence(u_i, 0.0, 80.0, rho_f, moved, UNITS, cv)
                    .final_temperature_K)
-    assert np.std(T_f, ddof=1) == pytest.approx(res.final_temperature_stderr_K, rel=0.15)
+    assert np.std(T_f, ddof=1) == pytest.approx(res.final_temperature_stderr_K, rel=0.2)
 
 
 def test_virial_final_state_checked_against_the_curve(points):
