@@ -3,9 +3,10 @@
 It takes pair potentials (:mod:`mdsim.engine.potentials`) and sampled
 series and never runs a simulation itself.  Its modules:
 
-- :mod:`analysis.expansion` - the four routes to the final temperature of a
+- :mod:`analysis.expansion` - the routes to the final temperature of a
   free expansion: ``virial_expansion``, ``energy_route``,
-  ``microcanonical_route``, ``direct_route``;
+  ``microcanonical_route``, ``direct_route``, and ``coexistence_expansion``
+  for a final state of vapour and liquid;
 - :mod:`analysis.virial` - second and third virial coefficients (``b2``,
   ``b3``, mixtures, quantum correction, characteristic temperatures);
 - :mod:`analysis.virial_eos` - ``VirialGas``, the virial equation of state
@@ -16,6 +17,9 @@ series and never runs a simulation itself.  Its modules:
   (``free_expansion_entropy``);
 - :mod:`analysis.inversion` - Joule coefficient and inversion curve
   (``joule_inversion``, ``fluctuation_estimate``);
+- :mod:`analysis.phases` - evidence that a sampled state is not one
+  homogeneous fluid (bimodal local density, crystal-like bond order,
+  negative or falling pressure);
 - :mod:`analysis.stats` - means and errors of correlated time series;
 - :mod:`analysis.results` - the ``Result`` base and ``to_plain``;
 - :mod:`analysis.inputs`, :mod:`analysis.roots` - setting checks and the
@@ -26,5 +30,5 @@ pair potentials.  Nothing is imported with the package: ``from analysis
 import *`` loads the modules listed in ``__all__``.
 """
 
-__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "inversion", "stats",
-           "results", "inputs", "roots"]
+__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "inversion", "phases",
+           "stats", "results", "inputs", "roots"]

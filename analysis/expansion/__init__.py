@@ -1,11 +1,11 @@
-"""Free-expansion (Joule) solvers at constant internal energy: the four routes.
+"""Free-expansion (Joule) solvers at constant internal energy: the routes.
 
 A gas at (T_i, rho_i) expands into vacuum to r = V_f / V_i > 1 times its
 volume, with no heat and no work, so its molar internal energy is conserved:
 
     u_ig(T_f) + u_res(T_f, rho_f) = u_ig(T_i) + u_res(T_i, rho_i),  rho_f = rho_i / r,
 
-with u_ig(T) = int c_v_ig dT from :mod:`analysis.heatcapacity`.  Four
+with u_ig(T) = int c_v_ig dT from :mod:`analysis.heatcapacity`.  The
 routes solve it:
 
 - :func:`virial_expansion` (module ``virial_series``): u_res and p from the
@@ -23,6 +23,10 @@ routes solve it:
   run after the box was enlarged, corrected from the model (truncated and
   shifted) potential to the full one.
 
+- :func:`coexistence_expansion` (module ``coexistence``): a final state
+  inside the vapour-liquid dome, at equilibrium: vapour and liquid at T_f by
+  the lever rule over the coexisting densities and energies.
+
 The simulation routes report a :class:`SampledExpansionResult` (module
 ``sampled``).  This package re-exports the public names of its modules, so
 ``from analysis.expansion import virial_expansion, energy_route`` works.
@@ -38,6 +42,9 @@ energy: u [J/mol] = u_red * epsilon_K * R.
 Array suffixes: ``_t`` time series, ``_n`` pooled samples, ``_kn`` state k
 by sample n (pymbar's convention).
 """
+from analysis.expansion.coexistence import (CoexistenceExpansionResult, CoexistencePoint,
+                                            CoexistenceTable, SinglePhaseFinalState,
+                                            coexistence_expansion, vapour_fraction)
 from analysis.expansion.direct import direct_route
 from analysis.expansion.energy import (NEWTON_TOLERANCE, NewtonStep, StateSample, energy_route,
                                        newton_step)
@@ -51,4 +58,6 @@ from analysis.roots import find_root_bracketed
 __all__ = ["virial_expansion", "VirialExpansionResult", "VIRIAL_SPREAD_WARN",
            "energy_route", "newton_step", "NewtonStep", "StateSample", "NEWTON_TOLERANCE",
            "MBARInterpolant", "MIN_NEIGHBOUR_OVERLAP", "microcanonical_route", "direct_route",
-           "SampledExpansionResult", "reduced_to_J_mol", "find_root_bracketed"]
+           "SampledExpansionResult", "reduced_to_J_mol", "find_root_bracketed",
+           "coexistence_expansion", "CoexistencePoint", "CoexistenceTable",
+           "CoexistenceExpansionResult", "SinglePhaseFinalState", "vapour_fraction"]

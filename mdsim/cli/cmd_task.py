@@ -27,4 +27,7 @@ def run(args):
         print(f"task {args.index:04d} ({result['route']}): Delta T = "
               f"{value_with_error(d['value'], d['stderr'], 'K')}, stopped by "
               f"{result['stopped_by']}, {result['cpu_seconds']:.1f} s CPU", file=sys.stderr)
+        if result.get("two_phase"):
+            print("mdsim: warning: TWO-PHASE final state: "
+                  + "; ".join(result["phase_check"]["evidence"]), file=sys.stderr)
     return 0

@@ -79,6 +79,10 @@ def result_lines(summary):
         T_f = value_with_error(fin["temperature_K"], fin.get("temperature_stderr_K"), "K", 6)
         lines.append(f"state point {rec['index']}: Delta T = {dT}, T_f = {T_f} "
                      f"({ROUTE_LABELS.get(source, source)})")
+        if rec.get("two_phase"):
+            lines.append(f"state point {rec['index']}: warning: TWO-PHASE final state: the "
+                         "sample is not one stable fluid (evidence in report.md and "
+                         "results.json); Delta T is that of the simulated sample")
     return lines
 
 

@@ -186,7 +186,6 @@ class Chain:
 
     def extend(self, n_samples, mandatory=False):
         """One more production stage of about n_samples; False if the budget forbids it."""
-        job = self.job
         k = len(self.results)
         if k >= MAX_STAGES_PER_CHAIN:
             return False
@@ -195,12 +194,20 @@ class Chain:
         if n_samples is None:
             return False
         prev = self.results[-1] if self.results else self.pilot
-        system = self.continue_system(prev)
-        res = job.stage(name, system, self.method, self.T_red, self.E_red, n_eq=0,
-                        n_samples=n_samples, interval=self.interval,
-                        seed=job.stage_seed(self.id, k + 1), **self._settings(prev))
-        self.results.append(res)
+        self.results.append(self.continue_stage(prev, name, n_samples, k + 1))
         return True
+
+    def continue_stage(self, prev, name, n_samples, seed_part):
+        """Run (or read back) one stage ``name`` continuing from the stage ``prev``.
+
+        The chain's own stages go through :meth:`extend`; this serves stages
+        that continue the chain without joining its samples (the end-state
+        snapshots of :mod:`mdsim.pipeline.phase_check`).
+        """
+        return self.job.stage(name, self.continue_system(prev), self.method, self.T_red,
+                              self.E_red, n_eq=0, n_samples=n_samples, interval=self.interval,
+                              seed=self.job.stage_seed(self.id, seed_part),
+                              **self._settings(prev))
 
     def resume_existing(self):
         """Re-attach production stages already on disk (after a restart)."""

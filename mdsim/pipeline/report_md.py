@@ -203,6 +203,7 @@ def _results(points, records, rd):
          "then virial B2+B3). Δs is the entropy generated per mole, from the virial B2+B3 "
          "route's end states for every row (not yet from the simulation routes' own).", ""]
     L += results_table(points, records) + [""]
+    L += _two_phase_lines(points, records)
     L += ["The particles column gives N of the state point's simulation tasks, per route "
           "when the routes differ. The virial coefficients of the pair potential at T_i "
           "(with the quantum correction when the study asks for it):", ""]
@@ -217,6 +218,22 @@ def _results(points, records, rd):
     L += ["Every state point and route, with the final states and the task settings, is in "
           f"`{rd.results_csv.name}`; the same numbers as JSON in `{rd.results_json.name}`.", ""]
     return L
+
+
+def _two_phase_lines(points, records):
+    """A paragraph naming the state points whose final state a route found two-phase."""
+    flagged = []
+    for sp, rec in zip(points, records):
+        sim = rec.get("simulation", {})
+        routes = [route for route, entry in sim.items() if entry.get("two_phase")]
+        if routes:
+            flagged.append(f"state point {sp.index} ({', '.join(routes)})")
+    if not flagged:
+        return []
+    return ["**Two-phase final states**: " + "; ".join(flagged) + ". These final states lie "
+            "inside the vapour-liquid region or are metastable (the evidence is in the "
+            "warnings below); their Delta T is that of the simulated sample, not of vapour and "
+            "liquid at equilibrium.", ""]
 
 
 def _unfinished(gathered):

@@ -46,7 +46,7 @@ from mdsim.study.writer import INPUTS_DIR
 __all__ = ["RunDir", "LOG_FORMAT", "space_needed_bytes", "stage_name", "final_density_guess",
            "initial_state_try", "INITIAL_STATE",
            "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
-           "WALL_REMOVED_RELAXED", "STAGE_LABELS"]
+           "WALL_REMOVED_RELAXED", "PHASE_SNAPSHOTS", "STAGE_LABELS"]
 
 TASKS_FILE = "tasks.json"
 LOG_FORMAT = "%(asctime)s %(levelname)s %(name)s: %(message)s"
@@ -68,8 +68,11 @@ WALL_REMOVED_FILLING = "wall-removed-filling"
 """Stage label of the direct route's NVE stages while the gas fills the enlarged box."""
 WALL_REMOVED_RELAXED = "wall-removed-relaxed"
 """Stage label of the direct route's NVE stages after the gas has filled the box."""
+PHASE_SNAPSHOTS = "phase-snapshot"
+"""Stage label of the short runs continuing a route's final state whose end configurations
+the phase check reads (:mod:`mdsim.pipeline.phase_check`)."""
 STAGE_LABELS = (INITIAL_STATE, FINAL_DENSITY_GUESS, FINAL_STATE_NVE, WALL_REMOVED_FILLING,
-                WALL_REMOVED_RELAXED)
+                WALL_REMOVED_RELAXED, PHASE_SNAPSHOTS)
 """Every stage file of this version starts with one of these."""
 
 

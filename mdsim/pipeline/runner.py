@@ -17,6 +17,7 @@ import numpy as np
 from analysis.results import to_plain
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
 from mdsim.pipeline.initial_state import sampled_pressure
+from mdsim.pipeline.phase_check import check_phases
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.routes import ROUTE_RUNNERS
 from mdsim.pipeline.task import CpuLedger, RunningTask
@@ -52,7 +53,9 @@ def run_task(run_dir, index, progress=None):
         ``planned_initial_density_mol_m3`` (the plan's), ``requested_initial_pressure_Pa``
         (or None), ``pressure_iteration`` (the densities tried), ``stopped_by``, ``cpu_seconds``,
         ``n_particles``, ``warnings``, ``notes``, ``method``, ``details``,
-        ``n_stages``, ``target_stderr_K``, ``wall_seconds_last_run``.  A
+        ``n_stages``, ``target_stderr_K``, ``wall_seconds_last_run``, ``two_phase``
+        (bool) and ``phase_check`` (the evidence,
+        :func:`mdsim.pipeline.phase_check.check_phases`).  A
         complete task file is read back, not run again.
 
     Raises
@@ -161,7 +164,10 @@ def _run(rd, index, task, progress, seen):
     _log_start(rd, job, seen["damage"])
     res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)
     job.stop_reason(res.delta_T_stderr_K)  # the target met is the reason, budget spent or not
+    phases = check_phases(job, res, _initial_pressure(job), pressure)
     result = _result(job, res, pressure, extra)
+    result["two_phase"] = phases["two_phase"]
+    result["phase_check"] = to_plain(phases)
     result["wall_seconds_last_run"] = time.time() - wall0
     if job.stopped_by == "cpu budget":
         result["warnings"].append(

@@ -18,7 +18,10 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
                  "temperature_K", "quantum_correction"},
       "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method",
                              "initial_density_mol_m3", "initial_density_from",
-                             "initial_pressure_Pa": {"value", "stderr"}}},
+                             "initial_pressure_Pa": {"value", "stderr"},
+                             "two_phase", "two_phase_evidence"}},
+      "two_phase": bool (a simulation route found its final state inside the
+                   vapour-liquid dome or metastable; its warning says why),
       "warnings": [str, ...]
     }
 
@@ -211,7 +214,8 @@ def _simulation_entries(route_results, delta, finals, warnings):
     Returns
     -------
     simulation : dict
-        {route: {stopped_by, cpu_seconds, n_particles, method}}.
+        {route: {stopped_by, cpu_seconds, n_particles, method, two_phase,
+        two_phase_evidence}}.
     initial_pressure : float or None
         The first initial pressure a simulation sampled, Pa.
     """
@@ -232,10 +236,13 @@ def _simulation_entries(route_results, delta, finals, warnings):
         if initial_pressure is None:
             initial_pressure, _ = value_stderr(res.get("initial_pressure_Pa"))
         simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
-                                                      "method", "initial_density_from")}
+                                                      "method", "initial_density_from",
+                                                      "two_phase")}
         simulation[route]["initial_density_mol_m3"] = _num(res.get("initial_density_mol_m3"))
         simulation[route]["initial_pressure_Pa"] = _value_stderr_dict(
             res.get("initial_pressure_Pa"))
+        simulation[route]["two_phase_evidence"] = (res.get("phase_check") or {}).get("evidence",
+                                                                                      [])
         for w in res.get("warnings") or []:
             warnings.append(f"{route}: {w}")
     return simulation, initial_pressure
@@ -372,6 +379,7 @@ def state_point_record(study, sp, route_results, virial=None):
         "entropy_generated_J_molK": vs["entropy_generated_J_molK"] if vs else None,
         "virial": vs["virial"] if vs else virial_coefficients(study, sp.temperature_K),
         "simulation": simulation,
+        "two_phase": any(bool(entry.get("two_phase")) for entry in simulation.values()),
         "warnings": warnings,
     }
 

@@ -106,6 +106,9 @@ class RunningTask:
     warnings, notes : list of str
     initial_chain : mdsim.pipeline.chain.Chain or None
         The route's chain at the initial state, once run (its pressure is reported).
+    final_chain : mdsim.pipeline.chain.Chain or None
+        The route's chain at the final state, once run, and ``final_first_stage``
+        the first of its stages that samples it (:mod:`mdsim.pipeline.phase_check`).
     """
 
     def __init__(self, run_dir, task, progress=None):
@@ -138,6 +141,7 @@ class RunningTask:
         self.warnings, self.notes = [], []
         self.n_stages = 0
         self.initial_chain = None
+        self.final_chain, self.final_first_stage = None, 0
         g = self.study.gas
         self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
                                     quantum="classical")
