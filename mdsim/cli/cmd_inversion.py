@@ -79,6 +79,7 @@ def format_inversion_table(out):
         lines.append(f"    {T:>18} {pt['density_mol_m3']:14.6g} "
                      f"{(p / 1e5 if p is not None else math.nan):12.6g}  {pt['source']}")
     lines += [f"  note: {n}" for n in out["notes"]]
+    lines += [f"  warning: {w}" for w in out.get("warnings", [])]
     return lines
 
 

@@ -3,7 +3,9 @@
 ``results.csv``
     One row per state point and route, columns with their units in their
     names (:data:`CSV_COLUMNS`); a route that did not finish has a row with
-    its ``status`` and empty numbers.
+    its ``status`` and empty numbers.  ``entropy_generated_J_molK`` is each
+    route's own Delta s (empty where it is not available; the reason is in
+    ``results.json``).
 ``results.json``
     :func:`mdsim.pipeline.summary.run_summary` of the state-point records
     (the shape ``mdsim run --json`` prints), plus ``tasks`` and ``files``
@@ -28,6 +30,7 @@ CSV_COLUMNS = (
     "delta_T_K", "delta_T_stderr_K", "final_temperature_K", "final_temperature_stderr_K",
     "final_density_mol_m3", "final_pressure_Pa", "final_pressure_stderr_Pa",
     "task_index", "seed", "n_particles", "stopped_by", "cpu_seconds", "warnings",
+    "entropy_generated_J_molK", "entropy_generated_stderr_J_molK",
 )
 
 
@@ -52,6 +55,8 @@ def _virial_rows(sp, rec, base):
         value, _ = value_stderr(rec["delta_T_K"].get(route))
         row = dict.fromkeys(CSV_COLUMNS, "")
         row.update(base, route=route, status="done" if value is not None else "unavailable")
+        ds, _ = value_stderr((rec.get("delta_s_J_molK") or {}).get(route))
+        row.update(entropy_generated_J_molK=_num(ds))
         if value is not None:
             T_f = sp.temperature_K + value
             rho = ini.get("density_mol_m3")
@@ -80,7 +85,9 @@ def _task_row(task, base, gathered, failed, missing):
         dT, dTs = value_stderr(res.get("delta_T_K"))
         Tf, Tfs = value_stderr(res.get("final_temperature_K"))
         pf, pfs = value_stderr(res.get("final_pressure_Pa"))
-        row.update(status="done", delta_T_K=_num(dT), delta_T_stderr_K=_num(dTs),
+        ds, dss = value_stderr(res.get("entropy_generated_J_molK"))
+        row.update(status="done", entropy_generated_J_molK=_num(ds),
+                   entropy_generated_stderr_J_molK=_num(dss), delta_T_K=_num(dT), delta_T_stderr_K=_num(dTs),
                    final_temperature_K=_num(Tf), final_temperature_stderr_K=_num(Tfs),
                    final_density_mol_m3=_num(res.get("final_density_mol_m3")),
                    final_pressure_Pa=_num(pf), final_pressure_stderr_Pa=_num(pfs),

@@ -16,6 +16,7 @@ import numpy as np
 
 from analysis.results import to_plain
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
+from mdsim.pipeline.route_entropy import sample_route_entropy
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.routes import ROUTE_RUNNERS
 from mdsim.pipeline.task import CpuLedger, RunningTask
@@ -46,7 +47,10 @@ def run_task(run_dir, index, progress=None):
         The task result: ``route``, ``state_point_index``, ``delta_T_K`` and
         ``final_temperature_K`` ({value, stderr}, K), ``initial_pressure_Pa``
         and ``final_pressure_Pa`` ({value, stderr} or None), initial and
-        final density (mol/m^3), ``stopped_by``, ``cpu_seconds``,
+        final density (mol/m^3), ``entropy_generated_J_molK`` (Delta s from
+        the route's own end states, {value, stderr, ...} or value None with
+        ``unavailable``, :func:`mdsim.pipeline.route_entropy.sample_route_entropy`),
+        ``stopped_by``, ``cpu_seconds``,
         ``n_particles``, ``warnings``, ``notes``, ``method``, ``details``,
         ``n_stages``, ``target_stderr_K``, ``wall_seconds_last_run``.  A
         complete task file is read back, not run again.
@@ -157,7 +161,9 @@ def _run(rd, index, task, progress, seen):
     _log_start(rd, job, seen["damage"])
     res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)
     job.stop_reason(res.delta_T_stderr_K)  # the target met is the reason, budget spent or not
+    entropy = sample_route_entropy(job, res)
     result = _result(job, res, pressure, extra)
+    result["entropy_generated_J_molK"] = entropy
     result["wall_seconds_last_run"] = time.time() - wall0
     if job.stopped_by == "cpu budget":
         result["warnings"].append(

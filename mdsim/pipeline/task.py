@@ -95,6 +95,9 @@ class RunningTask:
     warnings, notes : list of str
     initial_chain : mdsim.pipeline.chain.Chain or None
         The route's chain at the initial state, once run (its pressure is reported).
+    final_chain : mdsim.pipeline.chain.Chain or None
+        The route's chain at the final density nearest T_f, once run (its last
+        configuration starts the final state's entropy run).
     """
 
     def __init__(self, run_dir, task, progress=None):
@@ -125,6 +128,7 @@ class RunningTask:
         self.warnings, self.notes = [], []
         self.n_stages = 0
         self.initial_chain = None
+        self.final_chain = None
         g = self.study.gas
         self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
                                     quantum_correction=False)

@@ -16,6 +16,7 @@ import numpy as np
 from mdsim.errors import StudyError
 from mdsim.engine.potentials import PairMatrix
 from mdsim.study.datafiles import data_file, data_lines
+from mdsim.study.fitted_range import check_fitted_range
 from mdsim.study.potential import MIXING_KEYS, build_potential, check_k_ij
 from mdsim.study.schema import ANGSTROM, SCHEMA
 from mdsim.study.values import MISSING, check_table, suggest
@@ -55,6 +56,9 @@ class Gas:
     dof_per_particle : int
     units : ReducedUnits
         Reduced units of species 0.
+    fitted_range_K : (float, float) or None
+        ``[potential] fitted_range``: the temperatures the potential was
+        fitted over (:mod:`mdsim.study.fitted_range`), or None.
     """
 
     name: str
@@ -66,6 +70,7 @@ class Gas:
     ideal_heat_capacity: object
     dof_per_particle: int
     units: ReducedUnits
+    fitted_range_K: tuple = None
 
     @property
     def n_species(self):
@@ -186,6 +191,7 @@ class _Species:
     pots: list
     cutoff: float
     k_ij: object = None
+    fitted_range: list = None
 
 
 def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
@@ -198,7 +204,7 @@ def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
         ctx.fail("gas", "molar_mass", doc["gas"]["molar_mass"],
                  "a mixture gives molar_mass per species", "", "move it into each [[gas.species]]")
     mix = check_table(ctx, "potential", pot_raw, SCHEMA["potential"], allowed=MIXING_KEYS)
-    out = _Species([], [], [], [], cutoff=mix["cutoff"])
+    out = _Species([], [], [], [], cutoff=mix["cutoff"], fitted_range=mix.get("fitted_range"))
     for k, sp in enumerate(species):
         tname = f"gas.species #{k + 1}"
         vals = check_table(ctx, tname, sp, SCHEMA["species"])
@@ -210,7 +216,7 @@ def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
         out.masses.append(vals["molar_mass"])
         ptable = f"{tname} potential"
         pvals = check_table(ctx, ptable, vals["potential"], SCHEMA["potential"],
-                            allowed=set(SCHEMA["potential"]) - {"cutoff", "k_ij"})
+                            allowed=set(SCHEMA["potential"]) - {"cutoff", "k_ij", "fitted_range"})
         out.pots.append(build_potential(ctx, ptable, pvals, base_dir))
     total = sum(out.fractions)
     if abs(total - 1.0) > 1e-6:
@@ -242,7 +248,7 @@ def _read_pure(ctx, doc, gas, pot_raw, base_dir):
     return _Species(names=[gas.get("name") or "gas"], fractions=[1.0],
                     masses=[gas["molar_mass"]],
                     pots=[build_potential(ctx, "potential", pvals, base_dir)],
-                    cutoff=pvals["cutoff"])
+                    cutoff=pvals["cutoff"], fitted_range=pvals.get("fitted_range"))
 
 
 def read_gas(ctx, doc, base_dir):
@@ -285,4 +291,6 @@ def read_gas(ctx, doc, base_dir):
                quantum_correction=gas["quantum_correction"],
                ideal_heat_capacity=check_heat_capacity(ctx, gas["ideal_heat_capacity"], base_dir),
                dof_per_particle=gas["dof_per_particle"],
-               units=ReducedUnits(p0.epsilon, p0.sigma * ANGSTROM, sp.masses[0]))
+               units=ReducedUnits(p0.epsilon, p0.sigma * ANGSTROM, sp.masses[0]),
+               fitted_range_K=(None if sp.fitted_range is None
+                               else check_fitted_range(ctx, "potential", sp.fitted_range)))

@@ -63,6 +63,7 @@ def run_direct(job):
     job.notes.append("direct route: the NVE run starts with the velocities scaled so that its "
                      "energy is the canonical mean energy of the initial state")
     res = _sample_to_target(job, init, nve, T_i_red, cv_red)
+    job.final_chain = nve
     series = _series(job, start, nve)
     pressure = _relaxed_pressure(job, nve, res)
     job.notes.append("direct route: MD conserves the truncated-and-shifted model energy; T_f "

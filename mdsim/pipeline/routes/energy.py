@@ -52,6 +52,7 @@ def run_energy(job):
     finals = []
     res, samples = _newton(job, init, finals, method, share, md is not None)
     res, samples = _refine(job, init, finals, res, samples)
+    job.final_chain = _nearest(job, finals, res)
     series = {
         "newton_T_K": np.array([s.temperature_K for s in samples]),
         "newton_u_res_J_mol": np.array([s.u_res_J_mol for s in samples]),

@@ -53,6 +53,7 @@ def run_microcanonical(job):
         # T ~ 2 K / f: the kinetic series needs the stderr (f/2) x that of T, which is `share`
         nve.extend(nve.samples_for(share), mandatory=True)
     res = _sample_to_target(job, nve, si, f)
+    job.final_chain = nve
     p = nve.summary().get("pressure")
     pressure = ({"value": job.units.pressure_to_Pa(p.value),
                  "stderr": job.units.pressure_to_Pa(p.stderr)}
