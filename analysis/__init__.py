@@ -14,6 +14,8 @@ series and never runs a simulation itself.  Its modules:
   ``heat_capacity_from_spec``;
 - :mod:`analysis.entropy` - entropy generated and work lost
   (``free_expansion_entropy``);
+- :mod:`analysis.sampled_entropy` - entropy generated from sampled end
+  states (``residual_entropy`` by test-particle insertion, ``route_entropy``);
 - :mod:`analysis.inversion` - Joule coefficient and inversion curve
   (``joule_inversion``, ``fluctuation_estimate``);
 - :mod:`analysis.stats` - means and errors of correlated time series;
@@ -26,5 +28,6 @@ pair potentials.  Nothing is imported with the package: ``from analysis
 import *`` loads the modules listed in ``__all__``.
 """
 
-__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "inversion", "stats",
+__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "sampled_entropy",
+           "inversion", "stats",
            "results", "inputs", "roots"]

@@ -34,6 +34,7 @@ form = "lennard-jones"
 epsilon = "100 K"
 sigma = "3.4 angstrom"
 cutoff = 3.0
+fitted_range = ["150 K", "250 K"]
 [initial]
 temperature = "{T_STAR * EPS_K} K"
 [sweep]
@@ -112,3 +113,11 @@ def test_report_lists_each_routes_entropy(records):
     line = next(row for row in text.splitlines()
                 if row.startswith("| state point |") and "Δs" in row and "ΔT" not in row)
     assert "virial" in line and "microcanonical" in line
+
+
+def test_report_warns_of_an_inversion_far_outside_the_fitted_range(records):
+    # LJ zero-density Joule inversion T* = 25.15 (docs/references.md section 2.4): 2515 K,
+    # far above 1.5 x 250 K; the initial temperature 200 K lies inside the range
+    text = records["report"]
+    assert "- WARNING: the zero-density Joule (free-expansion) inversion temperature 2515 K" in text
+    assert "the initial temperature" not in text
