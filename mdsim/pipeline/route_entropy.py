@@ -22,7 +22,7 @@ from mdsim.pipeline.chain import MIN_STAGE_SAMPLES, SAFETY, mean_se
 from mdsim.pipeline.rundir import INSERTION_FINAL, INSERTION_INITIAL, stage_name
 from mdsim.units import R_GAS
 
-__all__ = ["sample_route_entropy", "MAX_SAMPLE_SHARE"]
+__all__ = ["sample_route_entropy", "reuse_or_clear_stage", "MAX_SAMPLE_SHARE", "EQUILIBRATION_SWEEPS"]
 
 MAX_SAMPLE_SHARE = 0.5
 """An end state's insertion run takes at most this share of the samples of the chain it
@@ -52,6 +52,32 @@ def _samples_needed(source, T_red, target_s_red):
     return int(min(cap, max(MIN_STAGE_SAMPLES, wanted)))
 
 
+def reuse_or_clear_stage(job, name, T_red, n_samples):
+    """The samples of the stage ``name`` to ask for: those of a finished file at ``T_red``
+    (read back as it is), else ``n_samples``.
+
+    A stage file or checkpoint left at another temperature or length (the task's sampling
+    was extended since, which moves T_f and the sizes) is removed, so that the stage runs
+    again for the end state the route now reports.
+    """
+    from mdsim.sampling import store
+    path = job.stage_path(name)
+    for p in (path, store.part_path(path)):
+        if not p.is_file():
+            continue
+        try:
+            attrs = store.read_attrs(p)
+            same_T = float(attrs["temperature_red"]) == float(T_red)
+            n_file = int(attrs["n_samples"])
+        except (OSError, KeyError, ValueError):
+            continue  # a damaged file: the sampler moves it aside
+        if same_T and p == path:
+            return n_file
+        if not same_T or n_file != n_samples:
+            p.unlink()
+    return n_samples
+
+
 def _end_state(job, label, chain_id, source, T_red, target_s_red):
     """s_res (:class:`analysis.sampled_entropy.ResidualEntropy`) and the stage at one end state.
 
@@ -64,8 +90,9 @@ def _end_state(job, label, chain_id, source, T_red, target_s_red):
     from mdsim.engine.insertion import METHOD, insertion_tail
     last = source.results[-1] if source.results else source.pilot
     system = source.continue_system(last)
-    n = _samples_needed(source, T_red, target_s_red)
-    stage = job.stage(stage_name(label, 0), system, METHOD, T_red, n_eq=EQUILIBRATION_SWEEPS,
+    name = stage_name(label, 0)
+    n = reuse_or_clear_stage(job, name, T_red, _samples_needed(source, T_red, target_s_red))
+    stage = job.stage(name, system, METHOD, T_red, n_eq=EQUILIBRATION_SWEEPS,
                       n_samples=n, interval=1, seed=job.stage_seed(chain_id, 1))
     tails = [insertion_tail(system, a) for a in range(system.pairs.n_species)]
     res = residual_entropy(stage.samples, T_red, system.density, system.fractions_a, tails,

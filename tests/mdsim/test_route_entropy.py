@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
+from mdsim.errors import ConvergenceError
 from mdsim.pipeline.run_study import run_study
 from mdsim.study.reader import read_study
 from mdsim.units import N_A, R_GAS
@@ -121,3 +122,27 @@ def test_report_warns_of_an_inversion_far_outside_the_fitted_range(records):
     text = records["report"]
     assert "- WARNING: the zero-density Joule (free-expansion) inversion temperature 2515 K" in text
     assert "the initial temperature" not in text
+
+
+def test_an_insertion_stage_left_at_another_temperature_is_run_again(tmp_path):
+    """A task extended after its entropy was sampled reports a new T_f: the final state's
+    insertion stage at the old T_f must not be read back (nor refused as a settings clash)."""
+    from types import SimpleNamespace
+
+    from mdsim.engine.potentials import LennardJones, PairMatrix
+    from mdsim.engine.system import System
+    from mdsim.pipeline.route_entropy import reuse_or_clear_stage
+    from mdsim.sampling.state_point import sample_state_point
+    path = tmp_path / "insertion-final-00.h5"
+    system = System.cubic(PairMatrix([LennardJones(1.0, 1.0)], cutoff=2.5), [64], 0.3)
+    try:
+        sample_state_point(system.place_on_lattice(seed=1), "mc-nvt-insertion",
+                           temperature=2.0, n_equilibration=5, n_samples=30, interval=1,
+                           seed=3, path=path)
+    except ConvergenceError:  # a short run may still drift: the file is complete all the same
+        pass
+    job = SimpleNamespace(stage_path=lambda name: tmp_path / f"{name}.h5")
+    assert reuse_or_clear_stage(job, "insertion-final-00", 2.0, 500) == 30  # read back as it is
+    assert path.is_file()
+    assert reuse_or_clear_stage(job, "insertion-final-00", 2.1, 500) == 500  # another T_f
+    assert not path.is_file()
