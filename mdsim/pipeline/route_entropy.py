@@ -22,11 +22,16 @@ from mdsim.pipeline.chain import MIN_STAGE_SAMPLES, SAFETY, mean_se
 from mdsim.pipeline.rundir import INSERTION_FINAL, INSERTION_INITIAL, stage_name
 from mdsim.units import R_GAS
 
-__all__ = ["sample_route_entropy", "reuse_or_clear_stage", "MAX_SAMPLE_SHARE", "EQUILIBRATION_SWEEPS"]
+__all__ = ["sample_route_entropy", "reuse_or_clear_stage", "MAX_SAMPLE_SHARE",
+           "ENTROPY_STDERR_FLOOR_RED", "EQUILIBRATION_SWEEPS"]
 
-MAX_SAMPLE_SHARE = 0.5
+MAX_SAMPLE_SHARE = 0.25
 """An end state's insertion run takes at most this share of the samples of the chain it
 continues (at least the minimum stage), so the entropy costs a fraction of the route."""
+ENTROPY_STDERR_FLOOR_RED = 0.002
+"""No end state is sampled for a standard error of s_res below this (k per particle,
+0.017 J/(mol K)): a tight Delta T target would otherwise make the entropy cost as much
+as the route, for a precision of Delta s far beyond what a free expansion asks of it."""
 EQUILIBRATION_SWEEPS = 100
 """Sweeps before the first sample: the start configuration is already at the density, and
 at T_f or close to it; equilibration detection drops any transient left."""
@@ -123,9 +128,9 @@ def sample_route_entropy(job, res):
     -----
     Each end state is sized for the standard error SAFETY x c_v_ig(T_i) x
     target / T_i / sqrt(2) of s_res, the entropy counterpart of the target
-    of Delta T, capped at :data:`MAX_SAMPLE_SHARE` of the samples of the
-    chain it continues (:func:`_samples_needed`); the error reached is
-    reported, whatever it is.
+    of Delta T, but not below :data:`ENTROPY_STDERR_FLOOR_RED`, and capped at
+    :data:`MAX_SAMPLE_SHARE` of the samples of the chain it continues
+    (:func:`_samples_needed`); the error reached is reported, whatever it is.
     """
     if job.initial_chain is None or job.final_chain is None:
         return _unavailable("the route kept no chain at one of its end states")
@@ -138,8 +143,8 @@ def sample_route_entropy(job, res):
     except StudyError as exc:
         return _unavailable(str(exc))
     u = job.units
-    target_s = SAFETY * float(job.cv_ig.cv(job.T_i)) / R_GAS * job.target_K / job.T_i \
-        / math.sqrt(2.0)
+    target_s = max(ENTROPY_STDERR_FLOOR_RED, SAFETY * float(job.cv_ig.cv(job.T_i)) / R_GAS
+                   * job.target_K / job.T_i / math.sqrt(2.0))
     try:
         ini, _ = _end_state(job, INSERTION_INITIAL, 50, job.initial_chain,
                             u.temperature_to_reduced(job.T_i), target_s)
