@@ -15,6 +15,8 @@ series and never runs a simulation itself.  Its modules:
   ``heat_capacity_from_spec``;
 - :mod:`analysis.entropy` - entropy generated and work lost
   (``free_expansion_entropy``);
+- :mod:`analysis.sampled_entropy` - entropy generated from sampled end
+  states (``residual_entropy`` by test-particle insertion, ``route_entropy``);
 - :mod:`analysis.inversion` - Joule coefficient and inversion curve
   (``joule_inversion``, ``fluctuation_estimate``);
 - :mod:`analysis.phases` - evidence that a sampled state is not one
@@ -30,5 +32,5 @@ pair potentials.  Nothing is imported with the package: ``from analysis
 import *`` loads the modules listed in ``__all__``.
 """
 
-__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "inversion", "phases",
-           "stats", "results", "inputs", "roots"]
+__all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "sampled_entropy",
+           "inversion", "phases", "stats", "results", "inputs", "roots"]

@@ -88,6 +88,7 @@ def format_inversion_table(out):
                      f"{st['free_expansion']}: Joule coefficient (dT/dV)_U = "
                      f"{st['joule_coefficient_K_mol_m3']:.6g} K mol/m^3 (B2 + B3)")
     lines += [f"  note: {n}" for n in out["notes"]]
+    lines += [f"  warning: {w}" for w in out.get("warnings", [])]
     return lines
 
 

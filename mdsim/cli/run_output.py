@@ -48,7 +48,7 @@ def _array_lines(result, study_arg):
 
 
 def result_lines(summary):
-    """One line per state point: Delta T and T_f of its best route, each with its error.
+    """One line per state point: Delta T, T_f and Delta s of its best route, each with its error.
 
     Parameters
     ----------
@@ -77,13 +77,45 @@ def result_lines(summary):
             continue
         dT = value_with_error(entry["value"], entry.get("stderr"), "K")
         T_f = value_with_error(fin["temperature_K"], fin.get("temperature_stderr_K"), "K", 6)
-        lines.append(f"state point {rec['index']}: Delta T = {dT}, T_f = {T_f} "
-                     f"({ROUTE_LABELS.get(source, source)})")
+        lines.append(f"state point {rec['index']}: Delta T = {dT}, T_f = {T_f}"
+                     f"{_entropy_text(rec, source)} ({ROUTE_LABELS.get(source, source)})")
         if rec.get("two_phase"):
             lines.append(f"state point {rec['index']}: warning: TWO-PHASE final state: the "
                          "sample is not one stable fluid (evidence in report.md and "
                          "results.json); Delta T is that of the simulated sample")
     return lines
+
+
+def fitted_range_lines(summary):
+    """The state points' warnings that a temperature lies far outside the potential's fitted range.
+
+    >>> rec = {"index": 1, "warnings": ["the initial temperature 900 K lies far outside the "
+    ...                                 "potential's fitted range ... ([potential] fitted_range)",
+    ...                                 "something else"]}
+    >>> fitted_range_lines({"state_points": [rec]})  # doctest: +ELLIPSIS
+    ["warning: state point 1: the initial temperature 900 K lies far outside ...fitted_range)"]
+    """
+    from mdsim.study.fitted_range import MARK
+    return [f"warning: state point {rec['index']}: {w}"
+            for rec in summary.get("state_points", []) for w in rec.get("warnings", [])
+            if MARK in w]
+
+
+def _entropy_text(rec, source):
+    """", Delta s = ..." of the route that gave T_f, or its reason for being absent ("" if none).
+
+    >>> _entropy_text({"delta_s_J_molK": {"energy": {"value": 5.3994, "stderr": 0.0939}}}, "energy")
+    ', Delta s = 5.399 ± 0.094 J/(mol K)'
+    >>> _entropy_text({"delta_s_J_molK": {"energy": {"value": None, "unavailable": "dense"}}},
+    ...               "energy")
+    ', Delta s not available (dense)'
+    """
+    entry = (rec.get("delta_s_J_molK") or {}).get(source)
+    if not entry:
+        return ""
+    if entry.get("value") is None:
+        return f", Delta s not available ({entry.get('unavailable') or 'no reason given'})"
+    return f", Delta s = {value_with_error(entry['value'], entry.get('stderr'), 'J/(mol K)')}"
 
 
 def print_study_run(result, study_arg, json_out=False, quiet=False):
@@ -115,7 +147,7 @@ def print_study_run(result, study_arg, json_out=False, quiet=False):
     if json_out:
         print_json(result.summary)
     from mdsim.pipeline.prepare import as_run_dir
-    lines = result_lines(result.summary)
+    lines = result_lines(result.summary) + fitted_range_lines(result.summary)
     if lines:
         say("\n".join(lines), quiet)
     n = len(result.tasks)

@@ -14,7 +14,8 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.rng`, :mod:`~mdsim.engine.neighbours`,
 :mod:`~mdsim.engine.forces`, :mod:`~mdsim.engine.integrator` and
 :mod:`~mdsim.engine.md` (molecular dynamics), :mod:`~mdsim.engine.mc_cells`,
-:mod:`~mdsim.engine.mc_kernels` and :mod:`~mdsim.engine.montecarlo` (Monte Carlo).
+:mod:`~mdsim.engine.mc_kernels` and :mod:`~mdsim.engine.montecarlo` (Monte Carlo),
+:mod:`~mdsim.engine.insertion` (test-particle insertion).
 """
 from pathlib import Path as _Path
 

@@ -309,9 +309,11 @@ def inversion_summary(study, max_density_mol_m3=None, points=DEFAULT_CURVE_POINT
         "simulation", the latter with ``stderr_K``);
         ``densities_without_inversion_mol_m3``; ``virial_order``;
         ``labels`` (what each number means); ``notes``; ``simulation``
-        (the grid settings and estimates, or None).
+        (the grid settings and estimates, or None); ``warnings`` (inversion
+        temperatures far outside the potential's ``fitted_range``).
     """
     from analysis.results import to_plain
+    from mdsim.study.fitted_range import inversion_warnings
     s = _simulation_settings(simulation) if simulate else None
     inv, _ = virial_inversion_curve(study, max_density_mol_m3, points)
     curve = list(inv.joule_inversion_curve)
@@ -326,7 +328,7 @@ def inversion_summary(study, max_density_mol_m3=None, points=DEFAULT_CURVE_POINT
                          + ", ".join(f"{m:.6g}" for m in miss)
                          + " mol/m^3 (sample a wider temperature range or longer)")
             missing.extend(miss)
-    return to_plain({
+    out = {
         "study": study.name,
         "joule_inversion_zero_density_K": inv.joule_inversion_zero_density_K,
         "joule_thomson_inversion_zero_pressure_K": inv.joule_thomson_inversion_zero_pressure_K,
@@ -337,4 +339,6 @@ def inversion_summary(study, max_density_mol_m3=None, points=DEFAULT_CURVE_POINT
         "notes": notes,
         "simulation": sim_info,
         **({"initial_state": initial_state_record(study)} if initial_state else {}),
-    })
+    }
+    out["warnings"] = inversion_warnings(study.gas.fitted_range_K, out)
+    return to_plain(out)

@@ -70,6 +70,7 @@ def build_report(run_dir, *, plots=True):
         nothing is written.  Missing or failed tasks never raise: they are
         listed.
     """
+    from mdsim.study.fitted_range import inversion_warnings
     from mdsim.study.reader import read_study
     rd = RunDir(run_dir)
     if not rd.study_file.is_file():
@@ -88,6 +89,7 @@ def build_report(run_dir, *, plots=True):
     # the inversion is a result, not a figure: computed with or without plots
     inversion, states, inversion_notes = run_inversion(vg, records)
     if inversion is not None:
+        inversion["warnings"] = inversion_warnings(study.gas.fitted_range_K, inversion)
         summary["inversion"] = inversion
     written = []
     if plots:

@@ -12,7 +12,8 @@ import time
 
 from mdsim.files import atomic_write_text
 from mdsim.numbers import value_with_error
-from mdsim.pipeline.report_tables import initial_state_table, results_table, virial_table
+from mdsim.pipeline.report_tables import (entropy_table, initial_state_table, results_table,
+                                          virial_table)
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.results_files import seed_text
 from mdsim.pipeline.summary import best_simulation
@@ -201,8 +202,13 @@ def _results(points, records, rd):
          "significant figures, the value rounded to the same place). "
          "T_f is from the best route available (energy, then microcanonical, then direct, "
          "then virial B2+B3). Δs is the entropy generated per mole, from the virial B2+B3 "
-         "route's end states for every row (not yet from the simulation routes' own).", ""]
+         "route's end states for every row; each route's own Δs is in the next table.", ""]
     L += results_table(points, records) + [""]
+    L += ["The entropy generated per mole by each route, s(T_f, rho_f) - s(T_i, rho_i): the "
+          "virial routes from the truncated series, each simulation route from its own end "
+          "states (residual entropy (u_res - a_res)/T, a_res by test-particle insertion on "
+          "canonical samples at T_i and at the route's T_f; docs/physics.md section 6.2):", ""]
+    L += entropy_table(points, records) + [""]
     L += _two_phase_lines(points, records)
     L += ["The particles column gives N of the state point's simulation tasks, per route "
           "when the routes differ. The virial coefficients of the pair potential at T_i "
@@ -289,6 +295,7 @@ def _inversion(inversion):
          "different process (flow through a valve at constant enthalpy), listed because "
          "the two are often confused.", ""]
     L += [f"- {n}" for n in inversion.get("notes", [])[1:]]
+    L += [f"- WARNING: {w}" for w in inversion.get("warnings", [])]
     return L + [""]
 
 

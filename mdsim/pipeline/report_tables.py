@@ -10,7 +10,8 @@ from mdsim.numbers import value_with_error
 from mdsim.pipeline.summary import value_stderr
 from mdsim.study.routes import ROUTE_LABELS as ROUTE_NAMES, ROUTES, SIMULATION_ROUTES
 
-__all__ = ["cell", "particle_cell", "results_table", "virial_table", "initial_state_table",
+__all__ = ["cell", "particle_cell", "results_table", "entropy_table", "virial_table",
+           "initial_state_table",
            "VIRIAL_IN_CM"]
 
 VIRIAL_IN_CM = (("B2_m3_mol", 1e6, "cm^3/mol"), ("dB2_dT_m3_molK", 1e6, "cm^3/(mol K)"),
@@ -86,6 +87,49 @@ def results_table(points, records):
         cells += [cell(fin.get("temperature_K"), fin.get("temperature_stderr_K"), 6),
                   str(fin.get("source") or "-"), cell(rec.get("entropy_generated_J_molK"))]
         lines.append("| " + " | ".join(cells) + " |")
+    return lines
+
+
+def entropy_table(points, records):
+    """The Markdown table of the entropy generated, Delta s per mole, by every route.
+
+    Each simulation route's Delta s comes from its own end states
+    (test-particle insertion); a route where it could not be computed shows
+    "n/a" and its reason is listed below the table.
+
+    Returns
+    -------
+    list of str
+        The table's lines, then one line per reason.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> rec = {"delta_s_J_molK": {"virial_b2b3": {"value": 5.7047, "stderr": None},
+    ...                           "energy": {"value": 5.41, "stderr": 0.094},
+    ...                           "direct": {"value": None, "stderr": None, "unavailable": "dense"}}}
+    >>> entropy_table([SimpleNamespace(index=0)], [rec])[2]
+    '| 0 | - | 5.7047 | 5.410 ± 0.094 | - | n/a |'
+    >>> entropy_table([SimpleNamespace(index=0)], [rec])[-1]
+    '- state point 0, direct: dense'
+    """
+    head = ["state point"] + [f"Δs {ROUTE_NAMES[r]} (J/(mol K))" for r in ROUTES]
+    lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
+    reasons = []
+    for sp, rec in zip(points, records):
+        cells = [str(sp.index)]
+        for route in ROUTES:
+            entry = (rec.get("delta_s_J_molK") or {}).get(route)
+            if entry and entry.get("value") is None and entry.get("unavailable"):
+                cells.append("n/a")
+                reasons.append(f"- state point {sp.index}, {ROUTE_NAMES[route]}: "
+                               f"{entry['unavailable']}")
+                continue
+            v, s = value_stderr(entry)
+            cells.append(cell(v, s))
+        lines.append("| " + " | ".join(cells) + " |")
+    if reasons:
+        lines += ["", "Not available:", ""] + reasons
     return lines
 
 

@@ -8,6 +8,8 @@
     virial routes' from the B2 + B3 series), ``initial_density_from`` says
     how, and ``initial_pressure_sampled_*`` is the pressure a simulation
     route sampled at its initial state.
+    ``entropy_generated_J_molK`` is each route's own Delta s (empty where it is
+    not available; the reason is in ``results.json``).
 ``results.json``
     :func:`mdsim.pipeline.summary.run_summary` of the state-point records
     (the shape ``mdsim run --json`` prints), plus ``tasks`` and ``files``
@@ -33,6 +35,7 @@ CSV_COLUMNS = (
     "delta_T_K", "delta_T_stderr_K", "final_temperature_K", "final_temperature_stderr_K",
     "final_density_mol_m3", "final_pressure_Pa", "final_pressure_stderr_Pa",
     "task_index", "seed", "n_particles", "stopped_by", "cpu_seconds", "warnings",
+    "entropy_generated_J_molK", "entropy_generated_stderr_J_molK",
 )
 
 
@@ -58,6 +61,8 @@ def _virial_rows(sp, rec, base):
         row = dict.fromkeys(CSV_COLUMNS, "")
         row.update(base, route=route, status="done" if value is not None else "unavailable",
                    initial_density_from=ini.get("density_from") or "")
+        ds, _ = value_stderr((rec.get("delta_s_J_molK") or {}).get(route))
+        row.update(entropy_generated_J_molK=_num(ds))
         if value is not None:
             T_f = sp.temperature_K + value
             rho = ini.get("density_mol_m3")
@@ -92,7 +97,10 @@ def _task_row(task, base, gathered, failed, missing):
         row.update(initial_density_from=res.get("initial_density_from") or "",
                    initial_pressure_sampled_Pa=_num(pi),
                    initial_pressure_sampled_stderr_Pa=_num(pis))
-        row.update(status="done", delta_T_K=_num(dT), delta_T_stderr_K=_num(dTs),
+        ds, dss = value_stderr(res.get("entropy_generated_J_molK"))
+        row.update(status="done", entropy_generated_J_molK=_num(ds),
+                   entropy_generated_stderr_J_molK=_num(dss),
+                   delta_T_K=_num(dT), delta_T_stderr_K=_num(dTs),
                    final_temperature_K=_num(Tf), final_temperature_stderr_K=_num(Tfs),
                    final_density_mol_m3=_num(res.get("final_density_mol_m3")),
                    final_pressure_Pa=_num(pf), final_pressure_stderr_Pa=_num(pfs),

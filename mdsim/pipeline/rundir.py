@@ -23,7 +23,9 @@ state given by pressure), ``final-density-guessK``
 (:func:`final_density_guess`: the energy route's K-th temperature guess at
 the final density), :data:`FINAL_STATE_NVE` (the microcanonical route's
 final state), :data:`WALL_REMOVED_FILLING` and :data:`WALL_REMOVED_RELAXED`
-(the direct route: the gas filling the enlarged box, then the relaxed tail).
+(the direct route: the gas filling the enlarged box, then the relaxed tail),
+:data:`INSERTION_INITIAL` and :data:`INSERTION_FINAL` (canonical runs with
+test-particle insertions at a route's end states, for its entropy).
 
 Every path of a run directory comes from :class:`RunDir`.
 
@@ -46,7 +48,8 @@ from mdsim.study.writer import INPUTS_DIR
 __all__ = ["RunDir", "LOG_FORMAT", "space_needed_bytes", "stage_name", "final_density_guess",
            "initial_state_try", "INITIAL_STATE",
            "FINAL_DENSITY_GUESS", "FINAL_STATE_NVE", "WALL_REMOVED_FILLING",
-           "WALL_REMOVED_RELAXED", "PHASE_SNAPSHOTS", "STAGE_LABELS"]
+           "WALL_REMOVED_RELAXED", "PHASE_SNAPSHOTS", "INSERTION_INITIAL", "INSERTION_FINAL",
+           "STAGE_LABELS"]
 
 TASKS_FILE = "tasks.json"
 LOG_FORMAT = "%(asctime)s %(levelname)s %(name)s: %(message)s"
@@ -71,8 +74,12 @@ WALL_REMOVED_RELAXED = "wall-removed-relaxed"
 PHASE_SNAPSHOTS = "phase-snapshot"
 """Stage label of the short runs continuing a route's final state whose end configurations
 the phase check reads (:mod:`mdsim.pipeline.phase_check`)."""
+INSERTION_INITIAL = "insertion-initial"
+"""Stage label of the canonical run with test-particle insertions at the initial state."""
+INSERTION_FINAL = "insertion-final"
+"""Stage label of the canonical run with test-particle insertions at (T_f, rho_f)."""
 STAGE_LABELS = (INITIAL_STATE, FINAL_DENSITY_GUESS, FINAL_STATE_NVE, WALL_REMOVED_FILLING,
-                WALL_REMOVED_RELAXED, PHASE_SNAPSHOTS)
+                WALL_REMOVED_RELAXED, PHASE_SNAPSHOTS, INSERTION_INITIAL, INSERTION_FINAL)
 """Every stage file of this version starts with one of these."""
 
 

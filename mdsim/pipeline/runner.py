@@ -18,6 +18,7 @@ from analysis.results import to_plain
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
 from mdsim.pipeline.initial_state import sampled_pressure
 from mdsim.pipeline.phase_check import check_phases
+from mdsim.pipeline.route_entropy import sample_route_entropy
 from mdsim.pipeline.rundir import RunDir
 from mdsim.pipeline.routes import ROUTE_RUNNERS
 from mdsim.pipeline.task import CpuLedger, RunningTask
@@ -52,6 +53,9 @@ def run_task(run_dir, index, progress=None):
         :mod:`mdsim.pipeline.initial_state`), ``initial_density_from`` (how),
         ``planned_initial_density_mol_m3`` (the plan's), ``requested_initial_pressure_Pa``
         (or None), ``pressure_iteration`` (the densities tried), ``stopped_by``, ``cpu_seconds``,
+        ``entropy_generated_J_molK`` (Delta s from the route's own end states, {value,
+        stderr, ...} or value None with ``unavailable``,
+        :func:`mdsim.pipeline.route_entropy.sample_route_entropy`), ``stopped_by``, ``cpu_seconds``,
         ``n_particles``, ``warnings``, ``notes``, ``method``, ``details``,
         ``n_stages``, ``target_stderr_K``, ``wall_seconds_last_run``, ``two_phase``
         (bool) and ``phase_check`` (the evidence,
@@ -165,9 +169,11 @@ def _run(rd, index, task, progress, seen):
     res, series, pressure, extra = ROUTE_RUNNERS[task["route"]](job)
     job.stop_reason(res.delta_T_stderr_K)  # the target met is the reason, budget spent or not
     phases = check_phases(job, res, _initial_pressure(job), pressure)
+    entropy = sample_route_entropy(job, res)
     result = _result(job, res, pressure, extra)
     result["two_phase"] = phases["two_phase"]
     result["phase_check"] = to_plain(phases)
+    result["entropy_generated_J_molK"] = entropy
     result["wall_seconds_last_run"] = time.time() - wall0
     if job.stopped_by == "cpu budget":
         result["warnings"].append(

@@ -13,7 +13,9 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
                 "density_mol_m3", "source"},
       "delta_T_K": {"virial_b2": {"value", "stderr": null}, "virial_b2b3": {...},
                     "energy": {"value", "stderr"}, "microcanonical": ..., "direct": ...},
-      "entropy_generated_J_molK": float or null,
+      "entropy_generated_J_molK": float or null,   (the virial route's, B2+B3 else B2)
+      "delta_s_J_molK": {"virial_b2": {"value", "stderr": null}, "virial_b2b3": {...},
+                         "energy": {"value", "stderr"}, ...},
       "virial": {"B2_m3_mol", "dB2_dT_m3_molK", "B3_m6_mol2", "dB3_dT_m6_mol2K",
                  "temperature_K", "quantum_correction"},
       "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method",
@@ -27,6 +29,9 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
 
 Routes not run (or not available, such as a virial route where the series
 does not converge) are absent from ``delta_T_K``, and a warning says why.
+``delta_s_J_molK`` is the entropy generated per mole by each route from its
+own end states (docs/physics.md section 6); a simulation route where it
+could not be computed has ``value`` null and ``unavailable`` (why).
 ``final`` comes from the best route available, in the order
 :data:`FINAL_PREFERENCE`; ``final.source`` names it.
 
@@ -50,7 +55,7 @@ from mdsim.study.statepoints import (ideal_heat_capacity, resolve_initial_densit
                                      virial_warnings)
 
 __all__ = ["virial_coefficients", "virial_summary", "state_point_record", "run_summary",
-           "value_stderr", "best_simulation"]
+           "value_stderr", "best_simulation", "initial_temperature_warnings"]
 
 # A virial B2+B3 result further than this many combined standard errors from
 # the best simulation route gets a warning (and more than the target itself).
@@ -124,7 +129,8 @@ def virial_summary(study, sp):
         ``virial_b2b3`` entries ``{value, stderr}`` (absent when the
         series does not hold; stderr None, except for rigid molecules'
         B2 + B3, where it carries the Monte Carlo error of B3); ``entropy_generated_J_molK`` (B2+B3, else
-        B2, else None); ``virial`` (coefficients at T_i, see
+        B2, else None); ``delta_s_J_molK`` (each virial route's entropy
+        generated, ``{value, stderr: None}``); ``virial`` (coefficients at T_i, see
         :func:`virial_coefficients`); ``warnings``.
 
     Raises
@@ -147,7 +153,7 @@ def virial_summary(study, sp):
     cv_ig = ideal_heat_capacity(study)
     rho_i, how = resolve_initial_density(study, sp)
     T_i, r = sp.temperature_K, sp.volume_ratio
-    warnings = list(virial_warnings(study))
+    warnings = list(virial_warnings(study)) + initial_temperature_warnings(study, sp)
     results = {}
     for order, route in ((3, "virial_b2b3"), (2, "virial_b2")):
         try:
@@ -185,9 +191,19 @@ def virial_summary(study, sp):
         "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": _num(stderr[route])}
                       for route, res in sorted(results.items())},
         "entropy_generated_J_molK": _num(best.entropy_generated_J_molK) if best else None,
+        "delta_s_J_molK": {route: {"value": _num(res.entropy_generated_J_molK), "stderr": None}
+                           for route, res in sorted(results.items())},
         "virial": virial_coefficients(study, T_i),
         "warnings": warnings,
     }
+
+
+def initial_temperature_warnings(study, sp):
+    """[the warning] when the state point's T_i lies far outside the potential's fitted range."""
+    from mdsim.study.fitted_range import fitted_range_warning
+    w = fitted_range_warning(study.gas.fitted_range_K, [sp.temperature_K],
+                             "the initial temperature")
+    return [] if w is None else [w]
 
 
 def value_stderr(entry):
@@ -208,8 +224,21 @@ def best_simulation(record):
     return None
 
 
-def _simulation_entries(route_results, delta, finals, warnings):
-    """Fold the simulation routes' task results into ``delta`` and ``finals``.
+def _entropy_entry(res):
+    """A task result's entropy generated as {value, stderr[, unavailable]} (J/(mol K))."""
+    entry = res.get("entropy_generated_J_molK")
+    if not isinstance(entry, dict):
+        return {"value": None, "stderr": None,
+                "unavailable": "not computed by the version of the tool that ran the task"}
+    value, stderr = value_stderr(entry)
+    out = {"value": value, "stderr": stderr}
+    if entry.get("unavailable"):
+        out["unavailable"] = entry["unavailable"]
+    return out
+
+
+def _simulation_entries(route_results, delta, finals, warnings, entropy):
+    """Fold the simulation routes' task results into ``delta``, ``finals`` and ``entropy``.
 
     Returns
     -------
@@ -227,6 +256,7 @@ def _simulation_entries(route_results, delta, finals, warnings):
             continue
         value, stderr = value_stderr(res.get("delta_T_K"))
         delta[route] = {"value": value, "stderr": stderr}
+        entropy[route] = _entropy_entry(res)
         T_f, T_f_err = value_stderr(res.get("final_temperature_K"))
         p_f, _ = value_stderr(res.get("final_pressure_Pa"))
         rho_f = _num(res.get("final_density_mol_m3"))
@@ -356,13 +386,16 @@ def state_point_record(study, sp, route_results, virial=None):
         # a dense state given by pressure: simulation results (if any) still stand
         vs = None
         warnings.append(f"virial routes: {_one_line(exc)}")
+        warnings.extend(initial_temperature_warnings(study, sp))
     if vs is not None:
         warnings.extend(vs["warnings"])
     delta = dict(vs["delta_T_K"]) if vs else {}
     finals = {}
     if vs and vs["final"]:
         finals["virial_b2b3"] = dict(vs["final"], temperature_stderr_K=None)
-    simulation, initial_pressure = _simulation_entries(route_results, delta, finals, warnings)
+    entropy = dict(vs["delta_s_J_molK"]) if vs else {}
+    simulation, initial_pressure = _simulation_entries(route_results, delta, finals, warnings,
+                                                       entropy)
     initial = _initial_state(vs, sp, route_results, initial_pressure)
     final = _final_state(finals, initial, sp, warnings)
     disagreement = _disagreement(delta)
@@ -377,6 +410,8 @@ def state_point_record(study, sp, route_results, virial=None):
         "delta_T_K": {route: delta[route] for route in VIRIAL_ROUTES + SIMULATION_ROUTES
                       if route in delta},
         "entropy_generated_J_molK": vs["entropy_generated_J_molK"] if vs else None,
+        "delta_s_J_molK": {route: entropy[route] for route in VIRIAL_ROUTES + SIMULATION_ROUTES
+                           if route in entropy},
         "virial": vs["virial"] if vs else virial_coefficients(study, sp.temperature_K),
         "simulation": simulation,
         "two_phase": any(bool(entry.get("two_phase")) for entry in simulation.values()),

@@ -109,6 +109,8 @@ class RunningTask:
     final_chain : mdsim.pipeline.chain.Chain or None
         The route's chain at the final state, once run, and ``final_first_stage``
         the first of its stages that samples it (:mod:`mdsim.pipeline.phase_check`).
+        For the energy route it is the chain at the final density nearest T_f, whose last
+        configuration also starts the final state's entropy run.
     """
 
     def __init__(self, run_dir, task, progress=None):

@@ -2,7 +2,7 @@
 
 :func:`sample_state_point` drives any sampler that follows the project's
 sampler protocol (``MCSampler`` for "mc-nvt"/"mc-nve", ``MDSampler`` for
-"md-nvt"/"md-nve"), streams the samples into one HDF5 run file
+"md-nvt"/"md-nve", ``InsertionSampler`` for "mc-nvt-insertion"), streams the samples into one HDF5 run file
 (:mod:`mdsim.sampling.store`) with a checkpoint after every block, and resumes an
 interrupted run from its ``NAME.h5.part`` file.  Because the samplers are
 deterministic given their state, a resumed run gives exactly the numbers of
@@ -32,6 +32,7 @@ METHODS = {
     "mc-nve": ("mdsim.engine.montecarlo", "MCSampler"),
     "md-nvt": ("mdsim.engine.md", "MDSampler"),
     "md-nve": ("mdsim.engine.md", "MDSampler"),
+    "mc-nvt-insertion": ("mdsim.engine.insertion", "InsertionSampler"),
 }
 DEFAULT_CHECKPOINT_EVERY = 100
 
@@ -118,7 +119,7 @@ def sample_state_point(system, method, temperature=None, energy=None, *, n_equil
     ----------
     system : System
         Box, species, interactions and a start configuration (reduced units).
-    method : {"mc-nvt", "mc-nve", "md-nvt", "md-nve"}
+    method : {"mc-nvt", "mc-nve", "md-nvt", "md-nve", "mc-nvt-insertion"}
     temperature : float, optional
         kT, reduced (canonical methods).
     energy : float, optional

@@ -16,6 +16,7 @@ import numpy as np
 from mdsim.errors import StudyError
 from mdsim.engine.potentials import PairMatrix
 from mdsim.study.datafiles import data_file, data_lines
+from mdsim.study.fitted_range import check_fitted_range
 from mdsim.study.molecule import (MOLECULE_FORM, check_dof, mean_kinetic_dof, read_c9,
                                   read_molecule, species_molecules)
 from mdsim.study.potential import MIXING_KEYS, build_potential, check_k_ij
@@ -73,6 +74,9 @@ class Gas:
         site potential (for its reduced units and density bounds).
     three_body_c9_K_A9 : float
         Axilrod-Teller C9/k in K angstrom^9 (0: pairwise additive).
+    fitted_range_K : (float, float) or None
+        ``[potential] fitted_range``: the temperatures the potential was
+        fitted over (:mod:`mdsim.study.fitted_range`), or None.
     """
 
     name: str
@@ -88,6 +92,7 @@ class Gas:
     units: ReducedUnits
     molecules: list = None
     three_body_c9_K_A9: float = 0.0
+    fitted_range_K: tuple = None
 
     @property
     def kinetic_dof(self):
@@ -316,6 +321,7 @@ class _Species:
     k_ij: object = None
     molecules: list = dataclasses.field(default_factory=list)
     c9: float = 0.0
+    fitted_range: list = None
 
 
 def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
@@ -328,7 +334,7 @@ def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
         ctx.fail("gas", "molar_mass", doc["gas"]["molar_mass"],
                  "a mixture gives molar_mass per species", "", "move it into each [[gas.species]]")
     mix = check_table(ctx, "potential", pot_raw, SCHEMA["potential"], allowed=MIXING_KEYS)
-    out = _Species([], [], [], [], cutoff=mix["cutoff"])
+    out = _Species([], [], [], [], cutoff=mix["cutoff"], fitted_range=mix.get("fitted_range"))
     for k, sp in enumerate(species):
         tname = f"gas.species #{k + 1}"
         vals = check_table(ctx, tname, sp, SCHEMA["species"])
@@ -341,7 +347,7 @@ def _read_mixture(ctx, doc, gas, pot_raw, base_dir):
         ptable = f"{tname} potential"
         pvals = check_table(ctx, ptable, vals["potential"], SCHEMA["potential"],
                             allowed=set(SCHEMA["potential"]) - {"cutoff", "k_ij",
-                                                                "three_body_c9"})
+                                                                "three_body_c9", "fitted_range"})
         _add_potential(ctx, out, ptable, pvals, base_dir, vals["name"], vals["molar_mass"])
     total = sum(out.fractions)
     if abs(total - 1.0) > 1e-6:
@@ -375,7 +381,8 @@ def _read_pure(ctx, doc, gas, pot_raw, base_dir):
         ctx.fail("potential", None, MISSING, "missing table", "",
                  'add a [potential] table with form = "lennard-jones", epsilon and sigma')
     out = _Species(names=[gas.get("name") or "gas"], fractions=[1.0],
-                   masses=[gas["molar_mass"]], pots=[], cutoff=pvals["cutoff"])
+                   masses=[gas["molar_mass"]], pots=[], cutoff=pvals["cutoff"],
+                   fitted_range=pvals.get("fitted_range"))
     _add_potential(ctx, out, "potential", pvals, base_dir, out.names[0], gas["molar_mass"])
     if "three_body_c9" in pvals:
         if out.molecules != [None]:
@@ -449,5 +456,7 @@ def read_gas(ctx, doc, base_dir):
                                                        kinetic),
                dof_per_particle=dof,
                units=ReducedUnits(p0.epsilon, p0.sigma * ANGSTROM, sp.masses[0]),
-               molecules=molecules, three_body_c9_K_A9=sp.c9)
+               molecules=molecules, three_body_c9_K_A9=sp.c9,
+               fitted_range_K=(None if sp.fitted_range is None
+                               else check_fitted_range(ctx, "potential", sp.fitted_range)))
 

@@ -31,7 +31,7 @@ FORM_KEYS = {
     "table": ({"table_file"}, set()),
 }
 #: Keys of [potential] that belong to the whole gas, not to one form.
-MIXING_KEYS = {"cutoff", "k_ij", "source", "three_body_c9"}
+MIXING_KEYS = {"cutoff", "k_ij", "source", "three_body_c9", "fitted_range"}
 
 #: Column headers accepted in potential tables: name -> factor to angstrom or to K.
 TABLE_R_UNITS = {"r_angstrom": 1.0, "r_nm": 10.0, "r_m": 1e10}

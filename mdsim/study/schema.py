@@ -160,6 +160,10 @@ _GAS_TABLES = {
         "k_ij": Key("k_ij", example="0.0"),
         "source": Key("string", default="", example='"second-virial fit, HCB 1954"',
                       help="where the parameters come from (shown in reports)"),
+        "fitted_range": Key("list", item="temperature", low=TEMPERATURE_RANGE_K[0],
+                            high=TEMPERATURE_RANGE_K[1], example='["80 K", "400 K"]',
+                            help="the temperatures the parameters were fitted over; a warning "
+                            "when a study or inversion temperature lies far outside", **_T),
         "sites": Key("tables", example="[[potential.sites]]",
                      help="the interaction sites of a rigid molecule"),
         "dipole": Key("dipole_moment", low=0.0, high=1e-28, low_inclusive=True,

@@ -157,7 +157,7 @@ def _read_csv(path):
         return reader.fieldnames, list(reader)
 
 
-UNIT_SUFFIXES = ("_K", "_Pa", "_mol_m3", "_seconds")
+UNIT_SUFFIXES = ("_K", "_Pa", "_mol_m3", "_seconds", "_J_molK")
 DIMENSIONLESS = {"volume_ratio", "n_particles", "seed", "task_index", "state_point_index"}
 TEXT = {"route", "status", "stopped_by", "warnings", "initial_density_from"}
 
@@ -178,6 +178,10 @@ def test_csv_columns_carry_units_and_match_the_json(run_dir, summary):
             assert row["delta_T_stderr_K"] == ""
         else:
             assert float(row["delta_T_stderr_K"]) == entry["stderr"]
+        # each route's own entropy generated, the same number in both files
+        ds = rec["delta_s_J_molK"][row["route"]]
+        assert row["entropy_generated_J_molK"] == ("" if ds["value"] is None
+                                                   else repr(float(ds["value"])))
 
 
 def test_report_md_has_cautions_settings_and_results(run_dir, summary):
@@ -194,9 +198,9 @@ def test_report_md_has_cautions_settings_and_results(run_dir, summary):
         assert f"(plots/{stem}.png)" in text
     # the results table has one line per state point, the particles of its tasks in a column
     rows = [line for line in text.splitlines() if line.startswith(("| 0 |", "| 1 |"))]
-    # the results table, the virial-coefficient table, and the initial-state table (a row for
-    # the virial routes and one per simulation route)
-    assert len(rows) == 2 * N_POINTS + N_POINTS * (1 + 3)
+    # the results table, the per-route entropy table, the virial-coefficient table, and the
+    # initial-state table (a row for the virial routes and one per simulation route)
+    assert len(rows) == 3 * N_POINTS + N_POINTS * (1 + 3)
     assert all(line.split(" | ")[5] == "64" for line in rows[:N_POINTS])
     assert "- particles:" not in text  # no separate list of particle counts
     # T_f carries its error: the cell is exactly the two-figure rounding of the JSON numbers

@@ -26,7 +26,7 @@ from scipy.optimize import brentq
 from mdsim.pipeline import RunDir, read_task_result
 from mdsim.pipeline.run_study import run_study
 from mdsim.study.reader import read_study
-from mdsim.units import N_A
+from mdsim.units import N_A, R_GAS
 
 pytestmark = pytest.mark.slow
 
@@ -148,7 +148,8 @@ def _allowance_K(rho_star, cutoff=3.0, h_max=0.05):
 def _run_state(tmp_path, t_star, rho_star, target):
     """Run the study of one state through the pipeline.
 
-    Returns {route: (Delta T in K, its stderr in K, CPU s, warnings, what stopped the task)}.
+    Returns {route: (Delta T in K, its stderr in K, CPU s, warnings, what stopped the task,
+    the route's entropy entry, its T_f*)}.
     """
     path = tmp_path / "study.toml"
     path.write_text(STUDY.format(
@@ -162,7 +163,9 @@ def _run_state(tmp_path, t_star, rho_star, target):
     for task in rd.read_tasks():
         _, res, _ = read_task_result(rd.task_file(task["index"]))
         out[task["route"]] = (res["delta_T_K"]["value"], res["delta_T_K"]["stderr"],
-                              float(res["cpu_seconds"]), res["warnings"], res["stopped_by"])
+                              float(res["cpu_seconds"]), res["warnings"], res["stopped_by"],
+                              res["entropy_generated_J_molK"],
+                              res["final_temperature_K"]["value"] / EPS_K)
     assert set(out) == set(ROUTES)
     for route, (value, stderr, *_) in out.items():
         assert np.isfinite(value) and np.isfinite(stderr) and stderr > 0.0, route
@@ -174,10 +177,35 @@ def test_every_route_agrees_with_the_reference_eos(tmp_path, t_star, rho_star):
     reference = _reference_delta_T_K(t_star, rho_star)
     measured = _run_state(tmp_path, t_star, rho_star, STATES[(t_star, rho_star)])
     allowance = _allowance_K(rho_star)
-    for route, (value, stderr, _, warnings, _) in measured.items():
+    for route, (value, stderr, _, warnings, _, entropy, t_f) in measured.items():
         assert warnings == [], (route, warnings)  # e.g. an unconverged energy-route solve
         assert abs(value - reference) < 4.0 * stderr + allowance, \
             (route, value, stderr, reference, allowance)
+        _check_entropy(route, entropy, t_star, rho_star, t_f)
+
+
+def _check_entropy(route, entropy, t_star, rho_star, t_f):
+    """A route's Delta s: a number near the reference's at the route's own end states, or
+    'not available' with the reason (test-particle insertion fails in dense fluids), never a
+    silent stand-in.  The reference is Thol 2016 through teqp, s_res / k = Ar10 - Ar00; the
+    tolerance is 4 standard errors plus the cut-off allowance of _allowance_K carried over
+    to s = (u - a) / T: |d u| <= h_max |u_tail|, |d a| <= 2 h_max |u_tail| (the inserted
+    particle's tail is twice u_tail) at each end state, over T."""
+    if entropy["value"] is None:
+        assert entropy["unavailable"], (route, entropy)
+        return
+    model, z = _thol(), np.array([1.0])
+
+    def s_res(t, rho):
+        return model.get_Ar10(t, rho, z) - model.get_Ar00(t, rho, z)
+
+    reference = R_GAS * (1.5 * np.log(t_f / t_star) + np.log(VOLUME_RATIO)
+                         + s_res(t_f, rho_star / VOLUME_RATIO) - s_res(t_star, rho_star))
+    u_tail = 8.0 / 3.0 * np.pi * rho_star * (3.0 ** -9 / 3.0 - 3.0 ** -3)
+    allowance = R_GAS * 3.0 * 0.05 * abs(u_tail) * (1.0 + 1.0 / VOLUME_RATIO) / min(t_star, t_f)
+    assert entropy["stderr"] > 0.0
+    assert abs(entropy["value"] - reference) < 4.0 * entropy["stderr"] + allowance, \
+        (route, entropy, reference, allowance)
 
 
 @pytest.fixture(scope="module")
@@ -213,6 +241,6 @@ def test_the_energy_route_in_the_dome_is_solved_or_says_it_is_not(dome_run):
     target".  Now the steps stay inside the bracket the samples make, and a balance still
     unsolved when the guesses are used up is the task's stop reason, with its warning."""
     from mdsim.pipeline.routes.energy import UNSOLVED
-    value, _, _, warnings, stopped_by = dome_run["energy"]
+    value, _, _, warnings, stopped_by, *_ = dome_run["energy"]
     solved = not warnings and abs(value - dome_run["microcanonical"][0]) < 15.0  # routes' spread
     assert solved or (stopped_by == UNSOLVED and warnings), (value, stopped_by, warnings)
