@@ -24,7 +24,7 @@ from mdsim.errors import ConvergenceError
 from mdsim.pipeline.rundir import stage_name
 from mdsim.sampling import store
 
-__all__ = ["Chain", "mean_se", "run_to", "solve_or_extend", "stage_share", "SAFETY",
+__all__ = ["Chain", "mean_se", "run_to", "settle", "solve_or_extend", "stage_share", "SAFETY",
            "MIN_STAGE_SAMPLES", "MAX_STAGES_PER_CHAIN"]
 
 PILOT_SAMPLES = 200
@@ -244,6 +244,22 @@ def run_to(chain, target_se, key=None):
         factor = 1.0 if not math.isfinite(se) else (se / target_se) ** 2 - 1.0
         if not chain.extend(int(math.ceil(1.1 * n * max(factor, 0.2)))):
             return False
+
+
+def settle(chain, keys):
+    """Extend a chain (past the CPU budget if need be) until every series in keys settles.
+
+    A series that still drifts has no mean to report; the extension is
+    mandatory (:meth:`Chain.extend`), bounded by ``MAX_STAGES_PER_CHAIN``,
+    after which the ``ConvergenceError`` of the drifting series is raised.
+    """
+    from analysis.stats import mean_and_stderr
+
+    def solve():
+        samples = chain.samples()
+        for key in keys:
+            mean_and_stderr(samples[key])
+    solve_or_extend(chain, solve)
 
 
 def solve_or_extend(chain, solve):

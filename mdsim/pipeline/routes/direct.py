@@ -14,7 +14,7 @@ import math
 import numpy as np
 
 from mdsim.errors import ConvergenceError, SimulationError
-from mdsim.pipeline.chain import (MAX_STAGES_PER_CHAIN, MIN_STAGE_SAMPLES, Chain,
+from mdsim.pipeline.chain import (MAX_STAGES_PER_CHAIN, MIN_STAGE_SAMPLES, Chain, settle,
                                   solve_or_extend, stage_share)
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.rundir import WALL_REMOVED_FILLING, WALL_REMOVED_RELAXED, stage_name
@@ -227,6 +227,8 @@ def _final_heat_capacity(job, init, n):
 def _sample_to_target(job, init, nve, T_i_red, cv_red):
     """Solve, and extend the relaxed tail while the error is above the target."""
     from analysis.expansion import direct_route
+
+    settle(init, ("u_model", "u_full"))  # a budget-limited initial state may still drift
 
     def solve():
         s_i = init.samples()
