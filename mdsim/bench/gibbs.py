@@ -10,7 +10,7 @@ the cycles per second.  A guide, not a test: timings on a shared machine
 are noisy.
 
 Run ``python -m mdsim.bench.gibbs`` (``--quick`` for short runs,
-``--particles N``, ``--cycles C`` production cycles).
+``--particles N``, ``--cycles C`` production cycles, ``--temperatures``).
 """
 import argparse
 import time
@@ -31,7 +31,8 @@ def thol_reference(T_red):
     except ImportError:
         return None
     model = teqp.make_model({"kind": "LJ126_TholJPCRD2016", "model": {}})
-    rho_l, rho_v = model.pure_VLE_T(T_red, GUESS[T_red][1], GUESS[T_red][0], 20)
+    guess_v, guess_l = GUESS.get(T_red, (0.03, 0.70))
+    rho_l, rho_v = model.pure_VLE_T(T_red, guess_l, guess_v, 20)
     z = np.array([1.0])
     p = rho_v * T_red * (1.0 + model.get_Ar01(T_red, rho_v, z))
     return (rho_v, rho_l, T_red * model.get_Ar10(T_red, rho_v, z),
@@ -43,25 +44,28 @@ def main(argv=None):
     ap.add_argument("--quick", action="store_true")
     ap.add_argument("--particles", type=int, default=300)
     ap.add_argument("--cycles", type=int, default=10000)
+    ap.add_argument("--equilibration", type=int, default=None)
     ap.add_argument("--seed", type=int, default=1)
+    ap.add_argument("--temperatures", type=float, nargs="+", default=list(TEMPERATURES))
     args = ap.parse_args(argv)
     prod = 400 if args.quick else args.cycles
-    equil = prod // 2
+    equil = prod // 2 if args.equilibration is None else args.equilibration
     pairs = PairMatrix([LennardJones(1.0, 1.0)], 3.0)
-    for T in TEMPERATURES:
-        t0 = time.perf_counter()
+    for T in args.temperatures:
+        t0, c0 = time.perf_counter(), time.process_time()
         pt = coexistence_point(pairs, T, n_particles=args.particles, equilibration_cycles=equil,
                                production_cycles=prod, sample_interval=5, seed=args.seed)
-        dt = time.perf_counter() - t0
+        dt, cpu = time.perf_counter() - t0, time.process_time() - c0
         print(f"T* = {T}: N = {pt.n_particles}, rc = {pt.cutoff_red}, {equil} + {prod} cycles "
-              f"in {dt:.0f} s ({(equil + prod) / dt:.0f} cycles/s)")
+              f"in {dt:.0f} s wall, {cpu:.0f} s CPU ({(equil + prod) / cpu:.0f} cycles per CPU "
+              "second)")
         for name in ("rho_vap", "rho_liq", "u_vap", "u_liq", "p_sat", "p_liq"):
             print(f"  {name:8s} {value_with_error(getattr(pt, name), getattr(pt, name + '_err'))}")
         ref = thol_reference(T)
         if ref is not None:
             print("  Thol 2016 (teqp): rho_vap {:.5f} rho_liq {:.4f} u_vap {:.4f} u_liq {:.4f} "
                   "p_sat {:.5f}".format(*ref))
-        print(f"  moves: {pt.moves}")
+        print(f"  moves: {pt.moves}", flush=True)
 
 
 if __name__ == "__main__":

@@ -58,8 +58,8 @@ _TARGET_DISPLACEMENT = 0.45
 _TARGET_VOLUME = 0.4
 # Accepted transfers per cycle aimed at, as a fraction of N, and the bounds
 # on the transfer attempts per cycle, as fractions of N.
-_TRANSFERS_ACCEPTED = 0.003
-_TRANSFERS_LO, _TRANSFERS_HI = 0.05, 1.0
+_TRANSFERS_ACCEPTED = 0.01
+_TRANSFERS_LO, _TRANSFERS_HI = 0.05, 3.0
 _TUNE_CYCLES = 10
 _MIN_DISPLACEMENT = 1e-4
 
@@ -255,8 +255,10 @@ class GibbsSampler:
         Every 10 cycles: each box's displacement half-width is multiplied
         by exp(acceptance - 0.45) (capped at half its box edge), the volume
         step by exp(acceptance - 0.4), and the transfer attempts per cycle
-        are set so that about 0.3 % of the particles change box per cycle
-        (between 0.05 N and N attempts; left at 0 when set to 0).  Nothing is recorded.
+        are set so that about 1 % of the particles change box per cycle
+        (between 0.05 N and 3 N attempts; left at 0 when set to 0): the
+        exchange of particles between the phases is the slowest mode of the
+        ensemble, and insertions into a cold liquid are rarely accepted.  Nothing is recorded.
         """
         n_cycles = count("equilibration_cycles", n_cycles, 0, "Gibbs-ensemble cycles")
         n = self.n_particles

@@ -152,3 +152,48 @@ def test_bad_settings_are_refused():
         GibbsSampler(PairMatrix([lj, lj], 2.5), 1.0, [100, 20], [0.7, 0.02], seed=1)
     with pytest.raises(SettingError, match="production_cycles"):
         coexistence_point(PairMatrix([lj], 2.0), 0.9, production_cycles=100, sample_interval=5)
+
+
+# --- Lennard-Jones coexistence against the Thol 2016 EOS -------------------------
+
+def thol_vle(T):
+    """(rho_vap, rho_liq, p_sat) and the model of the Thol et al. 2016 LJ EOS (teqp, test-only)."""
+    teqp = pytest.importorskip("teqp")
+    model = teqp.make_model({"kind": "LJ126_TholJPCRD2016", "model": {}})
+    rho_l, rho_v = model.pure_VLE_T(T, 0.64, 0.055, 20)   # guesses near T* = 1.1
+    return rho_v, rho_l, model
+
+
+@pytest.mark.slow
+def test_lennard_jones_coexistence_at_1_1_against_thol_2016():
+    """LJ at T* = 1.1, rc = 2.5 sigma with the analytic tail per box, N = 200.
+
+    Reference: the Thol et al. (J. Phys. Chem. Ref. Data 45, 023101, 2016) EOS of the
+    full potential through teqp: rho_vap = 0.0548, rho_liq = 0.642, p_sat = 0.0459.
+    Tolerances: 3 standard errors plus an allowance for the model (truncation at
+    2.5 sigma with g(r) = 1 assumed beyond it) and for N = 200 in two boxes: 0.02 in
+    rho_liq and 15 % in rho_vap and p_sat (the tail-corrected truncated potential
+    coexists close to the full one: Smit, J. Chem. Phys. 96, 8639, 1992, from memory;
+    the size of the allowance is our estimate, not a published figure).  Exact for
+    any model: the two boxes have one pressure, and each box lies on the model's own
+    equation of state, checked against Thol at the simulated densities with 3 standard
+    errors plus 3 % (p) and 0.05 epsilon (u) for the truncation."""
+    T = 1.1
+    rho_v, rho_l, model = thol_vle(T)
+    z = np.array([1.0])
+    pairs = PairMatrix([LennardJones(1.0, 1.0)], 2.5)
+    pt = coexistence_point(pairs, T, n_particles=200, equilibration_cycles=1000,
+                           production_cycles=3000, sample_interval=5, seed=1)
+    assert abs(pt.rho_liq - rho_l) < 3 * pt.rho_liq_err + 0.02
+    assert abs(pt.rho_vap / rho_v - 1) < 3 * pt.rho_vap_err / rho_v + 0.15
+    p_thol = rho_v * T * (1 + model.get_Ar01(T, rho_v, z))
+    assert abs(pt.p_sat / p_thol - 1) < 3 * pt.p_sat_err / p_thol + 0.15
+    # one pressure in both boxes (mechanical equilibrium)
+    assert abs(pt.p_liq - pt.p_sat) < 3 * math.hypot(pt.p_liq_err, pt.p_sat_err)
+    # each phase on the equation of state at its own density
+    p_vap_eos = pt.rho_vap * T * (1 + model.get_Ar01(T, pt.rho_vap, z))
+    p_vap_err = math.hypot(pt.p_sat_err, T * pt.rho_vap_err)   # dp/drho ~ kT in a dilute vapour
+    assert abs(pt.p_sat / p_vap_eos - 1) < 3 * p_vap_err / p_vap_eos + 0.03
+    for u, u_err, rho in ((pt.u_liq, pt.u_liq_err, pt.rho_liq), (pt.u_vap, pt.u_vap_err, pt.rho_vap)):
+        assert abs(u - T * model.get_Ar10(T, rho, z)) < 3 * u_err + 0.05
+    assert pt.cutoff_red == 2.5 and pt.tail == coex.TAIL_TREATMENT
