@@ -114,8 +114,8 @@ class GibbsSampler:
         if not isinstance(pairs, PairMatrix):
             raise TypeError("pairs must be an mdsim.engine.potentials.PairMatrix")
         if pairs.n_species != 1:
-            raise StudyError(f"Gibbs ensemble: the gas has {pairs.n_species} species; vapour-liquid "
-                             "coexistence is computed for one species only")
+            raise StudyError(f"Gibbs ensemble: the gas has {pairs.n_species} species; "
+                             "vapour-liquid coexistence is computed for one species only")
         self.pairs = pairs
         self.temperature = positive("temperature", temperature, "reduced kT/epsilon")
         counts = [count("particles", c, 1, "particles in each box") for c in particles_b]
@@ -234,7 +234,7 @@ class GibbsSampler:
         return acc
 
     def _cycle(self):
-        """One cycle; returns (displacement acceptance per box, volume accepted, transfers accepted)."""
+        """One cycle: (displacement acceptance per box, volume moves and transfers accepted)."""
         acc_b = np.full(2, np.nan)
         for b in range(2):
             m = int(self.n_b[b])

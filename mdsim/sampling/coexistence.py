@@ -266,6 +266,7 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     equilibration_cycles = count("equilibration_cycles", equilibration_cycles, 0, "cycles")
     production_cycles = count("production_cycles", production_cycles, 1, "cycles")
     sample_interval = count("sample_interval", sample_interval, 1, "cycles between samples")
+    seed = count("seed", seed, 0, "a whole number")
     n_samples = production_cycles // sample_interval
     if n_samples < 40:
         raise SettingError("production_cycles", production_cycles,

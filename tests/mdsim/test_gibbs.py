@@ -144,6 +144,14 @@ def test_same_seed_same_numbers_and_the_cache_is_read(tmp_path, tiny_point_args,
     assert coexistence_point(scaled, 1.0, cache_dir=cache, **tiny_point_args) == first
 
 
+def test_above_the_critical_temperature_there_is_no_coexistence(tiny_point_args):
+    """T* = 2 is far above the LJ critical temperature (about 1.3; Thol et al. 2016):
+    the boxes do not stay two phases, and the function says so instead of a number."""
+    pairs = PairMatrix([LennardJones(1.0, 1.0)], 2.0)
+    with pytest.raises(StudyError, match="critical temperature"):
+        coexistence_point(pairs, 2.0, **tiny_point_args)
+
+
 def test_bad_settings_are_refused():
     lj = LennardJones(1.0, 1.0)
     with pytest.raises(SettingError, match="n_particles"):
@@ -194,6 +202,7 @@ def test_lennard_jones_coexistence_at_1_1_against_thol_2016():
     p_vap_eos = pt.rho_vap * T * (1 + model.get_Ar01(T, pt.rho_vap, z))
     p_vap_err = math.hypot(pt.p_sat_err, T * pt.rho_vap_err)   # dp/drho ~ kT in a dilute vapour
     assert abs(pt.p_sat / p_vap_eos - 1) < 3 * p_vap_err / p_vap_eos + 0.03
-    for u, u_err, rho in ((pt.u_liq, pt.u_liq_err, pt.rho_liq), (pt.u_vap, pt.u_vap_err, pt.rho_vap)):
+    for u, u_err, rho in ((pt.u_liq, pt.u_liq_err, pt.rho_liq),
+                          (pt.u_vap, pt.u_vap_err, pt.rho_vap)):
         assert abs(u - T * model.get_Ar10(T, rho, z)) < 3 * u_err + 0.05
     assert pt.cutoff_red == 2.5 and pt.tail == coex.TAIL_TREATMENT
