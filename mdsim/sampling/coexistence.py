@@ -26,11 +26,11 @@ from pathlib import Path
 
 import numpy as np
 
-from analysis.stats import block_stderr, mean_and_stderr
+from analysis.stats import MIN_SAMPLES, block_stderr, detect_equilibration, mean_and_stderr
 from mdsim.checks import count, positive
 from mdsim.engine.gibbs import GibbsSampler
 from mdsim.engine.potentials import PairMatrix
-from mdsim.errors import SettingError, StudyError
+from mdsim.errors import ConvergenceError, SettingError, StudyError
 from mdsim.files import atomic_write_text
 
 __all__ = ["CoexistencePoint", "coexistence_point", "start_densities_guess", "cache_file",
@@ -230,6 +230,8 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
 
     Raises
     ------
+    ConvergenceError
+        The series still drift at the end of the run (run longer).
     StudyError
         The boxes do not stay two distinct phases (the temperature is at or
         above the critical temperature of the model for this N), or the
@@ -239,8 +241,9 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     -----
     Gibbs-ensemble Monte Carlo (Panagiotopoulos, Mol. Phys. 61, 813, 1987).
     The phases are told apart by density in every sample (the boxes may
-    swap roles).  Each mean is that of its series after the equilibration
-    transient is dropped; its standard error is the larger of sqrt(g var / n)
+    swap roles).  The equilibration transient is dropped from all series at
+    once (the latest start that equilibration detection finds in any of
+    them), so that all means come from one window; each standard error is the larger of sqrt(g var / n)
     (Chodera, J. Chem. Theory Comput. 12, 1799, 2016) and the scatter of five
     block means (Flyvbjerg and Petersen, J. Chem. Phys. 91, 461, 1989): the
     exchange of particles between the boxes is a slow mode, and when few
@@ -305,12 +308,21 @@ def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles):
         raise StudyError(
             f"Gibbs ensemble at T_red = {T_red:g}: the vapour box emptied; use more particles "
             "(n_particles) so that the vapour holds at least a few")
+    keys = (("rho", "rho"), ("u_full", "u"), ("pressure", "p"))
+    phases = (("vap", vap), ("liq", liq))
+    # one start for every series: the means of one window belong together
+    t0 = max(detect_equilibration(series[key])[0] for _, series in phases for key, _ in keys)
+    if liq_t.size - t0 < MIN_SAMPLES:
+        raise ConvergenceError(
+            f"Gibbs ensemble at T_red = {T_red:g}: the series do not settle (equilibration "
+            f"detection leaves {liq_t.size - t0} of {liq_t.size} samples); run longer "
+            "(more equilibration_cycles and production_cycles)")
     est = {}
-    for phase, series in (("vap", vap), ("liq", liq)):
-        for key, name in (("rho", "rho"), ("u_full", "u"), ("pressure", "p")):
-            m = mean_and_stderr(series[key])
-            blocks = block_stderr(series[key][m.t0:], _ERROR_BLOCKS)
-            est[f"{name}_{phase}"] = (m.mean, max(m.stderr, blocks))
+    for phase, series in phases:
+        for key, name in keys:
+            x_t = series[key][t0:]
+            m = mean_and_stderr(x_t, discard_equilibration=False)
+            est[f"{name}_{phase}"] = (m.mean, max(m.stderr, block_stderr(x_t, _ERROR_BLOCKS)))
     return CoexistencePoint(
         T_red=float(T_red),
         rho_vap=est["rho_vap"][0], rho_vap_err=est["rho_vap"][1],
