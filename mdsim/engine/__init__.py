@@ -15,7 +15,8 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.forces`, :mod:`~mdsim.engine.integrator` and
 :mod:`~mdsim.engine.md` (molecular dynamics), :mod:`~mdsim.engine.mc_cells`,
 :mod:`~mdsim.engine.mc_kernels` and :mod:`~mdsim.engine.montecarlo` (Monte Carlo),
-:mod:`~mdsim.engine.insertion` (test-particle insertion).
+:mod:`~mdsim.engine.insertion` (test-particle insertion),
+:mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble).
 """
 from pathlib import Path as _Path
 
@@ -25,6 +26,7 @@ from mdsim.engine import kernel_cache as _kernel_cache
 _kernel_cache.ensure_fresh(_Path(__file__).parent)
 
 from mdsim.engine.integrator import default_time_step, energy_drift  # noqa: E402
+from mdsim.engine.gibbs import GibbsSampler  # noqa: E402
 from mdsim.engine.md import MDSampler  # noqa: E402
 from mdsim.engine.montecarlo import MCSampler, nve_temperature  # noqa: E402
 from mdsim.engine.potentials import (Exp6, LennardJones, Mie, PairMatrix,  # noqa: E402
@@ -32,5 +34,5 @@ from mdsim.engine.potentials import (Exp6, LennardJones, Mie, PairMatrix,  # noq
 from mdsim.engine.system import System  # noqa: E402
 
 __all__ = ["PairPotential", "LennardJones", "Mie", "Exp6", "Tabulated", "read_table", "combine",
-           "PairMatrix", "System", "MDSampler", "MCSampler", "default_time_step", "energy_drift",
-           "nve_temperature"]
+           "PairMatrix", "System", "MDSampler", "MCSampler", "GibbsSampler", "default_time_step",
+           "energy_drift", "nve_temperature"]

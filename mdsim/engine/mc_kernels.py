@@ -29,18 +29,20 @@ from mdsim.engine.forms import FORM_LJ, RC2, pair_eval
 from mdsim.engine.mc_cells import (cell_coord, cell_insert, cell_neighbour, cell_remove,
                                    min_image, wrap_coordinate)
 
-__all__ = ["MODE_NVT", "MODE_NVE", "mc_moves", "energy_virial"]
+__all__ = ["MODE_NVT", "MODE_NVE", "mc_moves", "energy_virial", "particle_energy"]
 
 MODE_NVT, MODE_NVE = 0, 1
 
 
 @njit(cache=True, inline="always")
-def _particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i, ncell_i,
+def particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i, ncell_i,
                     head_c, next_n):
     """Truncated pair energy of particle i placed at (x, y, z) with all others.
 
-    Particle i itself (at its stored position) is skipped.  Returns +inf as
-    soon as one pair is inside a hard core.
+    Particle i itself (at its stored position) is skipped; an ``i`` that is
+    in no cell list (a test particle, for example the next free slot) gives
+    the energy of an insertion at (x, y, z).  Returns +inf as soon as one
+    pair is inside a hard core.
     """
     si = species_n[i]
     rc2_ab = params_ab[:, :, RC2]
@@ -170,7 +172,7 @@ def _energy_change(i, c, x, y, z, r_ni, species_n, params_ab, form, table, box_i
                 px, py, pz = x, y, z
             else:
                 px, py, pz = r_ni[i, 0], r_ni[i, 1], r_ni[i, 2]
-            e = _particle_energy(i, px, py, pz, r_ni, species_n, params_ab, form, table,
+            e = particle_energy(i, px, py, pz, r_ni, species_n, params_ab, form, table,
                                  box_i, ncell_i, head_c, next_n)
             if which == 0:
                 u_new = e

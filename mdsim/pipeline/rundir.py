@@ -11,6 +11,7 @@ Layout (all under one directory, ``runs/NAME`` by default; ``docs/run-directory.
     tasks/NNNN.failed.json    a failed task's error
     tasks/NNNN.progress.json  a running task's progress
     results.csv, results.json, report.md, plots/, log.txt
+    coexistence/      cached Gibbs-ensemble coexistence points, one folder per potential
     array.sh, logs/, jobs.json  the Slurm job array, its logs and its submissions
     .lock             present while an ``mdsim run`` owns the directory
 
@@ -156,6 +157,12 @@ class RunDir:
     @property
     def plots_dir(self):
         return self.path / "plots"
+
+    @property
+    def coexistence_dir(self):
+        """Cached vapour-liquid coexistence points, ``coexistence/POTENTIAL/*.json``
+        (the ``cache_dir`` of :func:`mdsim.sampling.coexistence.coexistence_point`)."""
+        return self.path / "coexistence"
 
     @property
     def log_file(self):

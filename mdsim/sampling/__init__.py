@@ -7,11 +7,16 @@ standard errors (:mod:`~mdsim.sampling.estimates`).  The run file itself:
 :mod:`~mdsim.sampling.store` (writer, resume; the entry point),
 :mod:`~mdsim.sampling.readers`, :mod:`~mdsim.sampling.integrity` (checksums,
 damaged files) and :mod:`~mdsim.sampling.h5values` (plain values out of HDF5).
+:func:`coexistence_point` gives the vapour-liquid coexistence of a potential
+at one temperature by the Gibbs ensemble, cached in a run directory
+(:mod:`~mdsim.sampling.coexistence`).
 """
+from mdsim.sampling.coexistence import CoexistencePoint, coexistence_point
 from mdsim.sampling.estimates import Estimate, summarise
 from mdsim.sampling.readers import (is_complete, read_attrs, read_checkpoint, read_final,
                                     read_run, read_samples)
 from mdsim.sampling.state_point import SampleResult, sample_state_point
 
 __all__ = ["sample_state_point", "SampleResult", "summarise", "Estimate", "is_complete",
-           "read_attrs", "read_samples", "read_checkpoint", "read_final", "read_run"]
+           "read_attrs", "read_samples", "read_checkpoint", "read_final", "read_run",
+           "coexistence_point", "CoexistencePoint"]

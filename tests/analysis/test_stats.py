@@ -33,6 +33,18 @@ def test_ar1_mean_stderr(ar1):
     assert res.n_used == n and res.t0 == 0
 
 
+def test_ar1_block_stderr(ar1):
+    """Block means of an AR(1) chain: 40 blocks of 1000 samples (far longer than the
+    correlation time, g = 9) scatter as the closed-form standard error of the mean;
+    the estimate from 40 blocks is uncertain by 1/sqrt(78) ~ 11 %: allow 35 % (3 sigma)."""
+    phi, n = 0.8, 40_000
+    x = ar1(phi, n, seed=13)
+    exact = math.sqrt((1 + phi) / (1 - phi) / (1 - phi ** 2) / n)
+    assert stats.block_stderr(x, n_blocks=40) == pytest.approx(exact, rel=0.35)
+    with pytest.raises(StudyError, match="n_blocks"):
+        stats.block_stderr(x, n_blocks=1)
+
+
 def test_stderr_calibrated_over_replicas(ar1):
     # z-scores of the mean over independent chains have unit spread when the
     # stderr is right; 60 chains give the spread to ~10 %, so allow 0.7 - 1.3.
