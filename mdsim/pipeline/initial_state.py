@@ -36,7 +36,7 @@ from mdsim.pipeline.rundir import INITIAL_STATE, initial_state_try, stage_name
 from mdsim.sampling import store
 from mdsim.units import R_GAS
 
-__all__ = ["run_initial_state", "next_density", "sampled_pressure", "MAX_PRESSURE_TRIES", "ITERATION_BUDGET_SHARE",
+__all__ = ["run_initial_state", "next_density", "density_uncertainty", "density_error_in_delta_T", "sampled_pressure", "MAX_PRESSURE_TRIES", "ITERATION_BUDGET_SHARE",
            "SLOPE_RTOL", "MAX_DENSITY_STEP"]
 
 MAX_PRESSURE_TRIES = 6
@@ -131,6 +131,51 @@ def sampled_pressure(job, chain):
     return job.units.pressure_to_Pa(est.value), job.units.pressure_to_Pa(est.stderr)
 
 
+def density_uncertainty(p_sampled, p_stderr, p_target, slope):
+    """How far the density used may lie from the model's own at the pressure asked for, mol/m^3.
+
+    The sampled pressure departs from the one asked for by |p - p_target|
+    and is known to its standard error s; both, over dp/drho, bound the
+    density's error: sqrt((p - p_target)^2 + s^2) / (dp/drho).
+
+    >>> round(density_uncertainty(60.1e5, 0.08e5, 60e5, 2.0e3), 4)  # Pa, Pa, Pa, Pa m^3/mol
+    6.4031
+    """
+    return math.hypot(p_sampled - p_target, p_stderr) / slope
+
+
+def density_error_in_delta_T(job, delta_T_K):
+    """The part of Delta T's error that comes from the initial density, K, and how it was found.
+
+    Parameters
+    ----------
+    job : mdsim.pipeline.task.RunningTask
+        After the initial state: ``rho_i`` and ``initial_density_stderr``.
+    delta_T_K : float
+        The route's Delta T, K.
+
+    Returns
+    -------
+    (float, str) or (None, None)
+        sigma_rho |d Delta T / d rho_i|, with the derivative from the B2 + B3
+        series (a central difference at rho_i +- sigma_rho), or, where the
+        series gives no answer, from Delta T proportional to rho_i (its
+        low-density form); None for a state given by density.
+    """
+    from mdsim.pipeline.plan import virial_start_guess
+    d_rho = job.initial_density_stderr
+    if not d_rho:
+        return None, None
+    rho = job.rho_i
+    rho_lo, rho_hi = max(rho - d_rho, 0.5 * rho), rho + d_rho
+    hi = virial_start_guess(job.virial_gas, job.cv_ig, job.T_i, job.r, rho_hi)[1]
+    lo = virial_start_guess(job.virial_gas, job.cv_ig, job.T_i, job.r, rho_lo)[1]
+    if hi is not None and lo is not None:
+        return (abs(hi - lo) / (rho_hi - rho_lo) * d_rho,
+                "B2+B3 slope of Delta T in the initial density")
+    return abs(delta_T_K) * d_rho / rho, "Delta T taken proportional to the initial density"
+
+
 def _virial_slope(job, rho):
     """dp/drho of the B2 + B3 series at (T_i, rho), Pa m^3/mol."""
     B, C = float(job.virial_gas.B(job.T_i)), float(job.virial_gas.C(job.T_i))
@@ -170,13 +215,15 @@ def _pressure_iteration(job, p_target, method, T_red, share, key, md_settings):
         job.pressure_tries.append({"density_mol_m3": rho, "pressure_Pa": p[0],
                                    "pressure_stderr_Pa": p[1]})
         steps = f"pressure iteration, {k + 1} step{'s' if k else ''}"
+        tries = [(t["density_mol_m3"], t["pressure_Pa"], t["pressure_stderr_Pa"])
+                 for t in job.pressure_tries]
+        rho_next, slope, _ = next_density(tries, p_target, _virial_slope(job, rho))
+        # The density used is the model's own to within its pressure's departure and error.
+        job.initial_density_stderr = density_uncertainty(p[0], p[1], p_target, slope)
         if abs(p[0] - p_target) <= p[1]:
             job.initial_density_from = steps
             job.set_initial_density(rho)
             return chain
-        tries = [(t["density_mol_m3"], t["pressure_Pa"], t["pressure_stderr_Pa"])
-                 for t in job.pressure_tries]
-        rho_next, _, _ = next_density(tries, p_target, _virial_slope(job, rho))
         why = _why_stop(job, k, rho_next)
         if why is not None:
             job.initial_density_from = f"{steps}, not converged"

@@ -9,6 +9,7 @@ and is raised again; a full or read-only disk becomes one clear line.
 """
 import errno
 import logging
+import math
 import os
 import time
 
@@ -16,7 +17,7 @@ import numpy as np
 
 from analysis.results import to_plain
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
-from mdsim.pipeline.initial_state import sampled_pressure
+from mdsim.pipeline.initial_state import density_error_in_delta_T, sampled_pressure
 from mdsim.pipeline.phase_check import check_phases
 from mdsim.pipeline.route_entropy import sample_route_entropy
 from mdsim.pipeline.rundir import RunDir
@@ -47,7 +48,9 @@ def run_task(run_dir, index, progress=None):
     -------
     dict
         The task result: ``route``, ``state_point_index``, ``delta_T_K`` and
-        ``final_temperature_K`` ({value, stderr}, K), ``initial_pressure_Pa``
+        ``final_temperature_K`` ({value, stderr}, K; the stderr combines the sampling error
+        and, for a state given by pressure, the initial density's part, both in
+        ``delta_T_stderr_parts_K``), ``initial_density_stderr_mol_m3``, ``initial_pressure_Pa``
         (sampled) and ``final_pressure_Pa`` ({value, stderr} or None), initial and
         final density (mol/m^3; the initial one found at a given pressure,
         :mod:`mdsim.pipeline.initial_state`), ``initial_density_from`` (how),
@@ -193,13 +196,19 @@ def _initial_pressure(job):
 def _result(job, res, pressure, extra):
     """The task result (JSON-ready apart from numpy scalars) from the route's solver result."""
     task = job.task
+    se = float(res.delta_T_stderr_K)
+    from_rho_or_none, how = density_error_in_delta_T(job, res.delta_T_K)
+    from_rho = from_rho_or_none or 0.0
     return {
         "route": task["route"],
         "initial_pressure_Pa": _initial_pressure(job),
         "state_point_index": int(task["state_point"]["index"]),
-        "delta_T_K": {"value": float(res.delta_T_K), "stderr": float(res.delta_T_stderr_K)},
+        "delta_T_K": {"value": float(res.delta_T_K), "stderr": math.hypot(se, from_rho)},
         "final_temperature_K": {"value": float(res.final_temperature_K),
-                                "stderr": float(res.final_temperature_stderr_K)},
+                                "stderr": math.hypot(res.final_temperature_stderr_K, from_rho)},
+        "delta_T_stderr_parts_K": {"sampling": se, "initial_density": from_rho_or_none,
+                                   "initial_density_how": how},
+        "initial_density_stderr_mol_m3": job.initial_density_stderr,
         "initial_density_mol_m3": job.rho_i,
         "initial_density_from": job.initial_density_from,
         "planned_initial_density_mol_m3": job.planned_rho_i,

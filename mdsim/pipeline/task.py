@@ -94,6 +94,9 @@ class RunningTask:
     pressure_tries : list of dict
         The densities the pressure iteration tried (``density_mol_m3``,
         ``pressure_Pa``, ``pressure_stderr_Pa``).
+    initial_density_stderr : float or None
+        How far ``rho_i`` may lie from the model's own density at the pressure
+        asked for, mol/m^3 (None for a state given by density).
     target_K, budget_s : float
         The target standard error of Delta T (K) and the CPU budget (s).
     T_f_guess, dT_guess : float, float or None
@@ -133,6 +136,7 @@ class RunningTask:
         self.rho_f = self.rho_i / self.r
         self.initial_density_from = task.get("initial_density_from")
         self.pressure_tries = []
+        self.initial_density_stderr = None
         self.target_K = float(task["target_stderr_K"])
         self.budget_s = float(task["max_cpu_time_s"])
         self.seed = [int(s) for s in task["seed"]]
