@@ -137,8 +137,9 @@ class WallRemovedChain(Chain):
     def extend(self, n_samples, mandatory=False):
         """One more tail stage of about n_samples; False if the budget or the stage count forbids.
 
-        The tail always continues (``mandatory`` is ignored): a tail stage
-        already on disk is read back whatever the budget.
+        A tail stage already on disk is read back whatever the budget; a
+        ``mandatory`` one (the series still drifts, so there is no mean yet)
+        runs past the budget, as :meth:`Chain.extend` does.
         """
         job = self.job
         k = len(self.results) - self.n_fill_stages  # tail stages are numbered from 0
@@ -147,7 +148,9 @@ class WallRemovedChain(Chain):
             rate = job.cost_per_unit("md")
             if rate is not None and k > 0:
                 afford = int(job.budget_left() / (rate * self.base.n_particles * self.interval))
-                if afford < n_samples:
+                if mandatory and afford < n_samples:
+                    job.stopped_by = "cpu budget"
+                elif afford < n_samples:
                     if afford < MIN_STAGE_SAMPLES:
                         job.stopped_by = "cpu budget"
                         return False
