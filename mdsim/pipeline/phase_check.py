@@ -29,9 +29,24 @@ SNAPSHOT_SAMPLES = 20
 """Samples per snapshot stage at the chain's interval (the fewest a stage file takes)."""
 
 
+def _clear_stale_snapshots(job, last_stage_path):
+    """Remove snapshot stages older than the chain's last stage (the task was extended since:
+    they continue a state the route no longer ends in)."""
+    if last_stage_path is None or not last_stage_path.is_file():
+        return
+    newest = last_stage_path.stat().st_mtime
+    paths = [job.stage_path(stage_name(PHASE_SNAPSHOTS, k)) for k in range(N_SNAPSHOTS)]
+    paths += [store.part_path(p) for p in paths]
+    if any(p.is_file() and p.stat().st_mtime < newest for p in paths):
+        for p in paths:
+            if p.is_file():
+                p.unlink()
+
+
 def _snapshots(chain):
     """The end configurations of :data:`N_SNAPSHOTS` short stages continuing a chain."""
     prev = chain.results[-1] if chain.results else chain.pilot
+    _clear_stale_snapshots(chain.job, prev.path)
     configs = []
     for k in range(N_SNAPSHOTS):
         prev = chain.continue_stage(prev, stage_name(PHASE_SNAPSHOTS, k), SNAPSHOT_SAMPLES,

@@ -12,10 +12,14 @@ import json
 import shutil
 
 from mdsim.errors import StudyError
+from mdsim.files import atomic_write_text
 from mdsim.pipeline.rundir import RunDir
 from mdsim.study.writer import dumps_toml, resolved_study_document
 
-__all__ = ["as_run_dir", "check_run_dir_place", "prepare_run_dir"]
+__all__ = ["as_run_dir", "check_run_dir_place", "prepare_run_dir", "EXTENDABLE"]
+
+EXTENDABLE = {"target_stderr_K": "target_stderr", "max_cpu_time_s": "max_cpu_time"}
+"""Task settings a rerun may change (extending the tasks), with their study-file keys."""
 
 
 def as_run_dir(run_dir):
@@ -61,7 +65,8 @@ def prepare_run_dir(study, out):
     Raises
     ------
     StudyError
-        When the directory holds another plan, saying what differs.
+        When the directory holds another plan, naming the first setting that
+        differs and cannot be extended.
     """
     from mdsim.pipeline import plan_tasks
     rd = RunDir(out)
@@ -71,9 +76,7 @@ def prepare_run_dir(study, out):
     if rd.exists():
         old = rd.read_tasks()
         if old != tasks:
-            raise StudyError(f"run directory '{rd.path}' holds other tasks than this study plans "
-                             f"({len(old)} there, {len(tasks)} now, or other settings); "
-                             "choose another run directory, or delete this one to start over")
+            _extend_plan(rd, old, tasks, text)
         return rd, tasks
     rd.create()
     for dest, src in copies.items():  # the data files the study names, next to its copy
@@ -83,3 +86,37 @@ def prepare_run_dir(study, out):
     rd.study_file.write_text(text, encoding="utf-8")
     rd.write_tasks(tasks)
     return rd, tasks
+
+
+def _without_extendable(task):
+    return {k: v for k, v in task.items() if k not in EXTENDABLE}
+
+
+def _extend_plan(rd, old, tasks, text):
+    """Take a new plan that differs from the old one only in :data:`EXTENDABLE` settings.
+
+    Raises
+    ------
+    StudyError
+        Naming the first other setting that differs (one line).
+    """
+    from mdsim.pipeline.collect import first_difference
+    keep = ", ".join(f"[simulation] {key}" for key in EXTENDABLE.values())
+    if len(old) != len(tasks):
+        raise StudyError(f"run directory '{rd.path}' holds {len(old)} tasks, but the study now "
+                         f"plans {len(tasks)}: a rerun may change only {keep}; choose another "
+                         "run directory, or delete this one to start over")
+    for was, now in zip(old, tasks):
+        found = first_difference(_without_extendable(was), _without_extendable(now))
+        if found is not None:
+            field, a, b = found
+            raise StudyError(f"run directory '{rd.path}': task {was.get('index')} has {field} = "
+                             f"{a!r} there, but the study now gives {b!r}, which its sampling "
+                             f"cannot be extended to (a rerun may change only {keep}); restore "
+                             "it, or run the study into a new run directory")
+    atomic_write_text(rd.study_file, text)
+    rd.write_tasks(tasks)
+    for was, now in zip(old, tasks):
+        path = rd.task_file(int(now["index"]))
+        if was != now and path.is_file():
+            path.replace(path.with_name(path.name + ".earlier"))

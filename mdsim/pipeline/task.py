@@ -185,12 +185,33 @@ class RunningTask:
         self.T_f_guess, self.dT_guess = self._virial_guess()
 
     def choose_particles(self, given):
-        """The particle number (:func:`mdsim.pipeline.plan.choose_particles`)."""
+        """The particle number (:func:`mdsim.pipeline.plan.choose_particles`).
+
+        A task that chooses its own number and already has stage files (run
+        again, as with a tighter target) keeps the number they were sampled
+        with, so that its chains can be extended; a note says when the
+        target now asks for more.
+        """
         n, warning = choose_particles(self.study, given, self.rho_i, self.state_point_index,
                                       self.dT_guess, self.target_K)
+        on_disk = self.particles_on_disk() if given is None else None
+        if on_disk is not None and on_disk != n:
+            if on_disk < n:
+                self.notes.append(f"{on_disk} particles, as in the stage files of the earlier "
+                                  f"run that this run extends (the target now asks for {n})")
+            return on_disk
         if warning is not None:
             self.warnings.append(warning)
         return n
+
+    def particles_on_disk(self):
+        """The particle number of the task's finished stage files, or None when there are none."""
+        for path in sorted(self.rd.stages_dir(self.index).glob("*.h5")):
+            try:
+                return int(store.read_attrs(path)["n_particles"])
+            except (OSError, KeyError, ValueError):
+                continue
+        return None
 
     def system_maker(self, rho_mol_m3, tag, temperature_K=None):
         """A function making a fresh system of the task at a density (seeded start).

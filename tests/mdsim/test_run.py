@@ -1,5 +1,6 @@
 """mdsim run / task / status: skipping, kill and resume, the lock, failures, the array script."""
 import json
+import math
 import os
 import signal
 import subprocess
@@ -265,3 +266,37 @@ def test_an_array_element_writes_its_start_and_end_into_log_txt(tmp_path):
     assert done.stderr.splitlines()[-1] == (
         f"task 0001 (energy): Delta T = {value_with_error(d['value'], d['stderr'], 'K')}, "
         f"stopped by target, {res['cpu_seconds']:.1f} s CPU")
+
+
+def test_a_rerun_with_a_tighter_target_extends_the_tasks_and_a_new_volume_ratio_is_refused(
+        tmp_path, capsys):
+    # The same Markov chains continued: the task keeps its particles and stage files, its
+    # samples grow, its error falls to the new target (or the budget says why), and T_f
+    # moves by no more than the errors allow (common practice, no source: a longer run of
+    # the same chain gives a consistent mean).
+    loose = write_study(tmp_path, name="loose", target="0.5 K", particles="")
+    out = tmp_path / "run"
+    assert main(["run", str(loose), "--out", str(out), "--workers", "1", "--quiet"]) == 0
+    _, first, _ = read_task_result(out / "tasks" / "0000.h5")
+    tight = write_study(tmp_path, name="loose", target="0.25 K", particles="")
+    assert main(["run", str(tight), "--out", str(out), "--workers", "1", "--quiet"]) == 0
+    _, second, _ = read_task_result(out / "tasks" / "0000.h5")
+    assert (out / "tasks" / "0000.h5.earlier").is_file()
+    assert second["target_stderr_K"] == pytest.approx(0.25)
+    assert second["n_particles"] == first["n_particles"]
+    d1, d2 = first["details"], second["details"]
+    assert d2["initial_samples"] + d2["final_samples"] > d1["initial_samples"] + d1["final_samples"]
+    if second["stopped_by"] == "target":  # the sampling part meets the target
+        assert second["delta_T_stderr_parts_K"]["sampling"] <= 0.25
+    else:
+        assert any("CPU budget" in w for w in second["warnings"])
+    T1, T2 = first["final_temperature_K"], second["final_temperature_K"]
+    assert abs(T1["value"] - T2["value"]) < 3.0 * math.hypot(T1["stderr"], T2["stderr"])
+    ledger = json.loads((out / "tasks" / "0000.stages" / "cpu-time-ledger.json").read_text())
+    assert second["cpu_seconds"] == pytest.approx(sum(r["cpu_s"] for r in ledger.values()))
+    capsys.readouterr()
+    wider = tmp_path / "loose.toml"
+    wider.write_text(wider.read_text().replace("volume_ratio = 2.0", "volume_ratio = 3.0"))
+    assert main(["run", str(wider), "--out", str(out), "--quiet"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "volume_ratio" in err[0] and "cannot be extended" in err[0]

@@ -65,7 +65,8 @@ def run_energy(job):
         "initial_u_res_stderr_J_mol": np.array([res.details["initial_u_res_stderr_J_mol"]]),
     }
     extra = {"newton_temperatures": len(finals),
-             "initial_samples": init.n_samples(), "sample_interval": init.interval}
+             "initial_samples": init.n_samples(), "sample_interval": init.interval,
+             "final_samples": int(sum(ch.n_samples() for ch in finals))}
     return res, series, _final_pressure(job, finals, res), extra
 
 
