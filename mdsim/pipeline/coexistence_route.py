@@ -19,7 +19,7 @@ from analysis.expansion import (CoexistencePoint, CoexistenceTable, SinglePhaseF
 from mdsim.errors import ConvergenceError, SettingError, StudyError
 
 __all__ = ["coexistence_table", "expansion_through_coexistence", "final_state_in_dome",
-           "coexistence_for_task", "coexistence_text", "GIBBS_SOURCE", "GIBBS_SETTINGS",
+           "coexistence_for_task", "coexistence_text", "warn_virial_in_dome", "GIBBS_SOURCE", "GIBBS_SETTINGS",
            "GRID_STEP_RED", "FIRST_POINTS", "MAX_POINTS", "LOWEST_T_RED"]
 
 GIBBS_SOURCE = "Gibbs-ensemble Monte Carlo of the study's potential (rc and tail as every route)"
@@ -152,7 +152,7 @@ def coexistence_for_task(job, res):
         ``liquid_density_mol_m3``, ``source``, ``temperatures_K`` (the Gibbs
         points used); when False ``reason`` (one line, no number).
     """
-    why = _not_applicable(job)
+    why = _not_applicable(job.study, job.feynman_hibbs)
     u_i = None if why else _initial_u_res(job, res)
     if why is None and u_i is None:
         why = "the route recorded no sampled energy of the initial state"
@@ -182,13 +182,13 @@ def coexistence_for_task(job, res):
                       "or be one fluid"}
 
 
-def _not_applicable(job):
+def _not_applicable(study, feynman_hibbs):
     """Why the Gibbs ensemble does not model this study (None when it does)."""
-    gas = job.study.gas
+    gas = study.gas
     if gas.n_species != 1 or gas.molecules or getattr(gas, "three_body_c9_K_A9", 0.0):
         return ("the coexistence route treats a pure gas of spherical particles with a pair "
                 "potential only (no mixtures, molecules or three-body term)")
-    if job.feynman_hibbs:
+    if feynman_hibbs:
         return "the coexistence route does not use the Feynman-Hibbs potential (classical only)"
     return None
 
@@ -263,3 +263,47 @@ def coexistence_text(record):
             f"{max(T):.4g} K): Delta T = {value_with_error(d['value'], d['stderr'], 'K')}, "
             f"T_f = {value_with_error(t['value'], t['stderr'], 'K')}, vapour fraction "
             f"{value_with_error(x['value'], x['stderr'])}")
+
+
+def warn_virial_in_dome(study, cache_dir, records):
+    """Warn in each state-point record whose virial final state lies inside the cached dome.
+
+    The model's coexistence curve is known when the run directory's cache
+    holds at least two Gibbs points of the study's potential (those of
+    two-phase tasks, :func:`coexistence_for_task`); the virial routes' final
+    states (T_i + Delta T, rho_i / r) are checked against it
+    (:func:`final_state_in_dome`) at temperatures between its points.
+
+    Parameters
+    ----------
+    study : mdsim.study.reader.Study
+    cache_dir : path-like
+        :attr:`mdsim.pipeline.rundir.RunDir.coexistence_dir`.
+    records : list of dict
+        :func:`mdsim.pipeline.summary.state_point_record` outputs; their
+        ``warnings`` are extended in place.
+
+    Returns
+    -------
+    bool
+        Whether a curve was known (and the check made).
+    """
+    from mdsim.sampling.coexistence import cached_points
+    from mdsim.study.quantum_potential import uses_feynman_hibbs
+    if _not_applicable(study, uses_feynman_hibbs(study)) is not None:
+        return False
+    points = cached_points(cache_dir, study.reduced_pairs())
+    if len(points) < 2:
+        return False
+    table = coexistence_table(points, study.units)
+    for rec in records:
+        T_i = rec["initial"]["temperature_K"]
+        rho_i = rec["initial"]["density_mol_m3"]
+        for route in ("virial_b2b3", "virial_b2"):
+            dT = (rec["delta_T_K"].get(route) or {}).get("value")
+            if dT is None or rho_i is None:
+                continue
+            warning = final_state_in_dome(table, T_i + dT, rho_i / rec["volume_ratio"], route)
+            if warning is not None:
+                rec["warnings"].append(warning)
+    return True

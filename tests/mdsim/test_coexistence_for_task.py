@@ -19,7 +19,8 @@ from analysis.expansion import SampledExpansionResult
 from analysis.heatcapacity import ConstantHeatCapacity
 from mdsim.pipeline import RunDir
 from mdsim.pipeline.coexistence_route import (GRID_STEP_RED, LOWEST_T_RED, MAX_POINTS,
-                                              coexistence_for_task, coexistence_text)
+                                              coexistence_for_task, coexistence_text,
+                                              warn_virial_in_dome)
 from mdsim.pipeline.task import CpuLedger
 from mdsim.study.reader import read_study
 
@@ -104,3 +105,27 @@ def test_mixtures_and_molecules_are_not_treated(job, thol_lj):
     rec = coexistence_for_task(job, _route_result(job, thol_lj, 0.8, 0.75, 0.43))
     assert rec == {"available": False, "reason": rec["reason"]} and "pure gas" in rec["reason"]
     assert coexistence_text(rec).startswith("through coexistence: no result: ")
+
+
+def test_virial_final_states_are_checked_against_the_cached_curve(job):
+    # The run directory's cache (Thol 2016 points, T* = 0.70 to 1.25) is the model's curve.
+    # At T* = 0.85 the saturated vapour is rho* = 0.0075 and the liquid 0.77 (Thol 2016):
+    # B2+B3 ending at rho* = 0.3 is inside, B2 ending at rho* = 0.004 (initial 0.008) is not
+    u = job.units
+    rec = {"initial": {"temperature_K": u.temperature_to_K(0.9),
+                       "density_mol_m3": u.density_to_mol_m3(0.6)},
+           "volume_ratio": 2.0, "warnings": [],
+           "delta_T_K": {"virial_b2b3": {"value": u.temperature_to_K(0.85 - 0.9)}}}
+    dilute = {**rec, "initial": {**rec["initial"], "density_mol_m3": u.density_to_mol_m3(0.008)},
+              "delta_T_K": {"virial_b2": {"value": u.temperature_to_K(0.85 - 0.9)}},
+              "warnings": []}
+    assert warn_virial_in_dome(job.study, job.rd.coexistence_dir, [rec, dilute]) is True
+    assert len(rec["warnings"]) == 1 and rec["warnings"][0].startswith("virial_b2b3: TWO-PHASE")
+    assert dilute["warnings"] == []
+
+
+def test_no_cached_curve_means_no_virial_check(tmp_path):
+    study = read_study(ARGON)
+    rec = {"warnings": []}
+    assert warn_virial_in_dome(study, tmp_path / "empty", [rec]) is False
+    assert rec["warnings"] == []
