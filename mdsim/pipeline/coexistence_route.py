@@ -174,10 +174,14 @@ def coexistence_for_task(job, res):
                 failure = str(exc)
     except (StudyError, ConvergenceError, SettingError) as exc:
         failure = f"the Gibbs ensemble stopped: {exc}"
-    hi = job.units.temperature_to_K(points[-1].T_red) if points else job.T_i
+    if not points:
+        return {"available": False, "temperatures_K": [],
+                "reason": f"{failure} (at T = {job.units.temperature_to_K(T0):.4g} K, the "
+                          "first temperature tried)"}
     return {"available": False, "temperatures_K": _kelvins(points, job.units),
             "reason": f"no vapour-liquid final state found between "
-                      f"{job.units.temperature_to_K(T0):.4g} K and {hi:.4g} K ({failure}); "
+                      f"{job.units.temperature_to_K(points[0].T_red):.4g} K and "
+                      f"{job.units.temperature_to_K(points[-1].T_red):.4g} K ({failure}); "
                       "the equilibrium final state may hold a solid (below the triple point) "
                       "or be one fluid"}
 

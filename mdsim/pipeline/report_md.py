@@ -244,8 +244,9 @@ def _two_phase_lines(points, records):
     return ["**Two-phase final states**: " + "; ".join(flagged) + ". These final states lie "
             "inside the vapour-liquid region or are metastable (the evidence is in the "
             "warnings below); their Delta T is that of the simulated sample, not of vapour and "
-            "liquid at equilibrium. The expansion through coexistence (vapour and liquid at "
-            "equilibrium, docs/physics.md):", ""] + coexistence + [""]
+            "liquid at equilibrium." + (" The expansion through coexistence (vapour and "
+                                        "liquid at equilibrium):" if coexistence else ""),
+            ""] + (coexistence + [""] if coexistence else [])
 
 
 def _unfinished(gathered):
