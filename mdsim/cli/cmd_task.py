@@ -17,6 +17,7 @@ def add_arguments(p):
 
 
 def run(args):
+    from mdsim.pipeline.coexistence_route import coexistence_text
     from mdsim.pipeline.run_study import run_logged_task
     with verbose_logging(args.verbose):
         result = run_logged_task(args.run_dir, args.index)
@@ -30,4 +31,7 @@ def run(args):
         if result.get("two_phase"):
             print("mdsim: warning: TWO-PHASE final state: "
                   + "; ".join(result["phase_check"]["evidence"]), file=sys.stderr)
+            text = coexistence_text(result.get("coexistence"))
+            if text:
+                print(f"mdsim: {text}", file=sys.stderr)
     return 0

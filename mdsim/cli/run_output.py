@@ -83,6 +83,11 @@ def result_lines(summary):
             lines.append(f"state point {rec['index']}: warning: TWO-PHASE final state: the "
                          "sample is not one stable fluid (evidence in report.md and "
                          "results.json); Delta T is that of the simulated sample")
+            from mdsim.pipeline.coexistence_route import coexistence_text
+            for route, entry in rec.get("simulation", {}).items():
+                text = coexistence_text(entry.get("coexistence"))
+                if text:
+                    lines.append(f"state point {rec['index']}: {route} route, {text}")
     return lines
 
 

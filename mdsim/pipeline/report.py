@@ -3,7 +3,9 @@
 :func:`build_report` reads what a run directory holds (the resolved study,
 the planned tasks, every finished ``tasks/NNNN.h5``, the failure notes of
 failed tasks: :mod:`mdsim.pipeline.collect`), computes the virial routes
-(:mod:`mdsim.pipeline.summary`), and writes
+(:mod:`mdsim.pipeline.summary`; a virial final state inside the model's
+coexistence curve, when the run directory's cache knows it, gets a warning:
+:func:`mdsim.pipeline.coexistence_route.warn_virial_in_dome`), and writes
 
 ``results.json``, ``results.csv``
     :mod:`mdsim.pipeline.results_files`.
@@ -24,6 +26,7 @@ import logging
 import os
 
 from mdsim.errors import StudyError
+from mdsim.pipeline.coexistence_route import warn_virial_in_dome
 from mdsim.pipeline.collect import check_plan_consistent, gather_tasks, state_point_records
 from mdsim.pipeline.figures import draw_figures, earlier_figures, run_inversion
 from mdsim.pipeline.plan import plan_tasks
@@ -82,6 +85,7 @@ def build_report(run_dir, *, plots=True):
     check_plan_consistent(rd, plan_tasks(study), gathered)
     points = study.state_points()
     records = state_point_records(study, points, gathered)
+    warn_virial_in_dome(study, rd.coexistence_dir, records)
     summary = run_summary(study, records)
     summary["tasks"] = {"done": sorted(gathered["results"]), "failed": gathered["failed"],
                         "missing": gathered["missing"]}

@@ -12,6 +12,7 @@ import time
 
 from mdsim.files import atomic_write_text
 from mdsim.numbers import value_with_error
+from mdsim.pipeline.coexistence_route import coexistence_text
 from mdsim.pipeline.report_tables import (entropy_table, initial_state_table, results_table,
                                           virial_table)
 from mdsim.pipeline.rundir import RunDir
@@ -228,18 +229,24 @@ def _results(points, records, rd):
 
 def _two_phase_lines(points, records):
     """A paragraph naming the state points whose final state a route found two-phase."""
-    flagged = []
+    flagged, coexistence = [], []
     for sp, rec in zip(points, records):
         sim = rec.get("simulation", {})
         routes = [route for route, entry in sim.items() if entry.get("two_phase")]
         if routes:
             flagged.append(f"state point {sp.index} ({', '.join(routes)})")
+        for route in routes:
+            text = coexistence_text(sim[route].get("coexistence"))
+            if text:
+                coexistence.append(f"- state point {sp.index}, {route} route, {text}")
     if not flagged:
         return []
     return ["**Two-phase final states**: " + "; ".join(flagged) + ". These final states lie "
             "inside the vapour-liquid region or are metastable (the evidence is in the "
             "warnings below); their Delta T is that of the simulated sample, not of vapour and "
-            "liquid at equilibrium.", ""]
+            "liquid at equilibrium." + (" The expansion through coexistence (vapour and "
+                                        "liquid at equilibrium):" if coexistence else ""),
+            ""] + (coexistence + [""] if coexistence else [])
 
 
 def _unfinished(gathered):

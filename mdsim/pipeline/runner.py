@@ -17,6 +17,7 @@ import numpy as np
 
 from analysis.results import to_plain
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
+from mdsim.pipeline.coexistence_route import coexistence_for_task
 from mdsim.pipeline.initial_state import density_error_in_delta_T, sampled_pressure
 from mdsim.pipeline.phase_check import check_phases
 from mdsim.pipeline.route_entropy import sample_route_entropy
@@ -61,8 +62,11 @@ def run_task(run_dir, index, progress=None):
         :func:`mdsim.pipeline.route_entropy.sample_route_entropy`), ``stopped_by``, ``cpu_seconds``,
         ``n_particles``, ``warnings``, ``notes``, ``method``, ``details``,
         ``n_stages``, ``target_stderr_K``, ``wall_seconds_last_run``, ``two_phase``
-        (bool) and ``phase_check`` (the evidence,
-        :func:`mdsim.pipeline.phase_check.check_phases`).  A
+        (bool), ``phase_check`` (the evidence,
+        :func:`mdsim.pipeline.phase_check.check_phases`) and ``coexistence`` (a two-phase
+        final state's expansion through coexistence, its CPU time counted in
+        ``cpu_seconds``: :func:`mdsim.pipeline.coexistence_route.coexistence_for_task`;
+        None for one fluid).  A
         complete task file is read back, not run again.
 
     Raises
@@ -173,8 +177,10 @@ def _run(rd, index, task, progress, seen):
     job.stop_reason(res.delta_T_stderr_K)  # the target met is the reason, budget spent or not
     phases = check_phases(job, res, _initial_pressure(job), pressure)
     entropy = sample_route_entropy(job, res)
+    coexistence = coexistence_for_task(job, res) if phases["two_phase"] else None
     result = _result(job, res, pressure, extra)
     result["two_phase"] = phases["two_phase"]
+    result["coexistence"] = coexistence
     result["phase_check"] = to_plain(phases)
     result["entropy_generated_J_molK"] = entropy
     result["wall_seconds_last_run"] = time.time() - wall0

@@ -21,7 +21,10 @@ One record shape serves ``mdsim run --json``, ``results.json`` and
       "simulation": {route: {"stopped_by", "cpu_seconds", "n_particles", "method",
                              "initial_density_mol_m3", "initial_density_from",
                              "initial_pressure_Pa": {"value", "stderr"},
-                             "two_phase", "two_phase_evidence"}},
+                             "two_phase", "two_phase_evidence",
+                             "coexistence": null or {"available", "delta_T_K",
+                                 "final_temperature_K", "vapour_fraction", "source",
+                                 "temperatures_K", ... or "reason"}}},
       "two_phase": bool (a simulation route found its final state inside the
                    vapour-liquid dome or metastable; its warning says why),
       "warnings": [str, ...]
@@ -244,7 +247,7 @@ def _simulation_entries(route_results, delta, finals, warnings, entropy):
     -------
     simulation : dict
         {route: {stopped_by, cpu_seconds, n_particles, method, two_phase,
-        two_phase_evidence}}.
+        two_phase_evidence, coexistence}}.
     initial_pressure : float or None
         The first initial pressure a simulation sampled, Pa.
     """
@@ -267,7 +270,7 @@ def _simulation_entries(route_results, delta, finals, warnings, entropy):
             initial_pressure, _ = value_stderr(res.get("initial_pressure_Pa"))
         simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
                                                       "method", "initial_density_from",
-                                                      "two_phase")}
+                                                      "two_phase", "coexistence")}
         simulation[route]["initial_density_mol_m3"] = _num(res.get("initial_density_mol_m3"))
         simulation[route]["initial_pressure_Pa"] = _value_stderr_dict(
             res.get("initial_pressure_Pa"))

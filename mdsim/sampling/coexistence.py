@@ -44,7 +44,7 @@ from mdsim.errors import ConvergenceError, SettingError, StudyError
 from mdsim.files import atomic_write_text
 
 __all__ = ["CoexistencePoint", "coexistence_point", "start_densities_guess", "cache_file",
-           "TAIL_TREATMENT"]
+           "cached_points", "TAIL_TREATMENT"]
 
 TAIL_TREATMENT = "truncated at rc, analytic long-range correction per box (g(r) = 1 beyond rc)"
 """How the interaction beyond the cut-off is treated (the same in every route)."""
@@ -171,6 +171,38 @@ def _read_cached(path):
         return CoexistencePoint(**data["point"])
     except (KeyError, TypeError):
         return None
+
+
+def cached_points(cache_dir, pairs):
+    """The points of a potential already in a cache folder, one per temperature, by T.
+
+    Where several runs of one temperature are cached (other settings), the
+    one with the most production cycles is taken.  Unreadable files are left out.
+
+    Parameters
+    ----------
+    cache_dir : path-like
+    pairs : PairMatrix
+
+    Returns
+    -------
+    list of CoexistencePoint
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones, PairMatrix
+    >>> cached_points("no-such-folder", PairMatrix([LennardJones(1.0, 1.0)], 3.0))
+    []
+    """
+    best = {}
+    for path in sorted((Path(cache_dir) / _fingerprint(pairs)).glob("*.json")):
+        point = _read_cached(path)
+        if point is None:
+            continue
+        old = best.get(point.T_red)
+        if old is None or point.production_cycles > old.production_cycles:
+            best[point.T_red] = point
+    return [best[t] for t in sorted(best)]
 
 
 def _write_cached(path, point):

@@ -90,3 +90,41 @@ def lj_liquid_256():
     """256 LJ particles at rho* = 0.8442 on a lattice, rc = 2.5 sigma."""
     pairs = PairMatrix([LennardJones(1.0, 1.0)], 2.5)
     return System.cubic(pairs, [256], 0.8442).place_on_lattice(3)
+
+
+@pytest.fixture(scope="session")
+def thol_coexistence_cache(thol_lj):
+    """``fill(cache_dir, pairs, temperatures_red)``: the Gibbs-ensemble cache of
+    :func:`mdsim.sampling.coexistence.coexistence_point` (settings
+    :data:`mdsim.pipeline.coexistence_route.GIBBS_SETTINGS`) pre-filled with the
+    coexistence of the Lennard-Jones reference EOS of Thol et al., J. Phys. Chem.
+    Ref. Data 45, 023101 (2016), through teqp (test-only), in place of runs.
+
+    The EOS is of the full potential, the product's of the truncated one with
+    its tail: these points test the wiring, not the Gibbs ensemble.  Standard
+    errors are invented (0.002 on rho_l* and the energies, 0.0002 on rho_v*).
+    The file layout (version 1, the point's fields) is the sampler's cache format.
+    """
+    import json
+    from dataclasses import asdict
+
+    from mdsim.pipeline.coexistence_route import GIBBS_SETTINGS
+    from mdsim.sampling.coexistence import CoexistencePoint, cache_file
+
+    def fill(cache_dir, pairs, temperatures_red):
+        for t in temperatures_red:
+            t = round(float(t), 6)
+            rl, rv = thol_lj.saturation(t)
+            p = rv * t * (1.0 + thol_lj.model.get_Ar01(t, rv, np.array([1.0])))
+            point = CoexistencePoint(
+                T_red=t, rho_vap=rv, rho_vap_err=2e-4, rho_liq=rl, rho_liq_err=2e-3,
+                u_vap=thol_lj.u_res(t, rv), u_vap_err=2e-3, u_liq=thol_lj.u_res(t, rl),
+                u_liq_err=2e-3, p_sat=p, p_sat_err=0.0, p_liq=p, p_liq_err=0.0,
+                n_particles=GIBBS_SETTINGS["n_particles"],
+                equilibration_cycles=GIBBS_SETTINGS["equilibration_cycles"],
+                production_cycles=GIBBS_SETTINGS["production_cycles"],
+                cutoff_red=float(pairs.rc_max), seed="thol-2016-eos")
+            path = cache_file(cache_dir, pairs, t, **GIBBS_SETTINGS)
+            path.parent.mkdir(parents=True, exist_ok=True)
+            path.write_text(json.dumps({"version": 1, "point": asdict(point)}), encoding="utf-8")
+    return fill

@@ -85,7 +85,8 @@ seed = 7
 
 
 @pytest.mark.slow
-def test_an_expansion_into_the_dome_is_reported_two_phase_everywhere(tmp_path):
+def test_an_expansion_into_the_dome_is_reported_two_phase_everywhere(tmp_path,
+                                                                     thol_coexistence_cache):
     """T* = 1.5, rho* = 0.5 doubled (the dome state of tests/mdsim/test_routes_across_states.py):
     the final state lies inside the vapour-liquid dome of the LJ reference EOS (equilibrium
     T_f* = 1.219 with 70 % liquid, Thol 2016 via teqp); the microcanonical route's 256 particles
@@ -100,10 +101,20 @@ def test_an_expansion_into_the_dome_is_reported_two_phase_everywhere(tmp_path):
 
     path = tmp_path / "study.toml"
     path.write_text(DOME_STUDY, encoding="utf-8")
+    rd = RunDir(tmp_path / "run")
+    thol_coexistence_cache(rd.coexistence_dir, read_study(path).reduced_pairs(),
+                           0.70 + 0.05 * np.arange(13))
     run = run_study(read_study(path), tmp_path / "run", on="local", workers=1, quiet=True)
     assert run.failed == {}
-    rd = RunDir(tmp_path / "run")
     _, res, _ = read_task_result(rd.task_file(0))
+    coex = res["coexistence"]
+    assert coex["available"] is True
+    # Thol 2016 construction T_f* = 1.2194 (70 % liquid; tests/analysis/
+    # test_coexistence_expansion.py) from the EOS's initial energy; here the initial energy
+    # is the sampled one of the truncated potential with its tail (measured 122.10 +- 0.09 K,
+    # x = 0.303): tolerance 0.5 K and 0.01 in x, for that difference of models and the error
+    assert coex["final_temperature_K"]["value"] == pytest.approx(121.94, abs=0.5)
+    assert coex["vapour_fraction"]["value"] == pytest.approx(0.30, abs=0.01)
     assert res["two_phase"] is True and res["phase_check"]["evidence"]
     assert res["phase_check"]["initial_two_phase"] is False
     assert any("TWO-PHASE" in w for w in res["warnings"])
@@ -111,4 +122,7 @@ def test_an_expansion_into_the_dome_is_reported_two_phase_everywhere(tmp_path):
     assert record["two_phase"] is True
     assert record["simulation"]["microcanonical"]["two_phase_evidence"]
     assert any("TWO-PHASE" in line for line in result_lines(run.summary))
-    assert "Two-phase final states" in rd.report_md.read_text()
+    assert record["simulation"]["microcanonical"]["coexistence"] == coex
+    assert any("through coexistence (lever rule" in line for line in result_lines(run.summary))
+    report = rd.report_md.read_text()
+    assert "Two-phase final states" in report and "through coexistence (lever rule" in report
