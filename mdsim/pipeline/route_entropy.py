@@ -134,6 +134,10 @@ def sample_route_entropy(job, res):
     """
     if job.initial_chain is None or job.final_chain is None:
         return _unavailable("the route kept no chain at one of its end states")
+    if job.feynman_hibbs:
+        return _unavailable("the Feynman-Hibbs potential depends on temperature, and the "
+                            "test-particle estimate of the residual entropy is not built for "
+                            "such a potential yet")
     T_f = float(res.final_temperature_K)
     T_f_err = float(res.final_temperature_stderr_K)
     if not (math.isfinite(T_f) and T_f > 0.0 and math.isfinite(T_f_err)):
