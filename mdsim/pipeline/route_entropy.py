@@ -23,7 +23,7 @@ from mdsim.pipeline.rundir import INSERTION_FINAL, INSERTION_INITIAL, stage_name
 from mdsim.units import R_GAS
 
 __all__ = ["sample_route_entropy", "reuse_or_clear_stage", "MAX_SAMPLE_SHARE",
-           "ENTROPY_STDERR_FLOOR_RED", "EQUILIBRATION_SWEEPS"]
+           "ENTROPY_STDERR_FLOOR_RED", "EQUILIBRATION_SWEEPS", "MAX_INSERTION_SAMPLES"]
 
 MAX_SAMPLE_SHARE = 0.25
 """An end state's insertion run takes at most this share of the samples of the chain it
@@ -33,6 +33,11 @@ ENTROPY_STDERR_FLOOR_RED = 0.002
 0.017 J/(mol K)): a tight Delta T target would otherwise make the entropy cost as much
 as the route, for a precision of Delta s far beyond what a free expansion asks of it."""
 EQUILIBRATION_SWEEPS = 100
+MAX_INSERTION_SAMPLES = 1000
+"""Most samples (sweeps) of one insertion run: at a dense liquid, where insertion fails
+anyway, a quarter of a long MD chain's samples as Monte Carlo sweeps cost more than the
+route (13 s of a 67 s direct-route task at T* = 10, rho* = 0.9); the error reached is
+reported, whatever it is."""
 """Sweeps before the first sample: the start configuration is already at the density, and
 at T_f or close to it; equilibration detection drops any transient left."""
 
@@ -49,7 +54,7 @@ def _samples_needed(source, T_red, target_s_red):
     samples.
     """
     n_source = source.n_samples()
-    cap = max(MIN_STAGE_SAMPLES, int(MAX_SAMPLE_SHARE * n_source))
+    cap = max(MIN_STAGE_SAMPLES, min(MAX_INSERTION_SAMPLES, int(MAX_SAMPLE_SHARE * n_source)))
     _, se = mean_se(source, "u_full")
     if not (math.isfinite(se) and se > 0.0):
         return cap

@@ -145,8 +145,11 @@ def _allowance_K(rho_star, cutoff=3.0, h_max=0.05):
     return h_max * abs(u_tail) * (1.0 + 1.0 / VOLUME_RATIO) / 1.5 * EPS_K
 
 
-def _run_state(tmp_path, t_star, rho_star, target):
+def _run_state(tmp_path, t_star, rho_star, target, coexistence_cache=None):
     """Run the study of one state through the pipeline.
+
+    ``coexistence_cache``: the ``thol_coexistence_cache`` fixture, to pre-fill the run
+    directory's Gibbs-ensemble cache (a two-phase final state then costs no Gibbs run).
 
     Returns {route: (Delta T in K, its stderr in K, CPU s, warnings, what stopped the task,
     the route's entropy entry, its T_f*)}.
@@ -156,6 +159,9 @@ def _run_state(tmp_path, t_star, rho_star, target):
         t=t_star, rho=rho_star, T_K=t_star * EPS_K, rho_mol_m3=rho_star / (N_A * SIGMA_M ** 3),
         r=VOLUME_RATIO, particles=PARTICLES, target=target, max_cpu=MAX_CPU, seed=SEED),
         encoding="utf-8")
+    if coexistence_cache is not None:
+        coexistence_cache(RunDir(tmp_path / "run").coexistence_dir,
+                          read_study(path).reduced_pairs(), 0.70 + 0.05 * np.arange(13))
     run = run_study(read_study(path), tmp_path / "run", on="local", workers=2, quiet=True)
     assert run.failed == {}, run.failed  # no task failed (the energy route once did at T* = 2)
     rd = RunDir(tmp_path / "run")
@@ -209,9 +215,12 @@ def _check_entropy(route, entropy, t_star, rho_star, t_f):
 
 
 @pytest.fixture(scope="module")
-def dome_run(tmp_path_factory):
-    """The routes at T* = 1.5, rho* = 0.5 (run once for the two tests below)."""
-    return _run_state(tmp_path_factory.mktemp("dome"), *DOME_STATE, "3 K")
+def dome_run(tmp_path_factory, thol_coexistence_cache):
+    """The routes at T* = 1.5, rho* = 0.5 (run once for the two tests below); the two-phase
+    final state's coexistence points come from the Thol EOS (tests/mdsim/conftest.py), not
+    from Gibbs runs, which would cost minutes here."""
+    return _run_state(tmp_path_factory.mktemp("dome"), *DOME_STATE, "3 K",
+                      coexistence_cache=thol_coexistence_cache)
 
 
 def test_expansion_into_the_dome_finishes_and_cools_more_than_equilibrium(dome_run):
