@@ -16,7 +16,8 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.md` (molecular dynamics), :mod:`~mdsim.engine.mc_cells`,
 :mod:`~mdsim.engine.mc_kernels` and :mod:`~mdsim.engine.montecarlo` (Monte Carlo),
 :mod:`~mdsim.engine.insertion` (test-particle insertion),
-:mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble).
+:mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble),
+:mod:`~mdsim.engine.rigid_pair` (pair energy, forces and torques of rigid linear molecules).
 """
 from pathlib import Path as _Path
 
