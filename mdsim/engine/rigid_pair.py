@@ -52,7 +52,7 @@ from mdsim.errors import SettingError, SimulationError
 __all__ = ["pair_terms", "pair_forces", "forces_half", "LinearPairModel"]
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True)
 def pair_terms(form, with_force, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t,
                site_z_k, params_kk, quad_t):
     """Energy, force on b and torques of one pair of linear molecules (no cut-off).
@@ -148,7 +148,7 @@ def pair_terms(form, with_force, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, sit
     return u, fx, fy, fz, tax, tay, taz, tbx, tby, tbz
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True)
 def pair_forces(form, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t, site_z_k,
                 params_kk, quad_t, rc, shifted):
     """:func:`pair_terms` with the energy shifted at the cut-off when ``shifted``.
@@ -183,7 +183,7 @@ def pair_forces(form, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t, 
     return u, fx, fy, fz, tax, tay, taz, tbx, tby, tbz
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True)
 def _rows(form, centre_ni, axis_ni, type_n, box_i, site_start_t, site_z_k, params_kk, quad_t,
           rc, shifted, nb_nj, count_n, force_ni, torque_ni):
     lx, ly, lz = box_i[0], box_i[1], box_i[2]
@@ -266,14 +266,6 @@ def forces_half(centre_ni, axis_ni, type_n, box_i, site_start_t, site_z_k, param
                  params_kk, quad_t, rc, shifted, nb_nj, count_n, force_ni, torque_ni)
 
 
-@njit(cache=True)
-def _one_pair(form, d_i, a_i, b_i, ta, tb, site_start_t, site_z_k, params_kk, quad_t, rc,
-              shifted, out):
-    out[:] = pair_forces(form, d_i[0], d_i[1], d_i[2], a_i[0], a_i[1], a_i[2], b_i[0],
-                         b_i[1], b_i[2], ta, tb, site_start_t, site_z_k, params_kk, quad_t,
-                         rc, shifted)
-
-
 class LinearPairModel:
     """The pair interaction of rigid linear molecules in reduced units, for the kernels.
 
@@ -328,13 +320,14 @@ class LinearPairModel:
             pots = [Mie(p.epsilon, p.sigma, p.repulsive, p.attractive) for p in pots]
         self.site_start_t = np.array(starts, dtype=np.int64)
         self.site_z_k = np.array(zs)
-        self.params_kk = np.array([[(a if a == b else combine(a, b)).params for b in pots]
-                                   for a in pots])
+        self.site_potentials = pots
+        n_k = len(pots)
+        self.params_kk = np.array([[self.site_pair_potential(k, m).params for m in range(n_k)]
+                                   for k in range(n_k)])
         self.form = FORM_LJ if all_lj else FORM_MIE
         self.quad_t = np.array(quads)
         self.rc = rc
         self.shifted = int(bool(shifted))
-        self.site_potentials = pots
 
     @property
     def n_types(self):
@@ -344,6 +337,55 @@ class LinearPairModel:
         """``(site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted)``."""
         return (self.site_start_t, self.site_z_k, self.params_kk, self.form, self.quad_t,
                 self.rc, self.shifted)
+
+    def site_pair_potential(self, k, m):
+        """The potential between sites k and m (like, or Lorentz-Berthelot)."""
+        a, b = self.site_potentials[k], self.site_potentials[m]
+        return a if a == b else combine(a, b)
+
+    def tail(self, density, fraction_t=None):
+        """Isotropic site-site long-range corrections of the plain molecular cut-off.
+
+        Parameters
+        ----------
+        density : float, 1/sigma^3
+            Number density of molecules.
+        fraction_t : array_like, shape=(n_types,), optional
+            Mole fractions of the molecule types (default: one type).
+
+        Returns
+        -------
+        u_tail : float, epsilon
+            Energy per molecule.
+        p_tail : float, epsilon/sigma^3
+
+        Notes
+        -----
+        Every site pair is taken as uncorrelated beyond the centre-centre
+        cut-off rc, with the site-site distance equal to rc:
+        U_tail / N = 2 pi rho sum_ab x_a x_b sum_(k in a, m in b) I_u,km and
+        P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the
+        integrals of :meth:`PairPotential.tail_integrals` (the atomic
+        formulas of Allen and Tildesley, Computer Simulation of Liquids,
+        section 2.8, applied site by site: common practice, no source).
+        The quadrupole-quadrupole energy averages to zero over orientations
+        and gets no tail.
+        """
+        x_t = np.ones(1) if fraction_t is None else np.asarray(fraction_t, dtype=float)
+        if x_t.shape != (self.n_types,) or abs(x_t.sum() - 1.0) > 1e-9 or np.any(x_t < 0):
+            raise SettingError("fraction_t", fraction_t, f"needs {self.n_types} mole fractions "
+                               ">= 0 that sum to 1")
+        s_u = s_w = 0.0
+        st = self.site_start_t
+        for a in range(self.n_types):
+            for b in range(self.n_types):
+                for k in range(st[a], st[a + 1]):
+                    for m in range(st[b], st[b + 1]):
+                        i_u, i_w = self.site_pair_potential(k, m).tail_integrals(self.rc)
+                        s_u += x_t[a] * x_t[b] * i_u
+                        s_w += x_t[a] * x_t[b] * i_w
+        rho = float(density)
+        return 2.0 * math.pi * rho * s_u, -2.0 * math.pi / 3.0 * rho * rho * s_w
 
     def pair(self, d_i, axis_a_i, axis_b_i, type_a=0, type_b=0):
         """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).
@@ -363,11 +405,15 @@ class LinearPairModel:
         """
         d_i, a_i, b_i = (np.asarray(v, dtype=float).reshape(3) for v in
                          (d_i, axis_a_i, axis_b_i))
-        out = np.zeros(10)
-        if float(d_i @ d_i) < self.rc ** 2:
-            _one_pair(self.form, d_i, a_i, b_i, int(type_a), int(type_b), self.site_start_t,
-                      self.site_z_k, self.params_kk, self.quad_t, self.rc, self.shifted, out)
-        return float(out[0]), out[1:4], out[4:7], out[7:10]
+        # the two molecules in a box too large for any image to matter, through the kernel
+        centre_ni = np.array([np.zeros(3), d_i])
+        box_i = np.full(3, 4.0 * (self.rc + float(np.abs(d_i).max())))
+        force_ni, torque_ni = np.zeros((2, 3)), np.zeros((2, 3))
+        u, _ = forces_half(centre_ni, np.array([a_i, b_i]), np.array([type_a, type_b]),
+                           box_i, *self.arrays(), np.array([[1], [0]], dtype=np.int32),
+                           np.array([1, 0], dtype=np.int32),
+                           force_ni, torque_ni)
+        return float(u), force_ni[1], torque_ni[0], torque_ni[1]
 
     def forces(self, centre_ni, axis_ni, type_n, box_i, nb_nj, count_n, force_ni, torque_ni):
         """:func:`forces_half` with this model; raises SimulationError on a non-finite energy."""
