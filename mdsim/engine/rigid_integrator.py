@@ -1,4 +1,4 @@
-"""Symplectic splitting for linear rigid molecules: the numba kernels and the thermostat.
+"""Symplectic splitting for linear rigid molecules: the numba kernels, the thermostat, the step.
 
 State of molecule n: centre of mass ``r_ni``, velocity ``v_ni``, unit axis
 ``e_ni`` and angular momentum ``l_ni`` (perpendicular to the axis: a linear
@@ -37,6 +37,10 @@ target temperature on their own, which a gas with rare collisions would do
 slowly.  The energy the thermostat adds is accumulated so that the
 conserved energy stays constant in NVT runs too.
 
+:func:`rigid_block` runs whole steps with the pair forces of
+:mod:`mdsim.engine.rigid_pair`, stopping when the Verlet list goes stale
+(the sampler is :class:`mdsim.engine.rigid_md.RigidMDSampler`).
+
 Array suffixes: ``_n`` molecule, ``_i`` Cartesian coordinate.
 """
 import math
@@ -46,9 +50,11 @@ from numba import njit
 
 from mdsim.engine import rng as _rng
 from mdsim.engine.integrator import csvr_scale, maxwell_boltzmann
+from mdsim.engine.rigid_pair import forces_half
 
 __all__ = ["ROTATIONAL_DOF", "kick", "drift_rotate", "kinetic_parts", "thermostat_groups",
-           "draw_angular_momenta", "draw_axes", "start_momenta", "translational_dof"]
+           "draw_angular_momenta", "draw_axes", "start_momenta", "translational_dof",
+           "rigid_block"]
 
 #: Rotational degrees of freedom of a linear rotor.
 ROTATIONAL_DOF = 2
@@ -266,3 +272,69 @@ def start_momenta(s, mass_n, inertia_n, e_ni, kT):
     maxwell_boltzmann(s, mass_n, kT, v_ni)
     draw_angular_momenta(s, inertia_n, e_ni, kT, l_ni)
     return v_ni, l_ni
+
+
+@njit(cache=True)
+def rigid_block(n_steps, resume, dt, r_ni, v_ni, e_ni, l_ni, f_ni, tau_ni, mass_n, inertia_n,
+                r_ref_ni, half_skin2, type_n, box_i, site_start_t, site_z_k, params_kk, form,
+                quad_t, rc, shifted, nb_nj, count_n, thermostat, kT, nf_trans, nf_rot, c, s,
+                obs):
+    """Up to ``n_steps`` rigid-body steps; stop early when the list is stale.
+
+    Parameters
+    ----------
+    n_steps : int
+    resume : bool
+        The previous call stopped after the drift of a step (status 1):
+        finish that step first (forces, second half kick, thermostat).
+    dt : float
+    r_ni, v_ni, e_ni, l_ni, f_ni, tau_ni : ndarray, shape=(n, 3), float64, in/out
+        Centres, velocities, unit axes, angular momenta, forces, torques.
+    mass_n, inertia_n : ndarray, shape=(n,), float64
+    r_ref_ni : ndarray, shape=(n, 3)
+        Centres at the last list build.
+    half_skin2 : float
+        (skin / 2)^2.
+    type_n, box_i, site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted, nb_nj, count_n
+        The arguments of :func:`mdsim.engine.rigid_pair.forces_half`.
+    thermostat : bool
+    kT : float
+    nf_trans, nf_rot : int
+        Degrees of freedom of the two thermostat groups.
+    c : float
+        exp(-dt / tau_thermostat).
+    s : ndarray, shape=(4,), uint64
+    obs : ndarray, shape=(5,), float64, in/out
+        Model energy and virial of the latest force evaluation, minus the
+        energy the thermostat has added (accumulated), K_trans, K_rot.
+
+    Returns
+    -------
+    done : int
+        Completed steps.
+    status : int
+        0 all done; 1 a centre moved more than skin/2: rebuild the list and
+        call again with ``resume=True``; 2 the energy is not finite.
+    """
+    half = 0.5 * dt
+    done = 0
+    while done < n_steps:
+        if not resume:
+            kick(half, v_ni, l_ni, f_ni, tau_ni, e_ni, mass_n)
+            if drift_rotate(dt, r_ni, v_ni, e_ni, l_ni, inertia_n, r_ref_ni) > half_skin2:
+                return done, 1
+        resume = False
+        u, w = forces_half(r_ni, e_ni, type_n, box_i, site_start_t, site_z_k, params_kk, form,
+                           quad_t, rc, shifted, nb_nj, count_n, f_ni, tau_ni)
+        obs[0], obs[1] = u, w
+        if not np.isfinite(u):
+            return done, 2
+        kick(half, v_ni, l_ni, f_ni, tau_ni, e_ni, mass_n)
+        kt, kr = kinetic_parts(v_ni, l_ni, mass_n, inertia_n)
+        if thermostat:
+            kt_new, kr_new = thermostat_groups(v_ni, l_ni, kt, kr, kT, nf_trans, nf_rot, c, s)
+            obs[2] -= kt_new + kr_new - kt - kr
+            kt, kr = kt_new, kr_new
+        obs[3], obs[4] = kt, kr
+        done += 1
+    return done, 0

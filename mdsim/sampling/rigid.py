@@ -11,13 +11,10 @@ import dataclasses
 
 import numpy as np
 
-from analysis.molecules.reduced import reduced_linear_type
 from analysis.stats import mean_and_stderr
-from mdsim.checks import count, positive
-from mdsim.engine.rigid_mc import RigidMCSampler, lattice_start
-from mdsim.engine.rigid_pair import LinearPairModel
+from mdsim.engine.rigid_mc import RigidMCSampler
 from mdsim.numbers import value_with_error
-from mdsim.units import ReducedUnits
+from mdsim.sampling.rigid_box import rigid_box
 
 __all__ = ["RigidStateEstimate", "sample_rigid_state"]
 
@@ -93,17 +90,10 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     >>> est.u_res_J_mol < 0, 0.9e7 < est.pressure_Pa < 1.1e7
     (True, True)
     """
-    T = positive("temperature_K", temperature_K, "a temperature in K")
-    rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
-    n = count("n_molecules", n_molecules, 2, "molecules in the box")
-    site = molecule.sites[0].potential
-    units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
-    model = LinearPairModel([reduced_linear_type(molecule, site.epsilon, site.sigma)],
-                            positive("cutoff", cutoff, "a cut-off in sigma"))
-    box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
-    centre_ni, axis_ni = lattice_start(n, box_i, seed)
-    sampler = RigidMCSampler(model, centre_ni, axis_ni, np.zeros(n, dtype=np.int64), box_i,
-                             temperature=units.temperature_to_reduced(T), seed=[seed, 1])
+    box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
+    T, rho, n, units = box.temperature_K, box.density_mol_m3, len(box.centre_ni), box.units
+    sampler = RigidMCSampler(box.model, box.centre_ni, box.axis_ni, np.zeros(n, dtype=np.int64),
+                             box.box_i, temperature=box.temperature, seed=[seed, 1])
     sampler.equilibrate(equilibration_sweeps)
     tried0, accepted0 = sampler.tried_m.copy(), sampler.accepted_m.copy()
     out = sampler.run(samples, interval)
