@@ -167,6 +167,10 @@ class RigidMDSampler:
         self.box_i = positive_array("box_i", box_i, "box edges in sigma")
         if self.box_i.shape != (3,):
             raise SettingError("box_i", list(self.box_i), "needs three edges")
+        if np.any(self.box_i <= 2.0 * model.rc):
+            raise SettingError("box_i", self.box_i.tolist(), f"each edge must exceed twice the "
+                               f"cut-off {model.rc:g} (minimum image); use more molecules or a "
+                               "shorter cut-off")
         if temperature is not None:
             temperature = positive("temperature", temperature, "kT/epsilon")
         elif method == "md-nvt" or momenta is None:
@@ -223,6 +227,10 @@ class RigidMDSampler:
         if v.shape != (self.n, 3) or lm.shape != (self.n, 3) or not (
                 np.all(np.isfinite(v)) and np.all(np.isfinite(lm))):
             raise SettingError("momenta", "(v_ni, l_ni)", f"needs two ({self.n}, 3) finite arrays")
+        if self.temperature is not None and not (np.any(v) and np.any(lm)):
+            raise SettingError("momenta", "all zero velocities or angular momenta",
+                               "the thermostat rescales each group and cannot start from rest; "
+                               "give nonzero momenta or leave them out for a canonical draw")
         axial = np.sum(lm * self.e_ni, axis=1)
         return v, lm - axial[:, None] * self.e_ni  # a linear rotor has no spin about its axis
 

@@ -93,7 +93,7 @@ def _numpy_steps(model, r, e, v, lm, inertia, box, dt, n_steps):
 
 
 def test_steps_match_a_numpy_reference(nitrogen):
-    n, density = 27, 0.2  # a denser box so that pairs interact strongly within the steps
+    n, density = 40, 0.12  # denser, so that pairs interact strongly within the steps
     md = _sampler(nitrogen, n=n, density=density, method="md-nve", skin=0.3)
     r0, e0 = md.configuration()
     v0, l0 = md.momenta()
@@ -162,11 +162,11 @@ def test_nve_conserves_energy_and_shares_it_between_translation_and_rotation(
 
 
 def test_same_seed_same_numbers_also_after_a_checkpoint(nitrogen):
-    whole = _sampler(nitrogen, n=27, density=0.2, seed=3)
+    whole = _sampler(nitrogen, n=40, density=0.12, seed=3)
     first = whole.run(2, 30)
-    part = _sampler(nitrogen, n=27, density=0.2, seed=3)
+    part = _sampler(nitrogen, n=40, density=0.12, seed=3)
     part.run(1, 30)
-    resumed = _sampler(nitrogen, n=27, density=0.2, seed=99)  # another stream, then replaced
+    resumed = _sampler(nitrogen, n=40, density=0.12, seed=99)  # another stream, then replaced
     resumed.set_state(part.get_state())
     second = resumed.run(1, 30)
     for key in ("e_conserved", "u_cut", "pressure", "temperature_rot"):
@@ -199,3 +199,18 @@ def test_canonical_md_and_monte_carlo_agree(nitrogen, equilibrated):
     assert abs(p_md - mc.pressure_Pa) < 3 * math.hypot(p_se, mc.pressure_stderr), (p_md, mc)
     # and the error bars are tight enough to mean something: 3 % of u_res (about -540 J/mol)
     assert u_se < 0.03 * abs(u_md)
+
+
+def test_thermostat_refuses_a_start_from_rest(nitrogen):
+    b = _box(nitrogen)
+    moving, still = np.ones((N_MOLECULES, 3)), np.zeros((N_MOLECULES, 3))
+    with pytest.raises(SettingError, match="momenta"):
+        RigidMDSampler(b.model, b.centre_ni, b.axis_ni, b.box_i, mass_t=[1.0],
+                       inertia_t=[b.inertia], temperature=1.0, seed=1, momenta=(moving, still))
+
+
+def test_box_must_hold_twice_the_cut_off(nitrogen):
+    b = _box(nitrogen, n=27, density=0.2)  # edge 5.1 sigma, cut-off 3
+    with pytest.raises(SettingError, match="twice the cut-off"):
+        RigidMDSampler(b.model, b.centre_ni, b.axis_ni, b.box_i, mass_t=[1.0],
+                       inertia_t=[b.inertia], temperature=1.0, seed=1)
