@@ -20,6 +20,7 @@ import subprocess
 import sys
 import tempfile
 import time
+import timeit
 from pathlib import Path
 
 import numpy as np
@@ -136,12 +137,8 @@ def _state(model, density, seed=1):
 
 
 def _best(fn, repeat):
-    best = np.inf
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
+    """Shortest of ``repeat`` timings of one call, s."""
+    return min(timeit.repeat(fn, number=1, repeat=repeat))
 
 
 def _kernel_rows(name, model, density, temperature, c_fn, quick):
