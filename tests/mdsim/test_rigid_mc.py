@@ -57,6 +57,10 @@ def test_moves_keep_the_energy_books_and_the_cells_find_every_pair(nitrogen):
     assert (u, w) == pytest.approx((u2, w2), rel=1e-10)
     assert np.allclose(np.linalg.norm(s.axis_ni, axis=1), 1.0, atol=1e-12)
     assert out["u_full"][-1] == pytest.approx(out["u_trunc"][-1] + s.u_tail, rel=1e-12)
+    # the same seed gives the same numbers (the random stream is the sampler's own)
+    again = RigidMCSampler(model, centre, axis, np.zeros(n, int), box, temperature=2.0, seed=5)
+    again.equilibrate(30)
+    assert np.array_equal(again.run(5, 2)["u_trunc"], out["u_trunc"])
     with pytest.raises(SettingError, match="twice the cut-off"):
         RigidMCSampler(model, centre, axis, np.zeros(n, int), box / 2, temperature=2.0, seed=5)
 
