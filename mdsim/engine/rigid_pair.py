@@ -52,7 +52,7 @@ from mdsim.errors import SettingError, SimulationError
 __all__ = ["pair_terms", "pair_forces", "forces_half", "LinearPairModel"]
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def pair_terms(form, with_force, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t,
                site_z_k, params_kk, quad_t):
     """Energy, force on b and torques of one pair of linear molecules (no cut-off).

@@ -11,7 +11,8 @@ import dataclasses
 
 import numpy as np
 
-from analysis.stats import mean_and_stderr
+from analysis.expansion.energy import StateSample
+from analysis.stats import mean_and_stderr, variance_and_stderr
 from mdsim.engine.rigid_mc import RigidMCSampler
 from mdsim.numbers import value_with_error
 from mdsim.sampling.rigid_box import rigid_box
@@ -35,6 +36,10 @@ class RigidStateEstimate:
     cutoff_sigma : float
     u_tail_J_mol : float
         The tail part of u_res (isotropic site-site correction).
+    cv_res_J_molK, cv_res_stderr : float
+        Residual heat capacity N Var(u) / (k T^2) per mole (u the energy
+        per molecule; canonical fluctuation formula, Allen and Tildesley,
+        Computer Simulation of Liquids, section 2.5).
     """
 
     temperature_K: float
@@ -47,6 +52,13 @@ class RigidStateEstimate:
     n_molecules: int
     cutoff_sigma: float
     u_tail_J_mol: float
+    cv_res_J_molK: float
+    cv_res_stderr: float
+
+    def state_sample(self):
+        """The averages as an energy-route sample on an isochore (:class:`StateSample`)."""
+        return StateSample(self.temperature_K, self.u_res_J_mol, self.u_res_stderr,
+                           self.cv_res_J_molK, self.cv_res_stderr)
 
     def describe(self):
         """One line: state, u_res and p with their errors."""
@@ -100,8 +112,10 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     acc = (sampler.accepted_m - accepted0) / np.maximum(sampler.tried_m - tried0, 1)
     u = mean_and_stderr(out["u_full"])
     p = mean_and_stderr(out["pressure"])
+    var = variance_and_stderr(out["u_full"])
+    cv_scale = n / sampler.temperature ** 2 * units.energy_to_J_mol(1.0) / units.epsilon_K
     return RigidStateEstimate(
         T, rho, units.energy_to_J_mol(u.mean), units.energy_to_J_mol(u.stderr),
         units.pressure_to_Pa(p.mean), units.pressure_to_Pa(p.stderr),
         (float(acc[0]), float(acc[1])), n, float(cutoff),
-        units.energy_to_J_mol(sampler.u_tail))
+        units.energy_to_J_mol(sampler.u_tail), cv_scale * var.value, cv_scale * var.stderr)

@@ -57,6 +57,10 @@ def test_moves_keep_the_energy_books_and_the_cells_find_every_pair(nitrogen):
     assert (u, w) == pytest.approx((u2, w2), rel=1e-10)
     assert np.allclose(np.linalg.norm(s.axis_ni, axis=1), 1.0, atol=1e-12)
     assert out["u_full"][-1] == pytest.approx(out["u_trunc"][-1] + s.u_tail, rel=1e-12)
+    # the same seed gives the same numbers (the random stream is the sampler's own)
+    again = RigidMCSampler(model, centre, axis, np.zeros(n, int), box, temperature=2.0, seed=5)
+    again.equilibrate(30)
+    assert np.array_equal(again.run(5, 2)["u_trunc"], out["u_trunc"])
     with pytest.raises(SettingError, match="twice the cut-off"):
         RigidMCSampler(model, centre, axis, np.zeros(n, int), box / 2, temperature=2.0, seed=5)
 
@@ -101,3 +105,31 @@ def test_nitrogen_at_100_bar_against_coolprop(nitrogen_100_bar):
     # parameters were fitted to vapour-liquid equilibria (Vrabec et al. 2001), not to this state
     assert est.u_res_J_mol == pytest.approx(u_ref, abs=3 * est.u_res_stderr + 0.03 * abs(u_ref))
     assert est.pressure_Pa == pytest.approx(p_ref, abs=3 * est.pressure_stderr + 0.01 * p_ref)
+
+
+@pytest.mark.slow
+def test_nitrogen_energy_route_from_100_bar_doubled_against_coolprop(nitrogen, nitrogen_100_bar):
+    # the energy route: u(T_f, rho_i / 2) = u(T_i, rho_i) with the ideal part c_v = 5/2 R
+    # (3 translations + 2 rotations of the rigid model, vibration frozen: configs/nitrogen.toml)
+    CP = pytest.importorskip("CoolProp.CoolProp")
+    from scipy.optimize import brentq
+    from analysis.expansion import energy_route
+    from analysis.heatcapacity import ConstantHeatCapacity
+    _, initial = nitrogen_100_bar
+    T_i, rho_f = initial.temperature_K, 0.5 * initial.density_mol_m3
+    cv = ConstantHeatCapacity.in_units_of_R(2.5)
+    # sample the final isochore where u_res halves with the density (lowest order in rho)
+    T_guess = T_i + 0.5 * initial.u_res_J_mol / cv.cv(T_i)
+    final = sample_rigid_state(nitrogen, T_guess, rho_f, n_molecules=128, cutoff=5.0,
+                               equilibration_sweeps=50, samples=800, interval=1, seed=22)
+    res = energy_route((initial.u_res_J_mol, initial.u_res_stderr), T_i, rho_f,
+                       [final.state_sample()], cv)
+    # the reference: CoolProp nitrogen (Span et al. 2000) from 100 bar at T_i, volume doubled
+    rho_ref = CP.PropsSI("Dmolar", "T", T_i, "P", 100e5, "Nitrogen")
+    u_ref = CP.PropsSI("Umolar", "T", T_i, "Dmolar", rho_ref, "Nitrogen")
+    T_f = brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho_ref / 2, "Nitrogen") - u_ref,
+                 T_i - 30.0, T_i, xtol=1e-9)
+    # tolerance: 3 standard errors plus the model's 2 % on Delta T up to 100 bar (measured for
+    # its virial route, tests/analysis/molecules/test_against_coolprop.py)
+    assert res.delta_T_K == pytest.approx(T_f - T_i, abs=3 * res.delta_T_stderr_K
+                                          + 0.02 * abs(T_f - T_i))
