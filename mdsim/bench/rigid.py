@@ -9,7 +9,9 @@ Figures: ns per site pair of the force kernel
 inside the cut-off counts as its 4 site pairs), the same work done by a
 plain C loop compiled here with ``cc -O2`` on the same configuration and
 neighbour list (the target: the numba kernel within 1.5 times the C loop),
-and Monte Carlo trial moves per second (:class:`RigidMCSampler`).
+Monte Carlo trial moves per second (:class:`RigidMCSampler`) and molecular
+dynamics steps per second (:class:`RigidMDSampler`, shifted-energy model,
+NVE from the Monte Carlo configuration).
 
 Run ``python -m mdsim.bench.rigid`` (``--quick`` for short runs).  Timings
 on a shared machine are noisy; the figures are a guide, not a test.
@@ -28,7 +30,9 @@ import numpy as np
 from analysis.molecules.reduced import reduced_linear_type
 from mdsim.engine.neighbours import NeighbourList
 from mdsim.engine.rigid_mc import RigidMCSampler, lattice_start
+from mdsim.engine.rigid_md import RigidMDSampler
 from mdsim.engine.rigid_pair import LinearPairModel
+from mdsim.sampling.rigid_box import reduced_inertia
 from mdsim.study.reader import read_study
 
 CONFIG = Path(__file__).resolve().parents[2] / "configs" / "nitrogen.toml"
@@ -141,7 +145,19 @@ def _best(fn, repeat):
     return min(timeit.repeat(fn, number=1, repeat=repeat))
 
 
-def _kernel_rows(name, model, density, temperature, c_fn, quick):
+def _md_row(name, model, mc, temperature, inertia, quick):
+    """MD steps per second from the Monte Carlo configuration (shifted-energy model)."""
+    md = RigidMDSampler(model, mc.centre_ni, mc.axis_ni, mc.box_i, mass_t=[1.0],
+                        inertia_t=[inertia], temperature=temperature, seed=1, method="md-nve")
+    md.run(1, 2)  # a first call that includes the list build
+    steps = 5 if quick else 50
+    t0 = time.perf_counter()
+    md.run(1, steps)
+    return (f"rigid N2 {name} N={md.n}: MD steps (NVE, dt = {md.time_step:.2g}), 1 thread",
+            steps / (time.perf_counter() - t0), "steps/s", "")
+
+
+def _kernel_rows(name, model, density, temperature, c_fn, quick, md_model, inertia):
     box, centre, axis = _state(model, density)
     n = N_MOLECULES
     types = np.zeros(n, dtype=np.int64)
@@ -188,6 +204,7 @@ def _kernel_rows(name, model, density, temperature, c_fn, quick):
                      f"<= {TARGET_RATIO}"))
     rows.append((f"rigid N2 {name} N={n}: MC trial moves (translation or rotation)", moves_per_s,
                  "moves/s", ""))
+    rows.append(_md_row(name, md_model, mc, temperature, inertia, quick))
     return rows
 
 
@@ -203,14 +220,19 @@ def _pairs_inside(c, box, nl, rc):
 
 def bench_rows(quick=False):
     """Rows (label, value, unit, target) for the rigid N2 model at both states."""
-    mol = read_study(CONFIG).gas.molecules[0]
+    gas = read_study(CONFIG).gas
+    mol = gas.molecules[0]
     site = mol.sites[0].potential
-    model = LinearPairModel([reduced_linear_type(mol, site.epsilon, site.sigma)], CUTOFF)
+    kind = reduced_linear_type(mol, site.epsilon, site.sigma)
+    model = LinearPairModel([kind], CUTOFF)
+    md_model = LinearPairModel([kind], CUTOFF, shifted=True)
+    inertia = reduced_inertia(mol, gas.units)
     rows = []
     with tempfile.TemporaryDirectory() as tmp:
         c_fn = _c_loop(tmp)
         for name, (density, temperature) in STATES.items():
-            rows += _kernel_rows(name, model, density, temperature, c_fn, quick)
+            rows += _kernel_rows(name, model, density, temperature, c_fn, quick, md_model,
+                                 inertia)
     return rows
 
 

@@ -15,7 +15,7 @@ from mdsim.engine.rigid_mc import lattice_start
 from mdsim.engine.rigid_pair import LinearPairModel
 from mdsim.units import ReducedUnits
 
-__all__ = ["RigidBox", "rigid_box"]
+__all__ = ["RigidBox", "rigid_box", "reduced_inertia"]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -46,6 +46,20 @@ class RigidBox:
     box_i: np.ndarray
     centre_ni: np.ndarray
     axis_ni: np.ndarray
+
+
+def reduced_inertia(molecule, units):
+    """The moment of inertia of a linear rotor in reduced units, m sigma^2.
+
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(34.897, 3.3211)
+    >>> n2 = RigidMolecule("N2", [Site(lj, (0, 0, -0.5232), 0.0140067),
+    ...                           Site(lj, (0, 0, 0.5232), 0.0140067)])
+    >>> round(reduced_inertia(n2, ReducedUnits(34.897, 3.3211e-10, 0.0280134)), 5)
+    0.02482
+    """
+    return float(molecule.moments_of_inertia()[-1] / (units.mass_kg * units.sigma_m ** 2))
 
 
 def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
@@ -89,7 +103,7 @@ def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed
     units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
     model = LinearPairModel([reduced_linear_type(molecule, site.epsilon, site.sigma)],
                             positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted)
-    inertia = float(molecule.moments_of_inertia()[-1] / (units.mass_kg * units.sigma_m ** 2))
+    inertia = reduced_inertia(molecule, units)
     box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, axis_ni = lattice_start(n, box_i, seed)
     return RigidBox(T, rho, units.temperature_to_reduced(T), units, model, inertia, box_i,
