@@ -149,9 +149,11 @@ class RunningTask:
         self.initial_chain = None
         self.final_chain, self.final_first_stage = None, 0
         g = self.study.gas
-        self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
-                                    quantum="classical")
         self.feynman_hibbs = uses_feynman_hibbs(self.study)
+        # the start guess follows the simulated model: classical, or B2 to order hbar^2
+        # (what the Feynman-Hibbs potential reproduces, docs/physics.md 3.5)
+        self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
+                                    quantum="first-order" if self.feynman_hibbs else "classical")
         if self.feynman_hibbs:
             self.notes.append("simulations use the quadratic Feynman-Hibbs effective pair "
                               "potential at each sampled temperature, with its thermodynamic "
