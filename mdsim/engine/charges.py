@@ -24,7 +24,8 @@ from numba import njit
 from mdsim.checks import positive
 from mdsim.errors import SettingError
 
-__all__ = ["CoulombResult", "ChargeBox", "add_pair_force", "linear_quadrupole_charges", "NEUTRAL_TOLERANCE"]
+__all__ = ["CoulombResult", "ChargeBox", "add_pair_force", "linear_quadrupole_charges",
+           "NEUTRAL_TOLERANCE"]
 
 #: A total charge below this fraction of sqrt(sum q^2) counts as neutral (round-off).
 NEUTRAL_TOLERANCE = 1e-10

@@ -42,7 +42,7 @@ __all__ = ["ThreeBodyShift", "three_body_energy_shift", "three_body_delta_T_shif
 
 ThreeBodyShift = namedtuple("ThreeBodyShift", "du du_stderr u3 u3_stderr cv_res cv_res_stderr "
                                               "temperature density n_samples")
-ThreeBodyShift.__doc__ = """The first-order three-body energy change at one state (reduced, per particle).
+ThreeBodyShift.__doc__ = """First-order three-body energy change at one state (reduced, per atom).
 
 du, du_stderr : the energy change <u3> - N Cov(u0, u3) / T and its standard error
 u3, u3_stderr : <u3>, the mean three-body energy per particle

@@ -19,7 +19,7 @@ NACL_MADELUNG = 1.747565
 
 
 def _rock_salt(cells):
-    """2 cells x 2 ions per direction: the simple-cubic lattice of spacing 1, alternating charges."""
+    """Rock salt: simple-cubic lattice of spacing 1, alternating charges, 2 ions per cell edge."""
     m = 2 * cells
     g = np.array([(i, j, k) for i in range(m) for j in range(m) for k in range(m)], float)
     return g + 0.25, np.where(g.sum(axis=1) % 2 == 0, 1.0, -1.0), float(m)
