@@ -32,7 +32,7 @@ from collections import namedtuple
 
 import numpy as np
 
-from analysis.stats import mean_and_stderr, variance_and_stderr
+from analysis.stats import MIN_SAMPLES, mean_and_stderr, variance_and_stderr
 from mdsim.checks import count, positive
 from mdsim.engine.montecarlo import MCSampler
 from mdsim.engine.threebody import three_body_energy
@@ -85,7 +85,7 @@ def three_body_energy_shift(system, temperature, c9, cutoff, *, seed, samples=20
         raise SettingError("system", f"{system.counts_a.size} species, box {box_i.tolist()}",
                            "the three-body energy needs one species of atoms in a cubic box")
     T = positive("temperature", temperature, "reduced kT/epsilon")
-    samples = count("samples", samples, 10, "configurations, typically 100 to 1000")
+    samples = count("samples", samples, MIN_SAMPLES, "configurations, typically 100 to 1000")
     sampler = MCSampler(system, temperature=T, seed=seed)
     sampler.equilibrate(equilibration)
     n = system.n_particles
