@@ -207,3 +207,26 @@ def test_three_charges_carry_the_point_quadrupole_of_analysis():
     u_point = quadrupole_quadrupole(theta, theta, e1, e2, n, r) / COULOMB_K_ANGSTROM
     assert u_charges == pytest.approx(u_point, rel=0.01)
     assert abs(u_point) > 1e-3
+
+
+def test_ewald_parts_against_slow_numpy_sums():
+    # the textbook sums written plainly (Allen and Tildesley 2017, section 6.2): every k
+    # of the full sphere |n| <= k_max (no half-space symmetry), every pair inside rc
+    r_ni, q_n = _random_neutral(12, 3.0, seed=9)
+    alpha, k_max, rc = 1.7, 6, 1.5
+    res = Ewald(q_n, 3.0, alpha=alpha, k_max=k_max, cutoff=rc).compute(r_ni)
+    g = np.arange(-k_max, k_max + 1)
+    n_vi = np.array(np.meshgrid(g, g, g, indexing="ij")).reshape(3, -1).T
+    n2 = (n_vi ** 2).sum(axis=1)
+    k_vi = 2 * math.pi / 3.0 * n_vi[(n2 > 0) & (n2 <= k_max ** 2)]
+    k2 = (k_vi ** 2).sum(axis=1)
+    s_k = (q_n[None, :] * np.exp(1j * k_vi @ r_ni.T)).sum(axis=1)
+    recip = 2 * math.pi / 27.0 * np.sum(np.exp(-k2 / (4 * alpha ** 2)) / k2 * np.abs(s_k) ** 2)
+    assert res.parts["reciprocal"] == pytest.approx(recip, rel=1e-12)
+    from scipy.special import erfc
+    d = r_ni[:, None, :] - r_ni[None, :, :]
+    dist = np.linalg.norm(d - 3.0 * np.rint(d / 3.0), axis=2)
+    i, j = np.triu_indices(12, 1)
+    inside = dist[i, j] < rc
+    real = np.sum((q_n[i] * q_n[j] * erfc(alpha * dist[i, j]) / dist[i, j])[inside])
+    assert res.parts["real"] == pytest.approx(real, rel=1e-12)
