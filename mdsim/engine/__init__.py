@@ -17,7 +17,11 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.mc_kernels`, :mod:`~mdsim.engine.montecarlo` and
 :mod:`~mdsim.engine.microcanonical_temperature` (Monte Carlo),
 :mod:`~mdsim.engine.insertion` (test-particle insertion),
-:mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble).
+:mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble),
+:mod:`~mdsim.engine.charges`, :mod:`~mdsim.engine.ewald` and
+:mod:`~mdsim.engine.damped_coulomb` (point charges: Ewald summation and the
+damped shifted-force sum), :mod:`~mdsim.engine.threebody` (the Axilrod-Teller
+energy of a configuration).
 """
 from pathlib import Path as _Path
 
