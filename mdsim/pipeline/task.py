@@ -260,7 +260,7 @@ class RunningTask:
 
     # -- stage files --------------------------------------------------------------------
     def stage_path(self, name):
-        """The stage file ``name`` (see :func:`mdsim.pipeline.rundir.stage_name`)."""
+        """The stage file ``name`` (see :func:`mdsim.pipeline.stage_names.stage_name`)."""
         return self.rd.stage_file(self.index, name)
 
     def stage(self, name, system, method, T_red=None, E_red=None, *, n_eq, n_samples,

@@ -108,7 +108,7 @@ def test_free_expansion_of_light_gases_against_the_reference_equations(name, flu
     # 0.01 cm^3/mol B2 agreement and B3 within 3 cm^6/mol^2; hydrogen from the
     # Silvera-Goldman dB2/dT and the constant 2.5 R c_v (real normal hydrogen differs by
     # about 1 % at 295 K); neon from the 0.2 cm^3/mol B2 offset of HFD-B against the EOS.
-    from mdsim.pipeline.summary import virial_summary
+    from mdsim.pipeline.virial_summary import virial_summary
     from mdsim.study.statepoints import state_points
     study = read_study(CONFIGS / f"{name}.toml")
     rec = virial_summary(study, state_points(study)[0])
