@@ -18,7 +18,11 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.microcanonical_temperature` (Monte Carlo),
 :mod:`~mdsim.engine.insertion` (test-particle insertion),
 :mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble),
-:mod:`~mdsim.engine.rigid_pair` (pair energy, forces and torques of rigid linear molecules).
+:mod:`~mdsim.engine.charges`, :mod:`~mdsim.engine.ewald` and
+:mod:`~mdsim.engine.damped_coulomb` (point charges: Ewald summation and the
+damped shifted-force sum), :mod:`~mdsim.engine.threebody` (the Axilrod-Teller
+energy of a configuration), :mod:`~mdsim.engine.rigid_pair` (pair energy, forces
+and torques of rigid linear molecules).
 """
 from pathlib import Path as _Path
 

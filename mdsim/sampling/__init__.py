@@ -9,7 +9,9 @@ standard errors (:mod:`~mdsim.sampling.estimates`).  The run file itself:
 damaged files) and :mod:`~mdsim.sampling.h5values` (plain values out of HDF5).
 :func:`coexistence_point` gives the vapour-liquid coexistence of a potential
 at one temperature by the Gibbs ensemble, cached in a run directory
-(:mod:`~mdsim.sampling.coexistence`).
+(:mod:`~mdsim.sampling.coexistence`).  :mod:`~mdsim.sampling.three_body`
+gives the first-order effect of the Axilrod-Teller energy on a free
+expansion from pair-potential samples (a check, not a route).
 """
 from mdsim.sampling.coexistence import CoexistencePoint, coexistence_point
 from mdsim.sampling.estimates import Estimate, summarise
