@@ -30,7 +30,7 @@ import numpy as np
 
 from mdsim.errors import ConvergenceError
 from mdsim.numbers import value_with_error
-from mdsim.pipeline.chain import Chain, run_to, settle, solve_or_extend
+from mdsim.pipeline.chain import run_to, settle, solve_or_extend
 from mdsim.pipeline.plan import particles_for_cutoff
 from mdsim.pipeline.stage_names import INITIAL_STATE, initial_state_try, stage_name
 from mdsim.sampling import store
@@ -113,8 +113,8 @@ def next_density(tries, p_target, virial_slope):
 
 def _sampled_chain(job, label, chain_id, rho, method, T_red, share, key, md_settings):
     """An NVT chain at density rho, run (or read back) to the route's share of the target."""
-    chain = Chain(job, label, chain_id, job.system_maker(rho, chain_id, job.T_i), method, T_red=T_red,
-                  key=key, md_settings=md_settings).run_pilot()
+    chain = job.new_chain(label, chain_id, job.system_maker(rho, chain_id, job.T_i), method,
+                          T_red=T_red, key=key, md_settings=md_settings).run_pilot()
     if not run_to(chain, share, key=key):
         settle(chain, (key,))  # the budget ended it: still a mean to report
     return chain

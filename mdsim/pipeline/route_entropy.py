@@ -139,6 +139,10 @@ def sample_route_entropy(job, res):
     """
     if job.initial_chain is None or job.final_chain is None:
         return _unavailable("the route kept no chain at one of its end states")
+    if job.study.gas.molecules is not None:
+        return _unavailable("not available for rigid molecules: test-particle insertion is "
+                            "built for spherical particles (a molecule's insertion would also "
+                            "have to sample its orientation)")
     if job.feynman_hibbs:
         return _unavailable("the Feynman-Hibbs potential depends on temperature, and the "
                             "test-particle estimate of the residual entropy is not built for "

@@ -118,7 +118,7 @@ class RunningTask:
     """
 
     def __init__(self, run_dir, task, progress=None):
-        from analysis.heatcapacity import heat_capacity_from_spec
+        from mdsim.study.statepoints import ideal_heat_capacity
         from analysis.virial import QuantumCorrectionWarning
         from analysis.virial_eos import VirialGas
         from mdsim.study.reader import read_study
@@ -128,8 +128,8 @@ class RunningTask:
         self.study = read_study(run_dir.study_file)
         self.units = self.study.units
         self.eps_K = float(self.units.epsilon_K)
-        self.cv_ig = heat_capacity_from_spec(self.study.gas.ideal_heat_capacity,
-                                             "[gas] ideal_heat_capacity")
+        # the study's c_v_ig; for rigid molecules with the model's kinetic part added
+        self.cv_ig = ideal_heat_capacity(self.study)
         sp = task["state_point"]
         self.state_point_index = int(sp["index"])
         self.T_i = float(sp["temperature_K"])
@@ -160,6 +160,9 @@ class RunningTask:
             self.virial_gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
                                         quantum="first-order" if self.feynman_hibbs
                                         else "classical")
+        if g.molecules is not None:  # the model's kinetic c_v and its own virial series
+            from mdsim.pipeline.rigid_chain import set_up_molecular_task
+            set_up_molecular_task(self)
         if self.feynman_hibbs:
             self.notes.append("simulations use the quadratic Feynman-Hibbs effective pair "
                               "potential at each sampled temperature, with its thermodynamic "
@@ -227,10 +230,23 @@ class RunningTask:
         ``temperature_K``: the temperature it will be sampled at, needed by a
         temperature-dependent (Feynman-Hibbs) potential.
         """
+        if self.study.gas.molecules is not None:
+            from mdsim.pipeline.rigid_chain import rigid_system_maker
+            return rigid_system_maker(self, rho_mol_m3, tag, temperature_K)
+
         def make():
             return self.study.system(self.n_particles, rho_mol_m3, seed=self.start_seed(tag),
                                      temperature_K=temperature_K)
         return make
+
+    def new_chain(self, label, chain_id, make_system, method, **kwargs):
+        """A :class:`mdsim.pipeline.chain.Chain` of the task's stages (arguments as for it);
+        for rigid molecules a :class:`mdsim.pipeline.rigid_chain.RigidChain`."""
+        from mdsim.pipeline.chain import Chain
+        if self.study.gas.molecules is None:
+            return Chain(self, label, chain_id, make_system, method, **kwargs)
+        from mdsim.pipeline.rigid_chain import RigidChain, rigid_method
+        return RigidChain(self, label, chain_id, make_system, rigid_method(method), **kwargs)
 
     def md_time_step(self, T_red):
         """The MD time step at a reduced temperature for the study's masses (reduced)."""

@@ -15,7 +15,7 @@ from mdsim.errors import ConvergenceError
 __all__ = ["Estimate", "summarise", "CANONICAL"]
 
 #: methods with a set temperature (the canonical ensemble)
-CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion")
+CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion", "rigid-mc-nvt")
 
 
 @dataclasses.dataclass(frozen=True)

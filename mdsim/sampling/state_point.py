@@ -2,7 +2,9 @@
 
 :func:`sample_state_point` drives any sampler that follows the project's
 sampler protocol (``MCSampler`` for "mc-nvt"/"mc-nve", ``MDSampler`` for
-"md-nvt"/"md-nve", ``InsertionSampler`` for "mc-nvt-insertion"), streams the samples into one HDF5 run file
+"md-nvt"/"md-nve", ``InsertionSampler`` for "mc-nvt-insertion",
+:class:`~mdsim.sampling.rigid_stage.RigidMCStageSampler` for rigid molecules,
+"rigid-mc-nvt"), streams the samples into one HDF5 run file
 (:mod:`mdsim.sampling.store`) with a checkpoint after every block, and resumes an
 interrupted run from its ``NAME.h5.part`` file.  Because the samplers are
 deterministic given their state, a resumed run gives exactly the numbers of
@@ -33,6 +35,7 @@ METHODS = {
     "md-nvt": ("mdsim.engine.md", "MDSampler"),
     "md-nve": ("mdsim.engine.md", "MDSampler"),
     "mc-nvt-insertion": ("mdsim.engine.insertion", "InsertionSampler"),
+    "rigid-mc-nvt": ("mdsim.sampling.rigid_stage", "RigidMCStageSampler"),
 }
 DEFAULT_CHECKPOINT_EVERY = 100
 

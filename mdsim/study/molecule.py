@@ -20,7 +20,7 @@ from mdsim.study.values import MISSING, check_table
 from mdsim.units import K_B, parse_quantity
 
 __all__ = ["MOLECULE_FORM", "read_molecule", "read_c9", "species_molecules", "check_dof",
-           "mean_kinetic_dof", "check_simulation_supported", "E_C_PER_E",
+           "mean_kinetic_dof", "check_simulation_supported", "MOLECULE_ROUTES", "E_C_PER_E",
            "MOLAR_MASS_TOLERANCE"]
 
 #: The [potential] form of a rigid molecule.
@@ -169,16 +169,57 @@ def mean_kinetic_dof(fractions, molecules):
     return float(sum(x * m.kinetic_dof for x, m in zip(fractions, molecules)))
 
 
-def check_simulation_supported(gas, where):
-    """Raise for a gas of rigid molecules: the engine simulates spheres only (yet).
+#: The simulation routes that take rigid molecules (docs/physics.md, "Rigid molecules").
+MOLECULE_ROUTES = ("energy",)
+
+
+def check_simulation_supported(gas, where, routes=None, sampler="mc"):
+    """Raise for a simulation the engine cannot run for a gas of rigid molecules.
+
+    A gas of rigid molecules is simulated by the energy route only, with
+    canonical Monte Carlo of one linear molecule (site Lennard-Jones or Mie
+    plus an axial point quadrupole).  Spheres pass.
 
     Parameters
     ----------
     gas : mdsim.study.gas.Gas
     where : str
         What asked for a simulation, for the message.
+    routes : sequence of str, optional
+        The simulation routes asked for; None for a simulation of spheres
+        (which a gas of molecules cannot give).
+    sampler : str
+        ``[simulation] sampler`` ("mc" or "md").
+
+    Raises
+    ------
+    StudyError
+        Naming what is not supported for rigid molecules, why, and what to use.
     """
-    if gas.molecules is not None:
-        raise StudyError(f"{where}: simulation routes are not yet supported for rigid-molecule "
-                         'potentials (form = "rigid-molecule"); use the virial routes, '
+    if gas.molecules is None:
+        return
+    if routes is None:
+        raise StudyError(f"{where}: this simulation takes spherical potentials, not rigid "
+                         'molecules (form = "rigid-molecule"); rigid molecules are simulated by '
+                         'the energy route only, [simulation] routes = ["energy"]')
+    other = [r for r in routes if r not in MOLECULE_ROUTES]
+    if other:
+        what = f"the {' and '.join(other)} route{'s are' if len(other) > 1 else ' is'}"
+        raise StudyError(f"{where}: {what} not yet supported for rigid-molecule potentials "
+                         '(form = "rigid-molecule"): the microcanonical route samples the kinetic '
+                         "energy of atoms and the direct route moves atoms by molecular dynamics; "
+                         'use routes = ["energy"] or the virial routes, routes = []')
+    if gas.n_species > 1:
+        raise StudyError(f"{where}: simulation of a mixture with rigid molecules is not yet "
+                         "supported (the rigid Monte Carlo takes one kind of molecule); use the "
+                         "virial routes, [simulation] routes = []")
+    mol = gas.molecules[0]
+    if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
+        raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
+                         "dipole is not yet supported (the rigid Monte Carlo has site "
+                         "Lennard-Jones or Mie and an axial quadrupole); use the virial routes, "
                          "[simulation] routes = []")
+    if sampler != "mc":
+        raise StudyError(f'{where}: [simulation] sampler = "{sampler}": the energy route samples '
+                         'rigid molecules by canonical Monte Carlo; remove sampler or set '
+                         'sampler = "mc"')

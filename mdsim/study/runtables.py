@@ -62,6 +62,10 @@ def _check_quantum_potential(ctx, doc, out, gas):
     if sim["quantum_potential"] == "none":
         return
     raw = doc["simulation"]["quantum_potential"]
+    if gas.molecules is not None:
+        ctx.fail("simulation", "quantum_potential", raw, "the Feynman-Hibbs potential is a "
+                 "correction to a spherical pair potential, not to rigid molecules", "",
+                 "remove the key (the rigid N2, O2 and CO2 models are classical)")
     if gas.n_species != 1:
         ctx.fail("simulation", "quantum_potential", raw, f"the gas has {gas.n_species} species",
                  "a pure gas", "remove the key (the quantum-corrected simulation is for pure "

@@ -17,7 +17,7 @@ import math
 
 import numpy as np
 
-from mdsim.pipeline.chain import Chain, mean_se, run_to, stage_share
+from mdsim.pipeline.chain import mean_se, run_to, stage_share
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.stage_names import final_density_guess
 from mdsim.units import R_GAS
@@ -97,8 +97,8 @@ def _newton(job, init, finals, method, share, is_md):
     T_k = job.T_f_guess
     for it in range(MAX_NEWTON_TEMPERATURES):
         md_f = {"time_step": job.md_time_step(T_k / job.eps_K)} if is_md else None
-        ch = Chain(job, final_density_guess(it), 1 + it, job.system_maker(job.rho_f, 1, T_k),
-                   method, T_red=T_k / job.eps_K, md_settings=md_f).run_pilot()
+        ch = job.new_chain(final_density_guess(it), 1 + it, job.system_maker(job.rho_f, 1, T_k),
+                           method, T_red=T_k / job.eps_K, md_settings=md_f).run_pilot()
         run_to(ch, share)
         finals.append(ch)
         res, samples = _solve(job, init, finals)

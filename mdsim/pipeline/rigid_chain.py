@@ -1,0 +1,86 @@
+"""Tasks of a gas of rigid molecules: their stage chains and what the task takes from the model.
+
+A study with ``[potential] form = "rigid-molecule"`` runs the energy route
+(:mod:`mdsim.pipeline.routes.energy`) as a sphere study does, pressure
+iteration included (:mod:`mdsim.pipeline.initial_state`); only its stages
+differ.  Each stage is canonical Monte Carlo of the rigid linear molecules
+(translations and rotations, :mod:`mdsim.sampling.rigid_stage`) in a run
+file like any other, checkpointed after every block and resumed bit for
+bit.  :class:`RigidChain` continues one Markov chain across its stages,
+carrying the axes and both tuned steps as well as the centres.
+
+:func:`set_up_molecular_task` gives the running task what follows from the
+model: the molecular virial series (B2 by orientation quadrature, B3 by Monte Carlo
+integration) for the first guesses and the pressure iteration's slope.
+"""
+from mdsim.errors import StudyError
+from mdsim.pipeline.chain import Chain
+from mdsim.sampling import store
+from mdsim.sampling.rigid_stage import METHOD, rigid_system
+
+__all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method"]
+
+
+class RigidChain(Chain):
+    """A :class:`mdsim.pipeline.chain.Chain` of rigid-molecule stages (method ``rigid-mc-nvt``).
+
+    A continued stage starts from the previous stage's centres and axes (the
+    axes from its final checkpoint) and both of its tuned steps, so the
+    production stages are one Markov chain.  Parameters as for ``Chain``.
+    """
+
+    def continue_system(self, prev):
+        """A system in the last configuration (centres and axes) of a finished stage."""
+        system = super().continue_system(prev)
+        state, _ = store.read_checkpoint(prev.path)
+        system.axis_ni = state["axis_ni"].astype(float)
+        return system
+
+    def _settings(self, prev):
+        if prev is None:
+            return {}
+        attrs = store.read_attrs(prev.path)
+        return {"max_displacement": float(attrs["sampler_final_max_displacement_red"]),
+                "max_angle": float(attrs["sampler_final_max_angle_rad"])}
+
+
+def rigid_method(method):
+    """The stage method of a rigid-molecule task for the route's NVT method.
+
+    >>> rigid_method("mc-nvt")
+    'rigid-mc-nvt'
+    """
+    if method != "mc-nvt":
+        raise StudyError(f"method {method!r}: rigid molecules are sampled by canonical Monte "
+                         f'Carlo only; set [simulation] sampler = "mc"')
+    return METHOD
+
+
+def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
+    """A function making a fresh rigid system of the task at a density (seeded start).
+
+    The molecular cut-off is the study's ``[potential] cutoff`` (sigma of the
+    first site), with the isotropic site-site tail (:mod:`mdsim.engine.rigid_mc`).
+    """
+    molecule = job.study.gas.molecules[0]
+    rc = float(job.study.reduced_pairs().rc_max)
+    T = job.T_i if temperature_K is None else temperature_K
+
+    def make():
+        return rigid_system(molecule, T, rho_mol_m3, job.n_particles, rc, job.start_seed(tag))
+    return make
+
+
+def set_up_molecular_task(job):
+    """Give a running task of rigid molecules its virial series and notes (its c_v_ig with the
+    model's kinetic part comes from :func:`mdsim.study.statepoints.ideal_heat_capacity`)."""
+    from mdsim.study.statepoints import virial_gas
+    study = job.study
+    job.virial_gas = virial_gas(study)
+    mol = study.gas.molecules[0]
+    job.notes.append(
+        f"rigid molecules ({mol.name}, {mol.n_sites} sites): canonical Monte Carlo with "
+        f"translation and rotation moves, molecular cut-off "
+        f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
+        f"c_v_ig = {mol.kinetic_dof}/2 R from the model's translations and rotations plus the "
+        "study's vibrational part")

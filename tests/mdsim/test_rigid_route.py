@@ -1,0 +1,138 @@
+"""The energy route for a study of rigid molecules (configs/nitrogen.toml with routes = ["energy"]).
+
+Rigid-molecule stages in resumable run files (mdsim.sampling.rigid_stage),
+the task through the pipeline (mdsim.pipeline.rigid_chain), its Delta T
+against CoolProp's nitrogen (Span et al. 2000; test-only), and the
+refusals that remain (other routes, mixtures, charges, the MD sampler).
+"""
+import csv
+import json
+import pathlib
+
+import numpy as np
+import pytest
+
+from mdsim.errors import StudyError
+from mdsim.pipeline.plan import plan_tasks
+from mdsim.sampling import store
+from mdsim.sampling.rigid_stage import METHOD, rigid_system
+from mdsim.sampling.state_point import sample_state_point
+from mdsim.study.reader import read_study
+
+CONFIGS = pathlib.Path(__file__).resolve().parents[2] / "configs"
+NITROGEN = (CONFIGS / "nitrogen.toml").read_text()
+
+
+def energy_study(tmp_path, extra=""):
+    """configs/nitrogen.toml at 300 K and 100 bar, doubled, by the energy route."""
+    text = NITROGEN.replace('temperature = "298.15 K"', 'temperature = "300 K"').replace(
+        'pressure = ["20 bar", "50 bar", "100 bar"]', 'pressure = ["100 bar"]').replace(
+        "\nroutes = []", '\nroutes = ["energy"]\nparticles = 128\ntarget_stderr = "0.5 K"\n'
+        f"seed = 7\n{extra}")
+    path = tmp_path / "n2.toml"
+    path.write_text(text)
+    return path
+
+
+def test_rigid_stage_resumes_bit_for_bit(tmp_path):
+    # the stage sampler follows the protocol of sample_state_point: an interrupted run file
+    # continues from its checkpoint to the numbers of an uninterrupted run (exact equality)
+    mol = read_study(CONFIGS / "nitrogen.toml").gas.molecules[0]
+    run = dict(n_equilibration=100, n_samples=120, interval=1, seed=[3, 1], checkpoint_every=40)
+
+    def system():
+        return rigid_system(mol, 300.0, 4000.0, 64, 3.0, seed=5)
+
+    def stop(done, total):
+        if done == 40:
+            raise KeyboardInterrupt
+
+    path = tmp_path / "r.h5"
+    with pytest.raises(KeyboardInterrupt):
+        sample_state_point(system(), METHOD, 8.6, path=path, progress=stop, **run)
+    resumed = sample_state_point(system(), METHOD, 8.6, path=path, **run)
+    ref = sample_state_point(system(), METHOD, 8.6, **run)
+    assert resumed.resumed
+    for key in ref.samples:
+        assert np.array_equal(resumed.samples[key], ref.samples[key]), key
+    state, _ = store.read_checkpoint(path)
+    assert np.allclose(np.linalg.norm(state["axis_ni"], axis=1), 1.0, atol=1e-12)
+    assert store.read_final(path)["positions"].shape == (64, 3)
+    assert set(resumed.summary) == {"u_full", "pressure", "c_v_res", "temperature"}
+
+
+@pytest.mark.slow
+def test_nitrogen_energy_route_through_the_pipeline_against_coolprop(tmp_path, monkeypatch):
+    CP = pytest.importorskip("CoolProp.CoolProp")
+    from scipy.optimize import brentq
+    import mdsim.pipeline.report as report
+    from mdsim.pipeline.run_study import run_study
+    # The report's Joule inversion curve of the molecular virial gas (B3 by Monte Carlo
+    # integration at each of ~1000 temperatures) takes ~50 s and has nothing to do with the
+    # energy route: left out here (it is the virial route's, tested with it).
+    monkeypatch.setattr(report, "run_inversion", lambda vg, records: (None, [], []))
+    run_dir = tmp_path / "run"
+    run_study(read_study(energy_study(tmp_path)), run_dir, workers=1, quiet=True, plots=False)
+    results = json.loads((run_dir / "results.json").read_text())
+    assert results["tasks"]["done"] == [0]
+    rows = {r["route"]: r for r in csv.DictReader((run_dir / "results.csv").open())}
+    row = rows["energy"]
+    dT, se = float(row["delta_T_K"]), float(row["delta_T_stderr_K"])
+    assert row["status"] == "done" and row["n_particles"] == "128"
+    assert row["initial_density_from"].startswith("pressure iteration")
+    # the reference: CoolProp nitrogen from 100 bar at 300 K, volume doubled, same U
+    rho = CP.PropsSI("Dmolar", "T", 300.0, "P", 100e5, "Nitrogen")
+    u_ref = CP.PropsSI("Umolar", "T", 300.0, "Dmolar", rho, "Nitrogen")
+    T_f = brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho / 2, "Nitrogen") - u_ref,
+                 260.0, 300.0, xtol=1e-9)
+    # tolerance: 4 standard errors plus the model's 2 % on Delta T up to 100 bar (measured for
+    # its virial route, tests/analysis/molecules/test_against_coolprop.py; the allowance of
+    # tests/mdsim/test_rigid_mc.py)
+    assert dT == pytest.approx(T_f - 300.0, abs=4 * se + 0.02 * abs(T_f - 300.0))
+    assert 0.0 < se <= 0.5  # the target met
+    # the sampled initial pressure is the 100 bar asked for, within its error (3 stderr,
+    # the pressure iteration's acceptance is 1 stderr)
+    p = float(row["initial_pressure_sampled_Pa"])
+    p_se = float(row["initial_pressure_sampled_stderr_Pa"])
+    assert p == pytest.approx(100e5, abs=3 * p_se)
+    # what the route could not do is said, not filled in with a virial number
+    sim = results["state_points"][0]["simulation"]["energy"]
+    assert sim["stopped_by"] == "target"
+    report_md = (run_dir / "report.md").read_text()
+    assert "not available for rigid molecules" in report_md
+    assert "canonical Monte Carlo with translation and rotation moves" in report_md
+
+
+@pytest.mark.parametrize("change, match", [
+    ('routes = ["microcanonical"]', "microcanonical route is not yet supported"),
+    ('routes = ["energy", "direct"]', "direct route is not yet supported"),
+    ('sampler = "md"', "canonical Monte Carlo"),
+    ('quantum_potential = "feynman-hibbs"', "not to rigid molecules"),
+    ('quadrupole = "1.4397 D angstrom"\ndipole = "0.5 D"', "charges or a dipole"),
+])
+def test_what_rigid_molecules_cannot_simulate_is_refused(tmp_path, change, match):
+    text = energy_study(tmp_path).read_text()
+    if change.startswith("routes"):
+        text = text.replace('routes = ["energy"]', change)
+    elif change.startswith(("sampler", "quantum")):
+        text = text.replace('seed = 7', f"seed = 7\n{change}")
+    else:
+        text = text.replace('quadrupole = "1.4397 D angstrom"', change)
+    (tmp_path / "bad.toml").write_text(text)
+    with pytest.raises(StudyError, match=match):
+        plan_tasks(read_study(tmp_path / "bad.toml"))
+
+
+def test_a_mixture_of_molecules_is_refused(tmp_path):
+    text = (CONFIGS / "air_2cljq.toml").read_text().replace("\nroutes = []",
+                                                             '\nroutes = ["energy"]')
+    (tmp_path / "air.toml").write_text(text)
+    with pytest.raises(StudyError, match="mixture with rigid molecules is not yet supported"):
+        plan_tasks(read_study(tmp_path / "air.toml"))
+
+
+def test_a_sphere_system_of_molecules_is_refused(tmp_path):
+    study = read_study(energy_study(tmp_path))
+    assert [t["route"] for t in plan_tasks(study)] == ["energy"]
+    with pytest.raises(StudyError, match="takes spherical potentials"):
+        study.system(128, 4000.0)
