@@ -123,6 +123,18 @@ def test_what_rigid_molecules_cannot_simulate_is_refused(tmp_path, change, match
         plan_tasks(read_study(tmp_path / "bad.toml"))
 
 
+def test_a_molecule_whose_centres_can_meet_is_refused(tmp_path):
+    # CO2 (2CLJQ, L = 0.81 sigma): crossed molecules share a centre with their sites 0.57 sigma
+    # apart, where the quadrupole energy diverges; the rigid Monte Carlo without a hard core at
+    # the centre was seen to collapse there (u_res of -7e6 epsilon per molecule at 20 bar)
+    text = (CONFIGS / "co2.toml").read_text().replace("\nroutes = []", '\nroutes = ["energy"]')
+    (tmp_path / "co2.toml").write_text(text)
+    (tmp_path / "co2_vibrational_cv.csv").write_text(
+        (CONFIGS / "co2_vibrational_cv.csv").read_text())
+    with pytest.raises(StudyError, match="centres meet"):
+        plan_tasks(read_study(tmp_path / "co2.toml"))
+
+
 def test_a_mixture_of_molecules_is_refused(tmp_path):
     text = (CONFIGS / "air_2cljq.toml").read_text().replace("\nroutes = []",
                                                              '\nroutes = ["energy"]')
