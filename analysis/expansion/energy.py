@@ -164,7 +164,8 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
     Returns
     -------
     solution : (float, float, dict) or None
-        (T_f, stderr(T_f), details); None when the reweighting does not
+        (T_f, stderr(T_f), details), the stderr of u_res(T_f) at least that of
+        the sample nearest T_f; None when the reweighting does not
         converge (pymbar's default and robust solvers both fail), when the
         balance does not change sign in the sampled range widened by a
         quarter of its width each side, or when the sampled temperatures
@@ -210,6 +211,10 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
         s_f = mbar.u_res_stderr(T_f)
     except ConvergenceError as exc:
         return None, f"energy route: {exc}; the Newton estimate is reported", None
+    # MBAR's error rests on series thinned by their statistical inefficiency, which a slow
+    # mode can hide from a short series; it is not let below the error of the sample nearest
+    # T_f, whose own estimate may see that mode (a conservative floor, common practice, no source)
+    s_f = max(s_f, min(samples, key=lambda s: abs(s.temperature_K - T_f)).u_res_stderr_J_mol)
     details = {"mbar_u_res_J_mol": mbar.u_res(T_f), "mbar_u_res_stderr_J_mol": s_f,
                "mbar_cv_res_J_molK": mbar.cv_res(T_f),
                "mbar_effective_samples": mbar.effective_samples(T_f),

@@ -72,7 +72,7 @@ def _check_quantum_potential(ctx, doc, out, gas):
                  f"the routes {other} run at fixed energy, where the Feynman-Hibbs "
                  "potential's temperature is the unknown final temperature",
                  'routes = ["energy"]', "use the energy route with this key")
-    if sim["sampler"] != "mc":
+    if sim["sampler"] == "md":  # "auto" samples with Monte Carlo here
         ctx.fail("simulation", "quantum_potential", raw,
                  f"sampler = {sim['sampler']!r}: the thermodynamic energy estimator of the "
                  "temperature-dependent potential is computed by the Monte Carlo sampler",
