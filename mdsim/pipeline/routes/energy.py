@@ -29,9 +29,9 @@ import numpy as np
 
 from mdsim.pipeline.chain import mean_se, run_to, split_share
 from mdsim.pipeline.initial_state import run_initial_state
-from mdsim.pipeline.rundir import INITIAL_STATE, final_density_guess, stage_name
 from mdsim.pipeline.routes.sampler_choice import (COMPARE_ABOVE_CPU_S, SAMPLER_METHODS,
                                                   cost_coefficient, md_settings, piloted_chain)
+from mdsim.pipeline.stage_names import INITIAL_STATE, final_density_guess, stage_name
 from mdsim.sampling import store
 from mdsim.units import R_GAS
 

@@ -12,7 +12,7 @@ import numpy as np
 
 from mdsim.pipeline.chain import Chain, mean_se, solve_or_extend, stage_share
 from mdsim.pipeline.initial_state import run_initial_state
-from mdsim.pipeline.rundir import FINAL_STATE_NVE
+from mdsim.pipeline.stage_names import FINAL_STATE_NVE
 
 __all__ = ["run_microcanonical"]
 
