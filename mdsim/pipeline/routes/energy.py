@@ -11,7 +11,8 @@ The sampler of each density is Monte Carlo or MD, whichever the pilots find
 cheaper (``sampler = "auto"``, :mod:`mdsim.pipeline.routes.sampler_choice`),
 or the one the study names.  The target is split between the two end states
 so that reaching it costs least (:func:`mdsim.pipeline.chain.split_share`,
-from the pilots' cost coefficients), with the final state's heat capacity
+from the pilots' run costs, :func:`mdsim.pipeline.routes.sampler_choice.run_cost`: samples, not
+CPU seconds, so that every run of a task takes the same decisions), with the final state's heat capacity
 c_v_ig + c_v_res (its pilot's fluctuation estimate) turning the target in
 kelvin into energy.  With the Feynman-Hibbs potential each temperature is
 sampled with the potential of that temperature, u_full is its thermodynamic
@@ -30,7 +31,7 @@ import numpy as np
 from mdsim.pipeline.chain import mean_se, run_to, split_share
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.routes.sampler_choice import (COMPARE_ABOVE_CPU_S, SAMPLER_METHODS,
-                                                  cost_coefficient, md_settings, piloted_chain)
+                                                  md_settings, piloted_chain, run_cost)
 from mdsim.pipeline.stage_names import INITIAL_STATE, final_density_guess, stage_name
 from mdsim.sampling import store
 from mdsim.units import R_GAS
@@ -82,17 +83,16 @@ def run_energy(job):
                                     job.system_maker(job.rho_f, 1, job.T_f_guess),
                                     _guess_temperature(job, 0), sampler, hint)
     choice_i = {"sampler": sampler, "chosen_by": "study"}
-    cost_i = math.inf
+    probe = None
     if sampler == "auto":
         probe, choice_i = piloted_chain(job, INITIAL_CHOICE, 0,
                                         job.system_maker(job.rho_i, 0, job.T_i), T_i_red,
                                         sampler, hint)
-        cost_i = probe.cost
-    share_i, share_f = split_share(_total_share(job, first), cost_i, first.cost)
+    cost_i = math.inf if probe is None else run_cost(probe)
+    share_i, share_f = split_share(_total_share(job, first), cost_i, run_cost(first))
     kind_i = choice_i["sampler"]
     md = md_settings(job.md_time_step(T_i_red)) if kind_i == "md" else None
     init = run_initial_state(job, SAMPLER_METHODS[kind_i], T_i_red, share_i, md_settings=md)
-    init.cost = cost_i if math.isfinite(cost_i) else cost_coefficient(job, init)
     finals = []
     res, samples = _newton(job, init, first, finals, share_f, sampler != "auto")
     res, samples = _refine(job, init, finals, res, samples)
@@ -281,16 +281,17 @@ def _refine(job, init, finals, res, samples):
     """Precision: extend an end state until the target or the budget.
 
     The chain extended is the one whose extension lowers the variance of
-    Delta T most per CPU second: the larger s^4 / C (s its standard error, C
-    its cost coefficient), the larger s when the costs are unknown.  It is
+    Delta T most per unit of run: the larger s^4 / C (s its standard error, C
+    its run cost), the larger s when the costs are unknown.  It is
     extended by what brings the combined variance to PLAN_FRACTION^2 x the
     target's (at most four times its length, at least a fifth).
     """
     while res.delta_T_stderr_K > job.target_K and job.stopped_by != "cpu budget":
         nearest = _nearest(job, finals, res)
         s = {id(ch): mean_se(ch, "u_full")[1] for ch in (init, nearest)}
-        if all(math.isfinite(c.cost) and c.cost > 0 for c in (init, nearest)):
-            ch = max((init, nearest), key=lambda c: s[id(c)] ** 4 / c.cost)
+        cost = {id(c): run_cost(c) for c in (init, nearest)}
+        if all(math.isfinite(c) and c > 0 for c in cost.values()):
+            ch = max((init, nearest), key=lambda c: s[id(c)] ** 4 / cost[id(c)])
         else:
             ch = init if s[id(init)] >= s[id(nearest)] else nearest
         var = s[id(init)] ** 2 + s[id(nearest)] ** 2

@@ -31,7 +31,7 @@ from mdsim.files import atomic_write_text
 from mdsim.pipeline.chain import Chain
 
 __all__ = ["THERMOSTAT_STEPS", "CHOICE_PILOT_SAMPLES", "COMPARE_ABOVE_CPU_S", "SAMPLER_METHODS",
-           "md_settings", "piloted_chain", "cost_coefficient"]
+           "md_settings", "piloted_chain", "cost_coefficient", "run_cost"]
 
 THERMOSTAT_STEPS = 4
 """The energy route's MD thermostat relaxation time, in time steps."""
@@ -69,6 +69,21 @@ def cost_coefficient(job, chain):
         return math.inf
     rate = row["cpu_s"] / row["units"]
     return rate * chain.make_system().n_particles * chain.pilot_units * chain.pilot_se ** 2
+
+
+def run_cost(chain):
+    """Particles x units of run a piloted chain needs to bring the stderr of its key series to 1.
+
+    The statistical part of :func:`cost_coefficient`, without the CPU rate: a
+    number from the pilot's samples alone, so that decisions taken with it
+    (how the target is split between the end states, which one is extended)
+    are the same in every run of the task (CPU times differ between runs;
+    ``docs/architecture.md`` section 5).  Infinite when the pilot gave no
+    finite error.
+    """
+    if not math.isfinite(chain.pilot_se):
+        return math.inf
+    return chain.make_system().n_particles * chain.pilot_units * chain.pilot_se ** 2
 
 
 def _piloted(job, chain, T_red):
