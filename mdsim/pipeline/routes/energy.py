@@ -17,7 +17,7 @@ import math
 
 import numpy as np
 
-from mdsim.pipeline.chain import Chain, mean_se, run_to, stage_share
+from mdsim.pipeline.chain import Chain, mean_se, run_to, solve_or_extend, stage_share
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.rundir import final_density_guess
 from mdsim.units import R_GAS
@@ -100,6 +100,9 @@ def _newton(job, init, finals, method, share, is_md):
         ch = Chain(job, final_density_guess(it), 1 + it, job.system_maker(job.rho_f, 1, T_k),
                    method, T_red=T_k / job.eps_K, md_settings=md_f).run_pilot()
         run_to(ch, share)
+        # the budget may end it while a series still drifts (the energy or the pressure of
+        # a sample separating into two phases): sample on until the summary has its means
+        solve_or_extend(ch, ch.summary)
         finals.append(ch)
         res, samples = _solve(job, init, finals)
         if res.method == "mbar" or res.details["newton_converged"]:
