@@ -12,8 +12,8 @@ The run directory's Gibbs-ensemble cache is pre-filled with the coexistence of t
 Lennard-Jones reference EOS of Thol et al., J. Phys. Chem. Ref. Data 45, 023101
 (2016), through teqp (test-only; tests/mdsim/conftest.py), so no Gibbs run is made.
 The reference: the same lever-rule construction made with the Thol EOS alone, from
-its own initial energy (tests/analysis/test_coexistence_expansion.py): T_f* =
-0.84785 (84.785 K) with 1.318 % vapour.
+its own initial energy: T_f* = 0.84911 (84.911 K) at rho* = 0.7489 (0.84785 with
+1.318 % vapour at rho* = 0.75, tests/analysis/test_coexistence_expansion.py).
 """
 import math
 
@@ -78,7 +78,8 @@ def test_both_routes_end_two_phase_with_the_coexistence_answer(tmp_path, thol_co
     assert run.failed == {}, run.failed
 
     t_ref, x_ref = _thol_construction(thol_lj, RHO_I, RHO_I / 2.0, 0.8)
-    assert t_ref == pytest.approx(0.84785, abs=1e-4)  # as in test_coexistence_expansion.py
+    # 0.84911 at rho* = 0.7489 (0.84785 at rho* = 0.75, test_coexistence_expansion.py)
+    assert t_ref == pytest.approx(0.84911, abs=1e-4)
     # What separates the task's answer from the Thol construction: its initial energy is
     # the sampled one of the truncated potential (rc = 2.5 sigma) with the analytic tail,
     # which takes g(r) = 1 beyond rc; with |g - 1| <= 0.05 there (common practice, no
@@ -86,7 +87,7 @@ def test_both_routes_end_two_phase_with_the_coexistence_answer(tmp_path, thol_co
     # 0.05 |u_tail(rho_i)| = 0.020 epsilon, over the two-phase heat capacity dU/dT = 5.95 k
     # per particle at T_f (the Thol construction, by a central difference): 0.34 K.  The
     # spline through points 0.05 T* apart adds 0.05 K (test_coexistence_for_task.py).
-    # Measured with N = 108: 84.77 +- 0.08, 84.82 +- 0.08 and 85.00 +- 0.08 K (seeds 1-3).
+    # Measured with N = 108: energy 84.70 +- 0.26 K, microcanonical 84.95 +- 0.23 K.
     u_tail = 8.0 / 3.0 * math.pi * RHO_I * (CUTOFF ** -9 / 3.0 - CUTOFF ** -3)
     allowance_K = 0.05 * abs(u_tail) / 5.95 * 100.0 + 0.05
     for task in rd.read_tasks():
