@@ -23,6 +23,7 @@ series and never runs a simulation itself.  Its modules:
   homogeneous fluid (bimodal local density, crystal-like bond order,
   negative or falling pressure);
 - :mod:`analysis.stats` - means and errors of correlated time series;
+- :mod:`analysis.error_propagation` - first-order propagation of standard errors;
 - :mod:`analysis.results` - the ``Result`` base and ``to_plain``;
 - :mod:`analysis.inputs`, :mod:`analysis.roots` - setting checks and the
   bracketed root finder the modules share.
@@ -33,4 +34,4 @@ import *`` loads the modules listed in ``__all__``.
 """
 
 __all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "sampled_entropy",
-           "inversion", "phases", "stats", "results", "inputs", "roots"]
+           "inversion", "phases", "stats", "error_propagation", "results", "inputs", "roots"]

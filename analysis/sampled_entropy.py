@@ -153,17 +153,7 @@ def residual_entropy(samples, temperature_red, density_red, fractions_a, tails_a
     except ConvergenceError as exc:
         return _unavailable(T, rho, f"the sampled series still drift ({exc})", u_t.size)
     t0 = m.t0
-    mus, ln_errors, effective = [], [], []
-    for a, w in enumerate(w_at):
-        w = w[t0:]
-        w2 = np.asarray(samples[f"insertion_factor_sq_{a}"], dtype=float)[t0:]
-        effective.append(float(w.sum() ** 2 / w2.sum()) * insertions)
-        try:
-            ln_errors.append(mean_and_stderr(w, discard_equilibration=False).stderr / w.mean())
-        except ConvergenceError:
-            ln_errors.append(math.inf)
-        mus.append(-T * math.log(float(w.mean())) + float(tails_a[a]))
-    eff, ln_err = min(effective), max(ln_errors)
+    mus, ln_err, eff = _insertion_averages(samples, w_at, t0, T, tails_a, insertions)
     u = float(u_t[t0:].mean())
     z = 1.0 + float(pc_t[t0:].mean()) / (rho * T)
     mu = float(np.dot(x_a, mus))
@@ -176,6 +166,34 @@ def residual_entropy(samples, temperature_red, density_red, fractions_a, tails_a
         return _unavailable(T, rho, reason, m.n_used, eff)
     return ResidualEntropy(T, rho, (u - a_res) / T, m.stderr, u, mu, T * ln_err, a_res, z, eff,
                            m.n_used)
+
+
+def _insertion_averages(samples, w_at, t0, T, tails_a, insertions):
+    """Per species mu_res,a from the insertions after ``t0``; the worst ln-error and count.
+
+    Returns
+    -------
+    mus : list of float
+        mu_res,a = -kT ln <w_a> + dU_tail,a, reduced.
+    ln_err : float
+        The largest over the species of the standard error of ln <w_a>
+        (inf when a series still drifts).
+    eff : float
+        The smallest over the species of the effective number of
+        insertions, (sum w)^2 / sum w^2 times the insertions per sample.
+    """
+    from analysis.stats import mean_and_stderr
+    mus, ln_errors, effective = [], [], []
+    for a, w in enumerate(w_at):
+        w = w[t0:]
+        w2 = np.asarray(samples[f"insertion_factor_sq_{a}"], dtype=float)[t0:]
+        effective.append(float(w.sum() ** 2 / w2.sum()) * insertions)
+        try:
+            ln_errors.append(mean_and_stderr(w, discard_equilibration=False).stderr / w.mean())
+        except ConvergenceError:
+            ln_errors.append(math.inf)
+        mus.append(-T * math.log(float(w.mean())) + float(tails_a[a]))
+    return mus, max(ln_errors), min(effective)
 
 
 @dataclass(frozen=True)

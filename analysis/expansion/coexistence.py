@@ -277,38 +277,11 @@ def coexistence_expansion(initial_u_res_J_mol, initial_temperature_K, final_dens
         return (float(cv_ig.u(T)) + x * c.vapour_u_res_J_mol
                 + (1.0 - x) * c.liquid_u_res_J_mol - U_i)
 
-    T0 = min(max(T_i, lo + 1e-6 * (hi - lo)), hi - 1e-6 * (hi - lo))
-    try:
-        T_f = find_root_bracketed(balance, T0, lo, hi, "the two-phase final temperature",
-                                  xtol=1e-9 * T0)
-    except ConvergenceError:
-        raise SinglePhaseFinalState(
-            f"the energy of the initial state ({U_i:.6g} J/mol) is not met by a two-phase state "
-            f"at {rho_f:.6g} mol/m^3 between {lo:g} K and {hi:g} K: the final state is "
-            "homogeneous or outside the coexistence data; use the single-phase routes") from None
+    T_f = _two_phase_temperature(balance, T_i, lo, hi, U_i, rho_f)
     c = coexistence(T_f)
-    x, dx_dl, dx_dv = _fraction_gradient(rho_f, c)
-    if not 0.0 < x < 1.0:
-        phase = "liquid" if x <= 0.0 else "vapour"
-        raise SinglePhaseFinalState(
-            f"the energy balance is met at T = {T_f:.6g} K where {rho_f:.6g} mol/m^3 is outside "
-            f"the coexisting densities ({c.vapour_density_mol_m3:.6g} to "
-            f"{c.liquid_density_mol_m3:.6g} mol/m^3): the final state is a homogeneous {phase}; "
-            "use the single-phase routes")
-    h = 1e-4 * max(T_f, 1.0)
-    h = min(h, 0.5 * (T_f - lo), 0.5 * (hi - T_f)) or 1e-9 * T_f
-    slope = (balance(T_f + h) - balance(T_f - h)) / (2.0 * h)
-    du = c.vapour_u_res_J_mol - c.liquid_u_res_J_mol
-    var_g = (float(initial_u_res_stderr_J_mol) ** 2 + (x * c.vapour_u_res_stderr_J_mol) ** 2
-             + ((1.0 - x) * c.liquid_u_res_stderr_J_mol) ** 2
-             + (du * dx_dl * c.liquid_density_stderr_mol_m3) ** 2
-             + (du * dx_dv * c.vapour_density_stderr_mol_m3) ** 2)
-    s_T = math.sqrt(var_g) / abs(slope)
-    x_hi = vapour_fraction(rho_f, *_densities(coexistence(T_f + h)))
-    x_lo = vapour_fraction(rho_f, *_densities(coexistence(T_f - h)))
-    s_x = math.sqrt(((x_hi - x_lo) / (2.0 * h) * s_T) ** 2
-                    + (dx_dl * c.liquid_density_stderr_mol_m3) ** 2
-                    + (dx_dv * c.vapour_density_stderr_mol_m3) ** 2)
+    x = _check_two_phase(rho_f, T_f, c)
+    slope, s_T, s_x = _two_phase_errors(balance, coexistence, c, rho_f, T_f, lo, hi,
+                                        float(initial_u_res_stderr_J_mol))
     notes = [f"coexistence route: the final state is vapour and liquid at T_f with the lever "
              f"rule over the coexisting densities ({getattr(coexistence, 'source', 'given')}); "
              "the interface between the phases is not counted (macroscopic limit)"]
@@ -322,6 +295,56 @@ def coexistence_expansion(initial_u_res_J_mol, initial_temperature_K, final_dens
                  "liquid_u_res_J_mol": c.liquid_u_res_J_mol,
                  "vapour_u_res_J_mol": c.vapour_u_res_J_mol},
         notes=notes)
+
+
+def _two_phase_temperature(balance, T_i, lo, hi, U_i, rho_f):
+    """The root of the energy balance in [lo, hi] K, started at T_i (clipped into the range)."""
+    T0 = min(max(T_i, lo + 1e-6 * (hi - lo)), hi - 1e-6 * (hi - lo))
+    try:
+        return find_root_bracketed(balance, T0, lo, hi, "the two-phase final temperature",
+                                   xtol=1e-9 * T0)
+    except ConvergenceError:
+        raise SinglePhaseFinalState(
+            f"the energy of the initial state ({U_i:.6g} J/mol) is not met by a two-phase state "
+            f"at {rho_f:.6g} mol/m^3 between {lo:g} K and {hi:g} K: the final state is "
+            "homogeneous or outside the coexistence data; use the single-phase routes") from None
+
+
+def _check_two_phase(rho_f, T_f, c):
+    """The vapour fraction at T_f; SinglePhaseFinalState when rho_f is outside the dome."""
+    x = _fraction_gradient(rho_f, c)[0]
+    if not 0.0 < x < 1.0:
+        phase = "liquid" if x <= 0.0 else "vapour"
+        raise SinglePhaseFinalState(
+            f"the energy balance is met at T = {T_f:.6g} K where {rho_f:.6g} mol/m^3 is outside "
+            f"the coexisting densities ({c.vapour_density_mol_m3:.6g} to "
+            f"{c.liquid_density_mol_m3:.6g} mol/m^3): the final state is a homogeneous {phase}; "
+            "use the single-phase routes")
+    return x
+
+
+def _two_phase_errors(balance, coexistence, c, rho_f, T_f, lo, hi, u_res_stderr):
+    """(d balance/dT in J/(mol K), sigma_T_f in K, sigma_x) by first-order propagation.
+
+    See the Notes of :func:`coexistence_expansion`; the derivatives are
+    central differences with a step of 1e-4 T_f kept inside [lo, hi].
+    """
+    x, dx_dl, dx_dv = _fraction_gradient(rho_f, c)
+    h = 1e-4 * max(T_f, 1.0)
+    h = min(h, 0.5 * (T_f - lo), 0.5 * (hi - T_f)) or 1e-9 * T_f
+    slope = (balance(T_f + h) - balance(T_f - h)) / (2.0 * h)
+    du = c.vapour_u_res_J_mol - c.liquid_u_res_J_mol
+    var_g = (u_res_stderr ** 2 + (x * c.vapour_u_res_stderr_J_mol) ** 2
+             + ((1.0 - x) * c.liquid_u_res_stderr_J_mol) ** 2
+             + (du * dx_dl * c.liquid_density_stderr_mol_m3) ** 2
+             + (du * dx_dv * c.vapour_density_stderr_mol_m3) ** 2)
+    s_T = math.sqrt(var_g) / abs(slope)
+    x_hi = vapour_fraction(rho_f, *_densities(coexistence(T_f + h)))
+    x_lo = vapour_fraction(rho_f, *_densities(coexistence(T_f - h)))
+    s_x = math.sqrt(((x_hi - x_lo) / (2.0 * h) * s_T) ** 2
+                    + (dx_dl * c.liquid_density_stderr_mol_m3) ** 2
+                    + (dx_dv * c.vapour_density_stderr_mol_m3) ** 2)
+    return slope, s_T, s_x
 
 
 def _densities(c):

@@ -5,7 +5,8 @@
 ``pair_energy`` (the energy of two molecules), ``second`` (B2 by
 orientation quadrature), ``third`` (B3 by Monte Carlo integration with its
 standard error), ``gas`` (:class:`MolecularVirialGas`, the virial equation
-of state of a gas or mixture of molecules and atoms).
+of state of a gas or mixture of molecules and atoms), ``reduced`` (a
+linear molecule in the engine's reduced units).
 """
 from analysis.molecules.model import RigidMolecule, Site
 from analysis.molecules.second import OrientationGrid, b2_molecules

@@ -18,6 +18,7 @@ import numpy as np
 from analysis.virial.quadrature import (R_B3_SIGMA, check_pot, check_temperature, panel_breaks,
                                         panel_nodes, register, registered, shape_out)
 from mdsim.checks import count
+from mdsim.engine.potentials import axilrod_teller_sq
 
 __all__ = ["axilrod_teller", "b3_nonadditive", "HARTREE_BOHR9_IN_K_ANGSTROM9",
            "DEFAULT_NODES_NONADDITIVE", "DEFAULT_NODES_ANGLE"]
@@ -47,9 +48,9 @@ def axilrod_teller(c9, r12, r13, r23):
 
     Notes
     -----
-    u3 = C9 (1 + 3 cos g1 cos g2 cos g3) / (r12 r13 r23)^3 (Axilrod and
-    Teller 1943), the cosines by the law of cosines, e.g.
-    cos g1 = (r12^2 + r13^2 - r23^2) / (2 r12 r13).
+    The triple-dipole formula of Axilrod and Teller (1943) as
+    :func:`mdsim.engine.potentials.axilrod_teller_sq` writes it (its one
+    home, shared with the engine's three-body kernel), on the sides squared.
 
     Examples
     --------
@@ -58,10 +59,9 @@ def axilrod_teller(c9, r12, r13, r23):
     >>> float(axilrod_teller(8.0, 1.0, 1.0, 1.0))
     11.0
     """
-    a2, b2, c2 = (np.asarray(x, dtype=float) ** 2 for x in (r12, r13, r23))
-    p = np.sqrt(a2 * b2 * c2)
-    cos_prod = (a2 + b2 - c2) * (a2 + c2 - b2) * (b2 + c2 - a2) / (8.0 * a2 * b2 * c2)
-    out = c9 * (1.0 + 3.0 * cos_prod) / p ** 3
+    sides = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (r12, r13, r23)))
+    a2, b2, c2 = (np.ascontiguousarray(x.ravel()) ** 2 for x in sides)
+    out = axilrod_teller_sq(float(c9), a2, b2, c2).reshape(sides[0].shape)
     return float(out) if np.ndim(out) == 0 else out
 
 

@@ -44,6 +44,9 @@ def add_arguments(p):
                    "CPU time from a short pilot in memory) and write nothing")
     p.add_argument("--json", action="store_true",
                    help="print the run summary (with --plan: the task list) as JSON on stdout")
+    p.add_argument("--no-plots", action="store_true",
+                   help="write the tables and report without drawing plots/ ('mdsim report' "
+                   "draws them later)")
     p.add_argument("--quiet", action="store_true", help="no progress line or messages")
     p.add_argument("--verbose", action="store_true", help="debug logging on stderr")
 
@@ -73,7 +76,7 @@ def run(args):
     with verbose_logging(args.verbose):
         result = run_study(study, args.out, on=args.on, workers=args.workers,
                            submit=args.submit, resubmit_failed=args.resubmit_failed,
-                           quiet=args.quiet,
+                           quiet=args.quiet, plots=not args.no_plots,
                            say=None if args.quiet else say)
     return print_study_run(result, args.study, json_out=args.json, quiet=args.quiet)
 

@@ -14,9 +14,17 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.rng`, :mod:`~mdsim.engine.neighbours`,
 :mod:`~mdsim.engine.forces`, :mod:`~mdsim.engine.integrator` and
 :mod:`~mdsim.engine.md` (molecular dynamics), :mod:`~mdsim.engine.mc_cells`,
-:mod:`~mdsim.engine.mc_kernels` and :mod:`~mdsim.engine.montecarlo` (Monte Carlo),
+:mod:`~mdsim.engine.mc_kernels`, :mod:`~mdsim.engine.montecarlo` and
+:mod:`~mdsim.engine.microcanonical_temperature` (Monte Carlo),
 :mod:`~mdsim.engine.insertion` (test-particle insertion),
-:mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble).
+:mod:`~mdsim.engine.gibbs_kernels` and :mod:`~mdsim.engine.gibbs` (Gibbs ensemble),
+:mod:`~mdsim.engine.charges`, :mod:`~mdsim.engine.ewald` and
+:mod:`~mdsim.engine.damped_coulomb` (point charges: Ewald summation and the
+damped shifted-force sum), :mod:`~mdsim.engine.threebody` (the Axilrod-Teller
+energy of a configuration), :mod:`~mdsim.engine.rigid_pair` (pair energy, forces
+and torques of rigid linear molecules), :mod:`~mdsim.engine.rigid_mc_kernels` and
+:mod:`~mdsim.engine.rigid_mc` (their Monte Carlo), :mod:`~mdsim.engine.rigid_integrator`
+and :mod:`~mdsim.engine.rigid_md` (their molecular dynamics).
 """
 from pathlib import Path as _Path
 
@@ -28,7 +36,8 @@ _kernel_cache.ensure_fresh(_Path(__file__).parent)
 from mdsim.engine.integrator import default_time_step, energy_drift  # noqa: E402
 from mdsim.engine.gibbs import GibbsSampler  # noqa: E402
 from mdsim.engine.md import MDSampler  # noqa: E402
-from mdsim.engine.montecarlo import MCSampler, nve_temperature  # noqa: E402
+from mdsim.engine.microcanonical_temperature import nve_temperature  # noqa: E402
+from mdsim.engine.montecarlo import MCSampler  # noqa: E402
 from mdsim.engine.potentials import (Exp6, LennardJones, Mie, PairMatrix,  # noqa: E402
                                      PairPotential, Tabulated, combine, read_table)
 from mdsim.engine.system import System  # noqa: E402

@@ -181,9 +181,9 @@ class FeynmanHibbs(Tabulated):
     """
 
     def __init__(self, base, q, temperature, r_end, n_knots=DEFAULT_KNOTS):
-        if not isinstance(base, PairPotential) or isinstance(base, Tabulated):
-            raise StudyError(f"Feynman-Hibbs: the underlying potential must be an analytic "
-                             f"pair potential, not {base!r}")
+        if not isinstance(base, PairPotential) or isinstance(base, FeynmanHibbs):
+            raise StudyError(f"Feynman-Hibbs: the underlying potential must be a classical "
+                             f"pair potential (a form or a table), not {base!r}")
         self.base = base
         self.q = positive("q", q, "hbar^2 / (24 mu) in energy x length^2")
         self.temperature = positive("temperature", temperature, "kT in the energy unit")

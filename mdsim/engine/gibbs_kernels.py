@@ -22,7 +22,8 @@ from mdsim.engine import rng as _rng
 from mdsim.engine.mc_cells import cell_coord, cell_insert, cell_remove
 from mdsim.engine.mc_kernels import particle_energy
 
-__all__ = ["gibbs_transfers", "tail_energy_total"]
+__all__ = ["gibbs_transfers", "tail_energy_total", "propose_transfer", "transfer_tail_change",
+           "insert_in_box", "remove_from_box"]
 
 
 @njit(cache=True, inline="always")
@@ -88,19 +89,12 @@ def gibbs_transfers(r_bni, species_n, params_ab, form, table, box_bi, ncell_bi, 
     """
     n_acc = 0
     for _ in range(n_attempts):
-        d = 0 if _rng.uniform(state) < 0.5 else 1
+        d, j, x, y, z = propose_transfer(state, box_bi, n_b)
+        if j < 0:
+            continue
         r = 1 - d
         nd = n_b[d]
         nr = n_b[r]
-        if nd == 0:
-            continue
-        lx, ly, lz = box_bi[r, 0], box_bi[r, 1], box_bi[r, 2]
-        x = _rng.uniform(state) * lx
-        y = _rng.uniform(state) * ly
-        z = _rng.uniform(state) * lz
-        j = int(_rng.uniform(state) * nd)
-        if j >= nd:
-            j = nd - 1
         # slot nr is in no cell list of box r: the energy of an insertion
         u_ins = particle_energy(nr, x, y, z, r_bni[r], species_n, params_ab, form, table,
                                 box_bi[r], ncell_bi[r], head_bc[r], next_bn[r])
@@ -109,35 +103,81 @@ def gibbs_transfers(r_bni, species_n, params_ab, form, table, box_bi, ncell_bi, 
         u_rem = particle_energy(j, r_bni[d, j, 0], r_bni[d, j, 1], r_bni[d, j, 2], r_bni[d],
                                 species_n, params_ab, form, table, box_bi[d], ncell_bi[d],
                                 head_bc[d], next_bn[d])
-        v_r = lx * ly * lz
+        v_r = box_bi[r, 0] * box_bi[r, 1] * box_bi[r, 2]
         v_d = box_bi[d, 0] * box_bi[d, 1] * box_bi[d, 2]
-        du = (u_ins - u_rem
-              + tail_energy_total(nr + 1, v_r, tail_a) - tail_energy_total(nr, v_r, tail_a)
-              + tail_energy_total(nd - 1, v_d, tail_a) - tail_energy_total(nd, v_d, tail_a))
+        du = u_ins - u_rem + transfer_tail_change(nd, v_d, nr, v_r, tail_a)
         arg = -beta * du + math.log(nd * v_r / ((nr + 1) * v_d))
         if arg < 0.0 and _rng.uniform(state) >= math.exp(arg):
             continue
         n_acc += 1
-        # insert into box r at slot nr
-        r_bni[r, nr, 0] = x
-        r_bni[r, nr, 1] = y
-        r_bni[r, nr, 2] = z
-        c = (cell_coord(x, lx, ncell_bi[r, 0]) * ncell_bi[r, 1]
-             + cell_coord(y, ly, ncell_bi[r, 1])) * ncell_bi[r, 2] \
-            + cell_coord(z, lz, ncell_bi[r, 2])
-        cell_insert(nr, c, head_bc[r], next_bn[r], cell_bn[r])
+        insert_in_box(x, y, z, r_bni[r], box_bi[r], ncell_bi[r], head_bc[r], next_bn[r],
+                      cell_bn[r], nr)
         n_b[r] = nr + 1
         u_b[r] += u_ins
-        # remove particle j from box d: the last particle takes its slot
-        last = nd - 1
-        cell_remove(j, head_bc[d], next_bn[d], cell_bn[d])
-        if j != last:
-            c_last = cell_bn[d, last]
-            cell_remove(last, head_bc[d], next_bn[d], cell_bn[d])
-            r_bni[d, j, 0] = r_bni[d, last, 0]
-            r_bni[d, j, 1] = r_bni[d, last, 1]
-            r_bni[d, j, 2] = r_bni[d, last, 2]
-            cell_insert(j, c_last, head_bc[d], next_bn[d], cell_bn[d])
-        n_b[d] = last
+        remove_from_box(j, r_bni[d], head_bc[d], next_bn[d], cell_bn[d], nd)
+        n_b[d] = nd - 1
         u_b[d] -= u_rem
     return n_acc
+
+
+@njit(cache=True)
+def propose_transfer(state, box_bi, n_b):
+    """Draw a transfer: the donor box d (each with probability 1/2), its particle j
+    and the point (x, y, z) in the other box; j = -1 when box d is empty.
+
+    Returns ``(d, j, x, y, z)``; the random stream ``state`` is advanced in place.
+    """
+    d = 0 if _rng.uniform(state) < 0.5 else 1
+    nd = n_b[d]
+    if nd == 0:
+        return d, -1, 0.0, 0.0, 0.0
+    r = 1 - d
+    x = _rng.uniform(state) * box_bi[r, 0]
+    y = _rng.uniform(state) * box_bi[r, 1]
+    z = _rng.uniform(state) * box_bi[r, 2]
+    j = int(_rng.uniform(state) * nd)
+    if j >= nd:
+        j = nd - 1
+    return d, j, x, y, z
+
+
+@njit(cache=True)
+def transfer_tail_change(nd, v_d, nr, v_r, tail_a):
+    """Change of the two boxes' tail energies when one particle goes from box d to box r."""
+    return (tail_energy_total(nr + 1, v_r, tail_a) - tail_energy_total(nr, v_r, tail_a)
+            + tail_energy_total(nd - 1, v_d, tail_a) - tail_energy_total(nd, v_d, tail_a))
+
+
+@njit(cache=True)
+def insert_in_box(x, y, z, r_ni, box_i, ncell_i, head_c, next_n, cell_n, slot):
+    """Put a particle at (x, y, z) into the free ``slot`` of one box and its linked cells.
+
+    ``r_ni``, ``head_c``, ``next_n``, ``cell_n`` are one box's rows of the
+    arrays of :func:`gibbs_transfers`, changed in place; the caller counts
+    the particle in.
+    """
+    r_ni[slot, 0] = x
+    r_ni[slot, 1] = y
+    r_ni[slot, 2] = z
+    c = (cell_coord(x, box_i[0], ncell_i[0]) * ncell_i[1]
+         + cell_coord(y, box_i[1], ncell_i[1])) * ncell_i[2] \
+        + cell_coord(z, box_i[2], ncell_i[2])
+    cell_insert(slot, c, head_c, next_n, cell_n)
+
+
+@njit(cache=True)
+def remove_from_box(j, r_ni, head_c, next_n, cell_n, n):
+    """Take particle ``j`` out of a box of ``n`` particles: the last particle takes its slot.
+
+    One box's rows as in :func:`insert_in_box`, changed in place; the
+    caller counts the particle out.
+    """
+    last = n - 1
+    cell_remove(j, head_c, next_n, cell_n)
+    if j != last:
+        c_last = cell_n[last]
+        cell_remove(last, head_c, next_n, cell_n)
+        r_ni[j, 0] = r_ni[last, 0]
+        r_ni[j, 1] = r_ni[last, 1]
+        r_ni[j, 2] = r_ni[last, 2]
+        cell_insert(j, c_last, head_c, next_n, cell_n)

@@ -30,8 +30,8 @@ from numba import njit
 
 from mdsim.checks import count
 from mdsim.engine import rng as _rng
-from mdsim.engine.forms import RC, RC2, pair_eval
-from mdsim.engine.mc_cells import cell_coord, cell_neighbour, min_image
+from mdsim.engine.forms import RC
+from mdsim.engine.mc_kernels import species_energy
 from mdsim.engine.montecarlo import MCSampler
 
 __all__ = ["insertion_sums", "inserted_particle_energy", "insertion_tail", "InsertionSampler",
@@ -53,39 +53,14 @@ def factor_square_key(species):
 
 @njit(cache=True)
 def inserted_particle_energy(x, y, z, s_test, r_ni, species_n, params_ab, form, table, box_i,
-                        ncell_i, head_c, next_n):
+                             ncell_i, head_c, next_n):
     """Truncated pair energy of a test particle of species ``s_test`` at (x, y, z).
 
     Every particle counts (the test particle is not one of them).  Returns
     +inf as soon as one pair is inside a hard core.
     """
-    rc2_row = params_ab[s_test, :, RC2]
-    p_row = params_ab[s_test]
-    mixture = params_ab.shape[0] > 1
-    lx, ly, lz = box_i[0], box_i[1], box_i[2]
-    nx, ny, nz, reach = ncell_i[0], ncell_i[1], ncell_i[2], ncell_i[3]
-    cx, cy, cz = cell_coord(x, lx, nx), cell_coord(y, ly, ny), cell_coord(z, lz, nz)
-    width = 2 * reach + 1
-    u = 0.0
-    for a in range(min(nx, width)):
-        ax = cell_neighbour(cx, a, nx, reach)
-        for b in range(min(ny, width)):
-            row = ax * ny + cell_neighbour(cy, b, ny, reach)
-            for d in range(min(nz, width)):
-                j = head_c[row * nz + cell_neighbour(cz, d, nz, reach)]
-                while j >= 0:
-                    dx = min_image(x - r_ni[j, 0], lx, 0.5 * lx)
-                    dy = min_image(y - r_ni[j, 1], ly, 0.5 * ly)
-                    dz = min_image(z - r_ni[j, 2], lz, 0.5 * lz)
-                    r2 = dx * dx + dy * dy + dz * dz
-                    sj = species_n[j] if mixture else 0
-                    if r2 < rc2_row[sj]:
-                        e, _ = pair_eval(form, p_row[sj], table, r2)
-                        if e == np.inf:
-                            return np.inf
-                        u += e
-                    j = next_n[j]
-    return u
+    return species_energy(-1, s_test, x, y, z, r_ni, species_n, params_ab, form, table, box_i,
+                          ncell_i, head_c, next_n)
 
 
 @njit(cache=True)

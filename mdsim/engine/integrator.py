@@ -29,7 +29,7 @@ from mdsim.errors import StudyError
 
 __all__ = ["BASE_TIME_STEP", "default_time_step", "energy_drift", "gamma_variate", "csvr_scale",
            "maxwell_boltzmann", "kinetic_energy", "kick_drift", "kick_thermostat",
-           "verlet_block"]
+           "verlet_block", "run_in_blocks"]
 
 #: default time step at T* <= 1 and unit mass (reduced), common practice for LJ fluids
 BASE_TIME_STEP = 0.005
@@ -230,6 +230,41 @@ def verlet_block(n_steps, resume, dt, r_ni, v_ni, f_ni, mass_n, r_ref_ni, half_s
 
 
 # --- Python side -----------------------------------------------------------------------
+
+def run_in_blocks(n_steps, block, rebuild):
+    """Drive a step-block kernel, rebuilding the neighbour list when it stops for it.
+
+    Parameters
+    ----------
+    n_steps : int
+    block : callable
+        ``block(left, resume) -> (done, status)``, a kernel such as
+        :func:`verlet_block`: status 0 all done, 1 the list is stale (the
+        interrupted step is finished by the next call with ``resume=True``),
+        2 the energy is not finite.
+    rebuild : callable
+        Rebuilds the list (no arguments).
+
+    Returns
+    -------
+    done : int
+        Completed steps.
+    status : int
+        0, or 2 when the energy stopped being finite.
+    """
+    left, resume, steps = int(n_steps), False, 0
+    while left > 0 or resume:
+        done, status = block(left, resume)
+        left -= done
+        steps += done
+        resume = False
+        if status == 1:
+            rebuild()
+            resume = True  # the interrupted step is still counted in `left`
+        elif status == 2:
+            return steps, 2
+    return steps, 0
+
 
 def energy_drift(e_conserved_t, interval, time_step):
     """Drift of the conserved energy: least-squares slope per unit time.

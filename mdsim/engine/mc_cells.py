@@ -27,8 +27,8 @@ import math
 import numpy as np
 from numba import njit
 
-__all__ = ["cell_coord", "wrap_coordinate", "min_image", "cell_neighbour", "cell_insert",
-           "cell_remove", "build_cells", "cell_grid"]
+__all__ = ["cell_coord", "wrap_coordinate", "min_image", "cell_neighbour", "cells_around",
+           "cell_insert", "cell_remove", "build_cells", "cell_grid"]
 
 # Upper bound on the number of cells, relative to the number of particles:
 # in a very dilute gas, cells of edge rc would far outnumber the particles.
@@ -68,6 +68,38 @@ def cell_neighbour(c, k, n, reach):
     # k-th of the min(n, 2 reach + 1) distinct cell coordinates within reach of c
     if n >= 2 * reach + 1:
         return (c - reach + k + n) % n
+    return k
+
+
+@njit(cache=True)
+def cells_around(x, y, z, box_i, ncell_i, out_c):
+    """Flat indices of the cells within reach of the cell of the point (x, y, z).
+
+    Parameters
+    ----------
+    x, y, z : float, in [0, box)
+    box_i : ndarray, shape=(3,), float64
+    ncell_i : ndarray, shape=(4,), int64, cells per edge and reach
+    out_c : ndarray, shape=(>= (2 reach + 1)^3,), int64 (output)
+
+    Returns
+    -------
+    int
+        How many entries of ``out_c`` were filled (each cell once).
+    """
+    nx, ny, nz, reach = ncell_i[0], ncell_i[1], ncell_i[2], ncell_i[3]
+    cx = cell_coord(x, box_i[0], nx)
+    cy = cell_coord(y, box_i[1], ny)
+    cz = cell_coord(z, box_i[2], nz)
+    width = 2 * reach + 1
+    k = 0
+    for a in range(min(nx, width)):
+        ax = cell_neighbour(cx, a, nx, reach)
+        for b in range(min(ny, width)):
+            by = cell_neighbour(cy, b, ny, reach)
+            for d in range(min(nz, width)):
+                out_c[k] = (ax * ny + by) * nz + cell_neighbour(cz, d, nz, reach)
+                k += 1
     return k
 
 

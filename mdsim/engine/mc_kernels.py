@@ -29,7 +29,8 @@ from mdsim.engine.forms import FORM_LJ, RC2, pair_eval
 from mdsim.engine.mc_cells import (cell_coord, cell_insert, cell_neighbour, cell_remove,
                                    min_image, wrap_coordinate)
 
-__all__ = ["MODE_NVT", "MODE_NVE", "mc_moves", "energy_virial", "particle_energy"]
+__all__ = ["MODE_NVT", "MODE_NVE", "mc_moves", "energy_virial", "particle_energy",
+           "species_energy"]
 
 MODE_NVT, MODE_NVE = 0, 1
 
@@ -44,7 +45,20 @@ def particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i, 
     the energy of an insertion at (x, y, z).  Returns +inf as soon as one
     pair is inside a hard core.
     """
-    si = species_n[i]
+    return species_energy(i, species_n[i], x, y, z, r_ni, species_n, params_ab, form, table,
+                          box_i, ncell_i, head_c, next_n)
+
+
+@njit(cache=True, inline="always")
+def species_energy(skip, si, x, y, z, r_ni, species_n, params_ab, form, table, box_i, ncell_i,
+                   head_c, next_n):
+    """Truncated pair energy of a particle of species ``si`` at (x, y, z) with the others.
+
+    The one cell loop of :func:`particle_energy` and of test-particle
+    insertion (:func:`mdsim.engine.insertion.inserted_particle_energy`):
+    particle ``skip`` is left out (-1 leaves none out).  Returns +inf as
+    soon as one pair is inside a hard core.
+    """
     rc2_ab = params_ab[:, :, RC2]
     mixture = params_ab.shape[0] > 1  # one species: skip reading species_n[j]
     p_row = params_ab[si]
@@ -66,7 +80,7 @@ def particle_energy(i, x, y, z, r_ni, species_n, params_ab, form, table, box_i, 
                 c = (ax * ny + by) * nz + cell_neighbour(cz, d, nz, reach)
                 j = head_c[c]
                 while j >= 0:
-                    if j != i:
+                    if j != skip:
                         dx = min_image(x - r_ni[j, 0], lx, hx)
                         dy = min_image(y - r_ni[j, 1], ly, hy)
                         dz = min_image(z - r_ni[j, 2], lz, hz)

@@ -23,7 +23,8 @@ from mdsim.engine import rng as _rng
 from mdsim.engine.feynman_hibbs import sampling_reference
 from mdsim.engine.forces import check_finite, forces_half, forces_half_parallel
 from mdsim.engine.integrator import (default_time_step, kick_drift, kick_thermostat,
-                                     kinetic_energy, maxwell_boltzmann, verlet_block)
+                                     kinetic_energy, maxwell_boltzmann, run_in_blocks,
+                                     verlet_block)
 from mdsim.engine.neighbours import NeighbourList, choose_skin, wrap_positions
 from mdsim.errors import StudyError
 
@@ -143,7 +144,6 @@ class MDSampler:
         self.nlist = NeighbourList(n, self.box_i, rc, self.skin)
         self.obs = np.zeros(5)
         self.step = 0
-        self._resume = False
         self._update_tail()
         self.rebuild_list()
         self._forces(" in the start configuration")
@@ -229,20 +229,16 @@ class MDSampler:
                                 kT, self.nf, c, self.rng, self.obs)
                 self.step += 1
             return
-        while left > 0 or self._resume:
-            done, status = verlet_block(
-                left, self._resume, self.time_step, self.r_ni, self.v_ni, self.f_ni,
-                self.mass_n, nl.r_ref_ni, half_skin2, self.box_i, self.species_n,
-                pairs.params_ab, pairs.form, pairs.table, nl.nb_nk, nl.count_n,
-                thermostat, kT, self.nf, c, self.rng, self.obs)
-            left -= done
-            self.step += done
-            self._resume = False
-            if status == 1:
-                self.rebuild_list()
-                self._resume = True  # the interrupted step is still counted in `left`
-            elif status == 2:
-                check_finite(self.obs[0], f" at MD step {self.step + 1}")
+        def block(steps, resume):
+            return verlet_block(steps, resume, self.time_step, self.r_ni, self.v_ni, self.f_ni,
+                                self.mass_n, nl.r_ref_ni, half_skin2, self.box_i,
+                                self.species_n, pairs.params_ab, pairs.form, pairs.table,
+                                nl.nb_nk, nl.count_n, thermostat, kT, self.nf, c, self.rng,
+                                self.obs)
+        done, status = run_in_blocks(left, block, self.rebuild_list)
+        self.step += done
+        if status == 2:
+            check_finite(self.obs[0], f" at MD step {self.step + 1}")
 
     def _run_steps(self, n_steps, thermostat):
         if self.n_threads > 1:
@@ -382,7 +378,6 @@ class MDSampler:
             raise StudyError("MD state: the stored list positions are not in cell order for "
                              "this box; the state does not belong to this sampler's settings")
         self.nlist.build(r_ref)
-        self._resume = False
         self.sync_system()
 
     def settings(self):

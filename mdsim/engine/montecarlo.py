@@ -17,7 +17,8 @@ Methods
     (E - U)^(F/2 - 1) for U < E, F = f N kinetic degrees of freedom; the
     acceptance is min(1, ((E - U_new) / (E - U_old))^(F/2 - 1)) and a move
     to U_new >= E is rejected.  The temperature follows from
-    1/kT = (F/2 - 1) <1 / (E - U)> (see :func:`nve_temperature`).
+    1/kT = (F/2 - 1) <1 / (E - U)>
+    (:func:`mdsim.engine.microcanonical_temperature.nve_temperature`).
 
 The energy is the truncated (not shifted) pair potential inside each pair's
 cut-off; the analytic long-range tail (constant at fixed volume, so it does
@@ -44,7 +45,7 @@ from mdsim.engine.mc_kernels import MODE_NVE, MODE_NVT, energy_virial, mc_moves
 from mdsim.engine.system import System
 from mdsim.errors import SimulationError, StudyError
 
-__all__ = ["MCSampler", "METHODS", "nve_temperature"]
+__all__ = ["MCSampler", "METHODS"]
 
 METHODS = {"mc-nvt": MODE_NVT, "mc-nve": MODE_NVE}
 
@@ -56,42 +57,6 @@ _MIN_DISPLACEMENT = 1e-5
 
 
 # --- helpers -------------------------------------------------------------------
-
-def nve_temperature(kinetic_t, n_particles, dof_per_particle=3):
-    """Temperature estimate of a microcanonical Monte Carlo run.
-
-    Parameters
-    ----------
-    kinetic_t : array_like, shape=(n_samples,), float64
-        Per-particle kinetic energy (E - U) / N of each sample (the
-        sampler's "kinetic" series), reduced units.
-    n_particles : int
-    dof_per_particle : int or float
-        f, kinetic degrees of freedom per particle (F = f N in all).
-
-    Returns
-    -------
-    float
-        kT in reduced units.
-
-    Notes
-    -----
-    1/kT = (F/2 - 1) <1 / (E - U)> (J. R. Ray, Phys. Rev. A 44, 4061,
-    1991), with E - U = N * kinetic.  Its uncertainty is left to the
-    analysis package (statistical inefficiency of 1/kinetic).
-    """
-    k_t = np.asarray(kinetic_t, dtype=float)
-    if k_t.ndim != 1 or k_t.size == 0 or np.any(~np.isfinite(k_t)) or np.any(k_t <= 0.0):
-        raise StudyError("nve_temperature: 'kinetic_t' must be a non-empty 1-D series of "
-                         "positive finite per-particle kinetic energies")
-    n = int(n_particles)
-    f_total = float(dof_per_particle) * n
-    if n < 1 or f_total <= 2.0:
-        raise StudyError(f"nve_temperature: n_particles = {n_particles!r} with dof_per_particle = "
-                         f"{dof_per_particle!r} gives F = {f_total}; need F > 2")
-    mean_inv = float(np.mean(1.0 / (n * k_t)))
-    return 1.0 / ((0.5 * f_total - 1.0) * mean_inv)
-
 
 def _number(name, value, lo, hi, hint, *, lo_open=True):
     try:

@@ -17,6 +17,7 @@ Array suffixes: ``_r`` a grid of distances.
 import math
 
 import numpy as np
+from numba import njit
 
 from mdsim.checks import positive
 from mdsim.engine.forms import (ALPHA, ATT, EPS, EXPA, EXPB, EXPC, FORM_EXP6, FORM_LJ,
@@ -27,7 +28,7 @@ from mdsim.engine.tabulated import Tabulated, read_table
 from mdsim.errors import StudyError
 
 __all__ = ["PairPotential", "Mie", "LennardJones", "Exp6", "Tabulated", "read_table", "combine",
-           "PairMatrix", "FORM_LJ", "FORM_MIE", "FORM_EXP6", "FORM_TABLE",
+           "PairMatrix", "axilrod_teller_sq", "FORM_LJ", "FORM_MIE", "FORM_EXP6", "FORM_TABLE",
            "FORM_NAMES", "N_PARAM", "EPS", "SIG", "REP", "ATT", "PREF", "ALPHA", "RMIN", "RCORE",
            "RC", "RC2", "SHIFT", "T_R0", "T_DR", "T_N", "EXPA", "EXPB", "EXPC"]
 
@@ -227,6 +228,41 @@ def combine(a, b, k_ij=0.0):
         return Exp6(eps, 0.5 * (a.r_min + b.r_min), math.sqrt(a.alpha * b.alpha))
     raise StudyError("mixture: tabulated potentials cannot be combined by Lorentz-Berthelot "
                      "rules; give a single-species table")
+
+
+@njit(cache=True)
+def axilrod_teller_sq(c9, a2, b2, c2):
+    """Axilrod-Teller triple-dipole energy of a triangle from its squared sides.
+
+    The one home of the three-body formula: the engine's kernels call it on
+    scalars, ``analysis.virial.threebody`` on equal-shaped 1-d arrays.
+
+    Parameters
+    ----------
+    c9 : float, energy * length^9
+    a2, b2, c2 : float or ndarray, shape=(n,), length^2
+        Squares of the three sides r12, r13, r23.
+
+    Returns
+    -------
+    float or ndarray, energy
+
+    Notes
+    -----
+    u3 = C9 (1 + 3 cos g1 cos g2 cos g3) / (r12 r13 r23)^3 (Axilrod and
+    Teller, J. Chem. Phys. 11, 299 (1943)), the cosines by the law of
+    cosines, cos g1 = (r12^2 + r13^2 - r23^2) / (2 r12 r13) and so on.
+
+    Examples
+    --------
+    An equilateral triangle of side 1: u3 = (11/8) C9.
+
+    >>> float(axilrod_teller_sq(8.0, 1.0, 1.0, 1.0))
+    11.0
+    """
+    cos_prod = (a2 + b2 - c2) * (a2 + c2 - b2) * (b2 + c2 - a2) / (8.0 * a2 * b2 * c2)
+    p = a2 * b2 * c2
+    return c9 * (1.0 + 3.0 * cos_prod) / (p * np.sqrt(p))
 
 
 class PairMatrix:

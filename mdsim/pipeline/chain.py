@@ -21,7 +21,7 @@ import math
 import numpy as np
 
 from mdsim.errors import ConvergenceError
-from mdsim.pipeline.rundir import stage_name
+from mdsim.pipeline.stage_names import stage_name
 from mdsim.sampling import store
 
 __all__ = ["Chain", "mean_se", "run_to", "settle", "solve_or_extend", "stage_share", "SAFETY",

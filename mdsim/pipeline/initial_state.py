@@ -21,7 +21,7 @@ The accepted try is the route's initial-state chain (same T, same density,
 same sampler): no work is lost when the planned density already holds.  A
 state given by density is sampled once at that density and its sampled
 pressure reported.  Stage files: ``initial-state-tryK-*``
-(:func:`mdsim.pipeline.rundir.initial_state_try`) for a state given by
+(:func:`mdsim.pipeline.stage_names.initial_state_try`) for a state given by
 pressure, ``initial-state-*`` for one given by density.
 """
 import math
@@ -32,7 +32,7 @@ from mdsim.errors import ConvergenceError
 from mdsim.numbers import value_with_error
 from mdsim.pipeline.chain import Chain, run_to, settle, solve_or_extend
 from mdsim.pipeline.plan import particles_for_cutoff
-from mdsim.pipeline.rundir import INITIAL_STATE, initial_state_try, stage_name
+from mdsim.pipeline.stage_names import INITIAL_STATE, initial_state_try, stage_name
 from mdsim.sampling import store
 from mdsim.units import R_GAS
 

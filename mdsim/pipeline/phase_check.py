@@ -15,7 +15,7 @@ coexistence.
 import numpy as np
 
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
-from mdsim.pipeline.rundir import PHASE_SNAPSHOTS, stage_name
+from mdsim.pipeline.stage_names import PHASE_SNAPSHOTS, stage_name
 from mdsim.sampling import store
 
 __all__ = ["check_phases", "state_evidence", "solver_evidence", "pressure_at_initial_temperature",

@@ -7,7 +7,7 @@ virial coefficients in cm^3/mol and cm^6/mol^2 (the JSON keeps SI).
 import math
 
 from mdsim.numbers import value_with_error
-from mdsim.pipeline.summary import value_stderr
+from mdsim.pipeline.record_values import value_stderr
 from mdsim.study.routes import ROUTE_LABELS as ROUTE_NAMES, ROUTES, SIMULATION_ROUTES
 
 __all__ = ["cell", "particle_cell", "results_table", "entropy_table", "virial_table",

@@ -23,7 +23,7 @@ import math
 from analysis.results import to_plain
 from mdsim.files import atomic_write_text
 from mdsim.pipeline.collect import task_state_point
-from mdsim.pipeline.summary import value_stderr
+from mdsim.pipeline.record_values import value_stderr
 from mdsim.study.routes import VIRIAL_ROUTES
 
 __all__ = ["CSV_COLUMNS", "csv_rows", "write_csv", "write_results_json", "seed_text"]

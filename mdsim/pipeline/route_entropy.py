@@ -19,7 +19,7 @@ import math
 
 from mdsim.errors import ConvergenceError, StudyError
 from mdsim.pipeline.chain import MIN_STAGE_SAMPLES, SAFETY, mean_se
-from mdsim.pipeline.rundir import INSERTION_FINAL, INSERTION_INITIAL, stage_name
+from mdsim.pipeline.stage_names import INSERTION_FINAL, INSERTION_INITIAL, stage_name
 from mdsim.units import R_GAS
 
 __all__ = ["sample_route_entropy", "reuse_or_clear_stage", "MAX_SAMPLE_SHARE",

@@ -164,7 +164,7 @@ def _run_tasks(study, rd, tasks, on, workers, submit, resubmit_failed, quiet, sa
 
 
 def run_study(study, out_dir=None, on=None, workers=None, submit=False, resubmit_failed=False,
-              quiet=False, say=None):
+              quiet=False, say=None, plots=True):
     """Run a study into a run directory and build its report.
 
     Parameters
@@ -187,6 +187,9 @@ def run_study(study, out_dir=None, on=None, workers=None, submit=False, resubmit
     say : callable, optional
         ``say(text)`` receives the run's messages for the user (tasks
         skipped, tasks failed); they go to the log as well.
+    plots : bool
+        Draw the report's ``plots/`` (True by default; False writes the
+        tables and report only, as ``mdsim report --no-plots``).
 
     Returns
     -------
@@ -220,7 +223,7 @@ def run_study(study, out_dir=None, on=None, workers=None, submit=False, resubmit
                 say(f"task {k:04d} ({tasks[k]['route']}, state point "
                     f"{tasks[k]['state_point']['index']}) failed: {err}")
                 log.error("task %04d failed: %s", k, err)
-            run.summary = build_report(rd.path)
+            run.summary = build_report(rd.path, plots=plots)
             return run
     finally:
         rd.release_lock()

@@ -1,4 +1,6 @@
-"""Per-state-point summaries: the virial routes and THE JSON record of a state point.
+"""THE JSON record of a state point, and the summary of a run.
+
+The virial routes in it come from :mod:`mdsim.pipeline.virial_summary`.
 
 One record shape serves ``mdsim run --json``, ``results.json`` and
 ``mdsim virial --json`` (:func:`state_point_record`)::
@@ -49,173 +51,20 @@ pressure are in ``simulation``.
 All numbers are SI: K, Pa, mol/m^3, J/(mol K), m^3/mol, m^6/mol^2.
 Non-finite numbers become null.
 """
-import math
-
-from mdsim.errors import ConvergenceError, StudyError
+from mdsim.errors import StudyError
 from mdsim.numbers import value_with_error
+from mdsim.pipeline.record_values import (finite_or_none, one_line, value_stderr,
+                                          value_stderr_dict)
+from mdsim.pipeline.virial_summary import (initial_temperature_warnings, virial_coefficients,
+                                           virial_summary)
 from mdsim.study.routes import FINAL_PREFERENCE, SIMULATION_ROUTES, VIRIAL_ROUTES
-from mdsim.study.statepoints import (ideal_heat_capacity, resolve_initial_density, virial_gas,
-                                     virial_warnings)
+from mdsim.study.statepoints import virial_warnings
 
-__all__ = ["virial_coefficients", "virial_summary", "state_point_record", "run_summary",
-           "value_stderr", "best_simulation", "initial_temperature_warnings"]
+__all__ = ["state_point_record", "run_summary", "best_simulation"]
 
 # A virial B2+B3 result further than this many combined standard errors from
 # the best simulation route gets a warning (and more than the target itself).
 DISAGREEMENT_Z = 3.0
-
-
-def _num(x):
-    """A finite float, or None."""
-    if x is None:
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
-
-
-def _one_line(exc):
-    return " ".join(str(exc).split())
-
-
-def virial_coefficients(study, temperature_K):
-    """B2, dB2/dT, B3, dB3/dT of the study's gas at one temperature (SI).
-
-    B2 carries the quantum treatment the study asks for (``[gas] quantum``),
-    B3 its first-order term with the second-order and exact levels; both
-    are named in ``quantum``.
-
-    For rigid molecules B3 is a Monte Carlo integral: its standard errors
-    come as ``B3_m6_mol2_stderr`` and ``dB3_dT_m6_mol2K_stderr``, and
-    ``B3_method`` says how it was found.
-
-    Returns
-    -------
-    dict
-        ``temperature_K``, ``B2_m3_mol``, ``dB2_dT_m3_molK``, ``B3_m6_mol2``,
-        ``dB3_dT_m6_mol2K``, ``quantum_correction`` (bool), ``quantum`` (one line: the
-        treatment of B2 and B3), ``B3_method`` (and the standard errors above for rigid
-        molecules).
-    """
-    gas = virial_gas(study)
-    T = float(temperature_K)
-    out = {"temperature_K": T,
-           "B2_m3_mol": _num(gas.B(T)), "dB2_dT_m3_molK": _num(gas.dB_dT(T)),
-           "B3_m6_mol2": _num(gas.C(T)), "dB3_dT_m6_mol2K": _num(gas.dC_dT(T)),
-           "quantum_correction": bool(study.gas.quantum_correction),
-           "quantum": f"{study.gas.describe_quantum()}; {gas.c_note}",
-           "B3_method": "quadrature"}
-    if study.gas.three_body_c9_K_A9:
-        out["B3_method"] = "quadrature, with the Axilrod-Teller three-body part"
-    if hasattr(gas, "C_stderr"):
-        err, d_err, _ = gas.C_stderr(T)
-        out.update({"B3_m6_mol2_stderr": _num(err), "dB3_dT_m6_mol2K_stderr": _num(d_err),
-                    "B3_method": f"Monte Carlo integration ({gas.triplet_draws().n_draws} draws, "
-                    "fixed seed)"})
-    return out
-
-
-def virial_summary(study, sp):
-    """The virial routes of one state point.
-
-    Parameters
-    ----------
-    study : Study
-    sp : StatePoint
-
-    Returns
-    -------
-    dict
-        ``index``; ``initial`` (``temperature_K``, ``pressure_Pa``,
-        ``density_mol_m3``, ``density_from``: "given" or "virial B2+B3");
-        ``final`` (the B2+B3 final state, or None); ``final_b2`` (the B2-only
-        final state, or None); ``delta_T_K`` with ``virial_b2`` and
-        ``virial_b2b3`` entries ``{value, stderr}`` (absent when the
-        series does not hold; stderr None, except for rigid molecules'
-        B2 + B3, where it carries the Monte Carlo error of B3); ``entropy_generated_J_molK`` (B2+B3, else
-        B2, else None); ``delta_s_J_molK`` (each virial route's entropy
-        generated, ``{value, stderr: None}``); ``virial`` (coefficients at T_i, see
-        :func:`virial_coefficients`); ``warnings``.
-
-    Raises
-    ------
-    StudyError
-        When the initial pressure cannot be turned into a density (see
-        :func:`mdsim.study.statepoints.resolve_initial_density`).
-
-    Notes
-    -----
-    Both truncations start from the same initial density (the one given,
-    or the B2+B3 solution of the given pressure) so that every route of a
-    state point describes one initial state; they differ only in u_res.
-    The solver is :func:`analysis.expansion.virial_expansion`.
-    """
-    from analysis.expansion import virial_expansion
-    from analysis.virial_eos import VirialSeriesError
-
-    gas = virial_gas(study)
-    cv_ig = ideal_heat_capacity(study)
-    rho_i, how = resolve_initial_density(study, sp)
-    T_i, r = sp.temperature_K, sp.volume_ratio
-    warnings = list(virial_warnings(study)) + initial_temperature_warnings(study, sp)
-    results = {}
-    for order, route in ((3, "virial_b2b3"), (2, "virial_b2")):
-        try:
-            res = virial_expansion(gas, cv_ig, T_i, r, rho_i=rho_i, order=order)
-        except (VirialSeriesError, ConvergenceError) as exc:
-            warnings.append(f"{route}: not available at this state ({_one_line(exc)})")
-            continue
-        results[route] = res
-        for w in res.warnings:
-            if w not in warnings:
-                warnings.append(w)
-    p_i = sp.pressure_Pa
-    if p_i is None and "virial_b2b3" in results:
-        p_i = results["virial_b2b3"].initial_pressure_Pa
-
-    def final(res):
-        if res is None:
-            return None
-        return {"temperature_K": _num(res.final_temperature_K),
-                "pressure_Pa": _num(res.final_pressure_Pa),
-                "density_mol_m3": _num(res.final_density_mol_m3)}
-
-    best = results.get("virial_b2b3") or results.get("virial_b2")
-    stderr = {route: None for route in results}
-    if "virial_b2b3" in results and hasattr(gas, "delta_T_stderr_K"):
-        res = results["virial_b2b3"]  # B3 by Monte Carlo integration (rigid molecules)
-        stderr["virial_b2b3"] = gas.delta_T_stderr_K(T_i, rho_i, res.final_temperature_K,
-                                                     res.final_density_mol_m3, cv_ig)
-    return {
-        "index": sp.index,
-        "initial": {"temperature_K": T_i, "pressure_Pa": _num(p_i), "density_mol_m3": rho_i,
-                    "density_from": how},
-        "final": final(results.get("virial_b2b3")),
-        "final_b2": final(results.get("virial_b2")),
-        "delta_T_K": {route: {"value": _num(res.delta_T_K), "stderr": _num(stderr[route])}
-                      for route, res in sorted(results.items())},
-        "entropy_generated_J_molK": _num(best.entropy_generated_J_molK) if best else None,
-        "delta_s_J_molK": {route: {"value": _num(res.entropy_generated_J_molK), "stderr": None}
-                           for route, res in sorted(results.items())},
-        "virial": virial_coefficients(study, T_i),
-        "warnings": warnings,
-    }
-
-
-def initial_temperature_warnings(study, sp):
-    """[the warning] when the state point's T_i lies far outside the potential's fitted range."""
-    from mdsim.study.fitted_range import fitted_range_warning
-    w = fitted_range_warning(study.gas.fitted_range_K, [sp.temperature_K],
-                             "the initial temperature")
-    return [] if w is None else [w]
-
-
-def value_stderr(entry):
-    """(value, stderr) from a {value, stderr} dict, a number or None; non-finite to None."""
-    if entry is None:
-        return None, None
-    if isinstance(entry, dict):
-        return _num(entry.get("value")), _num(entry.get("stderr"))
-    return _num(entry), None
 
 
 def best_simulation(record):
@@ -262,7 +111,7 @@ def _simulation_entries(route_results, delta, finals, warnings, entropy):
         entropy[route] = _entropy_entry(res)
         T_f, T_f_err = value_stderr(res.get("final_temperature_K"))
         p_f, _ = value_stderr(res.get("final_pressure_Pa"))
-        rho_f = _num(res.get("final_density_mol_m3"))
+        rho_f = finite_or_none(res.get("final_density_mol_m3"))
         if T_f is not None:
             finals[route] = {"temperature_K": T_f, "temperature_stderr_K": T_f_err,
                              "pressure_Pa": p_f, "density_mol_m3": rho_f}
@@ -271,8 +120,9 @@ def _simulation_entries(route_results, delta, finals, warnings, entropy):
         simulation[route] = {k: res.get(k) for k in ("stopped_by", "cpu_seconds", "n_particles",
                                                       "method", "initial_density_from",
                                                       "two_phase", "coexistence")}
-        simulation[route]["initial_density_mol_m3"] = _num(res.get("initial_density_mol_m3"))
-        simulation[route]["initial_pressure_Pa"] = _value_stderr_dict(
+        simulation[route]["initial_density_mol_m3"] = finite_or_none(
+            res.get("initial_density_mol_m3"))
+        simulation[route]["initial_pressure_Pa"] = value_stderr_dict(
             res.get("initial_pressure_Pa"))
         simulation[route]["two_phase_evidence"] = (res.get("phase_check") or {}).get("evidence",
                                                                                       [])
@@ -281,17 +131,11 @@ def _simulation_entries(route_results, delta, finals, warnings, entropy):
     return simulation, initial_pressure
 
 
-def _value_stderr_dict(entry):
-    """{value, stderr} (finite numbers or None) of a task result's entry, or None."""
-    value, stderr = value_stderr(entry)
-    return None if value is None else {"value": value, "stderr": stderr}
-
-
 def _sampled_initial_pressure(route_results):
     """{value, stderr} of the first simulation route's sampled initial pressure (Pa), or None."""
     for route in SIMULATION_ROUTES:
         res = route_results.get(route)
-        entry = _value_stderr_dict(res.get("initial_pressure_Pa")) if res else None
+        entry = value_stderr_dict(res.get("initial_pressure_Pa")) if res else None
         if entry is not None:
             return entry
     return None
@@ -318,8 +162,8 @@ def _virial_initial_state(vs, sp, route_results, initial_pressure):
                if sp.pressure_Pa is not None else initial_pressure,
                "density_mol_m3": None, "density_from": None}
     for res in route_results.values():
-        if res is not None and _num(res.get("initial_density_mol_m3")) is not None:
-            initial["density_mol_m3"] = _num(res["initial_density_mol_m3"])
+        if res is not None and finite_or_none(res.get("initial_density_mol_m3")) is not None:
+            initial["density_mol_m3"] = finite_or_none(res["initial_density_mol_m3"])
             initial["density_from"] = "simulation task"
             break
     return initial
@@ -388,7 +232,7 @@ def state_point_record(study, sp, route_results, virial=None):
     except StudyError as exc:
         # a dense state given by pressure: simulation results (if any) still stand
         vs = None
-        warnings.append(f"virial routes: {_one_line(exc)}")
+        warnings.append(f"virial routes: {one_line(exc)}")
         warnings.extend(initial_temperature_warnings(study, sp))
     if vs is not None:
         warnings.extend(vs["warnings"])

@@ -25,7 +25,8 @@ def virial_records(study):
         turned into a density: the virial routes have nothing to say there.
     """
     from mdsim.study.statepoints import resolve_initial_density
-    from mdsim.pipeline.summary import state_point_record, virial_summary
+    from mdsim.pipeline.summary import state_point_record
+    from mdsim.pipeline.virial_summary import virial_summary
     points = study.state_points()
     for sp in points:
         resolve_initial_density(study, sp)

@@ -307,6 +307,19 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     if not isinstance(pairs, PairMatrix):
         raise TypeError("pairs must be an mdsim.engine.potentials.PairMatrix")
     T_red = positive("T_red", T_red, "reduced kT/epsilon")
+    run = _checked_run(n_particles, equilibration_cycles, production_cycles, sample_interval, seed)
+    path = None if cache_dir is None else cache_file(cache_dir, pairs, T_red, *run)
+    if path is not None and (cached := _read_cached(path)) is not None:
+        return cached
+    sampler, out = _run_gibbs(pairs, T_red, run, start_densities)
+    point = _summarise(out, sampler, T_red, run[1], run[2])
+    if path is not None:
+        _write_cached(path, point)
+    return point
+
+
+def _checked_run(n_particles, equilibration_cycles, production_cycles, sample_interval, seed):
+    """The run settings of :func:`coexistence_point` checked, as a tuple in the same order."""
     n_particles = count("n_particles", n_particles, 2, "particles in both boxes")
     equilibration_cycles = count("equilibration_cycles", equilibration_cycles, 0, "cycles")
     production_cycles = count("production_cycles", production_cycles, 1, "cycles")
@@ -317,24 +330,19 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
         raise SettingError("production_cycles", production_cycles,
                            f"gives {n_samples} samples at sample_interval = {sample_interval}; "
                            "need at least 40 (more cycles or a shorter interval)")
-    path = None
-    if cache_dir is not None:
-        path = cache_file(cache_dir, pairs, T_red, n_particles, equilibration_cycles,
-                          production_cycles, sample_interval, seed)
-        cached = _read_cached(path)
-        if cached is not None:
-            return cached
+    return n_particles, equilibration_cycles, production_cycles, sample_interval, seed
+
+
+def _run_gibbs(pairs, T_red, run, start_densities):
+    """(sampler, its run output): equilibrate, then produce, from the start densities."""
+    n_particles, equilibration_cycles, production_cycles, sample_interval, seed = run
     rho_vap0, rho_liq0 = start_densities_guess(T_red) if start_densities is None \
         else (positive("start_densities", start_densities[0], "vapour, reduced"),
               positive("start_densities", start_densities[1], "liquid, reduced"))
     n_vap0, n_liq0 = _start_split(pairs, n_particles, rho_vap0, rho_liq0)
     sampler = GibbsSampler(pairs, T_red, [n_liq0, n_vap0], [rho_liq0, rho_vap0], seed=seed)
     sampler.equilibrate(equilibration_cycles)
-    out = sampler.run(n_samples, sample_interval)
-    point = _summarise(out, sampler, T_red, equilibration_cycles, production_cycles)
-    if path is not None:
-        _write_cached(path, point)
-    return point
+    return sampler, sampler.run(production_cycles // sample_interval, sample_interval)
 
 
 def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles):

@@ -78,7 +78,8 @@ The reading is split along its ideas: :mod:`mdsim.study.schema` (every key,
 its kind, range and default), :mod:`mdsim.study.values` (checking a value,
 the error messages), :mod:`mdsim.study.datafiles` (data files kept in the
 study's folder), :mod:`mdsim.study.potential` (the pair potentials),
-:mod:`mdsim.study.gas` (the gas and its heat capacity),
+:mod:`mdsim.study.gas` (the gas and its potentials),
+:mod:`mdsim.study.heat_capacity_spec` (its ideal-gas heat capacity),
 :mod:`mdsim.study.runtables` (the run tables checked together) and this
 module (:class:`Study`, :func:`read_study`).
 """

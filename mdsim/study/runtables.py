@@ -70,8 +70,11 @@ def _check_quantum_potential(ctx, doc, out, gas):
     if other:
         ctx.fail("simulation", "quantum_potential", raw,
                  f"the routes {other} run at fixed energy, where the Feynman-Hibbs "
-                 "potential's temperature is the unknown final temperature",
-                 'routes = ["energy"]', "use the energy route with this key")
+                 "potential's temperature is the unknown final temperature and the "
+                 "conserved K + U_FH is not the gas's energy K + U + 2 beta C "
+                 "(docs/physics.md 3.5)",
+                 'routes = ["energy"]', "use the energy route with this key: it finds the "
+                 "same final temperature by canonical sampling")
     if sim["sampler"] != "mc":
         ctx.fail("simulation", "quantum_potential", raw,
                  f"sampler = {sim['sampler']!r}: the thermodynamic energy estimator of the "

@@ -72,8 +72,8 @@ def test_helium_exact_b2_against_the_reference_equation_of_state(T, tol):
 
 @pytest.mark.parametrize("T", [50.0, 100.0, 300.0])
 def test_hydrogen_exact_b2_against_the_reference_equation_of_state(T):
-    # CoolProp normal hydrogen EOS.  The isotropic Silvera-Goldman potential gives B2
-    # up to 1.3 cm^3/mol below it (measured: -1.8 at 50 K, -0.2 at 100 K, -1.3 at 300 K;
+    # CoolProp normal hydrogen EOS.  The isotropic Silvera-Goldman potential's B2 differs
+    # from it by up to 1.9 cm^3/mol (measured: +1.9 at 50 K, -0.2 at 100 K, -1.2 at 300 K;
     # a limit of the potential, not of the method: its classical + first-order B2 agrees
     # with the exact one to 0.04 cm^3/mol at 300 K).
     study = read_study(CONFIGS / "hydrogen.toml")
@@ -81,6 +81,32 @@ def test_hydrogen_exact_b2_against_the_reference_equation_of_state(T):
     gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol, quantum=g.quantum,
                     spin=g.spin_components())
     assert gas.B(T) * 1e6 == pytest.approx(_coolprop_b2_cm3("Hydrogen", T), abs=2.0)
+
+
+def test_hydrogen_b2_offset_lies_in_the_potential_not_in_the_quantum_method():
+    """Silvera-Goldman's B2 below CoolProp's normal-hydrogen EOS: the potential or our code?
+    (1) At 300 and 1000 K the exact B2 equals classical + first + second-order
+    Wigner-Kirkwood (plain quadrature, no phase shifts, grids or partial waves) to within
+    the next order (HCB 1954 section 6.5; allowed 0.02 cm^3/mol, measured 0.006 and
+    0.002); (2) so the offset from the reference, over 1 cm^3/mol there, is already in the
+    near-classical B2 of the potential; (3) the spin-isomer weighting (normal, para,
+    Boltzmann) moves B2 by less than 0.01 cm^3/mol at 50 K (measured below 1e-5)."""
+    from analysis.virial.quantum_exact import spin_components
+    pot = read_table(CONFIGS / "hydrogen_sg.csv")
+    m = 2.01588e-3 / N_A
+    h2mu = virial.h2_over_mu_K_A2(m, m)
+    T = np.array([300.0, 1000.0])
+    exact = virial.b2_exact(pot, T, h2mu, components=spin_components("bose", ortho_fraction=0.75))
+    series = (virial.b2(pot, T)[0] + virial.b2_quantum(pot, T, h2mu)[0]
+              + virial.b2_second_order(pot, T, h2mu)[0])
+    assert exact[0] * CM3 == pytest.approx(series * CM3, abs=0.02)
+    reference = np.array([_coolprop_b2_cm3("Hydrogen", t) for t in T])
+    assert np.all(reference - series * CM3 > 1.0)
+    T_low = np.array([50.0])
+    b = [virial.b2_exact(pot, T_low, h2mu, components=c)[0][0] * CM3
+         for c in (spin_components("bose", ortho_fraction=0.75),
+                   spin_components("bose", ortho_fraction=0.0), spin_components("boltzmann"))]
+    assert max(b) - min(b) < 0.01
 
 
 def test_neon_second_order_b2_against_the_reference_equation_of_state():
@@ -108,7 +134,7 @@ def test_free_expansion_of_light_gases_against_the_reference_equations(name, flu
     # 0.01 cm^3/mol B2 agreement and B3 within 3 cm^6/mol^2; hydrogen from the
     # Silvera-Goldman dB2/dT and the constant 2.5 R c_v (real normal hydrogen differs by
     # about 1 % at 295 K); neon from the 0.2 cm^3/mol B2 offset of HFD-B against the EOS.
-    from mdsim.pipeline.summary import virial_summary
+    from mdsim.pipeline.virial_summary import virial_summary
     from mdsim.study.statepoints import state_points
     study = read_study(CONFIGS / f"{name}.toml")
     rec = virial_summary(study, state_points(study)[0])

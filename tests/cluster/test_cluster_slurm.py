@@ -87,7 +87,7 @@ def test_an_array_study_ends_with_the_numbers_of_the_local_pool(slurm_cluster, t
     study = write_study(tmp_path, extra=SWEEP, initial_T="")
     array = tmp_path / "array"
     t0 = time.monotonic()
-    assert main(["run", str(study), "--out", str(array), "--on", "array", "--submit",
+    assert main(["run", str(study), "--no-plots", "--out", str(array), "--on", "array", "--submit",
                  "--json"]) == 0
     submitted = json.loads(capsys.readouterr().out)
     assert submitted["submitted"] == [0, 1] and submitted["job_id"].isdigit()
@@ -98,18 +98,18 @@ def test_an_array_study_ends_with_the_numbers_of_the_local_pool(slurm_cluster, t
     assert status["scheduler"]["job_ids"] == [submitted["job_id"]]
     # each element needs seconds of CPU, so a second after submission they are still active
     assert status["scheduler"]["active"] >= 1, status
-    assert main(["run", str(study), "--out", str(array)]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(array)]) == 0
     assert "still pending or running" in capsys.readouterr().err
     assert len(json.loads((array / "jobs.json").read_text())) == 1
     # nor does a local run start the same tasks beside the array
-    assert main(["run", str(study), "--out", str(array), "--on", "local"]) == 2
+    assert main(["run", str(study), "--no-plots", "--out", str(array), "--on", "local"]) == 2
     assert "still pending or running" in capsys.readouterr().err
     view = _wait_until_finished(array, slurm_cluster)
     elapsed = time.monotonic() - t0
     assert {v["state"] for v in view.values()} == {"done"}
     assert {v["slurm_state"] for v in view.values()} == {"COMPLETED"}
     # after the array: 'mdsim run' (the executor is known from the directory) only gathers
-    assert main(["run", str(study), "--out", str(array), "--json"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(array), "--json"]) == 0
     summary = json.loads(capsys.readouterr().out)
     assert len(json.loads((array / "jobs.json").read_text())) == 1  # nothing resubmitted
     local = _local_pool(tmp_path, study)
@@ -126,7 +126,7 @@ def test_an_element_killed_by_scancel_is_reported_and_resubmitted(slurm_cluster,
                                                                     capsys):
     study = write_study(tmp_path, target="0.25 K")
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--on", "array", "--submit",
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--on", "array", "--submit",
                  "--quiet", "--json"]) == 0
     job = json.loads(capsys.readouterr().out)["job_id"]
     stages = out / "tasks" / "0000.stages"
@@ -148,18 +148,18 @@ def test_an_element_killed_by_scancel_is_reported_and_resubmitted(slurm_cluster,
     text = _cli("status", str(out), timeout=60).stdout
     assert "CANCELLED" in text and f"job {job}_0" in text
     # gathering reports the kill and exits 1; it does not resubmit by itself
-    gather = _cli("run", str(study), "--out", str(out), timeout=300)
+    gather = _cli("run", str(study), "--no-plots", "--out", str(out), timeout=300)
     assert gather.returncode == 1, gather.stderr
     assert "CANCELLED" in gather.stderr and "--resubmit-failed" in gather.stderr
     assert "Traceback" not in gather.stderr
     # resubmit only what failed, then gather: identical to an uninterrupted run
-    assert main(["run", str(study), "--out", str(out), "--resubmit-failed", "--quiet",
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--resubmit-failed", "--quiet",
                  "--json"]) == 0
     again = json.loads(capsys.readouterr().out)
     assert again["submitted"] == [0] and again["job_id"] != job
     view = _wait_until_finished(out, slurm_cluster)
     assert view[0] == {**view[0], "state": "done", "job_id": f"{again['job_id']}_0"}
-    assert main(["run", str(study), "--out", str(out), "--quiet"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--quiet"]) == 0
     assert _results(out) == _local_pool(tmp_path, study)
 
 
@@ -172,7 +172,8 @@ def test_an_element_failing_for_a_user_error_reports_it_without_a_traceback(slur
     study = write_study(tmp_path, cv="cv.csv")
     out = tmp_path / "run"
     # plan and write the script only, then spoil the heat-capacity file the tasks read
-    assert main(["run", str(study), "--out", str(out), "--on", "array", "--quiet"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--on", "array",
+                 "--quiet"]) == 0
     assert (out / "array.sh").is_file() and not (out / "jobs.json").exists()
     import tomllib
     resolved = tomllib.loads((out / "study.toml").read_text())["gas"]["ideal_heat_capacity"]
@@ -194,7 +195,7 @@ def test_an_element_failing_for_a_user_error_reports_it_without_a_traceback(slur
     row = data["tasks"][0]
     assert row["state"] == "failed" and "cv.csv" in row["error"]
     assert row["scheduler"]["job_id"] == f"{job}_0"
-    gather = _cli("run", str(study), "--out", str(out), timeout=300)
+    gather = _cli("run", str(study), "--no-plots", "--out", str(out), timeout=300)
     # gathering (or the study check, if it sees the spoilt copy) names the file, in one line
     assert gather.returncode in (1, 2) and "cv.csv" in gather.stderr, gather.stderr
     assert "Traceback" not in gather.stderr
@@ -209,7 +210,7 @@ def test_a_dask_job_queue_cluster_on_slurm_gives_the_numbers_of_the_local_pool(
                'batch_jobs = 2\n')
     study = write_study(tmp_path, extra=SWEEP + "\n" + cluster, initial_T="")
     dask = tmp_path / "dask"
-    proc = _cli("run", str(study), "--out", str(dask), "--on", "dask", "--quiet",
+    proc = _cli("run", str(study), "--no-plots", "--out", str(dask), "--on", "dask", "--quiet",
                 timeout=600)
     assert proc.returncode == 0, proc.stderr[-3000:]
     assert _results(dask) == _local_pool(tmp_path, study)

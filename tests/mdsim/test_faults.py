@@ -227,15 +227,15 @@ def test_sigkill_while_writing_a_checkpoint_or_the_task_file(reference, tmp_path
 def test_a_second_run_is_refused_and_a_dead_owners_lock_taken_over(reference, tmp_path):
     study, expected, _ = reference
     out = tmp_path / "run"
-    first = subprocess.Popen([sys.executable, "-m", "mdsim", "run", str(study), "--out", str(out),
-                              "--workers", "1", "--quiet"], stdout=subprocess.DEVNULL,
-                             stderr=subprocess.PIPE, text=True)
+    first = subprocess.Popen([sys.executable, "-m", "mdsim", "run", str(study), "--no-plots",
+                              "--out", str(out), "--workers", "1", "--quiet"],
+                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
     lock = out / ".lock"
     deadline = time.time() + 60
     while time.time() < deadline and not lock.exists():
         time.sleep(0.02)
     assert json.loads(lock.read_text())["pid"] == first.pid
-    second = _cli("run", study, "--out", out, "--workers", "1", "--quiet")
+    second = _cli("run", study, "--no-plots", "--out", out, "--workers", "1", "--quiet")
     assert second.returncode == 2
     lines = second.stderr.strip().splitlines()
     assert len(lines) == 1 and f"in use by process {first.pid}" in lines[0]
@@ -249,7 +249,7 @@ def test_a_second_run_is_refused_and_a_dead_owners_lock_taken_over(reference, tm
                                 "since": time.time()}))
     os.kill(dead.pid, signal.SIGKILL)
     dead.wait()
-    third = _cli("run", study, "--out", out, "--workers", "1", "--quiet")
+    third = _cli("run", study, "--no-plots", "--out", out, "--workers", "1", "--quiet")
     assert third.returncode == 0, third.stderr
     assert not lock.exists()
     assert _numbers(RunDir(out)) == expected
@@ -342,7 +342,7 @@ def test_read_only_or_too_small_disk_is_refused_before_work_starts(reference, tm
     for name, options, words in (("small", "size=1m", "MB free"),
                                  ("readonly", "ro,size=1m", "cannot be written")):
         where = tmpfs(name, options)
-        done = _cli("run", study, "--out", where / "run", "--quiet")
+        done = _cli("run", study, "--no-plots", "--out", where / "run", "--quiet")
         assert done.returncode == 2, done.stderr
         lines = done.stderr.strip().splitlines()
         assert len(lines) == 1 and words in lines[0] and str(where / "run") in lines[0]
@@ -354,9 +354,9 @@ def test_disk_filling_up_mid_run_fails_clearly_and_resumes(reference, tmpfs):
     study, expected, _ = reference
     where = tmpfs("disk", f"size={space_needed_bytes(1) + 2_000_000}")
     out = where / "run"
-    proc = subprocess.Popen([sys.executable, "-m", "mdsim", "run", str(study), "--out", str(out),
-                             "--workers", "1", "--quiet"], stdout=subprocess.DEVNULL,
-                            stderr=subprocess.PIPE, text=True)
+    proc = subprocess.Popen([sys.executable, "-m", "mdsim", "run", str(study), "--no-plots",
+                             "--out", str(out), "--workers", "1", "--quiet"],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
     stages = out / "tasks" / "0000.stages"
     deadline = time.time() + 120
     while time.time() < deadline and not (stages / "initial-state-pilot.h5").exists():
@@ -378,6 +378,6 @@ def test_disk_filling_up_mid_run_fails_clearly_and_resumes(reference, tmpfs):
     for p in stages.glob("*.h5"):  # every stage file under its final name is sound
         assert store.verify(p) is None, p
     filler.unlink()
-    again = _cli("run", study, "--out", out, "--workers", "1", "--quiet")
+    again = _cli("run", study, "--no-plots", "--out", out, "--workers", "1", "--quiet")
     assert again.returncode == 0, again.stderr
     assert _numbers(RunDir(out)) == expected

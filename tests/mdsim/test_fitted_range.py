@@ -4,7 +4,7 @@ import pytest
 from mdsim.cli.cmd_inversion import format_inversion_table
 from mdsim.errors import StudyError
 from mdsim.pipeline.inversion_study import inversion_summary
-from mdsim.pipeline.summary import virial_summary
+from mdsim.pipeline.virial_summary import virial_summary
 from mdsim.study.fitted_range import FAR_FACTOR, MARK, inversion_warnings
 from mdsim.study.reader import read_study
 

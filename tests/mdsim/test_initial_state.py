@@ -126,7 +126,7 @@ def _run(tmp_path, state, particles=108, target="2 K"):
     from mdsim.pipeline.run_study import run_study
     import csv
     run = run_study(_study(tmp_path, state, particles, target), tmp_path / "run", on="local",
-                    workers=1, quiet=True)
+                    workers=1, quiet=True, plots=False)
     assert run.failed == {}, run.failed
     rd = RunDir(tmp_path / "run")
     _, res, _ = read_task_result(rd.task_file(0))

@@ -10,7 +10,8 @@ from scipy.integrate import quad
 
 from mdsim.errors import StudyError
 from mdsim.engine.mc_cells import cell_grid
-from mdsim.engine.montecarlo import MCSampler, nve_temperature
+from mdsim.engine.microcanonical_temperature import nve_temperature
+from mdsim.engine.montecarlo import MCSampler
 from mdsim.engine.potentials import Exp6, LennardJones, Mie, PairMatrix, Tabulated
 from mdsim.engine.system import System
 

@@ -104,7 +104,8 @@ def test_an_expansion_into_the_dome_is_reported_two_phase_everywhere(tmp_path,
     rd = RunDir(tmp_path / "run")
     thol_coexistence_cache(rd.coexistence_dir, read_study(path).reduced_pairs(),
                            0.70 + 0.05 * np.arange(13))
-    run = run_study(read_study(path), tmp_path / "run", on="local", workers=1, quiet=True)
+    run = run_study(read_study(path), tmp_path / "run", on="local", workers=1, quiet=True,
+                    plots=False)
     assert run.failed == {}
     _, res, _ = read_task_result(rd.task_file(0))
     coex = res["coexistence"]

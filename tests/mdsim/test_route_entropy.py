@@ -57,7 +57,7 @@ def records(tmp_path_factory):
     tmp = tmp_path_factory.mktemp("entropy")
     (tmp / "study.toml").write_text(STUDY, encoding="utf-8")
     run = run_study(read_study(tmp / "study.toml"), tmp / "run", on="local", workers=2,
-                    quiet=True)
+                    quiet=True, plots=False)
     assert run.failed == {}
     out = {}
     for rec in run.summary["state_points"]:

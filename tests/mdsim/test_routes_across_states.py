@@ -162,7 +162,8 @@ def _run_state(tmp_path, t_star, rho_star, target, coexistence_cache=None):
     if coexistence_cache is not None:
         coexistence_cache(RunDir(tmp_path / "run").coexistence_dir,
                           read_study(path).reduced_pairs(), 0.70 + 0.05 * np.arange(13))
-    run = run_study(read_study(path), tmp_path / "run", on="local", workers=2, quiet=True)
+    run = run_study(read_study(path), tmp_path / "run", on="local", workers=2, quiet=True,
+                    plots=False)
     assert run.failed == {}, run.failed  # no task failed (the energy route once did at T* = 2)
     rd = RunDir(tmp_path / "run")
     out = {}

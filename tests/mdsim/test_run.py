@@ -38,8 +38,8 @@ def _cli(*args, env_extra=None, **kw):
 def test_run_json_then_rerun_skips_complete_tasks(tmp_path, capsys):
     study = write_study(tmp_path)
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--on", "local", "--workers", "1",
-                 "--json"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--on", "local", "--workers",
+                 "1", "--json"]) == 0
     summary = json.loads(capsys.readouterr().out)
     sp = summary["state_points"][0]
     assert {"virial_b2", "virial_b2b3", "energy"} <= set(sp["delta_T_K"])
@@ -47,8 +47,10 @@ def test_run_json_then_rerun_skips_complete_tasks(tmp_path, capsys):
     for name in ("study.toml", "tasks.json", "results.csv", "results.json", "report.md",
                  "log.txt", "tasks/0000.h5"):
         assert (out / name).is_file(), name
+    assert not any((out / "plots").iterdir())  # --no-plots: the report without drawing
+    assert "Joule inversion" in (out / "report.md").read_text(encoding="utf-8")
     first = _results(out)
-    assert main(["run", str(study), "--out", str(out), "--workers", "1"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--workers", "1"]) == 0
     assert "1 of 1 tasks already complete; skipped" in capsys.readouterr().err
     assert _results(out) == first
 
@@ -69,7 +71,7 @@ def test_a_second_run_is_refused_while_the_lock_is_held(tmp_path, capsys):
     rd = RunDir(tmp_path / "run").create()
     rd.acquire_lock()  # held by this (living) process
     try:
-        assert main(["run", str(study), "--out", str(rd.path)]) == 2
+        assert main(["run", str(study), "--no-plots", "--out", str(rd.path)]) == 2
         err = capsys.readouterr().err
         assert "is in use by process" in err and str(os.getpid()) in err
     finally:
@@ -81,7 +83,7 @@ def test_a_failed_task_shows_its_error_and_status_lists_it(tmp_path, capsys):
     from test_tasks import cv_range_study
     study = cv_range_study(tmp_path)
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--workers", "1"]) == 1
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--workers", "1"]) == 1
     err = capsys.readouterr().err
     assert "task 0000 (energy, state point 0) failed" in err and "Traceback" not in err
     assert (out / "tasks" / "0000.failed.json").is_file()
@@ -94,7 +96,7 @@ def test_a_failed_task_shows_its_error_and_status_lists_it(tmp_path, capsys):
 def test_status_counts_done_and_left(tmp_path, capsys):
     study = write_study(tmp_path, extra=SWEEP, initial_T="")
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--on", "array"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--on", "array"]) == 0
     assert main(["task", str(out), "--index", "1"]) == 0
     capsys.readouterr()
     assert main(["status", str(out), "--json"]) == 0
@@ -108,8 +110,10 @@ def test_status_counts_done_and_left(tmp_path, capsys):
 def test_array_script_elements_run_one_by_one_match_the_local_run(tmp_path):
     study = write_study(tmp_path, extra=SWEEP, initial_T="")
     local, array = tmp_path / "local", tmp_path / "array"
-    assert main(["run", str(study), "--out", str(local), "--workers", "1", "--quiet"]) == 0
-    assert main(["run", str(study), "--out", str(array), "--on", "array", "--quiet"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(local), "--workers", "1",
+                 "--quiet"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(array), "--on", "array",
+                 "--quiet"]) == 0
     script = array / "array.sh"
     text = script.read_text()
     assert "#SBATCH --array=0-1" in text and "SLURM_ARRAY_TASK_ID" in text
@@ -127,7 +131,7 @@ def test_array_script_elements_run_one_by_one_match_the_local_run(tmp_path):
 def test_a_killed_run_restarted_gives_the_results_of_an_uninterrupted_one(tmp_path):
     study = write_study(tmp_path, extra=SWEEP, initial_T="", target="0.25 K")
     whole, killed = tmp_path / "whole", tmp_path / "killed"
-    args = ["run", str(study), "--workers", "1", "--quiet"]
+    args = ["run", str(study), "--no-plots", "--workers", "1", "--quiet"]
     proc = subprocess.Popen([sys.executable, "-m", "mdsim", *args, "--out", str(killed)],
                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     stages = killed / "tasks" / "0000.stages"
@@ -158,7 +162,7 @@ def test_run_directory_keeps_copies_of_the_data_files_it_needs(tmp_path):
     configs = Path(__file__).resolve().parents[2] / "configs"
     out = tmp_path / "moved-later"
     # plan only (array executor), so nothing is simulated
-    assert main(["run", str(configs / "argon_table.toml"), "--out", str(out),
+    assert main(["run", str(configs / "argon_table.toml"), "--no-plots", "--out", str(out),
                  "--on", "array", "--quiet"]) == 0
     copy = out / "inputs" / "argon_lj_table.csv"
     assert copy.read_bytes() == (configs / "argon_lj_table.csv").read_bytes()
@@ -173,7 +177,8 @@ def test_status_reports_a_damaged_task_file_and_leaves_it_only_run_moves_it(tmp_
     import h5py
     study = write_study(tmp_path)
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--workers", "1", "--quiet"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--workers", "1",
+                 "--quiet"]) == 0
     first = _results(out)
     task_file = out / "tasks" / "0000.h5"
     with h5py.File(task_file, "r+") as f:
@@ -197,7 +202,8 @@ def test_status_reports_a_damaged_task_file_and_leaves_it_only_run_moves_it(tmp_
     assert "its task file is damaged" in (out / "report.md").read_text(encoding="utf-8")
     assert "task file damaged" in (out / "results.csv").read_text(encoding="utf-8")
     assert task_file.read_bytes() == damaged
-    again = _cli("run", str(study), "--out", str(out), "--workers", "1", "--quiet", timeout=300)
+    again = _cli("run", str(study), "--no-plots", "--out", str(out), "--workers", "1", "--quiet",
+                 timeout=300)
     assert again.returncode == 0, again.stderr
     aside = list(task_file.parent.glob("0000.h5.corrupt-*"))
     assert len(aside) == 1 and aside[0].read_bytes() == damaged
@@ -240,7 +246,8 @@ def test_an_array_element_writes_its_start_and_end_into_log_txt(tmp_path):
     import re
     study = write_study(tmp_path, extra=SWEEP, initial_T="")
     out = tmp_path / "run"
-    assert main(["run", str(study), "--out", str(out), "--on", "array", "--quiet"]) == 0
+    assert main(["run", str(study), "--no-plots", "--out", str(out), "--on", "array",
+                 "--quiet"]) == 0
     before = (out / "log.txt").read_text(encoding="utf-8")
     # as a Slurm element runs it: no terminal on stdin, stdout or stderr
     done = _cli("task", str(out), "--index", "1", stdin=subprocess.DEVNULL, timeout=300)
@@ -276,10 +283,12 @@ def test_a_rerun_with_a_tighter_target_extends_the_tasks_and_a_new_volume_ratio_
     # the same chain gives a consistent mean).
     loose = write_study(tmp_path, name="loose", target="0.5 K", particles="")
     out = tmp_path / "run"
-    assert main(["run", str(loose), "--out", str(out), "--workers", "1", "--quiet"]) == 0
+    assert main(["run", str(loose), "--no-plots", "--out", str(out), "--workers", "1",
+                 "--quiet"]) == 0
     _, first, _ = read_task_result(out / "tasks" / "0000.h5")
     tight = write_study(tmp_path, name="loose", target="0.25 K", particles="")
-    assert main(["run", str(tight), "--out", str(out), "--workers", "1", "--quiet"]) == 0
+    assert main(["run", str(tight), "--no-plots", "--out", str(out), "--workers", "1",
+                 "--quiet"]) == 0
     _, second, _ = read_task_result(out / "tasks" / "0000.h5")
     assert (out / "tasks" / "0000.h5.earlier").is_file()
     assert second["target_stderr_K"] == pytest.approx(0.25)
@@ -297,6 +306,6 @@ def test_a_rerun_with_a_tighter_target_extends_the_tasks_and_a_new_volume_ratio_
     capsys.readouterr()
     wider = tmp_path / "loose.toml"
     wider.write_text(wider.read_text().replace("volume_ratio = 2.0", "volume_ratio = 3.0"))
-    assert main(["run", str(wider), "--out", str(out), "--quiet"]) == 2
+    assert main(["run", str(wider), "--no-plots", "--out", str(out), "--quiet"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "volume_ratio" in err[0] and "cannot be extended" in err[0]

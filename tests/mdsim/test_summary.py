@@ -10,7 +10,8 @@ from analysis.heatcapacity import heat_capacity_from_spec
 from analysis.virial_eos import VirialGas
 from mdsim.errors import StudyError
 from mdsim.study.reader import read_study
-from mdsim.pipeline.summary import run_summary, state_point_record, virial_summary
+from mdsim.pipeline.summary import run_summary, state_point_record
+from mdsim.pipeline.virial_summary import virial_summary
 
 CONFIGS = Path(__file__).resolve().parents[2] / "configs"
 

@@ -6,7 +6,8 @@ import numpy as np
 import pytest
 
 from mdsim.errors import StudyError
-from mdsim.pipeline.rundir import RunDir, stage_name
+from mdsim.pipeline.rundir import RunDir
+from mdsim.pipeline.stage_names import stage_name
 from mdsim.study.reader import read_study
 from mdsim.pipeline import plan_tasks, read_task_result, run_task, simulation_settings
 

@@ -17,7 +17,7 @@ from mdsim.errors import ConvergenceError, SimulationError
 from mdsim.pipeline.chain import (MAX_STAGES_PER_CHAIN, MIN_STAGE_SAMPLES, Chain, settle,
                                   solve_or_extend, stage_share)
 from mdsim.pipeline.initial_state import run_initial_state
-from mdsim.pipeline.rundir import WALL_REMOVED_FILLING, WALL_REMOVED_RELAXED, stage_name
+from mdsim.pipeline.stage_names import WALL_REMOVED_FILLING, WALL_REMOVED_RELAXED, stage_name
 from mdsim.sampling import store
 
 __all__ = ["run_direct", "WallRemovedChain", "start_at_canonical_energy", "wall_removed_system"]

@@ -19,7 +19,7 @@ import numpy as np
 
 from mdsim.pipeline.chain import Chain, mean_se, run_to, solve_or_extend, stage_share
 from mdsim.pipeline.initial_state import run_initial_state
-from mdsim.pipeline.rundir import final_density_guess
+from mdsim.pipeline.stage_names import final_density_guess
 from mdsim.units import R_GAS
 
 __all__ = ["run_energy", "SAMPLERS", "next_temperature", "UNSOLVED"]

@@ -21,7 +21,7 @@ from mdsim.errors import SimulationError
 from mdsim.pipeline.chain import Chain, mean_se, solve_or_extend, stage_share
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.routes.direct import wall_removed_system
-from mdsim.pipeline.rundir import FINAL_STATE_NVE
+from mdsim.pipeline.stage_names import FINAL_STATE_NVE
 from mdsim.sampling import store
 
 __all__ = ["run_microcanonical", "final_start", "potential_energy"]

@@ -1,0 +1,110 @@
+"""A cubic box of one linear rigid molecule at (T, rho) in reduced units: the common set-up
+of the Monte Carlo (:mod:`mdsim.sampling.rigid`) and molecular-dynamics
+(:mod:`mdsim.sampling.rigid_dynamics`) state points.
+
+The reduced units are those of the molecule's first site: its epsilon and
+sigma, and the molecule's mass.
+"""
+import dataclasses
+
+import numpy as np
+
+from analysis.molecules.reduced import reduced_linear_type
+from mdsim.checks import count, positive
+from mdsim.engine.rigid_mc import lattice_start
+from mdsim.engine.rigid_pair import LinearPairModel
+from mdsim.units import ReducedUnits
+
+__all__ = ["RigidBox", "rigid_box", "reduced_inertia"]
+
+
+@dataclasses.dataclass(frozen=True)
+class RigidBox:
+    """The reduced model and start configuration of a state point.
+
+    Attributes
+    ----------
+    temperature_K, density_mol_m3 : float
+        The state asked for (SI).
+    temperature : float
+        kT/epsilon.
+    units : mdsim.units.ReducedUnits
+    model : mdsim.engine.rigid_pair.LinearPairModel
+    inertia : float
+        Moment of inertia of the linear rotor, m sigma^2.
+    box_i : ndarray, shape=(3,), sigma
+    centre_ni, axis_ni : ndarray, shape=(n, 3)
+        Centres on a simple cubic lattice, axes uniform on the sphere.
+    """
+
+    temperature_K: float
+    density_mol_m3: float
+    temperature: float
+    units: ReducedUnits
+    model: LinearPairModel
+    inertia: float
+    box_i: np.ndarray
+    centre_ni: np.ndarray
+    axis_ni: np.ndarray
+
+
+def reduced_inertia(molecule, units):
+    """The moment of inertia of a linear rotor in reduced units, m sigma^2.
+
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(34.897, 3.3211)
+    >>> n2 = RigidMolecule("N2", [Site(lj, (0, 0, -0.5232), 0.0140067),
+    ...                           Site(lj, (0, 0, 0.5232), 0.0140067)])
+    >>> round(reduced_inertia(n2, ReducedUnits(34.897, 3.3211e-10, 0.0280134)), 5)
+    0.02482
+    """
+    return float(molecule.moments_of_inertia()[-1] / (units.mass_kg * units.sigma_m ** 2))
+
+
+def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
+              shifted=False):
+    """The :class:`RigidBox` of ``n_molecules`` molecules at (T, rho).
+
+    Parameters
+    ----------
+    molecule : RigidMolecule
+        Linear, two or more sites, optional axial quadrupole.
+    temperature_K : float, K
+    density_mol_m3 : float, mol/m^3
+    n_molecules : int
+    cutoff : float, sigma
+        Molecular (centre-centre) cut-off.
+    seed : int
+        Seeds the start axes.
+    shifted : bool
+        The shifted-energy pair model (molecular dynamics) instead of the
+        plain cut (Monte Carlo).
+
+    Returns
+    -------
+    RigidBox
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(34.897, 3.3211)
+    >>> n2 = RigidMolecule("N2", [Site(lj, (0, 0, -0.5232), 0.0140067),
+    ...                           Site(lj, (0, 0, 0.5232), 0.0140067)])
+    >>> b = rigid_box(n2, 300.0, 4000.0, 64, 3.0, seed=1)
+    >>> round(b.temperature, 3), round(b.inertia, 4), round(float(b.box_i[0]), 3)
+    (8.597, 0.0248, 8.985)
+    """
+    T = positive("temperature_K", temperature_K, "a temperature in K")
+    rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
+    n = count("n_molecules", n_molecules, 2, "molecules in the box")
+    site = molecule.sites[0].potential
+    units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
+    model = LinearPairModel([reduced_linear_type(molecule, site.epsilon, site.sigma)],
+                            positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted)
+    inertia = reduced_inertia(molecule, units)
+    box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
+    centre_ni, axis_ni = lattice_start(n, box_i, seed)
+    return RigidBox(T, rho, units.temperature_to_reduced(T), units, model, inertia, box_i,
+                    centre_ni, axis_ni)
