@@ -63,11 +63,13 @@ def _scan_grid_K(gas, temperature_range_K):
 
 def _first_falling_root(fun, grid_K, what):
     """Lowest T on the grid where ``fun`` changes sign from + to -, refined."""
-    values = np.array([fun(t) for t in grid_K])
-    finite = np.isfinite(values)
-    for k in range(grid_K.size - 1):
-        if finite[k] and finite[k + 1] and values[k] > 0.0 >= values[k + 1]:
-            if values[k + 1] == 0.0:
+    values = np.full(grid_K.size, np.nan)
+    values[0] = fun(grid_K[0])
+    for k in range(grid_K.size - 1):  # in order: the grid beyond the first root is not needed
+        values[k + 1] = fun(grid_K[k + 1])
+        a, b = values[k], values[k + 1]
+        if np.isfinite(a) and np.isfinite(b) and a > 0.0 >= b:
+            if b == 0.0:
                 return float(grid_K[k + 1])
             return float(brentq(fun, grid_K[k], grid_K[k + 1], xtol=1e-12, rtol=1e-13))
     raise ConvergenceError(

@@ -31,7 +31,7 @@ from analysis.molecules.reduced import reduced_linear_type
 from mdsim.engine.neighbours import NeighbourList
 from mdsim.engine.rigid_mc import RigidMCSampler, lattice_start
 from mdsim.engine.rigid_md import RigidMDSampler
-from mdsim.engine.rigid_pair import LinearPairModel
+from mdsim.engine.rigid_model import LinearPairModel
 from mdsim.sampling.rigid_box import reduced_inertia
 from mdsim.study.reader import read_study
 

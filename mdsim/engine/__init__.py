@@ -22,7 +22,7 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 :mod:`~mdsim.engine.damped_coulomb` (point charges: Ewald summation and the
 damped shifted-force sum), :mod:`~mdsim.engine.threebody` (the Axilrod-Teller
 energy of a configuration), :mod:`~mdsim.engine.rigid_pair` (pair energy, forces
-and torques of rigid linear molecules), :mod:`~mdsim.engine.rigid_mc_kernels` and
+and torques of rigid linear molecules) and :mod:`~mdsim.engine.rigid_model` (their model), :mod:`~mdsim.engine.rigid_mc_kernels` and
 :mod:`~mdsim.engine.rigid_mc` (their Monte Carlo), :mod:`~mdsim.engine.rigid_integrator`
 and :mod:`~mdsim.engine.rigid_md` (their molecular dynamics).
 """

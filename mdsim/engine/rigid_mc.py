@@ -6,7 +6,7 @@ with the Metropolis acceptance at temperature kT.  The two step sizes are
 tuned toward ``target_acceptance`` in :meth:`RigidMCSampler.equilibrate`
 only and frozen during :meth:`RigidMCSampler.run`, which keeps detailed
 balance.  The energy is the plain-cut pair energy of
-:class:`mdsim.engine.rigid_pair.LinearPairModel`; its isotropic site-site
+:class:`mdsim.engine.rigid_model.LinearPairModel`; its isotropic site-site
 tail (:meth:`LinearPairModel.tail`) is added to the recorded energy and
 pressure.  The pressure is rho kT + W / (3 V) + p_tail from the molecular
 virial W = sum over pairs of d_ab . F_b (the centre-centre vector times
@@ -25,7 +25,7 @@ from mdsim.checks import count
 from mdsim.engine import rng as _rng
 from mdsim.engine.mc_cells import build_cells, cell_grid
 from mdsim.engine.rigid_mc_kernels import rigid_energy_virial, rigid_moves
-from mdsim.engine.rigid_pair import LinearPairModel
+from mdsim.engine.rigid_model import LinearPairModel
 from mdsim.errors import SettingError, SimulationError
 
 __all__ = ["RigidMCSampler", "lattice_start"]
@@ -97,7 +97,7 @@ class RigidMCSampler:
     def __init__(self, model, centre_ni, axis_ni, type_n, box_i, *, temperature, seed,
                  max_displacement=0.3, max_angle=0.5, target_acceptance=0.45):
         if not isinstance(model, LinearPairModel):
-            raise TypeError("model must be an mdsim.engine.rigid_pair.LinearPairModel")
+            raise TypeError("model must be an mdsim.engine.rigid_model.LinearPairModel")
         if model.shifted:
             raise SettingError("model.shifted", True, "Monte Carlo uses the plain cut with its "
                                "tail correction; build the model with shifted=False")

@@ -103,7 +103,7 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
     ncell_i, head_c, next_n, cell_n
         The linked cells of :mod:`mdsim.engine.mc_cells` (updated).
     site_start_t, site_z_k, params_kk, form, quad_t, rc
-        The model of :class:`mdsim.engine.rigid_pair.LinearPairModel`.
+        The model of :class:`mdsim.engine.rigid_model.LinearPairModel`.
     state : ndarray, shape=(4,), uint64
         The random stream (advanced).
     n_moves : int

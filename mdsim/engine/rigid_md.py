@@ -73,7 +73,7 @@ class RigidMDSampler:
 
     Parameters
     ----------
-    model : mdsim.engine.rigid_pair.LinearPairModel
+    model : mdsim.engine.rigid_model.LinearPairModel
         The pair interaction, built with ``shifted=True`` (the plain cut's
         energy jumps at the cut-off are not forces, so its dynamics would
         not conserve energy).
@@ -109,7 +109,7 @@ class RigidMDSampler:
     ``run`` returns per molecule "u_model" (shifted energy, the one the
     dynamics conserve), "u_cut" (plain cut), "u_full" = u_cut + u_tail
     (the isotropic site-site tail of
-    :meth:`~mdsim.engine.rigid_pair.LinearPairModel.tail`),
+    :meth:`~mdsim.engine.rigid_model.LinearPairModel.tail`),
     "kinetic_trans", "kinetic_rot", "e_conserved" = (K + U_model +
     E_thermostat) / N, and "temperature_trans" = 2 K_trans / (3N - 3),
     "temperature_rot" = 2 K_rot / (2N), "pressure_conf" = W / (3V) + p_tail
@@ -132,7 +132,7 @@ class RigidMDSampler:
     Eight nitrogen-like molecules on a cubic lattice, a few steps at T* = 2:
 
     >>> from mdsim.engine.potentials import LennardJones
-    >>> from mdsim.engine.rigid_pair import LinearPairModel
+    >>> from mdsim.engine.rigid_model import LinearPairModel
     >>> model = LinearPairModel([([-0.16, 0.16], [LennardJones(1.0, 1.0)] * 2, 0.5)], 2.5,
     ...                         shifted=True)
     >>> g = (np.arange(2) + 0.5) * 3.0

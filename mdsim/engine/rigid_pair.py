@@ -1,4 +1,4 @@
-"""Rigid linear molecules: pair energy, force, torques and virial (numba kernels and wrapper).
+"""Rigid linear molecules: pair energy, force, torques and virial (numba kernels).
 
 A linear rigid molecule is its centre (the body origin: the centre of mass,
 where the point quadrupole sits) and a unit vector along its axis.  Its
@@ -27,7 +27,7 @@ quadrupole terms, a pair beyond contributes nothing.  Two treatments:
   the exact derivatives of that shifted energy.  The shift term is constant
   along d, so it adds nothing to the virial.
 
-Model arrays (built by :class:`LinearPairModel`)
+Model arrays (built by :class:`mdsim.engine.rigid_model.LinearPairModel`)
 ------------------------------------------------
 ``site_start_t`` int64 (n_types + 1,): the sites of molecule type t are
 ``site_start_t[t]:site_start_t[t + 1]``; ``site_z_k`` float64 (n_sites,):
@@ -46,10 +46,50 @@ from numba import njit
 
 from mdsim.engine.forms import FORM_LJ, FORM_MIE, pair_eval
 from mdsim.engine.pair_potential import NO_TABLE
-from mdsim.engine.potentials import LennardJones, Mie, combine
-from mdsim.errors import SettingError, SimulationError
 
-__all__ = ["pair_terms", "pair_forces", "forces_half", "LinearPairModel"]
+__all__ = ["quadrupole_terms", "pair_terms", "pair_forces", "forces_half"]
+
+
+@njit(cache=True, inline="always")
+def quadrupole_terms(with_force, dx, dy, dz, ax, ay, az, bx, by, bz, qq):
+    """Quadrupole-quadrupole energy, force on b and torques of two linear molecules.
+
+    ``qq`` = (3/4) Qa* Qb*; the other arguments and the results as in
+    :func:`pair_terms` (whose Notes give the formula).
+    """
+    fx = fy = fz = 0.0
+    tax = tay = taz = 0.0
+    tbx = tby = tbz = 0.0
+    r = math.sqrt(dx * dx + dy * dy + dz * dz)
+    inv_r = 1.0 / r
+    nx, ny, nz = dx * inv_r, dy * inv_r, dz * inv_r
+    ca = ax * nx + ay * ny + az * nz
+    cb = bx * nx + by * ny + bz * nz
+    g = ax * bx + ay * by + az * bz - 5.0 * ca * cb
+    pre = qq * inv_r ** 5
+    ang = 1.0 - 5.0 * ca * ca - 5.0 * cb * cb - 15.0 * ca * ca * cb * cb + 2.0 * g * g
+    u = pre * ang
+    if with_force:
+        d_ca = -10.0 * ca - 30.0 * ca * cb * cb - 20.0 * g * cb  # d ang / d c_a
+        d_cb = -10.0 * cb - 30.0 * ca * ca * cb - 20.0 * g * ca
+        d_ab = 4.0 * g  # d ang / d (e_a . e_b)
+        gn = pre * inv_r * (-5.0 * ang - d_ca * ca - d_cb * cb)
+        fx -= gn * nx + pre * inv_r * (d_ca * ax + d_cb * bx)
+        fy -= gn * ny + pre * inv_r * (d_ca * ay + d_cb * by)
+        fz -= gn * nz + pre * inv_r * (d_ca * az + d_cb * bz)
+        gax = pre * (d_ca * nx + d_ab * bx)  # du / de_a
+        gay = pre * (d_ca * ny + d_ab * by)
+        gaz = pre * (d_ca * nz + d_ab * bz)
+        gbx = pre * (d_cb * nx + d_ab * ax)
+        gby = pre * (d_cb * ny + d_ab * ay)
+        gbz = pre * (d_cb * nz + d_ab * az)
+        tax -= ay * gaz - az * gay
+        tay -= az * gax - ax * gaz
+        taz -= ax * gay - ay * gax
+        tbx -= by * gbz - bz * gby
+        tby -= bz * gbx - bx * gbz
+        tbz -= bx * gby - by * gbx
+    return u, fx, fy, fz, tax, tay, taz, tbx, tby, tbz
 
 
 @njit(cache=True, inline="always")
@@ -116,35 +156,18 @@ def pair_terms(form, with_force, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, sit
                 taz -= zk * (ax * gy - ay * gx)
     qq = 0.75 * quad_t[ta] * quad_t[tb]
     if qq != 0.0:
-        r = math.sqrt(dx * dx + dy * dy + dz * dz)
-        inv_r = 1.0 / r
-        nx, ny, nz = dx * inv_r, dy * inv_r, dz * inv_r
-        ca = ax * nx + ay * ny + az * nz
-        cb = bx * nx + by * ny + bz * nz
-        g = ax * bx + ay * by + az * bz - 5.0 * ca * cb
-        pre = qq * inv_r ** 5
-        ang = 1.0 - 5.0 * ca * ca - 5.0 * cb * cb - 15.0 * ca * ca * cb * cb + 2.0 * g * g
-        u += pre * ang
-        if with_force:
-            d_ca = -10.0 * ca - 30.0 * ca * cb * cb - 20.0 * g * cb  # d ang / d c_a
-            d_cb = -10.0 * cb - 30.0 * ca * ca * cb - 20.0 * g * ca
-            d_ab = 4.0 * g  # d ang / d (e_a . e_b)
-            gn = pre * inv_r * (-5.0 * ang - d_ca * ca - d_cb * cb)
-            fx -= gn * nx + pre * inv_r * (d_ca * ax + d_cb * bx)
-            fy -= gn * ny + pre * inv_r * (d_ca * ay + d_cb * by)
-            fz -= gn * nz + pre * inv_r * (d_ca * az + d_cb * bz)
-            gax = pre * (d_ca * nx + d_ab * bx)  # du / de_a
-            gay = pre * (d_ca * ny + d_ab * by)
-            gaz = pre * (d_ca * nz + d_ab * bz)
-            gbx = pre * (d_cb * nx + d_ab * ax)
-            gby = pre * (d_cb * ny + d_ab * ay)
-            gbz = pre * (d_cb * nz + d_ab * az)
-            tax -= ay * gaz - az * gay
-            tay -= az * gax - ax * gaz
-            taz -= ax * gay - ay * gax
-            tbx -= by * gbz - bz * gby
-            tby -= bz * gbx - bx * gbz
-            tbz -= bx * gby - by * gbx
+        qu, qfx, qfy, qfz, qax, qay, qaz, qbx, qby, qbz = quadrupole_terms(
+            with_force, dx, dy, dz, ax, ay, az, bx, by, bz, qq)
+        u += qu
+        fx += qfx
+        fy += qfy
+        fz += qfz
+        tax += qax
+        tay += qay
+        taz += qaz
+        tbx += qbx
+        tby += qby
+        tbz += qbz
     return u, fx, fy, fz, tax, tay, taz, tbx, tby, tbz
 
 
@@ -264,163 +287,3 @@ def forces_half(centre_ni, axis_ni, type_n, box_i, site_start_t, site_z_k, param
                      params_kk, quad_t, rc, shifted, nb_nj, count_n, force_ni, torque_ni)
     return _rows(FORM_MIE, centre_ni, axis_ni, type_n, box_i, site_start_t, site_z_k,
                  params_kk, quad_t, rc, shifted, nb_nj, count_n, force_ni, torque_ni)
-
-
-class LinearPairModel:
-    """The pair interaction of rigid linear molecules in reduced units, for the kernels.
-
-    Parameters
-    ----------
-    types : list of (site_z, site_potentials, quadrupole)
-        One entry per molecule type: the axial site offsets from the centre
-        (sigma), their like-site potentials (:class:`LennardJones` or
-        :class:`Mie`, reduced units), and the reduced point quadrupole Q*.
-    cutoff : float, sigma
-        Molecular (centre-centre) cut-off.
-    shifted : bool
-        Shifted-energy model (for molecular dynamics) instead of the plain
-        cut (module docstring).
-
-    Attributes
-    ----------
-    site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted
-        The arguments of :func:`forces_half`, in its order.
-
-    Examples
-    --------
-    Two LJ sites at +-0.1575 sigma (nitrogen-like), two molecules side by side:
-
-    >>> m = LinearPairModel([([-0.1575, 0.1575], [LennardJones(1.0, 1.0)] * 2, 0.0)], 4.0)
-    >>> z, x = np.array([0.0, 0.0, 1.0]), np.array([1.5, 0.0, 0.0])
-    >>> u, force_b, torque_a, torque_b = m.pair(x, z, z)
-    >>> round(u, 4), bool(abs(force_b[0]) > 0 and np.allclose(torque_a, 0))
-    (-1.2101, True)
-    """
-
-    def __init__(self, types, cutoff, shifted=False):
-        starts, zs, pots, quads = [0], [], [], []
-        for t, (site_z, site_pots, quad) in enumerate(types):
-            site_z = [float(z) for z in site_z]
-            if not site_z or len(site_z) != len(site_pots):
-                raise SettingError(f"types[{t}]", site_z, "needs one potential per site and at "
-                                   "least one site")
-            for p in site_pots:
-                if not isinstance(p, Mie):
-                    raise SettingError(f"types[{t}] site potential", p, "rigid molecules take "
-                                       "Lennard-Jones or Mie sites; give one of those")
-            zs += site_z
-            pots += list(site_pots)
-            starts.append(len(zs))
-            quads.append(float(quad))
-        rc = float(cutoff)
-        if not rc > 0.0 or not math.isfinite(rc):
-            raise SettingError("cutoff", cutoff, "must be a positive number of sigma")
-        all_lj = all(type(p) is LennardJones for p in pots)
-        if not all_lj:  # a Mie 12-6 row is the same potential, so LJ sites mix with Mie ones
-            pots = [Mie(p.epsilon, p.sigma, p.repulsive, p.attractive) for p in pots]
-        self.site_start_t = np.array(starts, dtype=np.int64)
-        self.site_z_k = np.array(zs)
-        self.site_potentials = pots
-        n_k = len(pots)
-        self.params_kk = np.array([[self.site_pair_potential(k, m).params for m in range(n_k)]
-                                   for k in range(n_k)])
-        self.form = FORM_LJ if all_lj else FORM_MIE
-        self.quad_t = np.array(quads)
-        self.rc = rc
-        self.shifted = int(bool(shifted))
-
-    @property
-    def n_types(self):
-        return len(self.quad_t)
-
-    def arrays(self):
-        """``(site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted)``."""
-        return (self.site_start_t, self.site_z_k, self.params_kk, self.form, self.quad_t,
-                self.rc, self.shifted)
-
-    def site_pair_potential(self, k, m):
-        """The potential between sites k and m (like, or Lorentz-Berthelot)."""
-        a, b = self.site_potentials[k], self.site_potentials[m]
-        return a if a == b else combine(a, b)
-
-    def tail(self, density, fraction_t=None):
-        """Isotropic site-site long-range corrections of the plain molecular cut-off.
-
-        Parameters
-        ----------
-        density : float, 1/sigma^3
-            Number density of molecules.
-        fraction_t : array_like, shape=(n_types,), optional
-            Mole fractions of the molecule types (default: one type).
-
-        Returns
-        -------
-        u_tail : float, epsilon
-            Energy per molecule.
-        p_tail : float, epsilon/sigma^3
-
-        Notes
-        -----
-        Every site pair is taken as uncorrelated beyond the centre-centre
-        cut-off rc, with the site-site distance equal to rc:
-        U_tail / N = 2 pi rho sum_ab x_a x_b sum_(k in a, m in b) I_u,km and
-        P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the
-        integrals of :meth:`PairPotential.tail_integrals` (the atomic
-        formulas of Allen and Tildesley, Computer Simulation of Liquids,
-        section 2.8, applied site by site: common practice, no source).
-        The quadrupole-quadrupole energy averages to zero over orientations
-        and gets no tail.
-        """
-        x_t = np.ones(1) if fraction_t is None else np.asarray(fraction_t, dtype=float)
-        if x_t.shape != (self.n_types,) or abs(x_t.sum() - 1.0) > 1e-9 or np.any(x_t < 0):
-            raise SettingError("fraction_t", fraction_t, f"needs {self.n_types} mole fractions "
-                               ">= 0 that sum to 1")
-        s_u = s_w = 0.0
-        st = self.site_start_t
-        for a in range(self.n_types):
-            for b in range(self.n_types):
-                for k in range(st[a], st[a + 1]):
-                    for m in range(st[b], st[b + 1]):
-                        i_u, i_w = self.site_pair_potential(k, m).tail_integrals(self.rc)
-                        s_u += x_t[a] * x_t[b] * i_u
-                        s_w += x_t[a] * x_t[b] * i_w
-        rho = float(density)
-        return 2.0 * math.pi * rho * s_u, -2.0 * math.pi / 3.0 * rho * rho * s_w
-
-    def pair(self, d_i, axis_a_i, axis_b_i, type_a=0, type_b=0):
-        """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).
-
-        Parameters
-        ----------
-        d_i : array_like, shape=(3,), sigma
-            From the centre of a to the centre of b.
-        axis_a_i, axis_b_i : array_like, shape=(3,)
-            Unit axes.
-
-        Returns
-        -------
-        u : float, epsilon
-        force_b_i : ndarray, shape=(3,), epsilon/sigma
-        torque_a_i, torque_b_i : ndarray, shape=(3,), epsilon
-        """
-        d_i, a_i, b_i = (np.asarray(v, dtype=float).reshape(3) for v in
-                         (d_i, axis_a_i, axis_b_i))
-        # the two molecules in a box too large for any image to matter, through the kernel
-        centre_ni = np.array([np.zeros(3), d_i])
-        box_i = np.full(3, 4.0 * (self.rc + float(np.abs(d_i).max())))
-        force_ni, torque_ni = np.zeros((2, 3)), np.zeros((2, 3))
-        u, _ = forces_half(centre_ni, np.array([a_i, b_i]), np.array([type_a, type_b]),
-                           box_i, *self.arrays(), np.array([[1], [0]], dtype=np.int32),
-                           np.array([1, 0], dtype=np.int32),
-                           force_ni, torque_ni)
-        return float(u), force_ni[1], torque_ni[0], torque_ni[1]
-
-    def forces(self, centre_ni, axis_ni, type_n, box_i, nb_nj, count_n, force_ni, torque_ni):
-        """:func:`forces_half` with this model; raises SimulationError on a non-finite energy."""
-        u, w = forces_half(centre_ni, axis_ni, type_n, box_i, self.site_start_t, self.site_z_k,
-                           self.params_kk, self.form, self.quad_t, self.rc, self.shifted, nb_nj,
-                           count_n, force_ni, torque_ni)
-        if not (math.isfinite(u) and math.isfinite(w)):
-            raise SimulationError(f"rigid molecules: non-finite pair energy {u} (two molecules "
-                                  "overlap); start from a looser configuration")
-        return u, w

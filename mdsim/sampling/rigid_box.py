@@ -12,7 +12,7 @@ import numpy as np
 from analysis.molecules.reduced import reduced_linear_type
 from mdsim.checks import count, positive
 from mdsim.engine.rigid_mc import lattice_start
-from mdsim.engine.rigid_pair import LinearPairModel
+from mdsim.engine.rigid_model import LinearPairModel
 from mdsim.units import ReducedUnits
 
 __all__ = ["RigidBox", "rigid_box", "reduced_inertia"]
@@ -29,7 +29,7 @@ class RigidBox:
     temperature : float
         kT/epsilon.
     units : mdsim.units.ReducedUnits
-    model : mdsim.engine.rigid_pair.LinearPairModel
+    model : mdsim.engine.rigid_model.LinearPairModel
     inertia : float
         Moment of inertia of the linear rotor, m sigma^2.
     box_i : ndarray, shape=(3,), sigma

@@ -16,7 +16,7 @@ import pytest
 from analysis.molecules import MolecularVirialGas
 from analysis.molecules.reduced import reduced_linear_type
 from mdsim.engine.rigid_mc import RigidMCSampler, lattice_start
-from mdsim.engine.rigid_pair import LinearPairModel
+from mdsim.engine.rigid_model import LinearPairModel
 from mdsim.errors import SettingError
 from mdsim.sampling.rigid import sample_rigid_state
 from mdsim.study.reader import read_study

@@ -12,7 +12,8 @@ import pytest
 
 from analysis.molecules.pair_energy import pair_energy
 from analysis.molecules.reduced import reduced_linear_type
-from mdsim.engine.rigid_pair import LinearPairModel, forces_half
+from mdsim.engine.rigid_model import LinearPairModel
+from mdsim.engine.rigid_pair import forces_half
 # reduced units of nitrogen's site (Vrabec et al. 2001, from memory, conftest.py)
 EPS_K, SIGMA_A = 34.897, 3.3211
 
