@@ -22,7 +22,7 @@ from analysis.results import Result
 from mdsim.checks import positive
 from mdsim.errors import ConvergenceError, SettingError, StudyError
 
-__all__ = ["NEWTON_TOLERANCE", "StateSample", "NewtonStep", "newton_step", "energy_route"]
+__all__ = ["NEWTON_TOLERANCE", "MAX_DOWN_STEP", "DISTINCT_SIGMAS", "overlapping_neighbours", "StateSample", "NewtonStep", "newton_step", "energy_route"]
 
 
 NEWTON_TOLERANCE = 0.25
@@ -92,6 +92,10 @@ class NewtonStep(Result):
     converged: bool
 
 
+MAX_DOWN_STEP = 0.5
+"""A Newton step lowers the temperature by at most this fraction of where it starts."""
+
+
 def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
     """Newton update of T_f from one sampled temperature (docs/physics.md section 3.1).
 
@@ -114,7 +118,19 @@ def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
     Notes
     -----
     T_{k+1} = T_k - [u_ig(T_k) + u_res(T_k, rho_f) - u_ig(T_i) - u_res,i]
-    / (c_v_ig(T_k) + c_v_res(T_k, rho_f)).
+    / (c_v_ig(T_k) + c_v_res(T_k, rho_f)), a step down cut to
+    :data:`MAX_DOWN_STEP` x T_k: the energy rises with T, so the root lies
+    below, and the cut keeps T positive where the sampled heat capacity is
+    far too small for the step (a sample separating into two phases, whose
+    energy falls by much more than c_v predicts); damped Newton, common
+    practice, no source.
+
+    Examples
+    --------
+    >>> from analysis.heatcapacity import ConstantHeatCapacity
+    >>> cv = ConstantHeatCapacity.in_units_of_R(1.5)
+    >>> newton_step(StateSample(48.0, -3500.0, 5.0, 2.0), (-4500.0, 5.0), 80.0, cv).step_K
+    -24.0
     """
     u_i, s_i = _mean_stderr(u_initial, "u_initial")
     T_i = positive("T_i", T_i, "the initial temperature in K")
@@ -126,7 +142,7 @@ def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
         raise StudyError(f"heat capacity at {T_k:g} K is {cv:g} J/(mol K) (ideal part plus "
                          "sampled residual part); it must be positive. Check cv_res_J_molK.")
     residual = cv_ig.u(T_k) + sample.u_res_J_mol - cv_ig.u(T_i) - u_i
-    step = -residual / cv
+    step = max(-residual / cv, -MAX_DOWN_STEP * T_k)
     err = math.hypot(s_i, sample.u_res_stderr_J_mol) / cv
     return NewtonStep(T_k, T_k + step, step, err, bool(abs(step) < tolerance * err))
 
@@ -142,6 +158,54 @@ def _best_newton_step(samples, u_initial, T_i, cv_ig, tolerance):
 
 _MBAR_NOTE = ("u_res(T) at the final density interpolated by MBAR reweighting of the sampled "
               "energies (pymbar)")
+
+
+DISTINCT_SIGMAS = 3.0
+"""Two sampled temperatures whose mean energies lie more than this many (summed) standard
+deviations of their energy series apart do not overlap: MBAR is not asked to bridge them."""
+
+
+def overlapping_neighbours(temperatures_K, series, T_near):
+    """Indices of the run of sampled temperatures around T_near whose energy distributions overlap.
+
+    Parameters
+    ----------
+    temperatures_K : sequence of float
+    series : sequence of array_like
+        One energy series per temperature (any one unit).
+    T_near : float
+        The temperature of interest, K (the Newton estimate).
+
+    Returns
+    -------
+    list of int
+        Indices, in temperature order, of the chain of neighbours each of
+        whose means lies within :data:`DISTINCT_SIGMAS` x (sum of the two
+        standard deviations) of the next, the chain holding the sampled
+        temperature nearest T_near.  Reweighting across a gap wider than that
+        is an extrapolation, and pymbar's solver spends minutes failing on it
+        (common practice, no source).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(1)
+    >>> series = [rng.normal(m, 1.0, 500) for m in (-10.0, -9.0, -2.0)]
+    >>> overlapping_neighbours([40.0, 45.0, 80.0], series, 44.0)
+    [0, 1]
+    """
+    order = sorted(range(len(temperatures_K)), key=lambda k: temperatures_K[k])
+    stats = [(float(np.mean(series[k])), float(np.std(series[k]))) for k in order]
+    runs, current = [], [order[0]]
+    for j in range(1, len(order)):
+        (m0, s0), (m1, s1) = stats[j - 1], stats[j]
+        if abs(m1 - m0) > DISTINCT_SIGMAS * (s0 + s1):
+            runs.append(current)
+            current = []
+        current.append(order[j])
+    runs.append(current)
+    nearest = min(range(len(temperatures_K)), key=lambda k: abs(temperatures_K[k] - T_near))
+    return next(run for run in runs if nearest in run)
 
 
 def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, newton_T):
@@ -182,6 +246,15 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
         raise StudyError(f"energy route: {len(series_final)} series for {len(samples)} "
                          "samples; give one energy series per sampled temperature.")
     u_i, s_i = u_initial
+    keep = overlapping_neighbours([s.temperature_K for s in samples], series_final, newton_T)
+    if len(keep) < 2:
+        return None, None, (f"energy route: MBAR not used: the energy distributions of the "
+                            f"temperatures sampled next to {newton_T:.6g} K do not overlap "
+                            f"(means more than {DISTINCT_SIGMAS:g} standard deviations apart), "
+                            "so reweighting between them would be an extrapolation; the Newton "
+                            "estimate is reported")
+    samples = [samples[k] for k in keep]
+    series_final = [series_final[k] for k in keep]
     try:
         mbar = MBARInterpolant([s.temperature_K for s in samples], series_final, n_particles)
     except ConvergenceError as exc:

@@ -28,7 +28,7 @@ import math
 
 import numpy as np
 
-from mdsim.pipeline.chain import mean_se, run_to, split_share
+from mdsim.pipeline.chain import mean_se, run_to, solve_or_extend, split_share
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.routes.sampler_choice import (COMPARE_ABOVE_CPU_S, SAMPLER_METHODS,
                                                   md_settings, piloted_chain, run_cost)
@@ -188,6 +188,9 @@ def _newton(job, init, first, finals, share, study_chose):
     ch = first
     for it in range(MAX_NEWTON_TEMPERATURES):
         run_to(ch, SCOUT * share)
+        # the budget may end it while a series still drifts (the energy or the pressure of
+        # a sample separating into two phases): sample on until the summary has its means
+        solve_or_extend(ch, ch.summary)
         finals.append(ch)
         res, samples = _solve(job, init, finals)
         if not _far(res) and job.stopped_by != "cpu budget":
