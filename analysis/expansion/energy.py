@@ -239,12 +239,7 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
     note : str or None
         Why MBAR was not used, when that is not a failure (poor overlap).
     """
-    if n_particles is None:
-        raise StudyError("energy route: 'series_final' was given without 'n_particles'; "
-                         "MBAR needs the number of particles of the simulations.")
-    if len(series_final) != len(samples):
-        raise StudyError(f"energy route: {len(series_final)} series for {len(samples)} "
-                         "samples; give one energy series per sampled temperature.")
+    _check_mbar_inputs(samples, series_final, n_particles)
     u_i, s_i = u_initial
     keep = overlapping_neighbours([s.temperature_K for s in samples], series_final, newton_T)
     if len(keep) < 2:
@@ -281,18 +276,41 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
                             "extrapolation; the Newton estimate is reported")
     cv = cv_ig.cv(T_f) + mbar.cv_res(T_f)
     try:
-        s_f = mbar.u_res_stderr(T_f)
+        s_f = _mbar_u_res_stderr(mbar, samples, T_f)
     except ConvergenceError as exc:
         return None, f"energy route: {exc}; the Newton estimate is reported", None
-    # MBAR's error rests on series thinned by their statistical inefficiency, which a slow
-    # mode can hide from a short series; it is not let below the error of the sample nearest
-    # T_f, whose own estimate may see that mode (a conservative floor, common practice, no source)
-    s_f = max(s_f, min(samples, key=lambda s: abs(s.temperature_K - T_f)).u_res_stderr_J_mol)
     details = {"mbar_u_res_J_mol": mbar.u_res(T_f), "mbar_u_res_stderr_J_mol": s_f,
                "mbar_cv_res_J_molK": mbar.cv_res(T_f),
                "mbar_effective_samples": mbar.effective_samples(T_f),
                "mbar_neighbour_overlap": overlap}
     return (T_f, math.hypot(s_i, s_f) / cv, details), None, None
+
+
+def _check_mbar_inputs(samples, series_final, n_particles):
+    if n_particles is None:
+        raise StudyError("energy route: 'series_final' was given without 'n_particles'; "
+                         "MBAR needs the number of particles of the simulations.")
+    if len(series_final) != len(samples):
+        raise StudyError(f"energy route: {len(series_final)} series for {len(samples)} "
+                         "samples; give one energy series per sampled temperature.")
+
+
+def _mbar_u_res_stderr(mbar, samples, T_f):
+    """MBAR's stderr of u_res(T_f), J/mol, not below that of the sample nearest T_f.
+
+    MBAR's error rests on series thinned by their statistical inefficiency,
+    which a slow mode can hide from a short series; the sample nearest T_f,
+    whose own estimate may see that mode, sets a floor (a conservative
+    choice, common practice, no source).
+    """
+    nearest = min(samples, key=lambda s: abs(s.temperature_K - T_f))
+    return max(mbar.u_res_stderr(T_f), nearest.u_res_stderr_J_mol)
+
+
+def _unconverged_warning(nstep, err, tolerance):
+    return (f"energy route: the last Newton step ({nstep.step_K:.3g} K) is not below "
+            f"{tolerance:g} x the temperature stderr ({err:.3g} K); sample at "
+            f"{nstep.next_temperature_K:.6g} K and solve again.")
 
 
 def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
@@ -351,10 +369,8 @@ def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
     samples = list(samples_final)
     nstep = _best_newton_step(samples, (u_i, s_i), T_i, cv_ig, tolerance)
     warnings, notes = [], []
-    details = {"samples_used": len(samples),
-               "newton_start_temperature_K": nstep.temperature_K,
-               "newton_step_K": nstep.step_K,
-               "newton_converged": nstep.converged,
+    details = {"samples_used": len(samples), "newton_start_temperature_K": nstep.temperature_K,
+               "newton_step_K": nstep.step_K, "newton_converged": nstep.converged,
                "initial_u_res_J_mol": u_i, "initial_u_res_stderr_J_mol": s_i}
     T_f, err, method = nstep.next_temperature_K, nstep.temperature_stderr_K, "newton"
     if series_final is not None and len(samples) >= 2:
@@ -369,9 +385,7 @@ def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
             details.update(mbar_details, newton_temperature_K=nstep.next_temperature_K)
             notes.append(_MBAR_NOTE)
     if method == "newton" and not nstep.converged:
-        warnings.append(f"energy route: the last Newton step ({nstep.step_K:.3g} K) is not "
-                        f"below {tolerance:g} x the temperature stderr ({err:.3g} K); sample "
-                        f"at {nstep.next_temperature_K:.6g} K and solve again.")
+        warnings.append(_unconverged_warning(nstep, err, tolerance))
     notes.append("stderr(T_f) = sqrt(s_i^2 + s_f^2) / c_v(T_f, rho_f) from both end states")
     cv_ig.check_temperature(T_f, "final temperature T_f")
     return SampledExpansionResult(
