@@ -22,7 +22,7 @@ from analysis.results import Result
 from mdsim.checks import positive
 from mdsim.errors import ConvergenceError, SettingError, StudyError
 
-__all__ = ["NEWTON_TOLERANCE", "StateSample", "NewtonStep", "newton_step", "energy_route"]
+__all__ = ["NEWTON_TOLERANCE", "MAX_DOWN_STEP", "DISTINCT_SIGMAS", "overlapping_neighbours", "StateSample", "NewtonStep", "newton_step", "energy_route"]
 
 
 NEWTON_TOLERANCE = 0.25
@@ -92,6 +92,10 @@ class NewtonStep(Result):
     converged: bool
 
 
+MAX_DOWN_STEP = 0.5
+"""A Newton step lowers the temperature by at most this fraction of where it starts."""
+
+
 def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
     """Newton update of T_f from one sampled temperature (docs/physics.md section 3.1).
 
@@ -114,7 +118,19 @@ def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
     Notes
     -----
     T_{k+1} = T_k - [u_ig(T_k) + u_res(T_k, rho_f) - u_ig(T_i) - u_res,i]
-    / (c_v_ig(T_k) + c_v_res(T_k, rho_f)).
+    / (c_v_ig(T_k) + c_v_res(T_k, rho_f)), a step down cut to
+    :data:`MAX_DOWN_STEP` x T_k: the energy rises with T, so the root lies
+    below, and the cut keeps T positive where the sampled heat capacity is
+    far too small for the step (a sample separating into two phases, whose
+    energy falls by much more than c_v predicts); damped Newton, common
+    practice, no source.
+
+    Examples
+    --------
+    >>> from analysis.heatcapacity import ConstantHeatCapacity
+    >>> cv = ConstantHeatCapacity.in_units_of_R(1.5)
+    >>> newton_step(StateSample(48.0, -3500.0, 5.0, 2.0), (-4500.0, 5.0), 80.0, cv).step_K
+    -24.0
     """
     u_i, s_i = _mean_stderr(u_initial, "u_initial")
     T_i = positive("T_i", T_i, "the initial temperature in K")
@@ -126,7 +142,7 @@ def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
         raise StudyError(f"heat capacity at {T_k:g} K is {cv:g} J/(mol K) (ideal part plus "
                          "sampled residual part); it must be positive. Check cv_res_J_molK.")
     residual = cv_ig.u(T_k) + sample.u_res_J_mol - cv_ig.u(T_i) - u_i
-    step = -residual / cv
+    step = max(-residual / cv, -MAX_DOWN_STEP * T_k)
     err = math.hypot(s_i, sample.u_res_stderr_J_mol) / cv
     return NewtonStep(T_k, T_k + step, step, err, bool(abs(step) < tolerance * err))
 
@@ -142,6 +158,54 @@ def _best_newton_step(samples, u_initial, T_i, cv_ig, tolerance):
 
 _MBAR_NOTE = ("u_res(T) at the final density interpolated by MBAR reweighting of the sampled "
               "energies (pymbar)")
+
+
+DISTINCT_SIGMAS = 3.0
+"""Two sampled temperatures whose mean energies lie more than this many (summed) standard
+deviations of their energy series apart do not overlap: MBAR is not asked to bridge them."""
+
+
+def overlapping_neighbours(temperatures_K, series, T_near):
+    """Indices of the run of sampled temperatures around T_near whose energy distributions overlap.
+
+    Parameters
+    ----------
+    temperatures_K : sequence of float
+    series : sequence of array_like
+        One energy series per temperature (any one unit).
+    T_near : float
+        The temperature of interest, K (the Newton estimate).
+
+    Returns
+    -------
+    list of int
+        Indices, in temperature order, of the chain of neighbours each of
+        whose means lies within :data:`DISTINCT_SIGMAS` x (sum of the two
+        standard deviations) of the next, the chain holding the sampled
+        temperature nearest T_near.  Reweighting across a gap wider than that
+        is an extrapolation, and pymbar's solver spends minutes failing on it
+        (common practice, no source).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(1)
+    >>> series = [rng.normal(m, 1.0, 500) for m in (-10.0, -9.0, -2.0)]
+    >>> overlapping_neighbours([40.0, 45.0, 80.0], series, 44.0)
+    [0, 1]
+    """
+    order = sorted(range(len(temperatures_K)), key=lambda k: temperatures_K[k])
+    stats = [(float(np.mean(series[k])), float(np.std(series[k]))) for k in order]
+    runs, current = [], [order[0]]
+    for j in range(1, len(order)):
+        (m0, s0), (m1, s1) = stats[j - 1], stats[j]
+        if abs(m1 - m0) > DISTINCT_SIGMAS * (s0 + s1):
+            runs.append(current)
+            current = []
+        current.append(order[j])
+    runs.append(current)
+    nearest = min(range(len(temperatures_K)), key=lambda k: abs(temperatures_K[k] - T_near))
+    return next(run for run in runs if nearest in run)
 
 
 def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, newton_T):
@@ -164,7 +228,8 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
     Returns
     -------
     solution : (float, float, dict) or None
-        (T_f, stderr(T_f), details); None when the reweighting does not
+        (T_f, stderr(T_f), details), the stderr of u_res(T_f) at least that of
+        the sample nearest T_f; None when the reweighting does not
         converge (pymbar's default and robust solvers both fail), when the
         balance does not change sign in the sampled range widened by a
         quarter of its width each side, or when the sampled temperatures
@@ -174,13 +239,17 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
     note : str or None
         Why MBAR was not used, when that is not a failure (poor overlap).
     """
-    if n_particles is None:
-        raise StudyError("energy route: 'series_final' was given without 'n_particles'; "
-                         "MBAR needs the number of particles of the simulations.")
-    if len(series_final) != len(samples):
-        raise StudyError(f"energy route: {len(series_final)} series for {len(samples)} "
-                         "samples; give one energy series per sampled temperature.")
+    _check_mbar_inputs(samples, series_final, n_particles)
     u_i, s_i = u_initial
+    keep = overlapping_neighbours([s.temperature_K for s in samples], series_final, newton_T)
+    if len(keep) < 2:
+        return None, None, (f"energy route: MBAR not used: the energy distributions of the "
+                            f"temperatures sampled next to {newton_T:.6g} K do not overlap "
+                            f"(means more than {DISTINCT_SIGMAS:g} standard deviations apart), "
+                            "so reweighting between them would be an extrapolation; the Newton "
+                            "estimate is reported")
+    samples = [samples[k] for k in keep]
+    series_final = [series_final[k] for k in keep]
     try:
         mbar = MBARInterpolant([s.temperature_K for s in samples], series_final, n_particles)
     except ConvergenceError as exc:
@@ -207,7 +276,7 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
                             "extrapolation; the Newton estimate is reported")
     cv = cv_ig.cv(T_f) + mbar.cv_res(T_f)
     try:
-        s_f = mbar.u_res_stderr(T_f)
+        s_f = _mbar_u_res_stderr(mbar, samples, T_f)
     except ConvergenceError as exc:
         return None, f"energy route: {exc}; the Newton estimate is reported", None
     details = {"mbar_u_res_J_mol": mbar.u_res(T_f), "mbar_u_res_stderr_J_mol": s_f,
@@ -215,6 +284,33 @@ def _mbar_solution(samples, series_final, n_particles, T_i, u_initial, cv_ig, ne
                "mbar_effective_samples": mbar.effective_samples(T_f),
                "mbar_neighbour_overlap": overlap}
     return (T_f, math.hypot(s_i, s_f) / cv, details), None, None
+
+
+def _check_mbar_inputs(samples, series_final, n_particles):
+    if n_particles is None:
+        raise StudyError("energy route: 'series_final' was given without 'n_particles'; "
+                         "MBAR needs the number of particles of the simulations.")
+    if len(series_final) != len(samples):
+        raise StudyError(f"energy route: {len(series_final)} series for {len(samples)} "
+                         "samples; give one energy series per sampled temperature.")
+
+
+def _mbar_u_res_stderr(mbar, samples, T_f):
+    """MBAR's stderr of u_res(T_f), J/mol, not below that of the sample nearest T_f.
+
+    MBAR's error rests on series thinned by their statistical inefficiency,
+    which a slow mode can hide from a short series; the sample nearest T_f,
+    whose own estimate may see that mode, sets a floor (a conservative
+    choice, common practice, no source).
+    """
+    nearest = min(samples, key=lambda s: abs(s.temperature_K - T_f))
+    return max(mbar.u_res_stderr(T_f), nearest.u_res_stderr_J_mol)
+
+
+def _unconverged_warning(nstep, err, tolerance):
+    return (f"energy route: the last Newton step ({nstep.step_K:.3g} K) is not below "
+            f"{tolerance:g} x the temperature stderr ({err:.3g} K); sample at "
+            f"{nstep.next_temperature_K:.6g} K and solve again.")
 
 
 def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
@@ -273,10 +369,8 @@ def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
     samples = list(samples_final)
     nstep = _best_newton_step(samples, (u_i, s_i), T_i, cv_ig, tolerance)
     warnings, notes = [], []
-    details = {"samples_used": len(samples),
-               "newton_start_temperature_K": nstep.temperature_K,
-               "newton_step_K": nstep.step_K,
-               "newton_converged": nstep.converged,
+    details = {"samples_used": len(samples), "newton_start_temperature_K": nstep.temperature_K,
+               "newton_step_K": nstep.step_K, "newton_converged": nstep.converged,
                "initial_u_res_J_mol": u_i, "initial_u_res_stderr_J_mol": s_i}
     T_f, err, method = nstep.next_temperature_K, nstep.temperature_stderr_K, "newton"
     if series_final is not None and len(samples) >= 2:
@@ -291,9 +385,7 @@ def energy_route(u_initial, T_i, rho_f, samples_final, cv_ig, series_final=None,
             details.update(mbar_details, newton_temperature_K=nstep.next_temperature_K)
             notes.append(_MBAR_NOTE)
     if method == "newton" and not nstep.converged:
-        warnings.append(f"energy route: the last Newton step ({nstep.step_K:.3g} K) is not "
-                        f"below {tolerance:g} x the temperature stderr ({err:.3g} K); sample "
-                        f"at {nstep.next_temperature_K:.6g} K and solve again.")
+        warnings.append(_unconverged_warning(nstep, err, tolerance))
     notes.append("stderr(T_f) = sqrt(s_i^2 + s_f^2) / c_v(T_f, rho_f) from both end states")
     cv_ig.check_temperature(T_f, "final temperature T_f")
     return SampledExpansionResult(

@@ -18,6 +18,16 @@ from mdsim.errors import StudyError
 __all__ = ["microcanonical_route"]
 
 
+def _kinetic_series(kinetic_t_red):
+    """The checked per-sample kinetic energies (all > 0)."""
+    K_t = stats.check_series(kinetic_t_red, "kinetic_t_red")
+    if np.any(K_t <= 0.0):
+        raise StudyError("microcanonical route: every kinetic energy in 'kinetic_t_red' must be "
+                         f"> 0 (E > U); found {K_t[K_t <= 0][0]:g}. The run's energy E is below "
+                         "a sampled potential energy: check how E was set.")
+    return K_t
+
+
 def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K, T_i,
                          initial_energy_stderr_red=0.0, cv_red=None, rho_f=None):
     """Final temperature from a microcanonical Monte Carlo run at V_f.
@@ -66,11 +76,7 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
     >>> round(res.final_temperature_K, 4), round(res.final_temperature_stderr_K, 9)
     (100.6711, 0.0)
     """
-    K_t = stats.check_series(kinetic_t_red, "kinetic_t_red")
-    if np.any(K_t <= 0.0):
-        raise StudyError("microcanonical route: every kinetic energy in 'kinetic_t_red' must be "
-                         f"> 0 (E > U); found {K_t[K_t <= 0][0]:g}. The run's energy E is below "
-                         "a sampled potential energy: check how E was set.")
+    K_t = _kinetic_series(kinetic_t_red)
     N = count("n_particles", n_particles, hint="the number of particles")
     f = positive("dof_per_particle", dof_per_particle, "3 for atoms, 5 for rigid linear molecules")
     eps = positive("epsilon_K", epsilon_K, "epsilon/k of the reduced units, in K")

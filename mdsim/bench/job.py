@@ -13,8 +13,10 @@ sampler's step, the sample spacing and the run length left to the tool:
   ``target_stderr = "0.3 K"`` (0.003 in reduced temperature); goal: under
   200 CPU-s.
 
-Prints, per case, the CPU time (this process and its workers), the wall
-time, the standard error reached and what the tool chose.  A benchmark, not
+Prints, per case, the CPU time (this process and its workers: imports,
+kernel loading, the task and the report with its figures), the CPU time of
+the task's stages (its ledger) split by part of the job, the wall time, the
+standard error reached and what the tool chose.  A benchmark, not
 a test: timings on a shared machine are noisy.
 """
 import argparse
@@ -75,6 +77,30 @@ def _cpu_seconds():
     return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
 
 
+PARTS = (("sampler choice pilots", ("-choice-", "-sampler")), ("entropy insertion runs", ("insertion-",)),
+         ("phase snapshots", ("phase-snapshot",)), ("pressure iteration", ("initial-state-try",)),
+         ("initial state", ("initial-state",)), ("final density", ("final-density-guess",)))
+"""Where a stage's CPU time is booked, by the first pattern its name contains (in this order)."""
+
+
+def _cpu_by_part(ledger):
+    """CPU seconds of the task's stages by part of the job (:data:`PARTS`), from its ledger.
+
+    The sampler choice's MC pilot at the final density doubles as that chain's pilot and
+    is booked under "final density"; the accepted density of a pressure iteration is the
+    initial state's chain and is booked under "pressure iteration".
+
+    >>> _cpu_by_part({"initial-state-choice-md-pilot": {"cpu_s": 2.0},
+    ...               "initial-state-00": {"cpu_s": 10.0}, "insertion-final-00": {"cpu_s": 1.0}})
+    {'sampler choice pilots': 2.0, 'entropy insertion runs': 1.0, 'initial state': 10.0}
+    """
+    out = {}
+    for name, row in ledger.items():
+        part = next((p for p, keys in PARTS if any(k in name for k in keys)), "other")
+        out[part] = round(out.get(part, 0.0) + float(row["cpu_s"]), 3)
+    return {p: out[p] for p, _ in PARTS + (("other", ()),) if p in out}
+
+
 def run_case(name, target=None, workers=1, out=None):
     """Run one case through ``mdsim run`` and return its figures (dict), or an int status."""
     from mdsim.cli import main as cli_main
@@ -94,6 +120,8 @@ def run_case(name, target=None, workers=1, out=None):
         if status != 0:
             return status
         _, res, _ = read_task_result(run_dir / "tasks" / "0000.h5")
+        ledger = json.loads((run_dir / "tasks" / "0000.stages" / "cpu-time-ledger.json")
+                            .read_text(encoding="utf-8"))
     d = res["details"]
     return {
         "case": f"{name}: {case['description']}, energy route",
@@ -105,12 +133,16 @@ def run_case(name, target=None, workers=1, out=None):
         "cpu_seconds_total": cpu,
         "cpu_seconds_goal": case["goal_cpu_s"],
         "cpu_seconds_sampling": res["cpu_seconds"],
+        "cpu_seconds_by_part": _cpu_by_part(ledger),
         "wall_seconds": wall,
         "n_particles": res["n_particles"],
         "sample_interval_initial_state": d.get("sample_interval"),
         "initial_samples": d.get("initial_samples"),
         "final_samples": d.get("final_samples"),
         "final_temperatures_sampled": d.get("newton_temperatures"),
+        "sampler_initial_state": d.get("sampler_initial"),
+        "sampler_final_state": d.get("sampler_final"),
+        "sampler_chosen_by": d.get("sampler_chosen_by"),
         "method": res["method"],
     }
 

@@ -7,10 +7,20 @@ standard error of Delta T) and ``max_cpu_time``, not the run length:
   inefficiency g of the averaged series; samples are taken every g / 2
   sweeps (MC) or steps (MD), at least one.
 - Run length: from the pilot's standard error, scaled as 1 / sqrt(n) to
-  ``SAFETY`` times the share of the target each state gets; then extra
-  stages (new seeds, the same Markov chain continued from the last
-  configuration) while the standard error of Delta T is above the target
-  and CPU budget is left.  ``stopped_by`` says which ended it.
+  ``SAFETY`` times the share of the target each state gets, at least
+  ``MIN_CHAIN_SAMPLES``; then extra stages (new seeds, the same Markov
+  chain continued from the last configuration) while the standard error of
+  Delta T is above the target and CPU budget is left.  ``stopped_by`` says
+  which ended it.
+- Standard errors (:func:`production_mean`): the production samples continue
+  a chain whose pilot has settled, so no start is cut off them (cutting a
+  start chosen from the data makes a short series' mean noisier and its
+  error smaller: measured at T* = 2, rho* = 0.3 with 256 particles, the
+  scatter of 200-sample means was 2.2 times the error reported with the cut,
+  1.6 times without); and the error is at least the block-averaging one
+  (``ERROR_BLOCKS`` blocks), which sees a slow mode that the statistical
+  inefficiency of a short series misses (there, Monte Carlo's g of the
+  energy grows from 5 to 22 sweeps as blocks grow from 10 to 1000 sweeps).
 
 Determinism: every decision is made from completed stage files and the
 seeds alone, so a task that is killed and run again gives the same numbers,
@@ -24,11 +34,18 @@ from mdsim.errors import ConvergenceError
 from mdsim.pipeline.stage_names import stage_name
 from mdsim.sampling import store
 
-__all__ = ["Chain", "mean_se", "run_to", "settle", "solve_or_extend", "stage_share", "SAFETY",
-           "MIN_STAGE_SAMPLES", "MAX_STAGES_PER_CHAIN"]
+__all__ = ["Chain", "mean_se", "production_mean", "run_to", "settle", "solve_or_extend",
+           "stage_share", "split_share", "SAFETY", "MIN_STAGE_SAMPLES", "MIN_CHAIN_SAMPLES",
+           "ERROR_BLOCKS", "MAX_STAGES_PER_CHAIN"]
 
 PILOT_SAMPLES = 200
 MIN_STAGE_SAMPLES = 200
+MIN_CHAIN_SAMPLES = 1000
+"""A chain's first production stage has at least this many samples, so that its error
+estimate (statistical inefficiency and blocks, :func:`production_mean`) rests on a series
+long against the slow modes a pilot may miss."""
+ERROR_BLOCKS = 10
+"""Blocks of the block-averaging floor of a production mean's standard error."""
 MAX_STAGE_SAMPLES = 200_000
 MAX_STAGES_PER_CHAIN = 12
 MAX_INTERVAL_MC = 20
@@ -47,6 +64,71 @@ def stage_share(task, per_kelvin_red):
     change per reduced temperature unit (a heat capacity in k, or f/2).
     """
     return SAFETY * task.target_K / task.eps_K * per_kelvin_red / math.sqrt(2.0)
+
+
+def split_share(total_se, cost_a, cost_b):
+    """Standard errors of two independent means whose combined error is ``total_se``, at least cost.
+
+    Reaching a standard error s costs C / s^2 CPU seconds for a chain of
+    cost coefficient C (:func:`mdsim.pipeline.routes.sampler_choice.cost_coefficient`);
+    the least total cost with s_a^2 + s_b^2 = total_se^2 puts
+    s_a^2 = total_se^2 sqrt(C_a) / (sqrt(C_a) + sqrt(C_b)) (a Lagrange
+    multiplier; common practice in allocating samples, no source).  Without
+    two finite positive coefficients the split is even.
+
+    >>> [round(s, 4) for s in split_share(1.0, 4.0, 1.0)]  # the dearer chain gets more error
+    [0.8165, 0.5774]
+    >>> [round(s, 4) for s in split_share(1.0, float("inf"), 1.0)]
+    [0.7071, 0.7071]
+    """
+    ok = all(math.isfinite(c) and c > 0.0 for c in (cost_a, cost_b))
+    w_a = math.sqrt(cost_a) / (math.sqrt(cost_a) + math.sqrt(cost_b)) if ok else 0.5
+    return total_se * math.sqrt(w_a), total_se * math.sqrt(1.0 - w_a)
+
+
+def production_mean(x_t, settled=True):
+    """Mean and standard error of a chain's production series.
+
+    Parameters
+    ----------
+    x_t : ndarray, shape=(n_samples,)
+        The concatenated production samples.
+    settled : bool
+        The chain's pilot settled (its equilibration transient ended in its
+        first half): the production samples continue an equilibrated chain
+        and none is cut off.  Otherwise the transient is detected and cut.
+
+    Returns
+    -------
+    (float, float)
+        The mean and its standard error: the larger of sqrt(g var / n)
+        (:func:`analysis.stats.mean_and_stderr`) and the block-averaging
+        error over ``ERROR_BLOCKS`` blocks (Flyvbjerg and Petersen,
+        J. Chem. Phys. 91, 461, 1989) when the series has at least
+        ``ERROR_BLOCKS`` x 20 samples.
+
+    Raises
+    ------
+    ConvergenceError
+        When the series still drifts (from :func:`analysis.stats.mean_and_stderr`).
+
+    Examples
+    --------
+    A series whose second half sits higher than its first: the blocks see
+    the slow change that a short-range statistical inefficiency does not.
+
+    >>> x = np.concatenate([np.tile([0.0, 0.2], 200), np.tile([0.1, 0.3], 200)])
+    >>> m, se = production_mean(x)
+    >>> round(m, 4), round(se, 4)
+    (0.15, 0.0167)
+    """
+    from analysis.stats import block_stderr, mean_and_stderr
+    m = mean_and_stderr(x_t, discard_equilibration=not settled)
+    used = np.asarray(x_t)[m.t0:]
+    se = m.stderr
+    if used.size >= 20 * ERROR_BLOCKS:
+        se = max(se, block_stderr(used, ERROR_BLOCKS))
+    return m.mean, se
 
 
 class Chain:
@@ -91,6 +173,8 @@ class Chain:
         self.is_md = method.startswith("md")
         self.results = []
         self.pilot = None
+        self.pilot_name = stage_name(label)
+        self.pilot_settled = False
         self.interval = None
 
     # -- helpers --------------------------------------------------------------------------
@@ -129,20 +213,21 @@ class Chain:
                          self.T_red, system.dof_per_particle)
 
     # -- running --------------------------------------------------------------------------
-    def run_pilot(self):
-        """Run (or read back) the pilot and choose the sample interval from it."""
+    def run_pilot(self, n_samples=PILOT_SAMPLES):
+        """Run (or read back) the pilot of n_samples and choose the sample interval from it."""
         from analysis.stats import mean_and_stderr
         job = self.job
         system = self.make_system()
         n_eq = EQUILIBRATION_MD_STEPS if self.is_md else EQUILIBRATION_MC_SWEEPS
         interval = MD_PILOT_INTERVAL if self.is_md else 1
-        self.pilot = job.stage(stage_name(self.label), system, self.method, self.T_red,
-                               self.E_red, n_eq=n_eq, n_samples=PILOT_SAMPLES, interval=interval,
+        self.pilot = job.stage(self.pilot_name, system, self.method, self.T_red,
+                               self.E_red, n_eq=n_eq, n_samples=n_samples, interval=interval,
                                seed=job.stage_seed(self.id, 0), **self._settings(None))
         x = self.pilot.samples[self.key]
         try:
             m = mean_and_stderr(x)
             g, se = m.g, m.stderr
+            self.pilot_settled = 2 * m.t0 <= x.size
         except ConvergenceError as exc:
             g = max(1.0, exc.partial.g)
             se = exc.partial.stderr
@@ -153,7 +238,7 @@ class Chain:
             self.interval = max(1, min(MAX_INTERVAL_MC, int(g // 2)))
         # stderr of one unit of run (a sweep or step), scaled from the pilot
         self.pilot_se = float(se)
-        self.pilot_units = PILOT_SAMPLES * interval
+        self.pilot_units = n_samples * interval
         return self
 
     def samples_for(self, target_se):
@@ -221,11 +306,10 @@ class Chain:
 
 
 def mean_se(chain, key):
-    """(mean, stderr) of a chain's series, or (nan, inf) while it still drifts."""
-    from analysis.stats import mean_and_stderr
+    """(mean, stderr) of a chain's series (:func:`production_mean`), or (nan, inf) while it
+    still drifts."""
     try:
-        m = mean_and_stderr(chain.samples()[key])
-        return m.mean, m.stderr
+        return production_mean(chain.samples()[key], chain.pilot_settled)
     except ConvergenceError:
         return math.nan, math.inf
 
@@ -235,7 +319,7 @@ def run_to(chain, target_se, key=None):
     key = key or chain.key
     chain.resume_existing()
     if not chain.results:
-        chain.extend(chain.samples_for(target_se), mandatory=True)
+        chain.extend(max(MIN_CHAIN_SAMPLES, chain.samples_for(target_se)), mandatory=True)
     while True:
         _, se = mean_se(chain, key)
         if se <= target_se:

@@ -23,7 +23,7 @@ def simulation_settings(study):
         "routes" (list of str: the simulation routes, in the study's order),
         "particles" (int, or None: chosen by each task from its target),
         "target_stderr_K" (float, K), "max_cpu_time_s" (float, CPU seconds
-        per task), "seed" (int), "sampler" ("mc" or "md").
+        per task), "seed" (int), "sampler" ("auto", "mc" or "md").
     """
     sim = study.simulation
     particles = sim.get("particles")

@@ -177,7 +177,7 @@ def mean_kinetic_dof(fractions, molecules):
 MOLECULE_ROUTES = ("energy",)
 
 
-def check_simulation_supported(gas, where, routes=None, sampler="mc"):
+def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
     A gas of rigid molecules is simulated by the energy route only, with
@@ -193,7 +193,7 @@ def check_simulation_supported(gas, where, routes=None, sampler="mc"):
         The simulation routes asked for; None for a simulation of spheres
         (which a gas of molecules cannot give).
     sampler : str
-        ``[simulation] sampler`` ("mc" or "md").
+        ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo here).
 
     Raises
     ------
@@ -230,7 +230,7 @@ def check_simulation_supported(gas, where, routes=None, sampler="mc"):
                          "r^-5 energy has no bound, and the rigid Monte Carlo has no hard core "
                          "at the centre (docs/physics.md section 7a.6); use the virial routes, "
                          "[simulation] routes = []")
-    if sampler != "mc":
+    if sampler == "md":
         raise StudyError(f'{where}: [simulation] sampler = "{sampler}": the energy route samples '
                          'rigid molecules by canonical Monte Carlo; remove sampler or set '
                          'sampler = "mc"')

@@ -46,7 +46,7 @@ Tables read here:
     ["energy"]; [] for the virial routes only), ``particles`` (optional:
     chosen by the tool from the target when absent), ``target_stderr``
     ("0.05 K"), ``max_cpu_time`` ("10 min"), ``seed`` (int, default 1),
-    ``sampler`` ("mc" or "md": the energy route's NVT sampler),
+    ``sampler`` ("auto", "mc" or "md": the energy route's NVT sampler),
     ``quantum_potential`` ("none" or "feynman-hibbs": the quantum-corrected
     simulation, :mod:`mdsim.study.quantum_potential`).
 ``[sweep]``
@@ -147,7 +147,7 @@ class Study:
         - ``max_cpu_time`` : float -- CPU budget per task, s, > 0
           (default 600);
         - ``seed`` : int -- >= 0 (default 1);
-        - ``sampler`` : str -- "mc" or "md" (default "mc");
+        - ``sampler`` : str -- "auto", "mc" or "md" (default "auto": the cheaper per state);
         - ``quantum_potential`` : str -- "none" or "feynman-hibbs" (default
           "none").
     sweep : dict
@@ -332,7 +332,7 @@ def read_study(path):
     {'temperature': 295.15, 'pressure': 2200000.0}
     >>> study.simulation
     {'routes': ['energy'], 'particles': None, 'target_stderr': 0.05, 'max_cpu_time': 600.0,
-     'seed': 1, 'sampler': 'mc', 'quantum_potential': 'none'}
+     'seed': 1, 'sampler': 'auto', 'quantum_potential': 'none'}
     >>> study.state_points()[0].label()
     'T = 295.15 K, p = 22 bar, r = 2'
     >>> study.units.epsilon_K, study.gas.species_names

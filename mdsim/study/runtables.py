@@ -79,7 +79,7 @@ def _check_quantum_potential(ctx, doc, out, gas):
                  "(docs/physics.md 3.5)",
                  'routes = ["energy"]', "use the energy route with this key: it finds the "
                  "same final temperature by canonical sampling")
-    if sim["sampler"] != "mc":
+    if sim["sampler"] == "md":  # "auto" samples with Monte Carlo here
         ctx.fail("simulation", "quantum_potential", raw,
                  f"sampler = {sim['sampler']!r}: the thermodynamic energy estimator of the "
                  "temperature-dependent potential is computed by the Monte Carlo sampler",

@@ -92,7 +92,7 @@ QUANTUM_LEVELS = ("classical", "first-order", "second-order", "exact")
 STATISTICS = ("boltzmann", "bose", "fermi")
 #: [gas] nuclear_spin: I as text, or hydrogen's spin-isomer choice.
 NUCLEAR_SPINS = ("0", "1/2", "1", "3/2", "2", "5/2", "3", "normal-hydrogen", "para-hydrogen")
-SAMPLERS = ("mc", "md")
+SAMPLERS = ("auto", "mc", "md")
 QUANTUM_POTENTIALS = ("none", "feynman-hibbs")
 CLUSTER_SYSTEMS = ("slurm", "pbs")
 TEMPERATURE_RANGE_K = (1e-3, 1e5)
@@ -236,8 +236,9 @@ _RUN_TABLES = {
         "max_cpu_time": Key("time", default="10 min", low=0.0, high=30 * 86400.0,
                             example='"10 min"', help="CPU budget per task", **_TIME),
         "seed": Key("int", default=1, low=0, high=SEED_MAX, low_inclusive=True, example="1"),
-        "sampler": Key("string", default="mc", choices=SAMPLERS, example='"mc"',
-                       help="NVT Monte Carlo or thermostatted MD for the energy route"),
+        "sampler": Key("string", default="auto", choices=SAMPLERS, example='"auto"',
+                       help="the energy route's NVT sampler: \"auto\" (the cheaper per state, "
+                       "from pilots of both), Monte Carlo or thermostatted MD"),
         "quantum_potential": Key("string", default="none", choices=QUANTUM_POTENTIALS,
                                  example='"feynman-hibbs"',
                                  help="the quadratic Feynman-Hibbs effective potential for light "

