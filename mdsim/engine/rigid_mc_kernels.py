@@ -43,11 +43,13 @@ def _pair_u(form, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t, site
 
 @njit(cache=True)
 def molecule_energy(i, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_i, ncell_i, head_c,
-                    next_n, site_start_t, site_z_k, params_kk, form, quad_t, rc, cells_c):
+                    next_n, site_start_t, site_z_k, params_kk, form, quad_t, rc, core2, cells_c):
     """Energy of molecule i placed at centre (x, y, z) with axis (ex, ey, ez) with all others.
 
     Molecule i itself (at its stored place) is skipped.  Pairs whose
-    centres are at least ``rc`` apart contribute nothing (plain cut).
+    centres are at least ``rc`` apart contribute nothing (plain cut); a
+    pair whose centres are closer than sqrt(``core2``) overlaps (+inf: the
+    hard core at the centre, :attr:`LinearPairModel.core`).
     ``cells_c`` is scratch space of (2 reach + 1)^3 int64.
     """
     ti = type_n[i]
@@ -62,7 +64,10 @@ def molecule_energy(i, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_i, n
                 dx = min_image(centre_ni[j, 0] - x, lx, hx)
                 dy = min_image(centre_ni[j, 1] - y, ly, hy)
                 dz = min_image(centre_ni[j, 2] - z, lz, hz)
-                if dx * dx + dy * dy + dz * dz < rc2:
+                d2 = dx * dx + dy * dy + dz * dz
+                if d2 < core2:
+                    return math.inf
+                if d2 < rc2:
                     u += _pair_u(form, dx, dy, dz, ex, ey, ez, axis_ni[j, 0], axis_ni[j, 1],
                                  axis_ni[j, 2], ti, type_n[j], site_start_t, site_z_k,
                                  params_kk, quad_t)
@@ -90,7 +95,7 @@ def _turn(state, ex, ey, ez, max_angle):
 
 @njit(cache=True)
 def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell_n,
-                site_start_t, site_z_k, params_kk, form, quad_t, rc, state, n_moves,
+                site_start_t, site_z_k, params_kk, form, quad_t, rc, core2, state, n_moves,
                 max_displacement, max_angle, beta, u_total, tried_m, accepted_m):
     """``n_moves`` Metropolis trial moves (translation or rotation, 1/2 each).
 
@@ -104,6 +109,8 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
         The linked cells of :mod:`mdsim.engine.mc_cells` (updated).
     site_start_t, site_z_k, params_kk, form, quad_t, rc
         The model of :class:`mdsim.engine.rigid_model.LinearPairModel`.
+    core2 : float, sigma^2
+        The square of its hard core at the centre (0: none); a move into it is rejected.
     state : ndarray, shape=(4,), uint64
         The random stream (advanced).
     n_moves : int
@@ -142,10 +149,10 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
         tried_m[kind] += 1
         u_new = molecule_energy(i, xn, yn, zn, en_x, en_y, en_z, centre_ni, axis_ni, type_n,
                                 box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
-                                params_kk, form, quad_t, rc, cells_c)
+                                params_kk, form, quad_t, rc, core2, cells_c)
         u_old = molecule_energy(i, xo, yo, zo, eo_x, eo_y, eo_z, centre_ni, axis_ni, type_n,
                                 box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
-                                params_kk, form, quad_t, rc, cells_c)
+                                params_kk, form, quad_t, rc, core2, cells_c)
         du = u_new - u_old
         if du > 0.0 and _rng.uniform(state) >= math.exp(-beta * du):
             continue

@@ -32,11 +32,16 @@ class LinearPairModel:
     shifted : bool
         Shifted-energy model (for molecular dynamics) instead of the plain
         cut (module docstring).
+    core : float, sigma
+        Hard core at the centre for Monte Carlo (0: none): two centres closer
+        than it overlap (energy +inf), where point multipoles at the centres
+        diverge and crossed molecules' sites need not keep them apart.
 
     Attributes
     ----------
     site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted
         The arguments of :func:`forces_half`, in its order.
+    core : float, sigma
 
     Examples
     --------
@@ -49,7 +54,7 @@ class LinearPairModel:
     (-1.2101, True)
     """
 
-    def __init__(self, types, cutoff, shifted=False):
+    def __init__(self, types, cutoff, shifted=False, core=0.0):
         starts, zs, pots, quads = [0], [], [], []
         for t, (site_z, site_pots, quad) in enumerate(types):
             site_z = [float(z) for z in site_z]
@@ -80,6 +85,9 @@ class LinearPairModel:
         self.quad_t = np.array(quads)
         self.rc = rc
         self.shifted = int(bool(shifted))
+        self.core = float(core)
+        if not 0.0 <= self.core < rc:
+            raise SettingError("core", core, f"must lie in [0, cut-off {rc:g}) sigma")
 
     @property
     def n_types(self):

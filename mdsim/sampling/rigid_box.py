@@ -9,13 +9,14 @@ import dataclasses
 
 import numpy as np
 
+from analysis.molecules.pair_energy import OVERLAP_SIGMA
 from analysis.molecules.reduced import reduced_linear_type
 from mdsim.checks import count, positive
 from mdsim.engine.rigid_mc import lattice_start
 from mdsim.engine.rigid_model import LinearPairModel
 from mdsim.units import ReducedUnits
 
-__all__ = ["RigidBox", "rigid_box", "reduced_inertia"]
+__all__ = ["RigidBox", "rigid_box", "reduced_inertia", "centre_core"]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -62,6 +63,25 @@ def reduced_inertia(molecule, units):
     return float(molecule.moments_of_inertia()[-1] / (units.mass_kg * units.sigma_m ** 2))
 
 
+def centre_core(molecule):
+    """The hard core at the centre of a molecule with a point multipole, in sigma of its first
+    site (0 without one): OVERLAP_SIGMA times its largest site sigma, the overlap rule of
+    :mod:`analysis.molecules.pair_energy` (docs/physics.md section 7a.1).
+
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(133.22, 2.9847)
+    >>> co2 = RigidMolecule("CO2", [Site(lj, (0, 0, -1.2088), 0.022),
+    ...                             Site(lj, (0, 0, 1.2088), 0.022)], quadrupole_e_angstrom2=0.79)
+    >>> centre_core(co2)
+    0.5
+    """
+    if molecule.quadrupole == 0.0 and molecule.dipole == 0.0:
+        return 0.0
+    sigma = max(s.potential.sigma for s in molecule.sites)
+    return OVERLAP_SIGMA * sigma / molecule.sites[0].potential.sigma
+
+
 def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
               shifted=False):
     """The :class:`RigidBox` of ``n_molecules`` molecules at (T, rho).
@@ -102,7 +122,8 @@ def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed
     site = molecule.sites[0].potential
     units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
     model = LinearPairModel([reduced_linear_type(molecule, site.epsilon, site.sigma)],
-                            positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted)
+                            positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted,
+                            core=centre_core(molecule))
     inertia = reduced_inertia(molecule, units)
     box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, axis_ni = lattice_start(n, box_i, seed)

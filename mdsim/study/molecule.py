@@ -12,10 +12,7 @@ Axilrod-Teller coefficient of atoms (``three_body_c9``) is read here too.
 import math
 import numbers
 
-import numpy as np
-
 from analysis.molecules import RigidMolecule, Site
-from analysis.molecules.pair_energy import OVERLAP_SIGMA
 from mdsim.engine.potentials import LennardJones, Mie
 from mdsim.errors import StudyError
 from mdsim.study.schema import ANGSTROM, SCHEMA
@@ -23,8 +20,7 @@ from mdsim.study.values import MISSING, check_table
 from mdsim.units import K_B, parse_quantity
 
 __all__ = ["MOLECULE_FORM", "read_molecule", "read_c9", "species_molecules", "check_dof",
-           "mean_kinetic_dof", "check_simulation_supported", "MOLECULE_ROUTES", "centres_can_meet",
-           "E_C_PER_E",
+           "mean_kinetic_dof", "check_simulation_supported", "MOLECULE_ROUTES", "E_C_PER_E",
            "MOLAR_MASS_TOLERANCE"]
 
 #: The [potential] form of a rigid molecule.
@@ -223,39 +219,7 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          "dipole is not yet supported (the rigid Monte Carlo has site "
                          "Lennard-Jones or Mie and an axial quadrupole); use the virial routes, "
                          "[simulation] routes = []")
-    if mol.quadrupole != 0.0 and centres_can_meet(mol):
-        raise StudyError(f"{where}: simulation of '{mol.name}' is not yet supported: its sites "
-                         "let two molecules' centres meet with no two sites closer than "
-                         f"{OVERLAP_SIGMA:g} sigma (crossed axes), where the point quadrupole's "
-                         "r^-5 energy has no bound, and the rigid Monte Carlo has no hard core "
-                         "at the centre (docs/physics.md section 7a.6); use the virial routes, "
-                         "[simulation] routes = []")
     if sampler == "md":
         raise StudyError(f'{where}: [simulation] sampler = "{sampler}": the energy route samples '
                          'rigid molecules by canonical Monte Carlo; remove sampler or set '
                          'sampler = "mc"')
-
-
-def centres_can_meet(molecule):
-    """Whether two linear molecules can share a centre with no sites overlapping.
-
-    At a common centre the sites a and b of two molecules whose axes make
-    the angle theta are sqrt(z_a^2 + z_b^2 - 2 z_a z_b cos theta) apart;
-    they overlap when closer than ``OVERLAP_SIGMA`` times their mean sigma
-    (the overlap rule of :mod:`analysis.molecules.pair_energy`).  True when
-    some theta leaves every site pair apart.
-
-    >>> from mdsim.study.reader import read_study
-    >>> from pathlib import Path
-    >>> configs = Path(__file__).resolve().parents[2] / "configs"
-    >>> [centres_can_meet(read_study(configs / f).gas.molecules[0])
-    ...  for f in ("nitrogen.toml", "co2.toml")]
-    [False, True]
-    """
-    z = molecule.axial_positions_s()
-    sigma = np.array([s.potential.sigma for s in molecule.sites])
-    cos_t = np.cos(np.linspace(0.0, math.pi, 181))[:, None, None]
-    d = np.sqrt(np.maximum(z[:, None] ** 2 + z[None, :] ** 2
-                           - 2.0 * z[:, None] * z[None, :] * cos_t, 0.0))
-    apart = d >= OVERLAP_SIGMA * 0.5 * (sigma[:, None] + sigma[None, :])
-    return bool(np.any(np.all(apart, axis=(1, 2))))
