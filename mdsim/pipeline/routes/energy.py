@@ -143,14 +143,15 @@ def _total_share(job, first):
 def _guess_temperature(job, it, T_newton=None):
     """The reduced temperature of the it-th guess at the final density.
 
-    Read from its pilot stage file when one is on disk (a task run again, as
-    with a tighter target, keeps the temperatures it sampled), else the
-    virial guess (it = 0) or ``T_newton`` (K).
+    Read from its pilot stage file when a sound one is on disk (a task run
+    again, as with a tighter target, keeps the temperatures it sampled), else
+    the virial guess (it = 0) or ``T_newton`` (K).  A damaged pilot is
+    passed over here; running its stage moves it aside and samples it again.
     """
     labels = [final_density_guess(it)] + [f"{final_density_guess(it)}-{k}" for k in ("mc", "md")]
     for label in labels:
         path = job.stage_path(stage_name(label))
-        if path.is_file():
+        if store.is_complete(path):
             return float(store.read_attrs(path)["temperature_red"])
     return (job.T_f_guess if T_newton is None else T_newton) / job.eps_K
 
