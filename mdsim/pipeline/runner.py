@@ -184,7 +184,7 @@ def _run(rd, index, task, progress, seen):
     result["phase_check"] = to_plain(phases)
     result["entropy_generated_J_molK"] = entropy
     result["wall_seconds_last_run"] = time.time() - wall0
-    if job.stopped_by == "cpu budget":
+    if str(job.stopped_by or "").startswith("cpu budget"):
         result["warnings"].append(
             f"{task['route']} route: the CPU budget ({job.budget_s:g} s) ended sampling at a "
             f"standard error of {res.delta_T_stderr_K:.3g} K (target {job.target_K:g} K); "

@@ -36,7 +36,7 @@ from mdsim.pipeline.stage_names import INITIAL_STATE, final_density_guess, stage
 from mdsim.sampling import store
 from mdsim.units import R_GAS
 
-__all__ = ["run_energy", "next_temperature", "UNSOLVED", "STEP_TOLERANCE", "PLAN_FRACTION"]
+__all__ = ["run_energy", "next_temperature", "UNSOLVED", "BUDGET_UNSOLVED", "STEP_TOLERANCE", "PLAN_FRACTION"]
 
 MAX_NEWTON_TEMPERATURES = 4
 SCOUT = 3.0
@@ -96,6 +96,9 @@ def run_energy(job):
     finals = []
     res, samples = _newton(job, init, first, finals, share_f, sampler != "auto")
     res, samples = _refine(job, init, finals, res, samples)
+    if (job.stopped_by == "cpu budget" and res.method == "newton"
+            and not res.details["newton_converged"]):
+        job.stopped_by = BUDGET_UNSOLVED  # not "target", even when the error is below it
     job.final_chain = _nearest(job, finals, res)
     series = {
         "newton_T_K": np.array([s.temperature_K for s in samples]),
@@ -227,6 +230,9 @@ def _far(res):
 
 UNSOLVED = "temperature guesses used up"
 """The stop reason when every temperature guess is spent and the balance is not solved."""
+BUDGET_UNSOLVED = "cpu budget, balance unsolved"
+"""The stop reason when the CPU budget ended the Newton search before the balance was solved
+(the standard error may be below the target: T_f is still not solved)."""
 
 
 def _balance(job, sample, res):
