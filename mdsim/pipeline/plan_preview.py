@@ -201,7 +201,10 @@ def preview_plan(study, *, pilot=True):
         _, dT, _ = virial_start_guess(gas, cv_ig, sp["temperature_K"], sp["volume_ratio"], rho_i)
         n, warning = choose_particles(study, task["particles"], rho_i, sp["index"], dT,
                                       task["target_stderr_K"])
-        cpu, how = _cpu_estimate(study, task, n, pilots) if pilot else (None, "not estimated")
+        if study.gas.molecules is not None:  # the in-memory pilot samples spheres only
+            cpu, how = None, "not estimated (no in-memory pilot for rigid molecules yet)"
+        else:
+            cpu, how = _cpu_estimate(study, task, n, pilots) if pilot else (None, "not estimated")
         out.append({"index": task["index"], "state_point": dict(sp), "route": task["route"],
                     "seed": list(task["seed"]), "initial_density_mol_m3": rho_i,
                     "particles": n,

@@ -157,3 +157,13 @@ def test_a_sphere_system_of_molecules_is_refused(tmp_path):
     assert [t["route"] for t in plan_tasks(study)] == ["energy"]
     with pytest.raises(StudyError, match="takes spherical potentials"):
         study.system(128, 4000.0)
+
+
+def test_the_plan_of_a_molecule_study_lists_its_tasks_without_a_sphere_pilot(tmp_path):
+    """`mdsim run STUDY --plan` refused a rigid-molecule study (its in-memory pilot samples
+    spheres); it now lists the tasks and says that their CPU time is not estimated."""
+    from mdsim.pipeline.plan_preview import preview_plan
+    entries = preview_plan(read_study(energy_study(tmp_path)))
+    assert [e["route"] for e in entries] == ["energy"]
+    assert entries[0]["cpu_time_s"] is None
+    assert "rigid molecules" in entries[0]["cpu_time_from"]
