@@ -36,7 +36,7 @@ from mdsim.sampling import store
 
 __all__ = ["Chain", "mean_se", "production_mean", "run_to", "settle", "solve_or_extend",
            "stage_share", "split_share", "SAFETY", "MIN_STAGE_SAMPLES", "MIN_CHAIN_SAMPLES",
-           "ERROR_BLOCKS", "MAX_STAGES_PER_CHAIN"]
+           "ERROR_BLOCKS", "MAX_STAGES_PER_CHAIN", "UNSETTLED_BUDGET"]
 
 PILOT_SAMPLES = 200
 MIN_STAGE_SAMPLES = 200
@@ -331,11 +331,12 @@ def run_to(chain, target_se, key=None):
 
 
 def settle(chain, keys):
-    """Extend a chain (past the CPU budget if need be) until every series in keys settles.
+    """Extend a chain within the CPU budget until every series in keys settles.
 
-    A series that still drifts has no mean to report; the extension is
-    mandatory (:meth:`Chain.extend`), bounded by ``MAX_STAGES_PER_CHAIN``,
-    after which the ``ConvergenceError`` of the drifting series is raised.
+    A series that still drifts has no mean to report; the chain is extended
+    (:func:`solve_or_extend`) while the budget lasts and at most
+    ``MAX_STAGES_PER_CHAIN`` stages, after which the ``ConvergenceError`` of
+    the drifting series is raised.
     """
     from analysis.stats import mean_and_stderr
 
@@ -346,11 +347,36 @@ def settle(chain, keys):
     solve_or_extend(chain, solve)
 
 
+UNSETTLED_BUDGET = "cpu budget, series unsettled"
+"""The stop reason when the CPU budget ends a chain whose series still drifts."""
+
+
 def solve_or_extend(chain, solve):
-    """Call solve(); while the series still drifts, extend the chain and retry."""
+    """Call solve(); while the series still drifts, extend the chain within the budget and retry.
+
+    Each extension doubles the chain, cut to what the CPU budget has left
+    (:meth:`Chain.extend`).  A series that never settles (a sample separating
+    into two phases drifts on) would otherwise run far past the budget.
+
+    Raises
+    ------
+    ConvergenceError
+        The series still drifts when the budget is spent (the task's
+        ``stopped_by`` becomes :data:`UNSETTLED_BUDGET`) or the chain holds
+        ``MAX_STAGES_PER_CHAIN`` stages.
+    """
     while True:
         try:
             return solve()
-        except ConvergenceError:
-            if not chain.extend(chain.n_samples(), mandatory=True):
+        except ConvergenceError as exc:
+            job = chain.job
+            if chain.extend(chain.n_samples()):
+                continue
+            if job.stopped_by != "cpu budget":
                 raise
+            job.stopped_by = UNSETTLED_BUDGET
+            raise ConvergenceError(
+                f"stopped by the CPU budget ({job.budget_s:g} s) with the series of "
+                f"'{chain.label}' still drifting ({exc}); a sample separating into two phases "
+                "drifts like this; raise [simulation] max_cpu_time to sample longer",
+                partial=exc.partial) from None
