@@ -20,7 +20,8 @@ from mdsim.errors import ConvergenceError, SettingError, StudyError
 
 __all__ = ["coexistence_table", "expansion_through_coexistence", "final_state_in_dome",
            "coexistence_for_task", "coexistence_text", "warn_virial_in_dome", "GIBBS_SOURCE", "GIBBS_SETTINGS",
-           "GRID_STEP_RED", "FIRST_POINTS", "MAX_POINTS", "LOWEST_T_RED"]
+           "GRID_STEP_RED", "FIRST_POINTS", "MAX_POINTS", "LOWEST_T_RED", "gibbs_progress",
+           "LOG_EVERY_S"]
 
 GIBBS_SOURCE = "Gibbs-ensemble Monte Carlo of the study's potential (rc and tail as every route)"
 
@@ -214,15 +215,59 @@ def _gibbs_point(job, T_red):
     """One Gibbs point of the study's potential (cached; computed CPU booked in the ledger)."""
     from mdsim.sampling.coexistence import coexistence_point
     c0 = time.process_time()
-    point = coexistence_point(job.study.reduced_pairs(), T_red,
-                              cache_dir=job.rd.coexistence_dir, **GIBBS_SETTINGS)
     name = f"coexistence-T{T_red:.6f}"
+    point = coexistence_point(job.study.reduced_pairs(), T_red,
+                              cache_dir=job.rd.coexistence_dir,
+                              progress=gibbs_progress(job, name, T_red), **GIBBS_SETTINGS)
     cpu = time.process_time() - c0
     if name not in job.ledger:
         units = GIBBS_SETTINGS["n_particles"] * (GIBBS_SETTINGS["equilibration_cycles"]
                                                  + GIBBS_SETTINGS["production_cycles"])
         job.ledger.record(name, "gibbs", cpu, units)
     return point
+
+
+LOG_EVERY_S = 10.0
+"""Seconds between two lines of a Gibbs run in the run directory's ``log.txt``."""
+
+
+def gibbs_progress(job, name, T_red):
+    """The progress callback of a task's Gibbs run: the task's progress, and ``log.txt`` lines.
+
+    Each block of the run (:func:`mdsim.sampling.coexistence.coexistence_point`)
+    is passed on as the task's progress (``stage``, ``done``, ``total``: the
+    progress file and the live line, :mod:`mdsim.execute.progress`), and at
+    most every :data:`LOG_EVERY_S` seconds, and at its end, one line goes to
+    the run directory's ``log.txt``, with or without a terminal.
+
+    Parameters
+    ----------
+    job : mdsim.pipeline.task.RunningTask
+    name : str
+        The stage name shown (``coexistence-T...``).
+    T_red : float
+
+    Returns
+    -------
+    callable
+        ``report(cycles_done, cycles_total, (rho_low, rho_high))``.
+    """
+    last = [-math.inf]
+
+    def report(done, total, densities):
+        if getattr(job, "progress", None) is not None:
+            job.progress(stage=name, done=done, total=total)
+        now = time.monotonic()
+        if now - last[0] < LOG_EVERY_S and done < total:
+            return
+        last[0] = now
+        try:
+            job.rd.append_log(f"task {job.index:04d} {name}: Gibbs ensemble at T* = {T_red:g}, "
+                              f"cycle {done}/{total}, box densities {densities[0]:.4g} and "
+                              f"{densities[1]:.4g} (reduced)")
+        except OSError:
+            pass  # a log that cannot be written does not stop the task
+    return report
 
 
 def _kelvins(points, units):

@@ -44,7 +44,7 @@ from mdsim.errors import ConvergenceError, SettingError, StudyError
 from mdsim.files import atomic_write_text
 
 __all__ = ["CoexistencePoint", "coexistence_point", "start_densities_guess", "cache_file",
-           "cached_points", "TAIL_TREATMENT"]
+           "cached_points", "TAIL_TREATMENT", "PROGRESS_BLOCK_CYCLES"]
 
 TAIL_TREATMENT = "truncated at rc, analytic long-range correction per box (g(r) = 1 beyond rc)"
 """How the interaction beyond the cut-off is treated (the same in every route)."""
@@ -66,6 +66,9 @@ _MAX_SWAPS = 0.02
 # Blocks of the production series whose scatter bounds each standard error from below.
 _ERROR_BLOCKS = 5
 _CACHE_VERSION = 1
+PROGRESS_BLOCK_CYCLES = 500
+"""Cycles of a Gibbs run between two progress reports (a multiple of the sampler's ten-cycle
+tuning groups, so that the blocks give the numbers of one uninterrupted run)."""
 
 
 @dataclass(frozen=True)
@@ -238,7 +241,7 @@ def _phase_series(out):
 
 def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=3000,
                       production_cycles=6000, sample_interval=5, seed=0, start_densities=None,
-                      cache_dir=None):
+                      cache_dir=None, progress=None):
     """Coexisting vapour and liquid at one temperature by Gibbs-ensemble Monte Carlo.
 
     Parameters
@@ -265,6 +268,10 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     cache_dir : path-like, optional
         Folder of cached points (a run directory's ``coexistence/``); a
         point computed with the same potential and settings is read back.
+    progress : callable, optional
+        Called as ``progress(cycles_done, cycles_total, (rho_low, rho_high))``
+        every :data:`PROGRESS_BLOCK_CYCLES` cycles of a run (not for a
+        cached point).
 
     Returns
     -------
@@ -311,7 +318,7 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     path = None if cache_dir is None else cache_file(cache_dir, pairs, T_red, *run)
     if path is not None and (cached := _read_cached(path)) is not None:
         return cached
-    sampler, out = _run_gibbs(pairs, T_red, run, start_densities)
+    sampler, out = _run_gibbs(pairs, T_red, run, start_densities, progress)
     point = _summarise(out, sampler, T_red, run[1], run[2])
     if path is not None:
         _write_cached(path, point)
@@ -333,16 +340,41 @@ def _checked_run(n_particles, equilibration_cycles, production_cycles, sample_in
     return n_particles, equilibration_cycles, production_cycles, sample_interval, seed
 
 
-def _run_gibbs(pairs, T_red, run, start_densities):
-    """(sampler, its run output): equilibrate, then produce, from the start densities."""
+def _run_gibbs(pairs, T_red, run, start_densities, progress=None):
+    """(sampler, its run output): equilibrate, then produce, from the start densities.
+
+    The run goes in blocks of about :data:`PROGRESS_BLOCK_CYCLES` cycles (the
+    same numbers as one piece: the random stream continues, and the tuning
+    groups of ten cycles are not cut); after each, ``progress(done, total,
+    densities)`` with the cycles done and planned and the two boxes' current
+    densities (lower first).
+    """
     n_particles, equilibration_cycles, production_cycles, sample_interval, seed = run
     rho_vap0, rho_liq0 = start_densities_guess(T_red) if start_densities is None \
         else (positive("start_densities", start_densities[0], "vapour, reduced"),
               positive("start_densities", start_densities[1], "liquid, reduced"))
     n_vap0, n_liq0 = _start_split(pairs, n_particles, rho_vap0, rho_liq0)
     sampler = GibbsSampler(pairs, T_red, [n_liq0, n_vap0], [rho_liq0, rho_vap0], seed=seed)
-    sampler.equilibrate(equilibration_cycles)
-    return sampler, sampler.run(production_cycles // sample_interval, sample_interval)
+    n_samples = production_cycles // sample_interval
+    total = equilibration_cycles + n_samples * sample_interval
+
+    def report(done):
+        if progress is not None:
+            progress(done, total, tuple(sorted(sampler.n_b / sampler.box_b ** 3)))
+    done = 0
+    while done < equilibration_cycles:
+        m = min(PROGRESS_BLOCK_CYCLES, equilibration_cycles - done)
+        sampler.equilibrate(m)
+        done += m
+        report(done)
+    per_block = max(1, PROGRESS_BLOCK_CYCLES // sample_interval)
+    parts = []
+    while sum(len(p["u_full"]) for p in parts) < n_samples:
+        m = min(per_block, n_samples - sum(len(p["u_full"]) for p in parts))
+        parts.append(sampler.run(m, sample_interval))
+        done += m * sample_interval
+        report(done)
+    return sampler, {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
 
 
 def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles):

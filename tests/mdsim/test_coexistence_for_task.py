@@ -129,3 +129,24 @@ def test_no_cached_curve_means_no_virial_check(tmp_path):
     rec = {"warnings": []}
     assert warn_virial_in_dome(study, tmp_path / "empty", [rec]) is False
     assert rec["warnings"] == []
+
+
+def test_a_gibbs_run_reports_its_progress_and_logs_lines(tmp_path):
+    # the task's progress callback gets every block; log.txt a line at most every
+    # LOG_EVERY_S seconds and at the end, whether or not there is a terminal
+    from mdsim.pipeline.coexistence_route import LOG_EVERY_S, gibbs_progress
+    seen = []
+    rd = RunDir(tmp_path / "run")
+    rd.path.mkdir(parents=True)
+    task = SimpleNamespace(rd=rd, index=7, progress=lambda **kw: seen.append(kw))
+    report = gibbs_progress(task, "coexistence-T0.900000", 0.9)
+    for done in (500, 1000, 1500):   # three blocks within LOG_EVERY_S (10 s): one line
+        report(done, 9000, (0.0151, 0.7523))
+    report(9000, 9000, (0.0148, 0.7530))   # the end: always a line
+    assert LOG_EVERY_S >= 5.0
+    assert [s["done"] for s in seen] == [500, 1000, 1500, 9000]
+    assert seen[0] == {"stage": "coexistence-T0.900000", "done": 500, "total": 9000}
+    lines = rd.log_file.read_text(encoding="utf-8").splitlines()
+    assert len(lines) == 2
+    assert "task 0007 coexistence-T0.900000: Gibbs ensemble at T* = 0.9, cycle 500/9000" in lines[0]
+    assert "cycle 9000/9000, box densities 0.0148 and 0.753" in lines[1]
