@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
+from mdsim.cstable.coexistence import grid_pairs, grid_points
 from mdsim.cstable.plan import (METHOD, is_point_complete, point_path, read_plan,
                                 reduced_potential)
 from mdsim.cstable.series import VirialSeries, virial_nodes
@@ -67,6 +68,10 @@ def _gather(points_dir, plan, T_t, rho_d, vir_nodes):
 def assemble_table(points_dir, out_path):
     """Gather the complete point files of a build into the table file (atomic write).
 
+    A plan with ``coexistence_temperatures`` adds its Gibbs-ensemble points
+    (:func:`mdsim.cstable.coexistence.grid_points`, read from the build's
+    cache) as the file's coexistence grid.
+
     Parameters
     ----------
     points_dir : str or Path
@@ -95,7 +100,10 @@ def assemble_table(points_dir, out_path):
     holdout = table.hold_out()
     out_path = Path(out_path)
     tmp = out_path.with_name(out_path.name + ".part")
+    coexistence = grid_points(points_dir, plan)  # read from the build's cache
     _write_file(tmp, plan, holdout, T_t, rho_d, data, err, g_td, n_td, vir_nodes)
+    if coexistence:
+        _write_grid(tmp, coexistence, grid_pairs(plan))
     os.replace(tmp, out_path)
     return out_path
 
@@ -140,3 +148,10 @@ def _write_file(path, plan, holdout, T_t, rho_d, data, err, g_td, n_td, vir_node
         h = f.create_group("holdout")
         for k, a in holdout["points"].items():
             h[k] = a
+
+
+def _write_grid(path, points, pairs):
+    import h5py
+    from mdsim.sampling.coexistence_grid import write_grid
+    with h5py.File(path, "a") as f:
+        write_grid(f, points, pairs)

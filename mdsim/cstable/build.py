@@ -12,6 +12,7 @@ import time
 from pathlib import Path
 
 from mdsim.cstable.assemble import assemble_table
+from mdsim.cstable.coexistence import grid_points
 from mdsim.cstable.plan import is_point_complete, points_dir_for, table_settings, write_plan
 from mdsim.cstable.point import point_job
 from mdsim.errors import SettingError, SimulationError
@@ -39,7 +40,8 @@ def build_table(study, out_path, on="local", workers=None, progress=True, dask_a
         Worker processes (default: the number of cores, at most the points;
         2 for a Dask LocalCluster).
     progress : bool
-        A line on stderr as each point finishes.
+        A line on stderr as each point finishes (and per block of the
+        Gibbs-ensemble runs of a coexistence grid).
     dask_address : str, optional
         An existing Dask scheduler ("tcp://host:8786").
 
@@ -83,6 +85,8 @@ def build_table(study, out_path, on="local", workers=None, progress=True, dask_a
             raise SimulationError(f"{len(failed)} of {len(plan['points'])} table points failed "
                                   f"(point {first}: {failed[first]}); the others are kept in "
                                   f"'{points_dir}'; run the same build again to retry")
+    if plan.get("coexistence_temperatures"):
+        grid_points(points_dir, plan, progress=say)
     path = assemble_table(points_dir, out_path)
     say(f"wrote {path}")
     return path

@@ -24,7 +24,8 @@ METHOD = "mc-nvt"
 BOX_MARGIN = 1.02
 # The plan's keys that must agree for a build to resume (study name and file may change).
 PLAN_KEYS = ("form", "shape", "cutoff", "particles", "equilibration", "samples", "seed",
-             "temperatures", "densities", "virial_below", "simulation_above")
+             "temperatures", "densities", "virial_below", "simulation_above",
+             "coexistence_temperatures", "coexistence_particles", "coexistence_cycles")
 
 
 def _potential_shape(study):
@@ -63,8 +64,9 @@ def table_settings(study):
     dict
         ``temperatures`` (sorted list), ``densities`` (sorted, positive),
         ``particles``, ``equilibration``, ``samples``, ``seed``,
-        ``virial_below``, ``simulation_above``, plus ``form``, ``shape``,
-        ``cutoff``.
+        ``virial_below``, ``simulation_above``, ``coexistence_temperatures``
+        (sorted; empty: no coexistence grid), ``coexistence_particles``,
+        ``coexistence_cycles``, plus ``form``, ``shape``, ``cutoff``.
     """
     # the schema of [table] and its checker live with the study reader
     from mdsim.study import SCHEMA, Context, check_table
@@ -93,7 +95,9 @@ def table_settings(study):
                  "simulation_above > virial_below", "raise simulation_above")
     form, shape, pairs = _potential_shape(study)
     s.update(temperatures=T_t, densities=rho_d, form=form, shape=shape,
-             cutoff=float(pairs.cutoff))
+             cutoff=float(pairs.cutoff),
+             coexistence_temperatures=sorted(float(t) for t in
+                                             s.get("coexistence_temperatures", [])))
     return s
 
 

@@ -62,6 +62,9 @@ class CorrespondingStatesTable:
         ``rms_z`` (error over the combined standard error), ``n``.
     provenance : dict
         The file's attributes.
+    coexistence_T_red : ndarray
+        Temperatures of the file's coexistence grid (empty without one;
+        :mod:`mdsim.sampling.coexistence_grid` reads the points).
     """
 
     def __init__(self, temperature_red, density_red, data, stderr, virial_nodes, form, shape,
@@ -74,6 +77,7 @@ class CorrespondingStatesTable:
         self.virial_below = float(virial_below)
         self.simulation_above = float(simulation_above)
         self.provenance = dict(provenance)
+        self.coexistence_T_red = np.zeros(0)
         self.interpolation_error = json.loads(provenance["interpolation_error"]) \
             if "interpolation_error" in provenance else {}
         self._series = VirialSeries(virial_nodes)
@@ -119,6 +123,8 @@ class CorrespondingStatesTable:
                         attrs["form"], json.loads(attrs["shape"]), attrs["cutoff_sigma"],
                         attrs["virial_below"], attrs["simulation_above"], attrs)
             table.path = path
+            table.coexistence_T_red = (f["coexistence"]["T_red"][()] if "coexistence" in f
+                                       else np.zeros(0))
         return table
 
     # -- ranges -------------------------------------------------------------------------
@@ -291,6 +297,10 @@ class CorrespondingStatesTable:
                  + ", ".join(f"{r:g}" for r in self.density_red),
                  f"  exact B2 + B3 series below rho* = {self.virial_below:g}, simulation above "
                  f"{self.simulation_above:g}"]
+        grid = self.coexistence_T_red
+        if grid.size:
+            lines.append(f"  coexistence grid (Gibbs ensemble): {len(grid)} temperatures, T* "
+                         + ", ".join(f"{t:g}" for t in grid))
         p = self.provenance
         if p:
             lines.append(f"  built {p.get('created', '?')} from study {p.get('study_name', '?')}: "

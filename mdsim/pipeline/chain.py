@@ -30,6 +30,7 @@ import math
 
 import numpy as np
 
+from analysis.stats import ERROR_BLOCKS, production_mean
 from mdsim.errors import ConvergenceError
 from mdsim.pipeline.stage_names import stage_name
 from mdsim.sampling import store
@@ -44,8 +45,6 @@ MIN_CHAIN_SAMPLES = 1000
 """A chain's first production stage has at least this many samples, so that its error
 estimate (statistical inefficiency and blocks, :func:`production_mean`) rests on a series
 long against the slow modes a pilot may miss."""
-ERROR_BLOCKS = 10
-"""Blocks of the block-averaging floor of a production mean's standard error."""
 MAX_STAGE_SAMPLES = 200_000
 MAX_STAGES_PER_CHAIN = 12
 MAX_INTERVAL_MC = 20
@@ -84,51 +83,6 @@ def split_share(total_se, cost_a, cost_b):
     ok = all(math.isfinite(c) and c > 0.0 for c in (cost_a, cost_b))
     w_a = math.sqrt(cost_a) / (math.sqrt(cost_a) + math.sqrt(cost_b)) if ok else 0.5
     return total_se * math.sqrt(w_a), total_se * math.sqrt(1.0 - w_a)
-
-
-def production_mean(x_t, settled=True):
-    """Mean and standard error of a chain's production series.
-
-    Parameters
-    ----------
-    x_t : ndarray, shape=(n_samples,)
-        The concatenated production samples.
-    settled : bool
-        The chain's pilot settled (its equilibration transient ended in its
-        first half): the production samples continue an equilibrated chain
-        and none is cut off.  Otherwise the transient is detected and cut.
-
-    Returns
-    -------
-    (float, float)
-        The mean and its standard error: the larger of sqrt(g var / n)
-        (:func:`analysis.stats.mean_and_stderr`) and the block-averaging
-        error over ``ERROR_BLOCKS`` blocks (Flyvbjerg and Petersen,
-        J. Chem. Phys. 91, 461, 1989) when the series has at least
-        ``ERROR_BLOCKS`` x 20 samples.
-
-    Raises
-    ------
-    ConvergenceError
-        When the series still drifts (from :func:`analysis.stats.mean_and_stderr`).
-
-    Examples
-    --------
-    A series whose second half sits higher than its first: the blocks see
-    the slow change that a short-range statistical inefficiency does not.
-
-    >>> x = np.concatenate([np.tile([0.0, 0.2], 200), np.tile([0.1, 0.3], 200)])
-    >>> m, se = production_mean(x)
-    >>> round(m, 4), round(se, 4)
-    (0.15, 0.0167)
-    """
-    from analysis.stats import block_stderr, mean_and_stderr
-    m = mean_and_stderr(x_t, discard_equilibration=not settled)
-    used = np.asarray(x_t)[m.t0:]
-    se = m.stderr
-    if used.size >= 20 * ERROR_BLOCKS:
-        se = max(se, block_stderr(used, ERROR_BLOCKS))
-    return m.mean, se
 
 
 class Chain:

@@ -13,6 +13,7 @@ curve when one is known.
 """
 import math
 import time
+from pathlib import Path
 
 from analysis.expansion import (CoexistencePoint, CoexistenceTable, SinglePhaseFinalState,
                                 coexistence_expansion)
@@ -21,7 +22,7 @@ from mdsim.errors import ConvergenceError, SettingError, StudyError
 __all__ = ["coexistence_table", "expansion_through_coexistence", "final_state_in_dome",
            "coexistence_for_task", "coexistence_text", "warn_virial_in_dome", "GIBBS_SOURCE", "GIBBS_SETTINGS",
            "GRID_STEP_RED", "FIRST_POINTS", "MAX_POINTS", "LOWEST_T_RED", "gibbs_progress",
-           "LOG_EVERY_S"]
+           "LOG_EVERY_S", "table_source"]
 
 GIBBS_SOURCE = "Gibbs-ensemble Monte Carlo of the study's potential (rc and tail as every route)"
 
@@ -136,7 +137,12 @@ def coexistence_for_task(job, res):
     CPU time booked in the task's ledger); the lever-rule balance
     (:func:`expansion_through_coexistence`) from the initial state the route
     sampled.  While the balance has no two-phase root one more point is added
-    above, up to :data:`MAX_POINTS` or the critical temperature.
+    above, up to :data:`MAX_POINTS` or the critical temperature.  When the
+    study names ``[simulation] coexistence_table``, the points are that table
+    file's coexistence grid instead (:mod:`mdsim.sampling.coexistence_grid`:
+    reduced Gibbs points of the potential's shape and cut-off, mapped to
+    the study's epsilon and sigma) and no Gibbs run is made; the record's
+    ``source`` names the table.
 
     Parameters
     ----------
@@ -159,6 +165,8 @@ def coexistence_for_task(job, res):
         why = "the route recorded no sampled energy of the initial state"
     if why is not None:
         return {"available": False, "reason": why}
+    if job.study.simulation.get("coexistence_table"):
+        return _from_table(job, u_i)
     T0 = max(LOWEST_T_RED, GRID_STEP_RED * math.floor(
         job.units.temperature_to_reduced(res.final_temperature_K) / GRID_STEP_RED + 1e-9))
     points, failure = [], None
@@ -185,6 +193,30 @@ def coexistence_for_task(job, res):
                       f"{job.units.temperature_to_K(points[-1].T_red):.4g} K ({failure}); "
                       "the equilibrium final state may hold a solid (below the triple point) "
                       "or be one fluid"}
+
+
+def _from_table(job, u_i):
+    """The expansion through coexistence on the grid of the study's table file (no Gibbs run)."""
+    from mdsim.sampling.coexistence_grid import grid_for
+    path = job.study.simulation["coexistence_table"]
+    source = table_source(path)
+    try:
+        points = grid_for(path, job.study.reduced_pairs())
+        out = expansion_through_coexistence(u_i[0], u_i[1], job.T_i, job.rho_f, points,
+                                            job.units, job.cv_ig)
+    except (StudyError, SinglePhaseFinalState) as exc:
+        return {"available": False, "source": source, "reason": f"{source}: {exc}"}
+    return _record(out, points, job.units, source)
+
+
+def table_source(path):
+    """The source line of a coexistence result read from a table file's grid.
+
+    >>> table_source("inputs/lj_table.h5")
+    "the coexistence grid of table 'lj_table.h5' (Gibbs-ensemble points of the potential's shape, reduced, mapped to this epsilon and sigma)"
+    """
+    return (f"the coexistence grid of table '{Path(path).name}' (Gibbs-ensemble points of the "
+            "potential's shape, reduced, mapped to this epsilon and sigma)")
 
 
 def _not_applicable(study, feynman_hibbs):
@@ -274,7 +306,7 @@ def _kelvins(points, units):
     return [round(units.temperature_to_K(p.T_red), 9) for p in points]
 
 
-def _record(out, points, units):
+def _record(out, points, units, source=GIBBS_SOURCE):
     def ve(value, stderr):
         return {"value": float(value), "stderr": float(stderr)}
     return {"available": True,
@@ -283,7 +315,7 @@ def _record(out, points, units):
             "vapour_fraction": ve(out.vapour_fraction, out.vapour_fraction_stderr),
             "vapour_density_mol_m3": float(out.vapour_density_mol_m3),
             "liquid_density_mol_m3": float(out.liquid_density_mol_m3),
-            "source": GIBBS_SOURCE, "temperatures_K": _kelvins(points, units)}
+            "source": source, "temperatures_K": _kelvins(points, units)}
 
 
 def coexistence_text(record):
@@ -308,8 +340,10 @@ def coexistence_text(record):
         return f"through coexistence: no result: {record.get('reason')}"
     T = record["temperatures_K"]
     d, t, x = record["delta_T_K"], record["final_temperature_K"], record["vapour_fraction"]
+    table = "" if record.get("source", GIBBS_SOURCE) == GIBBS_SOURCE else \
+        f" from {record['source']}"
     return (f"through coexistence (lever rule on Gibbs-ensemble points at {min(T):.4g} to "
-            f"{max(T):.4g} K): Delta T = {value_with_error(d['value'], d['stderr'], 'K')}, "
+            f"{max(T):.4g} K{table}): Delta T = {value_with_error(d['value'], d['stderr'], 'K')}, "
             f"T_f = {value_with_error(t['value'], t['stderr'], 'K')}, vapour fraction "
             f"{value_with_error(x['value'], x['stderr'])}")
 
@@ -319,7 +353,8 @@ def warn_virial_in_dome(study, cache_dir, records):
 
     The model's coexistence curve is known when the run directory's cache
     holds at least two Gibbs points of the study's potential (those of
-    two-phase tasks, :func:`coexistence_for_task`); the virial routes' final
+    two-phase tasks, :func:`coexistence_for_task`), or from the coexistence
+    grid of the table file the study names (``[simulation] coexistence_table``); the virial routes' final
     states (T_i + Delta T, rho_i / r) are checked against it
     (:func:`final_state_in_dome`) at temperatures between its points.
 
@@ -341,7 +376,14 @@ def warn_virial_in_dome(study, cache_dir, records):
     from mdsim.study.quantum_potential import uses_feynman_hibbs
     if _not_applicable(study, uses_feynman_hibbs(study)) is not None:
         return False
-    points = cached_points(cache_dir, study.reduced_pairs())
+    if study.simulation.get("coexistence_table"):
+        from mdsim.sampling.coexistence_grid import grid_for
+        try:
+            points = grid_for(study.simulation["coexistence_table"], study.reduced_pairs())
+        except StudyError:
+            points = []   # the tasks say why in their coexistence records
+    else:
+        points = cached_points(cache_dir, study.reduced_pairs())
     if len(points) < 2:
         return False
     table = coexistence_table(points, study.units)

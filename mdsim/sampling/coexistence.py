@@ -28,26 +28,23 @@ not affected at that level.
 
 Array suffix: ``_t`` sample.
 """
-import hashlib
-import json
 import math
-from dataclasses import asdict, dataclass, field
-from pathlib import Path
 
 import numpy as np
 
-from analysis.stats import MIN_SAMPLES, block_stderr, detect_equilibration, mean_and_stderr
+from analysis.covariate_error import mean_with_covariate
+from analysis.stats import MIN_SAMPLES, production_mean
 from mdsim.checks import count, positive
 from mdsim.engine.gibbs import GibbsSampler
 from mdsim.engine.potentials import PairMatrix
 from mdsim.errors import ConvergenceError, SettingError, StudyError
-from mdsim.files import atomic_write_text
+from mdsim.sampling.coexistence_cache import (TAIL_TREATMENT, CoexistencePoint, cache_file,
+                                              cached_points, potential_fingerprint, read_cached,
+                                              write_cached)
 
 __all__ = ["CoexistencePoint", "coexistence_point", "start_densities_guess", "cache_file",
-           "cached_points", "TAIL_TREATMENT", "PROGRESS_BLOCK_CYCLES"]
-
-TAIL_TREATMENT = "truncated at rc, analytic long-range correction per box (g(r) = 1 beyond rc)"
-"""How the interaction beyond the cut-off is treated (the same in every route)."""
+           "cached_points", "potential_fingerprint", "TAIL_TREATMENT",
+           "PROGRESS_BLOCK_CYCLES", "DRIFT_LIMIT"]
 
 # Lennard-Jones-shaped start guess of the coexisting densities (only the
 # start of the run; the Gibbs ensemble finds the coexisting states): a
@@ -63,67 +60,13 @@ _MIN_VAPOUR_PARTICLES = 20
 # Boxes that swap roles (the denser one becoming the thinner) in more than
 # this fraction of the samples are not two distinct phases.
 _MAX_SWAPS = 0.02
-# Blocks of the production series whose scatter bounds each standard error from below.
-_ERROR_BLOCKS = 5
-_CACHE_VERSION = 1
+DRIFT_LIMIT = 5.0
+"""Standard errors apart the two halves of a production series may be before the run counts as
+still drifting (a stationary series passes this with near certainty, even with its error
+underestimated two-fold)."""
 PROGRESS_BLOCK_CYCLES = 500
 """Cycles of a Gibbs run between two progress reports (a multiple of the sampler's ten-cycle
 tuning groups, so that the blocks give the numbers of one uninterrupted run)."""
-
-
-@dataclass(frozen=True)
-class CoexistencePoint:
-    """Coexisting vapour and liquid of one potential at one temperature (reduced units).
-
-    Attributes
-    ----------
-    T_red : float
-        kT / epsilon.
-    rho_vap, rho_liq : float
-        Coexisting number densities, rho sigma^3.
-    u_vap, u_liq : float
-        Residual (configurational) energy per particle of each phase,
-        truncated pairs plus the tail, in epsilon.
-    p_sat : float
-        Vapour pressure, p sigma^3 / epsilon, from the virial of the
-        vapour box.
-    p_liq : float
-        Pressure of the liquid box (equal to p_sat within the errors at
-        coexistence; a consistency check, much noisier).
-    *_err : float
-        Standard error of each, from the statistical inefficiency of its
-        series (``analysis.stats.mean_and_stderr``).
-    n_particles : int
-    equilibration_cycles, production_cycles : int
-    cutoff_red : float
-        rc / sigma.
-    tail : str
-        The treatment beyond the cut-off (:data:`TAIL_TREATMENT`).
-    seed : str
-    moves : dict
-        Tuned move sizes, move mix and acceptances (``GibbsSampler.settings``).
-    """
-
-    T_red: float
-    rho_vap: float
-    rho_vap_err: float
-    rho_liq: float
-    rho_liq_err: float
-    u_vap: float
-    u_vap_err: float
-    u_liq: float
-    u_liq_err: float
-    p_sat: float
-    p_sat_err: float
-    p_liq: float
-    p_liq_err: float
-    n_particles: int
-    equilibration_cycles: int
-    production_cycles: int
-    cutoff_red: float
-    tail: str = TAIL_TREATMENT
-    seed: str = ""
-    moves: dict = field(default_factory=dict)
 
 
 def start_densities_guess(T_red):
@@ -140,78 +83,6 @@ def start_densities_guess(T_red):
     mid = _GUESS_RHOC + _GUESS_DIAMETER * t
     half = _GUESS_WIDTH * t ** 0.325
     return max(mid - half, _GUESS_MIN_VAPOUR), mid + half
-
-
-def _fingerprint(pairs):
-    h = hashlib.sha256()
-    h.update(np.ascontiguousarray(pairs.params_ab, dtype=np.float64).tobytes())
-    h.update(np.ascontiguousarray(pairs.table, dtype=np.float64).tobytes())
-    h.update(str(int(pairs.form)).encode())
-    return h.hexdigest()[:16]
-
-
-def cache_file(cache_dir, pairs, T_red, n_particles, equilibration_cycles, production_cycles,
-               sample_interval, seed):
-    """The cache file of one coexistence point: ``cache_dir/POTENTIAL/T..._n..._....json``.
-
-    POTENTIAL is a fingerprint of the reduced pair parameters with their
-    cut-off (and the table of a tabulated potential); the file name holds
-    every setting that changes the numbers.
-    """
-    name = (f"T{float(T_red):.6f}_n{int(n_particles)}_eq{int(equilibration_cycles)}"
-            f"_prod{int(production_cycles)}_every{int(sample_interval)}_seed{seed}.json")
-    return Path(cache_dir) / _fingerprint(pairs) / name
-
-
-def _read_cached(path):
-    try:
-        data = json.loads(Path(path).read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return None   # absent or unreadable: computed again and rewritten
-    if not isinstance(data, dict) or data.get("version") != _CACHE_VERSION:
-        return None
-    try:
-        return CoexistencePoint(**data["point"])
-    except (KeyError, TypeError):
-        return None
-
-
-def cached_points(cache_dir, pairs):
-    """The points of a potential already in a cache folder, one per temperature, by T.
-
-    Where several runs of one temperature are cached (other settings), the
-    one with the most production cycles is taken.  Unreadable files are left out.
-
-    Parameters
-    ----------
-    cache_dir : path-like
-    pairs : PairMatrix
-
-    Returns
-    -------
-    list of CoexistencePoint
-
-    Examples
-    --------
-    >>> from mdsim.engine.potentials import LennardJones, PairMatrix
-    >>> cached_points("no-such-folder", PairMatrix([LennardJones(1.0, 1.0)], 3.0))
-    []
-    """
-    best = {}
-    for path in sorted((Path(cache_dir) / _fingerprint(pairs)).glob("*.json")):
-        point = _read_cached(path)
-        if point is None:
-            continue
-        old = best.get(point.T_red)
-        if old is None or point.production_cycles > old.production_cycles:
-            best[point.T_red] = point
-    return [best[t] for t in sorted(best)]
-
-
-def _write_cached(path, point):
-    path.parent.mkdir(parents=True, exist_ok=True)
-    atomic_write_text(path, json.dumps({"version": _CACHE_VERSION, "point": asdict(point)},
-                                       indent=1, sort_keys=True) + "\n")
 
 
 def _start_split(pairs, n_particles, rho_vap, rho_liq):
@@ -290,14 +161,21 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     -----
     Gibbs-ensemble Monte Carlo (Panagiotopoulos, Mol. Phys. 61, 813, 1987).
     The phases are told apart by density in every sample (the boxes may
-    swap roles).  The equilibration transient is dropped from all series at
-    once (the latest start that equilibration detection finds in any of
-    them), so that all means come from one window; each standard error is the larger of sqrt(g var / n)
-    (Chodera, J. Chem. Theory Comput. 12, 1799, 2016) and the scatter of five
-    block means (Flyvbjerg and Petersen, J. Chem. Phys. 91, 461, 1989): the
-    exchange of particles between the boxes is a slow mode, and when few
-    transfers are accepted (a cold, dense liquid) g of a short series
-    underestimates it.
+    swap roles).  The means are over the whole production, which follows
+    the tuned equilibration: no start is cut where the data suggest one,
+    since the particle exchange between the boxes is a slow mode and such a
+    cut takes a slow fluctuation for a transient (at T* = 0.9 it kept as
+    few as the last 114 of 1200 samples, raised the mean vapour density of
+    the runs by 7 % and shrank its error).  Each density's standard error
+    is :func:`analysis.stats.production_mean`'s (the larger of sqrt(g var /
+    n), Chodera, J. Chem. Theory Comput. 12, 1799, 2016, and the scatter of
+    block means, Flyvbjerg and Petersen, J. Chem. Phys. 91, 461, 1989); an
+    energy's or pressure's is at least its box density's slow part carried
+    through (:func:`analysis.covariate_error.mean_with_covariate`): the
+    vapour energy per particle follows the slowly wandering particle number
+    under much larger fast noise, which its own g misses.  A series whose
+    two halves differ by more than :data:`DRIFT_LIMIT` standard errors is
+    still drifting (ConvergenceError).
 
     Examples
     --------
@@ -316,12 +194,12 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     T_red = positive("T_red", T_red, "reduced kT/epsilon")
     run = _checked_run(n_particles, equilibration_cycles, production_cycles, sample_interval, seed)
     path = None if cache_dir is None else cache_file(cache_dir, pairs, T_red, *run)
-    if path is not None and (cached := _read_cached(path)) is not None:
+    if path is not None and (cached := read_cached(path)) is not None:
         return cached
     sampler, out = _run_gibbs(pairs, T_red, run, start_densities, progress)
     point = _summarise(out, sampler, T_red, run[1], run[2])
     if path is not None:
-        _write_cached(path, point)
+        write_cached(path, point)
     return point
 
 
@@ -377,6 +255,20 @@ def _run_gibbs(pairs, T_red, run, start_densities, progress=None):
     return sampler, {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
 
 
+def _check_settled(x_t, name, T_red):
+    """Raise ConvergenceError when the two halves of a production series differ by more than
+    DRIFT_LIMIT combined standard errors (a run still drifting at its end)."""
+    half = x_t.size // 2
+    if half < MIN_SAMPLES:
+        return
+    (m1, s1), (m2, s2) = production_mean(x_t[:half]), production_mean(x_t[half:])
+    if abs(m2 - m1) > DRIFT_LIMIT * math.hypot(s1, s2):
+        raise ConvergenceError(
+            f"Gibbs ensemble at T_red = {T_red:g}: {name} still drifts (the second half of the "
+            f"production averages {m2:.4g}, the first {m1:.4g}, {abs(m2 - m1) / math.hypot(s1, s2):.1f} "
+            "standard errors apart); run longer (more equilibration_cycles and production_cycles)")
+
+
 def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles):
     vap, liq, liq_t = _phase_series(out)
     swaps = np.count_nonzero(np.diff(liq_t)) / max(liq_t.size - 1, 1)
@@ -392,19 +284,15 @@ def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles):
             "(n_particles) so that the vapour holds at least a few")
     keys = (("rho", "rho"), ("u_full", "u"), ("pressure", "p"))
     phases = (("vap", vap), ("liq", liq))
-    # one start for every series: the means of one window belong together
-    t0 = max(detect_equilibration(series[key])[0] for _, series in phases for key, _ in keys)
-    if liq_t.size - t0 < MIN_SAMPLES:
-        raise ConvergenceError(
-            f"Gibbs ensemble at T_red = {T_red:g}: the series do not settle (equilibration "
-            f"detection leaves {liq_t.size - t0} of {liq_t.size} samples); run longer "
-            "(more equilibration_cycles and production_cycles)")
+    # the whole production, after the tuned equilibration (production_mean: no cut)
     est = {}
     for phase, series in phases:
+        est[f"rho_{phase}"] = production_mean(series["rho"])
+        for key, name in (("u_full", "u"), ("pressure", "p")):
+            est[f"{name}_{phase}"] = mean_with_covariate(series[key], series["rho"])
+    for phase, series in phases:
         for key, name in keys:
-            x_t = series[key][t0:]
-            m = mean_and_stderr(x_t, discard_equilibration=False)
-            est[f"{name}_{phase}"] = (m.mean, max(m.stderr, block_stderr(x_t, _ERROR_BLOCKS)))
+            _check_settled(series[key], f"{name}_{phase}", T_red)
     return CoexistencePoint(
         T_red=float(T_red),
         rho_vap=est["rho_vap"][0], rho_vap_err=est["rho_vap"][1],

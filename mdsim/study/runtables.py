@@ -110,4 +110,15 @@ def read_run_tables(ctx, doc, gas):
     _check_state_keys(ctx, doc, out)
     _check_densities(ctx, doc, out, gas)
     _check_quantum_potential(ctx, doc, out, gas)
+    _check_coexistence_table(ctx, out)
     return out
+
+
+def _check_coexistence_table(ctx, out):
+    """[simulation] coexistence_table: a file inside the study's folder, made absolute."""
+    from mdsim.study.datafiles import data_file
+    sim = out["simulation"]
+    if sim.get("coexistence_table") is not None:
+        sim["coexistence_table"] = str(data_file(
+            ctx, "simulation", "coexistence_table", sim["coexistence_table"], ctx.path.parent,
+            "a corresponding-states table with a coexistence grid, from 'mdsim table build'"))

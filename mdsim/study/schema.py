@@ -243,6 +243,11 @@ _RUN_TABLES = {
                                  example='"feynman-hibbs"',
                                  help="the quadratic Feynman-Hibbs effective potential for light "
                                  "gases (energy route, Monte Carlo, pure gas)"),
+        "coexistence_table": Key("string", example='"lj_table.h5"',
+                                 help="a corresponding-states table file (mdsim table build) "
+                                 "with a coexistence grid: a two-phase final state is "
+                                 "solved on its Gibbs points, no Gibbs run (relative to the "
+                                 "study file)"),
     },
     "cluster": {
         "system": Key("string", choices=CLUSTER_SYSTEMS, example='"slurm"',
@@ -289,6 +294,16 @@ _CSTABLE = {
     "simulation_above": Key("number", default=0.05, low=0.0, high=1.2, example="0.05",
                             help="reduced density above which the table is the simulation "
                             "(smooth blend in between)"),
+    "coexistence_temperatures": Key("list", item="number", low=0.3, high=5.0,
+                                    example="[0.7, 0.75, 0.8, 0.85, 0.9]",
+                                    help="reduced temperatures of an optional grid of "
+                                    "vapour-liquid coexistence points (Gibbs ensemble)"),
+    "coexistence_particles": Key("int", default=300, low=40, high=100000, low_inclusive=True,
+                                 example="300", help="particles of each Gibbs-ensemble run "
+                                 "(both boxes)"),
+    "coexistence_cycles": Key("int", default=6000, low=200, high=10 ** 8, low_inclusive=True,
+                              example="6000", help="production cycles of each Gibbs-ensemble "
+                              "run (equilibration: half as many)"),
 }
 
 #: table name -> {key: Key}.  "species" is one [[gas.species]] block, "site" one

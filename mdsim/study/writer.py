@@ -77,6 +77,9 @@ def _relocate_data_files(study, doc, copies):
     relocate(doc.get("potential"))
     for sp in doc.get("gas", {}).get("species", []) or []:
         relocate(sp.get("potential"))
+    table = study.simulation.get("coexistence_table")  # absolute, inside the study folder
+    if table is not None:
+        doc.setdefault("simulation", {})["coexistence_table"] = inputs_name(table)
     cv = study.gas.ideal_heat_capacity  # CSV paths in it are absolute, inside the study folder
     if isinstance(cv, str) and cv.strip().lower().endswith(".csv"):
         cv = inputs_name(cv)
