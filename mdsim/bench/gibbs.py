@@ -11,6 +11,10 @@ are noisy.
 
 Run ``python -m mdsim.bench.gibbs`` (``--quick`` for short runs,
 ``--particles N``, ``--cycles C`` production cycles, ``--temperatures``).
+``--seeds K`` runs each temperature with seeds 1 to K instead and prints,
+per quantity, the scatter of the K means against the root mean square of
+their reported standard errors (near 1 when the errors are right; its
+own relative uncertainty about 1 / sqrt(2 (K - 1))).
 """
 import argparse
 import time
@@ -47,7 +51,10 @@ def main(argv=None):
     ap.add_argument("--equilibration", type=int, default=None)
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--temperatures", type=float, nargs="+", default=list(TEMPERATURES))
+    ap.add_argument("--seeds", type=int, default=None)
     args = ap.parse_args(argv)
+    if args.seeds:
+        return seed_spread(args)
     prod = 400 if args.quick else args.cycles
     equil = prod // 2 if args.equilibration is None else args.equilibration
     pairs = PairMatrix([LennardJones(1.0, 1.0)], 3.0)
@@ -66,6 +73,30 @@ def main(argv=None):
             print("  Thol 2016 (teqp): rho_vap {:.5f} rho_liq {:.4f} u_vap {:.4f} u_liq {:.4f} "
                   "p_sat {:.5f}".format(*ref))
         print(f"  moves: {pt.moves}", flush=True)
+
+
+def seed_spread(args):
+    """Scatter of independent runs (seeds 1 to --seeds) against their reported errors."""
+    import numpy as np
+    pairs = PairMatrix([LennardJones(1.0, 1.0)], 3.0)
+    prod = 400 if args.quick else args.cycles
+    equil = prod // 2 if args.equilibration is None else args.equilibration
+    names = ("rho_vap", "rho_liq", "u_vap", "u_liq", "p_sat")
+    for T in args.temperatures:
+        pts = [coexistence_point(pairs, T, n_particles=args.particles, equilibration_cycles=equil,
+                                 production_cycles=prod, sample_interval=5, seed=s)
+               for s in range(1, args.seeds + 1)]
+        print(f"T* = {T}: {args.seeds} seeds, N = {args.particles}, {equil} + {prod} cycles")
+        for name in names:
+            m = np.array([getattr(p, name) for p in pts])
+            e = np.array([getattr(p, name + "_err") for p in pts])
+            rms = float(np.sqrt(np.mean(e * e)))
+            print(f"  {name:8s} mean {m.mean():.5g}, scatter {m.std(ddof=1):.2g}, rms error "
+                  f"{rms:.2g}, ratio {m.std(ddof=1) / rms:.2f}", flush=True)
+        ref = thol_reference(T)
+        if ref is not None:
+            print("  Thol 2016 (teqp): rho_vap {:.5f} rho_liq {:.4f} u_vap {:.4f} u_liq {:.4f} "
+                  "p_sat {:.5f}".format(*ref))
 
 
 if __name__ == "__main__":
