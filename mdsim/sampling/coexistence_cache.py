@@ -23,7 +23,9 @@ __all__ = ["CoexistencePoint", "TAIL_TREATMENT", "potential_fingerprint", "cache
 TAIL_TREATMENT = "truncated at rc, analytic long-range correction per box (g(r) = 1 beyond rc)"
 """How the interaction beyond the cut-off is treated (the same in every route)."""
 
-_CACHE_VERSION = 1
+_CACHE_VERSION = 2
+# 2: means and errors over the whole production (version 1 cut a start chosen from the data:
+# biased vapour densities at low T); older files are computed again.
 
 
 @dataclass(frozen=True)

@@ -103,13 +103,10 @@ def thol_coexistence_cache(thol_lj):
     The EOS is of the full potential, the product's of the truncated one with
     its tail: these points test the wiring, not the Gibbs ensemble.  Standard
     errors are invented (0.002 on rho_l* and the energies, 0.0002 on rho_v*).
-    The file layout (version 1, the point's fields) is the sampler's cache format.
+    The files are written by the sampler's own cache writer.
     """
-    import json
-    from dataclasses import asdict
-
     from mdsim.pipeline.coexistence_route import GIBBS_SETTINGS
-    from mdsim.sampling.coexistence import CoexistencePoint, cache_file
+    from mdsim.sampling.coexistence_cache import CoexistencePoint, cache_file, write_cached
 
     def fill(cache_dir, pairs, temperatures_red):
         for t in temperatures_red:
@@ -124,7 +121,5 @@ def thol_coexistence_cache(thol_lj):
                 equilibration_cycles=GIBBS_SETTINGS["equilibration_cycles"],
                 production_cycles=GIBBS_SETTINGS["production_cycles"],
                 cutoff_red=float(pairs.rc_max), seed="thol-2016-eos")
-            path = cache_file(cache_dir, pairs, t, **GIBBS_SETTINGS)
-            path.parent.mkdir(parents=True, exist_ok=True)
-            path.write_text(json.dumps({"version": 1, "point": asdict(point)}), encoding="utf-8")
+            write_cached(cache_file(cache_dir, pairs, t, **GIBBS_SETTINGS), point)
     return fill
