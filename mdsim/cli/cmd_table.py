@@ -73,6 +73,7 @@ def _table_json(table, at):
            "density_red": table.density_red.tolist(),
            "virial_below": table.virial_below, "simulation_above": table.simulation_above,
            "interpolation_error": table.interpolation_error,
+           "coexistence_temperature_red": table.coexistence_T_red.tolist(),
            "provenance": {k: (v.item() if hasattr(v, "item") else v)
                           for k, v in table.provenance.items()}}
     if at is not None:

@@ -150,7 +150,7 @@ def write_plan(points_dir, settings, study):
     if path.exists():
         old = json.loads(path.read_text(encoding="utf-8"))
         changed = [k for k in plan if k not in ("study_name", "study_file")
-                   and old.get(k) != plan[k]]
+                   and old.get(k, _before_grid(k)) != plan[k]]
         if changed:
             raise StudyError(f"'{points_dir}' holds a table build with other settings "
                              f"({', '.join(changed)} differ); choose another table file or "
@@ -158,6 +158,17 @@ def write_plan(points_dir, settings, study):
     else:
         atomic_write_text(path, json.dumps(plan, indent=1))
     return plan
+
+
+def _before_grid(key):
+    """What a plan written before the coexistence grid stands for: no grid, the defaults."""
+    if not key.startswith("coexistence_"):
+        return None
+    if key == "coexistence_temperatures":
+        return []
+    from mdsim.study import SCHEMA
+    spec = SCHEMA["table"].get(key)
+    return None if spec is None else spec.default
 
 
 def read_plan(points_dir):

@@ -186,3 +186,19 @@ def test_the_table_path_is_checked_and_copied_with_the_run(table_study, tmp_path
                      '[simulation]\ncoexistence_table = "none.h5"\n')
     with pytest.raises(StudyError, match="coexistence_table.*does not exist"):
         read_study(missing)
+
+
+def test_a_build_from_before_the_grid_resumes_without_one(tmp_path):
+    # a plan.json written before the coexistence keys existed stands for "no grid" with the
+    # default sizes: the same build resumes; asking for a grid is another build
+    import json
+
+    from mdsim.cstable import table_settings, write_plan
+    study = read_study(_study(tmp_path, ARGON, TABLE.split("coexistence_temperatures")[0]))
+    plan = write_plan(tmp_path / "t.h5.points", table_settings(study), study)
+    old = {k: v for k, v in plan.items() if not k.startswith("coexistence_")}
+    (tmp_path / "t.h5.points" / "plan.json").write_text(json.dumps(old), encoding="utf-8")
+    write_plan(tmp_path / "t.h5.points", table_settings(study), study)
+    grid = read_study(_study(tmp_path, dict(ARGON, name="grid"), TABLE))
+    with pytest.raises(StudyError, match="coexistence_temperatures"):
+        write_plan(tmp_path / "t.h5.points", table_settings(grid), grid)
