@@ -54,15 +54,23 @@ def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
         read_study(write_study(tmp_path, NITROGEN.replace(old, new)))
 
 
-def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys):
-    # the energy route takes rigid molecules (tests/mdsim/test_rigid_route.py); the
+@pytest.mark.parametrize("name, route, match, line", [
+    # the energy route takes rigid linear molecules (tests/mdsim/test_rigid_route.py); the
     # microcanonical route does not
-    path = write_study(tmp_path, NITROGEN.replace("\nroutes = []", '\nroutes = ["microcanonical"]'))
-    with pytest.raises(StudyError, match="not yet supported for rigid-molecule potentials"):
+    ("nitrogen", "microcanonical", "not yet supported for rigid-molecule potentials",
+     'use routes = ["energy"] or the virial routes'),
+    # the rigid-molecule engine is linear-only; the virial routes answer instead
+    ("propane", "energy", "molecule 'propane' is not linear.*routes = \\[\\]",
+     "takes linear molecules only"),
+])
+def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys, name, route, match, line):
+    text = (CONFIGS / f"{name}.toml").read_text()
+    path = write_study(tmp_path, text.replace("\nroutes = []", f'\nroutes = ["{route}"]'))
+    with pytest.raises(StudyError, match=match):
         plan_tasks(read_study(path))
     assert main(["run", str(path), "--out", str(tmp_path / "run")]) == 2
     err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and 'use routes = ["energy"] or the virial routes' in err[0]
+    assert len(err) == 1 and line in err[0]
 
 
 @pytest.mark.parametrize("text", ["518 hartree * bohr^9", "532252.5 K angstrom^9"])
@@ -97,16 +105,6 @@ def test_propane_config_reads_as_a_rigid_nonlinear_molecule():
     assert "Martin and Siepmann" in mol.source
     assert ideal_heat_capacity(study).cv(400.0) == pytest.approx(3.0 * R_GAS + 60.7)
     assert plan_tasks(study) == []  # routes = []: the virial routes only
-
-
-def test_nonlinear_molecule_is_refused_by_the_simulation_in_one_line(tmp_path, capsys):
-    # the rigid-molecule engine is linear-only; the virial routes answer instead
-    path = write_study(tmp_path, PROPANE.replace("\nroutes = []", '\nroutes = ["energy"]'))
-    with pytest.raises(StudyError, match="molecule 'propane' is not linear.*routes = \\[\\]"):
-        plan_tasks(read_study(path))
-    assert main(["run", str(path), "--out", str(tmp_path / "run")]) == 2
-    err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and "takes linear molecules only" in err[0]
 
 
 def test_nonlinear_molecule_refuses_axial_multipoles(tmp_path):
