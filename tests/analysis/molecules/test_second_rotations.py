@@ -69,8 +69,9 @@ def test_linear_molecule_through_the_rotation_quadrature(nitrogen):
     # N2 (2CLJQ) by the full-rotation grid against the linear quadrature (itself converged to
     # 2e-7 here). Measured: 5e-6 of B2 at 150 K, 1.4e-5 at 1000 K, 4e-4 cm^3/mol near the
     # Boyle temperature (300 K), dB2/dT within 3.2e-5; the floor is the two quadratures'
-    # accuracy (the energies agree to 1e-12 above). Tolerance: 1e-4 of |B2| plus 1e-5 of
-    # the hard-core scale 2 pi sigma^3 / 3.
+    # accuracy (the energies agree to 1e-12 above): at degree 17 with 6 radial nodes per panel
+    # (too slow for here, ~15 s) 2.7e-7, 1.5e-6 and 6.8e-8 of B2. Tolerance: 1e-4 of |B2|
+    # plus 1e-5 of the hard-core scale 2 pi sigma^3 / 3.
     T = np.array([150.0, 300.0, 1000.0])
     full = RotationGrid(nitrogen, nitrogen).b2(T)
     linear = OrientationGrid(nitrogen, nitrogen).b2(T)
