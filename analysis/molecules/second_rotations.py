@@ -84,9 +84,9 @@ class RotationGrid:
     B2 = -2 pi int R^2 <f(R, w)>_w dR (Gray and Gubbins, Theory of
     Molecular Fluids, vol. 1, 1984, section 3.2), here
     -2 pi sum_o w_o R_c(o)^3 int x^2 f(x R_c(o), o) dx.  Measured on rigid
-    propane (TraPPE-UA, tests/analysis/molecules/test_second_rotations.py):
-    degree 11 agrees with degree 17 to 1e-4 from 150 to 1000 K, degree 9 to
-    4e-3; the radial rule is converged to 1e-5.
+    propane (TraPPE-UA, tests/analysis/molecules/test_propane.py): degree
+    11 agrees with degree 17 to 1e-4 from 150 to 1000 K, degree 9 to 6e-3;
+    the radial rule is converged to 1e-5 (docs/physics.md section 7a.2).
 
     Examples
     --------
