@@ -8,6 +8,8 @@ non-linear molecule) and C from the
 Monte Carlo integration of :mod:`analysis.molecules.third`, whose standard
 error :meth:`MolecularVirialGas.C_stderr` gives.
 """
+import warnings
+
 import numpy as np
 
 from analysis.molecules.second import (DEFAULT_ORIENTATION_NODES, DEFAULT_RADIAL_NODES,
@@ -84,6 +86,15 @@ class MolecularVirialGas(VirialGas):
         self.de_boer = np.zeros(ns)
         if any(m.is_nonlinear for m in self.molecules):
             sphere_rule(rotation_degree, "rotation_degree")  # a bad degree is refused now
+        charged = [m.name for m in self.molecules
+                   if m.is_nonlinear and bool(np.any(m.charge_s != 0.0))]
+        if charged:
+            warnings.warn(
+                f"{', '.join(charged)}: B2 of a non-linear molecule with site charges is not "
+                f"converged at rotation degree {rotation_degree} (a three-site water model moved "
+                "by 1-2 % from degree 11 to 15, docs/physics.md section 7a.2): its B2, B3 and "
+                "every number that follows may be off by a few percent", UserWarning,
+                stacklevel=2)
         self._grid_settings = (n_orientation, n_radial, rotation_degree)
         self._draw_settings = (n_draws, seed)
         self._grids = {}

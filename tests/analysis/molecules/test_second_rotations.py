@@ -112,3 +112,23 @@ def test_b3_of_a_bent_molecule_within_its_error(argon_atom):
         assert abs(value_k[k] - exact_k[k]) < 4.0 * err_k[k]
     # a linear gas keeps its draws: no rotations drawn, the same numbers as before
     assert TripletDraws([argon_atom], n_draws=2000, seed=2).rot_nvv is None
+
+
+def test_charged_non_linear_molecules_carry_a_convergence_warning():
+    # measured (docs/physics.md 7a.2): a charged three-site water-like model's B2 moves by
+    # 1-2 % between Lebedev degrees 11 and 15, so its numbers are printed with a warning;
+    # an uncharged non-linear molecule (TINY) and a charged linear one do not warn
+    import warnings as _w
+    from analysis.molecules import MolecularVirialGas
+    lj = LennardJones(1.0, 1.0)
+    bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.01, charge_e=-0.8),
+                                  Site(lj, (0.3, 0.0, 0.0), 0.001, charge_e=0.4),
+                                  Site(lj, (0.0, 0.3, 0.0), 0.001, charge_e=0.4)])
+    with pytest.warns(UserWarning, match="bent: B2 of a non-linear molecule with site charges"):
+        MolecularVirialGas([bent], [1.0], n_draws=100)
+    rod = RigidMolecule("rod", [Site(lj, (0.0, 0.0, -0.5), 0.01, charge_e=0.1),
+                                Site(lj, (0.0, 0.0, 0.5), 0.01, charge_e=-0.1)])
+    with _w.catch_warnings():
+        _w.simplefilter("error")
+        MolecularVirialGas([TINY], [1.0], n_draws=100)
+        MolecularVirialGas([rod], [1.0], n_draws=100)
