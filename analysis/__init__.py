@@ -23,6 +23,7 @@ series and never runs a simulation itself.  Its modules:
   homogeneous fluid (bimodal local density, crystal-like bond order,
   negative or falling pressure);
 - :mod:`analysis.stats` - means and errors of correlated time series;
+- :mod:`analysis.block_error` - block-averaging errors and production means;
 - :mod:`analysis.error_propagation` - first-order propagation of standard errors;
 - :mod:`analysis.results` - the ``Result`` base and ``to_plain``;
 - :mod:`analysis.inputs`, :mod:`analysis.roots` - setting checks and the
@@ -34,4 +35,5 @@ import *`` loads the modules listed in ``__all__``.
 """
 
 __all__ = ["expansion", "virial", "virial_eos", "heatcapacity", "entropy", "sampled_entropy",
-           "inversion", "phases", "stats", "error_propagation", "results", "inputs", "roots"]
+           "inversion", "phases", "stats", "block_error", "error_propagation", "results",
+           "inputs", "roots"]

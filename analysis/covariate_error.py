@@ -13,7 +13,7 @@ import math
 
 import numpy as np
 
-from analysis.stats import production_mean
+from analysis.block_error import production_mean
 
 __all__ = ["mean_with_covariate"]
 
@@ -32,9 +32,9 @@ def mean_with_covariate(x_t, c_t):
     -------
     (float, float)
         The mean of ``x_t`` and the larger of two standard errors: its own
-        (:func:`analysis.stats.production_mean`) and
+        (:func:`analysis.block_error.production_mean`) and
         sqrt(b^2 se(c)^2 + se(r)^2), x = a + b c + r fitted by least
-        squares, each se from :func:`analysis.stats.production_mean`.
+        squares, each se from :func:`analysis.block_error.production_mean`.
 
     Notes
     -----

@@ -30,7 +30,7 @@ import math
 
 import numpy as np
 
-from analysis.stats import ERROR_BLOCKS, production_mean
+from analysis.block_error import ERROR_BLOCKS, production_mean
 from mdsim.errors import ConvergenceError
 from mdsim.pipeline.stage_names import stage_name
 from mdsim.sampling import store

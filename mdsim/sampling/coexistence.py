@@ -38,7 +38,8 @@ import math
 import numpy as np
 
 from analysis.covariate_error import mean_with_covariate
-from analysis.stats import MIN_SAMPLES, production_mean
+from analysis.block_error import production_mean
+from analysis.stats import MIN_SAMPLES
 from mdsim.checks import count, positive
 from mdsim.engine.gibbs import GibbsSampler
 from mdsim.engine.potentials import PairMatrix
@@ -130,14 +131,10 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     n_particles : int
         Particles in both boxes together (enough that the liquid box stays
         larger than twice the cut-off; 300 for rc = 3 sigma).
-    equilibration_cycles, production_cycles : int
-        Cycles of N displacement attempts, one volume exchange and the
-        tuned number of transfer attempts.  Move sizes and the move mix are
-        tuned in equilibration only.
-    sample_interval : int
-        Cycles between recorded samples.
-    seed : int
-        Seed of the random stream.
+    equilibration_cycles, production_cycles, sample_interval, seed : int
+        Cycles of N displacements, one volume exchange and the tuned
+        transfers (moves tuned in equilibration only); cycles between
+        samples; the random stream's seed.
     start_densities : (float, float), optional
         Start densities (vapour, liquid); default
         :func:`start_densities_guess`.
@@ -166,21 +163,14 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     -----
     Gibbs-ensemble Monte Carlo (Panagiotopoulos, Mol. Phys. 61, 813, 1987).
     The phases are told apart by density in every sample (the boxes may
-    swap roles).  The means are over the whole production, which follows
-    the tuned equilibration: no start is cut where the data suggest one,
-    since the particle exchange between the boxes is a slow mode and such a
-    cut takes a slow fluctuation for a transient (at T* = 0.9 it kept as
-    few as the last 114 of 1200 samples, raised the mean vapour density of
-    the runs by 7 % and shrank its error).  Each density's standard error
-    is :func:`analysis.stats.production_mean`'s (the larger of sqrt(g var /
-    n), Chodera, J. Chem. Theory Comput. 12, 1799, 2016, and the scatter of
-    block means, Flyvbjerg and Petersen, J. Chem. Phys. 91, 461, 1989); an
-    energy's or pressure's is at least its box density's slow part carried
-    through (:func:`analysis.covariate_error.mean_with_covariate`): the
-    vapour energy per particle follows the slowly wandering particle number
-    under much larger fast noise, which its own g misses.  A series whose
-    two halves differ by more than :data:`DRIFT_LIMIT` standard errors is
-    still drifting (ConvergenceError).
+    swap roles).  The means are over the whole production after the tuned
+    equilibration (no start cut: the particle exchange is a slow mode that
+    a cut mistakes for a transient); the errors are
+    :func:`analysis.block_error.production_mean`'s, an energy's or
+    pressure's at least its box density's slow part carried through
+    (:func:`analysis.covariate_error.mean_with_covariate`); series whose
+    halves differ by more than :data:`DRIFT_LIMIT` errors are still
+    drifting (ConvergenceError).  Measured figures: docs/physics.md.
 
     Examples
     --------

@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 
 from analysis import stats
+from analysis.block_error import block_stderr
 from analysis.error_propagation import propagate_stderr, ratio_stderr
 from mdsim.errors import ConvergenceError, SimulationError, StudyError
 
@@ -41,9 +42,9 @@ def test_ar1_block_stderr(ar1):
     phi, n = 0.8, 40_000
     x = ar1(phi, n, seed=13)
     exact = math.sqrt((1 + phi) / (1 - phi) / (1 - phi ** 2) / n)
-    assert stats.block_stderr(x, n_blocks=40) == pytest.approx(exact, rel=0.35)
+    assert block_stderr(x, n_blocks=40) == pytest.approx(exact, rel=0.35)
     with pytest.raises(StudyError, match="n_blocks"):
-        stats.block_stderr(x, n_blocks=1)
+        block_stderr(x, n_blocks=1)
 
 
 def test_stderr_calibrated_over_replicas(ar1):

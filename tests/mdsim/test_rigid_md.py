@@ -15,7 +15,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from analysis.stats import block_stderr, mean_and_stderr
+from analysis.block_error import block_stderr
+from analysis.stats import mean_and_stderr
 from mdsim.engine.rigid_md import RigidMDSampler, drift_K_per_ns
 from mdsim.errors import SettingError
 from mdsim.sampling.rigid import sample_rigid_state
