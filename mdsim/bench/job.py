@@ -172,11 +172,13 @@ def run_case(name, target=None, workers=1, out=None, plots=False):
     }
 
 
-def _in_fresh_process(name, args, cache_dir):
+def _in_fresh_process(name, args, cache_dir, mode):
     """Run one case in a new Python process (numba's cache in ``cache_dir``, or numba's own when
-    None); returns its figures (dict) or an int status."""
+    None; run directories under ``--out``/``mode``); returns its figures (dict) or an int
+    status."""
     cmd = [sys.executable, "-m", "mdsim.bench.job", "--one", name, "--workers", str(args.workers)]
-    for flag, value in (("--target", args.target), ("--out", args.out)):
+    out = Path(args.out) / mode if args.out else None
+    for flag, value in (("--target", args.target), ("--out", out)):
         if value:
             cmd += [flag, str(value)]
     if args.plots:
@@ -217,7 +219,7 @@ def main(argv=None):
             for mode in modes:
                 # cold: an empty cache of the case's own; warm after cold: the cache it filled
                 cache = Path(numba_dir) / name if args.cache != "warm" else None
-                report = _in_fresh_process(name, args, cache)
+                report = _in_fresh_process(name, args, cache, mode)
                 if isinstance(report, int):
                     print(f"bench_job: {name}: mdsim run failed with status {report}",
                           file=sys.stderr)
