@@ -26,6 +26,7 @@ Determinism: every decision is made from completed stage files and the
 seeds alone, so a task that is killed and run again gives the same numbers,
 except where the CPU budget ends it (CPU time differs between runs).
 """
+import copy
 import math
 
 import numpy as np
@@ -34,7 +35,7 @@ from mdsim.errors import ConvergenceError
 from mdsim.pipeline.stage_names import stage_name
 from mdsim.sampling import store
 
-__all__ = ["Chain", "mean_se", "production_mean", "production_pressure", "run_to", "settle", "solve_or_extend",
+__all__ = ["Chain", "StartCache", "mean_se", "production_mean", "production_pressure", "run_to", "settle", "solve_or_extend",
            "stage_share", "split_share", "SAFETY", "MIN_STAGE_SAMPLES", "MIN_CHAIN_SAMPLES",
            "ERROR_BLOCKS", "MAX_STAGES_PER_CHAIN"]
 
@@ -131,6 +132,36 @@ def production_mean(x_t, settled=True):
     return m.mean, se
 
 
+class StartCache:
+    """A system maker that builds its seeded start once and hands out copies after.
+
+    A chain asks for a fresh system of its state for every stage it
+    continues and every cost it weighs; building one places the particles at
+    random in Python (0.12 CPU s for 1092 particles at 22 bar argon, about
+    50 times per task, more than a tenth of the task's CPU time).  The start
+    is a function of the seed alone, so a copy is the same system.  Makers of
+    other kinds of system (rigid molecules) are called every time.
+    """
+
+    def __init__(self, make_system):
+        self.make_system = make_system
+        self.first = None
+
+    def __call__(self):
+        from mdsim.engine.system import System
+        if self.first is None:
+            system = self.make_system()
+            if type(system) is not System:
+                return system
+            self.first = system
+        return copy.deepcopy(self.first)
+
+    @classmethod
+    def of(cls, make_system):
+        """``make_system`` itself when it is a StartCache already, else one around it."""
+        return make_system if isinstance(make_system, cls) else cls(make_system)
+
+
 class Chain:
     """Stage files at one state: a pilot, then production stages continuing one chain.
 
@@ -164,7 +195,7 @@ class Chain:
         self.job = task
         self.label = label
         self.id = int(chain_id)
-        self.make_system = make_system
+        self.make_system = StartCache.of(make_system)
         self.method = method
         self.T_red = T_red
         self.E_red = E_red

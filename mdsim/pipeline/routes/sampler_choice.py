@@ -37,7 +37,7 @@ import math
 
 from mdsim.errors import ConvergenceError
 from mdsim.files import atomic_write_text
-from mdsim.pipeline.chain import Chain
+from mdsim.pipeline.chain import Chain, StartCache
 
 __all__ = ["THERMOSTAT_STEPS", "CHOICE_PILOT_SAMPLES", "COMPARE_ABOVE_CPU_S", "SAMPLER_METHODS",
            "DENSE_SKIN", "DILUTE_SKIN", "md_skin", "md_settings", "state_md_settings", "piloted_chain", "cost_coefficient", "run_cost"]
@@ -205,6 +205,7 @@ def piloted_chain(job, label, chain_id, make_system, T_red, sampler, share_hint)
         ``cost_md`` (CPU seconds per unit of 1 / stderr^2, reduced; None when
         not measured).
     """
+    make_system = StartCache.of(make_system)  # one start built for the pilots and chains
     md = state_md_settings(job, make_system, T_red) if sampler in ("auto", "md") else None
     if sampler != "auto":
         chain = job.new_chain(label, chain_id, make_system, SAMPLER_METHODS[sampler],
