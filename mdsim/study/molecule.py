@@ -177,8 +177,14 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
     A gas of rigid molecules is simulated by the energy route only, with
-    canonical Monte Carlo of one linear molecule (site Lennard-Jones or Mie
-    plus an axial point quadrupole).  Spheres pass.
+    nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
+    if nonlinear:
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
+                         "simulation takes linear molecules only; use the virial routes, "
+                         "[simulation] routes = []")
+    canonical Monte Carlo of linear molecules (site Lennard-Jones or Mie
+    plus an axial point quadrupole), one kind or a mixture with atoms.
+    Spheres pass.
 
     Parameters
     ----------
@@ -209,16 +215,17 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          '(form = "rigid-molecule"): the microcanonical route samples the kinetic '
                          "energy of atoms and the direct route moves atoms by molecular dynamics; "
                          'use routes = ["energy"] or the virial routes, routes = []')
-    if gas.n_species > 1:
-        raise StudyError(f"{where}: simulation of a mixture with rigid molecules is not yet "
-                         "supported (the rigid Monte Carlo takes one kind of molecule); use the "
-                         "virial routes, [simulation] routes = []")
-    mol = gas.molecules[0]
-    if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
-        raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
-                         "dipole is not yet supported (the rigid Monte Carlo has site "
-                         "Lennard-Jones or Mie and an axial quadrupole); use the virial routes, "
+    nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
+    if nonlinear:
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
+                         "simulation takes linear molecules only; use the virial routes, "
                          "[simulation] routes = []")
+    for mol in gas.molecules:  # a mixture of linear molecules and atoms is simulated too
+        if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
+            raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
+                             f"dipole ('{mol.name}') is not yet supported (the rigid Monte Carlo "
+                             "has site Lennard-Jones or Mie and an axial quadrupole); use the "
+                             "virial routes, [simulation] routes = []")
     if sampler == "md":
         raise StudyError(f'{where}: [simulation] sampler = "{sampler}": the energy route samples '
                          'rigid molecules by canonical Monte Carlo; remove sampler or set '
