@@ -7,8 +7,8 @@ CPU time.  Nothing is written: no run directory, no file.
 
 The CPU time comes from a short pilot run in memory at the task's initial
 state, with the sampler and particle number the task would use (for the
-energy route's ``sampler = "auto"``, a pilot of each, the cheaper one
-taken, as the task chooses).  The
+energy route's ``sampler = "auto"``, Monte Carlo, and MD too where Monte
+Carlo's chain would be dear, the cheaper one taken, as the task chooses).  The
 pilot gives the CPU seconds per particle x sweep (or step) on this machine
 and the standard error of the energy per particle it reached.  Each chain
 is then sized the way :mod:`mdsim.pipeline.chain` sizes it (its pilot,
@@ -130,20 +130,26 @@ def _direct_nve_units(study, n, rho_i, r, T_red):
     return (fill_samples + max(MIN_STAGE_SAMPLES, 2 * fill_samples)) * interval
 
 
-def _cheapest_pilot(study, task, n, pilots):
-    """(method, rate, stderr x sqrt(units), g) of the cheaper sampler a task may use (the CPU
-    seconds to a standard error of 1, rate x se_unit^2, as the task's pilots compare them)."""
+def _cheapest_pilot(study, task, n, pilots, share):
+    """(method, rate, stderr x sqrt(units), g) of the sampler a task would use: for the energy
+    route's "auto", Monte Carlo unless its chain would cost more than
+    :data:`mdsim.pipeline.routes.sampler_choice.COMPARE_ABOVE_CPU_S` to ``share`` and MD's
+    CPU seconds to a standard error of 1 (rate x particles x se_unit^2) are fewer, as the
+    task's pilots decide."""
+    from mdsim.pipeline.routes.sampler_choice import COMPARE_ABOVE_CPU_S
     sp = task["state_point"]
     T_red = study.units.temperature_to_reduced(sp["temperature_K"])
     best = None
     for method in _route_methods(study, task):
+        if best is not None and best[0] / share ** 2 < COMPARE_ABOVE_CPU_S:
+            break  # the task pilots MD only where Monte Carlo's chain would cost more
         key = (sp["index"], method, n, task["route"] == "energy")
         if key not in pilots:
             pilots[key] = _pilot(study, method, n, task["initial_density_mol_m3"], T_red,
                                  [int(s) for s in task["seed"]] + [7777],
                                  energy_route=task["route"] == "energy")
         rate, se_unit, g = pilots[key]
-        cost = rate * se_unit ** 2 if math.isfinite(se_unit) else math.inf
+        cost = rate * n * se_unit ** 2 if math.isfinite(se_unit) else math.inf
         if best is None or cost < best[0]:
             best = (cost, method, rate, se_unit, g)
     return best[1:]
@@ -153,10 +159,10 @@ def _cpu_estimate(study, task, n, pilots):
     """(expected CPU s, how it was estimated) of one task; pilots caches the in-memory pilots."""
     sp = task["state_point"]
     T_red = study.units.temperature_to_reduced(sp["temperature_K"])
-    method, rate, se_unit, g = _cheapest_pilot(study, task, n, pilots)
     scale = types.SimpleNamespace(target_K=task["target_stderr_K"],
                                   eps_K=float(study.units.epsilon_K))
     share = stage_share(scale, _route_weight(study, task))
+    method, rate, se_unit, g = _cheapest_pilot(study, task, n, pilots, share)
     is_md = method.startswith("md")
     interval = (MD_PILOT_INTERVAL if is_md else 1) * max(1, int(g // 2))
     production = max(MIN_STAGE_SAMPLES * interval,
@@ -166,8 +172,8 @@ def _cpu_estimate(study, task, n, pilots):
     unit = _UNIT[method[:2]]
     states = STATES[task["route"]]
     units = states * per_state
-    which = (f"{method}, the cheaper of {' and '.join(_route_methods(study, task))}"
-             if len(_route_methods(study, task)) > 1 else method)
+    which = (f"{method}, as sampler \"auto\" chooses" if len(_route_methods(study, task)) > 1
+             else method)
     how = (f"estimate from an in-memory pilot at the initial state ({PREVIEW_SAMPLES} samples, "
            f"{which}): {_two(rate * 1e6)} us per particle-{unit} x {n} particles x "
            f"{states} state{'s' if states > 1 else ''} x {_two(per_state)} {unit}s")
