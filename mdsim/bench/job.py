@@ -13,15 +13,30 @@ sampler's step, the sample spacing and the run length left to the tool:
   ``target_stderr = "0.3 K"`` (0.003 in reduced temperature); goal: under
   200 CPU-s.
 
-Prints, per case, the CPU time (this process and its workers: imports,
-kernel loading, the task and the report with its figures), the CPU time of
-the task's stages (its ledger) split by part of the job, the wall time, the
-standard error reached and what the tool chose.  A benchmark, not
-a test: timings on a shared machine are noisy.
+Each case runs in a fresh Python process, ``python -m mdsim run STUDY
+--no-plots`` in effect (the report's tables and text, not its figures;
+``--plots`` draws them too), and prints the CPU time of that process and its
+workers from its start (interpreter, imports, numba kernel loading or
+compiling, the task, the report), the CPU time of the task's stages (its
+ledger) split by part of the job, the wall time, the standard error reached,
+the answer against its reference, and what the tool chose.  ``--cache``:
+``warm`` (numba's cache as found: compiled by an earlier run), ``cold`` (an
+empty numba cache, so every kernel the job uses is compiled inside the
+figure) or ``both`` (cold, then warm on the cache the cold run filled).
+References: the dense case against the Lennard-Jones equation of state of
+Thol et al., J. Phys. Chem. Ref. Data 45, 023101 (2016), T_f* = 10.87960
+(Delta T = +87.96 K at epsilon/k = 100 K, computed through teqp 0.23:
+u(T_f*, 0.45) = u(10, 0.9)); argon against real argon, CoolProp 8.0
+(Tegeler et al. 1999): Delta T = -5.413 K from 909.04 mol/m^3.  The LJ
+model is not real argon, and both reference values carry what separates the
+simulated model (cut-off with the analytic tail, finite N) from them.  A
+benchmark, not a test: timings on a shared machine are noisy.
 """
 import argparse
 import json
+import os
 import resource
+import subprocess
 import sys
 import tempfile
 import time
@@ -60,11 +75,13 @@ seed = 2024
 CASES = {
     "argon": {"gas": "argon", "epsilon": "119.8 K", "temperature": "295.15 K",
               "state": 'pressure = "22 bar"', "target": "0.02 K", "budget": "10 min",
-              "goal_cpu_s": 40.0,
+              "goal_cpu_s": 40.0, "reference_delta_T_K": -5.413,
+              "reference": "real argon, CoolProp 8.0 (not the LJ model)",
               "description": "argon (LJ) from 295.15 K and 22 bar, volume doubled"},
     "dense": {"gas": "dense-lj", "epsilon": "100 K", "temperature": "1000 K",
               "state": 'density = "37856.4825 mol/m^3"', "target": "0.3 K",
-              "budget": "30 min", "goal_cpu_s": 200.0,
+              "budget": "30 min", "goal_cpu_s": 200.0, "reference_delta_T_K": 87.96,
+              "reference": "LJ EOS of Thol et al. 2016 (teqp)",
               "description": "LJ fluid at T* = 10, rho* = 0.9 (epsilon/k = 100 K, sigma = "
                              "3.405 angstrom), volume doubled"},
 }
@@ -72,6 +89,7 @@ CASES = {
 
 
 def _cpu_seconds():
+    """CPU seconds of this process since its start and of its finished workers."""
     own = resource.getrusage(resource.RUSAGE_SELF)
     kids = resource.getrusage(resource.RUSAGE_CHILDREN)
     return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
@@ -101,8 +119,9 @@ def _cpu_by_part(ledger):
     return {p: out[p] for p, _ in PARTS + (("other", ()),) if p in out}
 
 
-def run_case(name, target=None, workers=1, out=None):
-    """Run one case through ``mdsim run`` and return its figures (dict), or an int status."""
+def run_case(name, target=None, workers=1, out=None, plots=False):
+    """Run one case through ``mdsim run`` in this process and return its figures (dict), or an
+    int status.  CPU time is counted from this process's start (:func:`_cpu_seconds`)."""
     from mdsim.cli import main as cli_main
     from mdsim.pipeline import read_task_result
     case = dict(CASES[name])
@@ -112,27 +131,33 @@ def run_case(name, target=None, workers=1, out=None):
         study = Path(tmp) / "bench.toml"
         study.write_text(STUDY.format(name=name, **case), encoding="utf-8")
         run_dir = Path(out) / name if out else Path(tmp) / "run"
-        cpu0, wall0 = _cpu_seconds(), time.perf_counter()
+        wall0 = time.perf_counter()
         status = cli_main(["run", str(study), "--out", str(run_dir), "--workers", str(workers),
-                           "--quiet"])
+                           "--quiet", *([] if plots else ["--no-plots"])])
         wall = time.perf_counter() - wall0
-        cpu = _cpu_seconds() - cpu0
+        cpu = _cpu_seconds()
         if status != 0:
             return status
         _, res, _ = read_task_result(run_dir / "tasks" / "0000.h5")
         ledger = json.loads((run_dir / "tasks" / "0000.stages" / "cpu-time-ledger.json")
                             .read_text(encoding="utf-8"))
     d = res["details"]
+    dT, se = res["delta_T_K"]["value"], res["delta_T_K"]["stderr"]
     return {
         "case": f"{name}: {case['description']}, energy route",
+        "report_figures": "drawn" if plots else "not drawn (mdsim run --no-plots)",
         "target_stderr_K": res["target_stderr_K"],
-        "delta_T_K": res["delta_T_K"]["value"],
-        "stderr_reached_K": res["delta_T_K"]["stderr"],
+        "delta_T_K": dT,
+        "stderr_reached_K": se,
         "stderr_parts_K": res.get("delta_T_stderr_parts_K"),
+        "reference_delta_T_K": case["reference_delta_T_K"],
+        "reference": case["reference"],
+        "off_reference_in_stderr": (dT - case["reference_delta_T_K"]) / se,
         "stopped_by": res["stopped_by"],
         "cpu_seconds_total": cpu,
         "cpu_seconds_goal": case["goal_cpu_s"],
         "cpu_seconds_sampling": res["cpu_seconds"],
+        "cpu_seconds_outside_sampling": cpu - res["cpu_seconds"],
         "cpu_seconds_by_part": _cpu_by_part(ledger),
         "wall_seconds": wall,
         "n_particles": res["n_particles"],
@@ -147,6 +172,26 @@ def run_case(name, target=None, workers=1, out=None):
     }
 
 
+def _in_fresh_process(name, args, cache_dir, mode):
+    """Run one case in a new Python process (numba's cache in ``cache_dir``, or numba's own when
+    None; run directories under ``--out``/``mode``); returns its figures (dict) or an int
+    status."""
+    cmd = [sys.executable, "-m", "mdsim.bench.job", "--one", name, "--workers", str(args.workers)]
+    out = Path(args.out) / mode if args.out else None
+    for flag, value in (("--target", args.target), ("--out", out)):
+        if value:
+            cmd += [flag, str(value)]
+    if args.plots:
+        cmd.append("--plots")
+    env = dict(os.environ)
+    if cache_dir is not None:
+        env["NUMBA_CACHE_DIR"] = str(cache_dir)
+    done = subprocess.run(cmd, env=env, stdout=subprocess.PIPE, text=True)
+    if done.returncode != 0:
+        return done.returncode
+    return json.loads(done.stdout)
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(prog="python -m mdsim.bench_job", description=__doc__,
                                      formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -155,14 +200,35 @@ def main(argv=None):
     parser.add_argument("--target", help="target stderr, overriding the case's (e.g. \"0.05 K\")")
     parser.add_argument("--workers", type=int, default=1, help="local workers (default 1)")
     parser.add_argument("--out", help="folder for the run directories (default: temporary)")
+    parser.add_argument("--plots", action="store_true", help="draw the report's figures too")
+    parser.add_argument("--cache", choices=("warm", "cold", "both"), default="warm",
+                        help="numba's kernel cache: as found (warm, the default), empty (cold), "
+                             "or cold then warm (both)")
+    parser.add_argument("--one", choices=list(CASES), help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
-    names = list(CASES) if args.case == "all" else [args.case]
-    for name in names:
-        report = run_case(name, args.target, args.workers, args.out)
+    if args.one:  # the fresh process of one case
+        report = run_case(args.one, args.target, args.workers, args.out, args.plots)
         if isinstance(report, int):
-            print(f"bench_job: {name}: mdsim run failed with status {report}", file=sys.stderr)
             return report
-        print(json.dumps(report, indent=2), flush=True)
+        print(json.dumps(report))
+        return 0
+    names = list(CASES) if args.case == "all" else [args.case]
+    modes = ("cold", "warm") if args.cache == "both" else (args.cache,)
+    with tempfile.TemporaryDirectory(prefix="mdsim-bench-numba-") as numba_dir:
+        for name in names:
+            for mode in modes:
+                # cold: an empty cache of the case's own; warm after cold: the cache it filled
+                cache = Path(numba_dir) / name if args.cache != "warm" else None
+                report = _in_fresh_process(name, args, cache, mode)
+                if isinstance(report, int):
+                    print(f"bench_job: {name}: mdsim run failed with status {report}",
+                          file=sys.stderr)
+                    return report
+                report["numba_cache"] = (f"{mode}: " + ("empty at the start, every kernel "
+                                                         "compiled inside the figure"
+                                                         if mode == "cold" else
+                                                         "kernels compiled by an earlier run"))
+                print(json.dumps(report, indent=2), flush=True)
     return 0
 
 

@@ -30,7 +30,7 @@ import numpy as np
 
 from mdsim.errors import ConvergenceError
 from mdsim.numbers import value_with_error
-from mdsim.pipeline.chain import run_to, settle, solve_or_extend
+from mdsim.pipeline.chain import production_pressure, run_to, settle, solve_or_extend
 from mdsim.pipeline.plan import particles_for_cutoff
 from mdsim.pipeline.stage_names import INITIAL_STATE, initial_state_try, stage_name
 from mdsim.sampling import store
@@ -111,24 +111,29 @@ def next_density(tries, p_target, virial_slope):
     return rho_next, slope, slope_from
 
 
-def _sampled_chain(job, label, chain_id, rho, method, T_red, share, key, md_settings):
-    """An NVT chain at density rho, run (or read back) to the route's share of the target."""
+def _sampled_chain(job, label, chain_id, rho, method, T_red, share, key, md_settings,
+                   accept_se=None, size_from=None):
+    """An NVT chain at density rho, run (or read back) to the route's share of the target;
+    ``size_from``: a chain whose error per unit of run sizes it (:meth:`Chain.size_from`)."""
     chain = job.new_chain(label, chain_id, job.system_maker(rho, chain_id, job.T_i), method,
                           T_red=T_red, key=key, md_settings=md_settings).run_pilot()
-    if not run_to(chain, share, key=key):
+    if size_from is not None:
+        chain.size_from(size_from)
+    if not run_to(chain, share, key=key, accept_se=accept_se):
         settle(chain, (key,))  # the budget ended it: still a mean to report
     return chain
 
 
 def sampled_pressure(job, chain):
-    """The chain's mean pressure and its standard error (Pa), or None when it has none."""
+    """The chain's mean pressure and its standard error (Pa), or None when it has none
+    (:func:`mdsim.pipeline.chain.production_pressure`: the block floor, no start cut)."""
     try:
-        est = solve_or_extend(chain, lambda: chain.summary().get("pressure"))
+        est = solve_or_extend(chain, lambda: production_pressure(chain))
     except ConvergenceError:
         return None
-    if est is None or not est.available:
+    if est is None:
         return None
-    return job.units.pressure_to_Pa(est.value), job.units.pressure_to_Pa(est.stderr)
+    return job.units.pressure_to_Pa(est[0]), job.units.pressure_to_Pa(est[1])
 
 
 def density_uncertainty(p_sampled, p_stderr, p_target, slope):
@@ -199,12 +204,14 @@ def _why_stop(job, k, rho_next):
     return None
 
 
-def _pressure_iteration(job, p_target, method, T_red, share, key, md_settings):
+def _pressure_iteration(job, p_target, method, T_red, share, key, md_settings, accept_se,
+                        size_from):
     """The pressure iteration (module docstring); returns the chain of the density used."""
     rho, k = job.rho_i, 0
     while True:
         chain = _sampled_chain(job, initial_state_try(k), TRY_CHAIN_ID + k, rho, method, T_red,
-                               share, key, md_settings)
+                               share, key, md_settings, accept_se, size_from)
+        size_from = chain  # the next density is sized from this one's production
         p = sampled_pressure(job, chain)
         if p is None:
             job.initial_density_from = "virial B2+B3 (no sampled pressure)"
@@ -237,7 +244,8 @@ def _pressure_iteration(job, p_target, method, T_red, share, key, md_settings):
         rho, k = rho_next, k + 1
 
 
-def run_initial_state(job, method, T_red, share, key="u_full", md_settings=None):
+def run_initial_state(job, method, T_red, share, key="u_full", md_settings=None,
+                      accept_se=None, size_from=None):
     """The route's NVT chain at the initial state, at the model's own density.
 
     Parameters
@@ -253,6 +261,13 @@ def run_initial_state(job, method, T_red, share, key="u_full", md_settings=None)
         The series the route averages ("u_full", or "u_model" for the direct route).
     md_settings : dict, optional
         Settings of the MD stages (``time_step``).
+    accept_se : float, optional
+        A chain is not extended once its standard error is at most this
+        (:func:`mdsim.pipeline.chain.run_to`); default ``share``.
+    size_from : mdsim.pipeline.chain.Chain, optional
+        A longer run of the same sampler at (T_i, the planned density), as the
+        pilot that chose the sampler: its error per unit of run sizes the first
+        production stage (:meth:`mdsim.pipeline.chain.Chain.size_from`).
 
     Returns
     -------
@@ -265,10 +280,10 @@ def run_initial_state(job, method, T_red, share, key="u_full", md_settings=None)
     p_target = job.task["state_point"].get("pressure_Pa")
     if p_target is None:
         chain = _sampled_chain(job, INITIAL_STATE, 0, job.rho_i, method, T_red, share, key,
-                               md_settings)
+                               md_settings, accept_se, size_from)
         job.initial_density_from = "given"
     else:
         chain = _pressure_iteration(job, float(p_target), method, T_red, share, key,
-                                    md_settings)
+                                    md_settings, accept_se, size_from)
     job.initial_chain = chain
     return chain

@@ -6,7 +6,9 @@ would choose: :func:`mdsim.pipeline.plan.choose_particles`) and an expected
 CPU time.  Nothing is written: no run directory, no file.
 
 The CPU time comes from a short pilot run in memory at the task's initial
-state, with the sampler and particle number the task would use.  The
+state, with the sampler and particle number the task would use (for the
+energy route's ``sampler = "auto"``, Monte Carlo, and MD too where Monte
+Carlo's chain would be dear, the cheaper one taken, as the task chooses).  The
 pilot gives the CPU seconds per particle x sweep (or step) on this machine
 and the standard error of the energy per particle it reached.  Each chain
 is then sized the way :mod:`mdsim.pipeline.chain` sizes it (its pilot,
@@ -43,11 +45,17 @@ state is its NVE run after the wall is removed (counted apart)."""
 _UNIT = {"mc": "sweep", "md": "step"}
 
 
-def _route_method(task):
-    """The engine method of a task's initial state."""
+def _route_methods(study, task):
+    """The engine methods a task may sample its initial state with: both for the energy
+    route's ``sampler = "auto"`` (the task pilots both and takes the cheaper, as the preview
+    does), else the one it uses."""
+    from mdsim.study.quantum_potential import uses_feynman_hibbs
     if task["route"] == "energy":
-        return "md-nvt" if task.get("sampler") == "md" else "mc-nvt"
-    return "mc-nvt" if task["route"] == "microcanonical" else "md-nvt"
+        sampler = task.get("sampler", "auto")
+        if sampler == "auto" and uses_feynman_hibbs(study):
+            sampler = "mc"  # as the task: the Feynman-Hibbs energy estimator is Monte Carlo's
+        return {"auto": ("mc-nvt", "md-nvt"), "md": ("md-nvt",)}.get(sampler, ("mc-nvt",))
+    return ("mc-nvt",) if task["route"] == "microcanonical" else ("md-nvt",)
 
 
 def _route_weight(study, task):
@@ -59,12 +67,20 @@ def _route_weight(study, task):
     return 1.5  # direct: atoms
 
 
-def _pilot(study, method, n, rho_i, T_red, seed):
-    """A short pilot in memory: (CPU s per particle x unit, stderr x sqrt(units), g)."""
+def _pilot(study, method, n, rho_i, T_red, seed, energy_route=False):
+    """A short pilot in memory: (CPU s per particle x unit, stderr x sqrt(units), g).
+
+    ``energy_route``: MD with the energy route's settings (its short thermostat and skin,
+    :func:`mdsim.pipeline.routes.sampler_choice.md_settings`)."""
     from analysis.stats import mean_and_stderr
+    from mdsim.pipeline.routes.sampler_choice import md_settings, md_skin
     from mdsim.sampling.state_point import sample_state_point
     is_md = method.startswith("md")
     settings = {"time_step": _time_step(study, T_red)} if is_md else {}
+    if is_md and energy_route:
+        settings = md_settings(settings["time_step"],
+                               md_skin(study.units.density_to_reduced(rho_i),
+                                       float(study.reduced_pairs().rc_max)))
     n_eq = (EQUILIBRATION_MD_STEPS if is_md else EQUILIBRATION_MC_SWEEPS) // 4
     interval = MD_PILOT_INTERVAL if is_md else 1
 
@@ -114,19 +130,39 @@ def _direct_nve_units(study, n, rho_i, r, T_red):
     return (fill_samples + max(MIN_STAGE_SAMPLES, 2 * fill_samples)) * interval
 
 
-def _cpu_estimate(study, task, n, pilots):
-    """(expected CPU s, how it was estimated) of one task; pilots caches the in-memory pilots."""
-    method = _route_method(task)
+def _cheapest_pilot(study, task, n, pilots, share):
+    """(method, rate, stderr x sqrt(units), g) of the sampler a task would use: for the energy
+    route's "auto", Monte Carlo unless its chain would cost more than
+    :data:`mdsim.pipeline.routes.sampler_choice.COMPARE_ABOVE_CPU_S` to ``share`` and MD's
+    CPU seconds to a standard error of 1 (rate x particles x se_unit^2) are fewer, as the
+    task's pilots decide."""
+    from mdsim.pipeline.routes.sampler_choice import COMPARE_ABOVE_CPU_S
     sp = task["state_point"]
     T_red = study.units.temperature_to_reduced(sp["temperature_K"])
-    key = (sp["index"], method, n)
-    if key not in pilots:
-        pilots[key] = _pilot(study, method, n, task["initial_density_mol_m3"], T_red,
-                             [int(s) for s in task["seed"]] + [7777])
-    rate, se_unit, g = pilots[key]
+    best = None
+    for method in _route_methods(study, task):
+        if best is not None and best[0] / share ** 2 < COMPARE_ABOVE_CPU_S:
+            break  # the task pilots MD only where Monte Carlo's chain would cost more
+        key = (sp["index"], method, n, task["route"] == "energy")
+        if key not in pilots:
+            pilots[key] = _pilot(study, method, n, task["initial_density_mol_m3"], T_red,
+                                 [int(s) for s in task["seed"]] + [7777],
+                                 energy_route=task["route"] == "energy")
+        rate, se_unit, g = pilots[key]
+        cost = rate * n * se_unit ** 2 if math.isfinite(se_unit) else math.inf
+        if best is None or cost < best[0]:
+            best = (cost, method, rate, se_unit, g)
+    return best[1:]
+
+
+def _cpu_estimate(study, task, n, pilots):
+    """(expected CPU s, how it was estimated) of one task; pilots caches the in-memory pilots."""
+    sp = task["state_point"]
+    T_red = study.units.temperature_to_reduced(sp["temperature_K"])
     scale = types.SimpleNamespace(target_K=task["target_stderr_K"],
                                   eps_K=float(study.units.epsilon_K))
     share = stage_share(scale, _route_weight(study, task))
+    method, rate, se_unit, g = _cheapest_pilot(study, task, n, pilots, share)
     is_md = method.startswith("md")
     interval = (MD_PILOT_INTERVAL if is_md else 1) * max(1, int(g // 2))
     production = max(MIN_STAGE_SAMPLES * interval,
@@ -136,8 +172,10 @@ def _cpu_estimate(study, task, n, pilots):
     unit = _UNIT[method[:2]]
     states = STATES[task["route"]]
     units = states * per_state
+    which = (f"{method}, as sampler \"auto\" chooses" if len(_route_methods(study, task)) > 1
+             else method)
     how = (f"estimate from an in-memory pilot at the initial state ({PREVIEW_SAMPLES} samples, "
-           f"{method}): {_two(rate * 1e6)} us per particle-{unit} x {n} particles x "
+           f"{which}): {_two(rate * 1e6)} us per particle-{unit} x {n} particles x "
            f"{states} state{'s' if states > 1 else ''} x {_two(per_state)} {unit}s")
     if task["route"] == "direct":
         nve = _direct_nve_units(study, n, task["initial_density_mol_m3"], sp["volume_ratio"],

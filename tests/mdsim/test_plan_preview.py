@@ -102,6 +102,8 @@ def test_plan_json_matches_the_study_and_the_particle_rule(tmp_path, monkeypatch
         n_cut = math.floor(rho_red * 5.0 ** 3 * CUTOFF_BOX_MARGIN) + 1
         assert e["particles"] >= max(N_MIN, n_cut)
         assert 0 < e["cpu_time_s"] <= e["max_cpu_time_s"] == 5.0
+        # sampler "auto" (the default): the sampler the task's pilots would choose
+        assert 'as sampler "auto" chooses' in e["cpu_time_from"]
     # denser gas: a larger |Delta T|, so at least as many particles for the same bias
     assert entries[1]["particles"] >= entries[0]["particles"]
 

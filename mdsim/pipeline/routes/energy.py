@@ -28,10 +28,12 @@ import math
 
 import numpy as np
 
-from mdsim.pipeline.chain import mean_se, run_to, solve_or_extend, split_share
+from mdsim.errors import ConvergenceError
+from mdsim.pipeline.chain import (mean_se, production_pressure, run_to, solve_or_extend,
+                                  split_share)
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.routes.sampler_choice import (COMPARE_ABOVE_CPU_S, SAMPLER_METHODS,
-                                                  md_settings, piloted_chain, run_cost)
+                                                  piloted_chain, run_cost, state_md_settings)
 from mdsim.pipeline.stage_names import INITIAL_STATE, final_density_guess, stage_name
 from mdsim.sampling import store
 from mdsim.units import R_GAS
@@ -91,10 +93,13 @@ def run_energy(job):
     cost_i = math.inf if probe is None else run_cost(probe)
     share_i, share_f = split_share(_total_share(job, first), cost_i, run_cost(first))
     kind_i = choice_i["sampler"]
-    md = md_settings(job.md_time_step(T_i_red)) if kind_i == "md" else None
-    init = run_initial_state(job, SAMPLER_METHODS[kind_i], T_i_red, share_i, md_settings=md)
+    md = (state_md_settings(job, job.system_maker(job.rho_i, 0, job.T_i), T_i_red)
+          if kind_i == "md" else None)
+    init = run_initial_state(job, SAMPLER_METHODS[kind_i], T_i_red, share_i, md_settings=md,
+                             accept_se=share_i / PLAN_FRACTION, size_from=probe)
     finals = []
-    res, samples = _newton(job, init, first, finals, share_f, sampler != "auto")
+    first, it0 = _move_first_guess(job, init, first, share_f, sampler != "auto")
+    res, samples = _newton(job, init, first, finals, share_f, sampler != "auto", it0)
     res, samples = _refine(job, init, finals, res, samples)
     if (job.stopped_by == "cpu budget" and res.method == "newton"
             and not res.details["newton_converged"]):
@@ -181,24 +186,65 @@ def _solve(job, init, finals):
     return res, samples
 
 
-def _newton(job, init, first, finals, share, study_chose):
-    """Sample at rho_f from the virial guess and Newton-step until converged or bracketed.
+def _pilot_step(job, init, chain):
+    """The Newton step from a final-density chain's pilot, :class:`analysis.expansion.NewtonStep`,
+    or None when its pilot gives no energy or heat capacity (a series that still drifts)."""
+    from analysis.expansion import StateSample, newton_step
+    u = job.units
+    summary = getattr(chain.pilot, "summary", None) or {}
+    est, cv = summary.get("u_full"), summary.get("c_v_res")
+    mi, si = mean_se(init, "u_full")
+    if est is None or cv is None or not (est.available and cv.available and math.isfinite(mi)):
+        return None
+    sample = StateSample(u.temperature_to_K(chain.T_red), u.energy_to_J_mol(est.value),
+                         u.energy_to_J_mol(est.stderr), u.heat_capacity_to_J_molK(cv.value))
+    return newton_step(sample, (u.energy_to_J_mol(mi), u.energy_to_J_mol(si)), job.T_i,
+                       job.cv_ig, tolerance=STEP_TOLERANCE)
+
+
+def _move_first_guess(job, init, first, share, study_chose):
+    """The first final-density chain to sample, and its guess number.
+
+    When the Newton step from the first guess's pilot (and the sampled
+    initial state) is more than FAR_STEP of its standard errors, as where the
+    virial series gives no guess and T_i stands in, the first chain sampled
+    is a new one at the end of that step (guess 1): the pilot's few hundred
+    samples place T_f within a few pilot errors, and no production run is
+    spent at a temperature far from it.  Otherwise ``first`` (guess 0).
+    """
+    step = _pilot_step(job, init, first)
+    if step is None or not abs(step.step_K) > FAR_STEP * step.temperature_stderr_K:
+        return first, 0
+    T_next = _guess_temperature(job, 1, step.next_temperature_K)
+    kind = "md" if first.is_md else "mc"
+    label = final_density_guess(1) + ("" if study_chose else f"-{kind}")
+    job.notes.append(f"final state: the first temperature guess ({first.T_red * job.eps_K:.6g} "
+                     f"K) was moved by the Newton step from its pilot to {T_next * job.eps_K:.6g}"
+                     " K before sampling")
+    chain, _ = piloted_chain(job, label, 2, job.system_maker(job.rho_f, 1, T_next * job.eps_K),
+                             T_next, kind, share)
+    return chain.size_from(first), 1
+
+
+def _newton(job, init, first, finals, share, study_chose, it0=0):
+    """Sample at rho_f from the first guess and Newton-step until converged or bracketed.
 
     Each temperature is first sampled to SCOUT x the share: when the Newton
     step from there is more than FAR_STEP standard errors, the next
     temperature is sampled without refining this one (its samples still
     serve the MBAR interpolation); otherwise it is sampled to the share.
+    ``it0``: the guess number of ``first``.
     """
     ch = first
-    for it in range(MAX_NEWTON_TEMPERATURES):
-        run_to(ch, SCOUT * share)
+    for it in range(it0, MAX_NEWTON_TEMPERATURES):
+        run_to(ch, SCOUT * share, accept_se=SCOUT * share / PLAN_FRACTION)
         # the budget may end it while a series still drifts (the energy or the pressure of
         # a sample separating into two phases): sample on until the summary has its means
         solve_or_extend(ch, ch.summary)
         finals.append(ch)
         res, samples = _solve(job, init, finals)
         if not _far(res) and job.stopped_by != "cpu budget":
-            run_to(ch, share)
+            run_to(ch, share, accept_se=share / PLAN_FRACTION)
             res, samples = _solve(job, init, finals)
         if res.method == "mbar" or res.details["newton_converged"]:
             break
@@ -213,9 +259,11 @@ def _newton(job, init, first, finals, share, study_chose):
         kind = "md" if first.is_md else "mc"
         label = final_density_guess(it + 1) + ("" if study_chose else f"-{kind}")
         T_next = _guess_temperature(job, it + 1, T_k)
+        prev = ch
         ch, _ = piloted_chain(job, label, 2 + it,
                               job.system_maker(job.rho_f, 1, T_next * job.eps_K),
                               T_next, kind, share)
+        ch.size_from(prev)  # the same density and sampler, sampled longer
     else:
         if res.method == "newton" and not res.details["newton_converged"]:
             job.stopped_by = UNSOLVED  # the error may meet the target; T_f is not solved
@@ -318,13 +366,16 @@ def _final_pressure(job, finals, res):
     """The final pressure {value, stderr} in Pa, from the nearest final-density chain, or None."""
     u = job.units
     nearest = _nearest(job, finals, res)
-    p = nearest.summary().get("pressure")
-    if p is None or not p.available:
+    try:
+        p = production_pressure(nearest)  # the block floor, as for every production mean
+    except ConvergenceError:
+        return None
+    if p is None:
         return None
     T_near = u.temperature_to_K(nearest.T_red)
     # ideal-gas slope for the small step from the nearest sampled temperature
     job.notes.append("final pressure: sampled at the nearest final-state temperature, moved "
                      "to T_f with the ideal-gas slope rho_f R")
-    return {"value": u.pressure_to_Pa(p.value)
+    return {"value": u.pressure_to_Pa(p[0])
             + job.rho_f * R_GAS * (res.final_temperature_K - T_near),
-            "stderr": u.pressure_to_Pa(p.stderr)}
+            "stderr": u.pressure_to_Pa(p[1])}
