@@ -41,6 +41,11 @@ class RigidSystem:
         Unit axes.
     dof_per_particle : int
         Kinetic degrees of freedom per molecule (3 + 2 for a linear rotor).
+    inertia : float, m sigma^2
+        Moment of inertia of the linear rotor (molecular dynamics).
+    v_ni, l_ni : ndarray, shape=(n, 3), optional
+        Velocities and angular momenta to start molecular dynamics from (a
+        continued stage); None for a fresh start.
     """
 
     model: object
@@ -48,6 +53,9 @@ class RigidSystem:
     r_ni: np.ndarray
     axis_ni: np.ndarray
     dof_per_particle: int
+    inertia: float = float("nan")
+    v_ni: np.ndarray = None
+    l_ni: np.ndarray = None
 
     @property
     def n_particles(self):
@@ -94,7 +102,7 @@ def rigid_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, s
     """
     box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
     return RigidSystem(box.model, box.box_i, box.centre_ni, box.axis_ni,
-                       int(molecule.kinetic_dof))
+                       int(molecule.kinetic_dof), box.inertia)
 
 
 class RigidMCStageSampler:

@@ -170,15 +170,16 @@ def mean_kinetic_dof(fractions, molecules):
 
 
 #: The simulation routes that take rigid molecules (docs/physics.md, "Rigid molecules").
-MOLECULE_ROUTES = ("energy",)
+MOLECULE_ROUTES = ("energy", "microcanonical")
 
 
 def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
-    A gas of rigid molecules is simulated by the energy route only, with
-    canonical Monte Carlo of one linear molecule (site Lennard-Jones or Mie
-    plus an axial point quadrupole).  Spheres pass.
+    A gas of rigid molecules is simulated by the energy route (canonical
+    Monte Carlo) and the microcanonical route (its final state by
+    fixed-energy molecular dynamics), for one linear molecule (site
+    Lennard-Jones or Mie plus an axial point quadrupole).  Spheres pass.
 
     Parameters
     ----------
@@ -189,7 +190,8 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         The simulation routes asked for; None for a simulation of spheres
         (which a gas of molecules cannot give).
     sampler : str
-        ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo here).
+        ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo for rigid
+        molecules, "md" thermostatted molecular dynamics): each is supported.
 
     Raises
     ------
@@ -201,14 +203,14 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     if routes is None:
         raise StudyError(f"{where}: this simulation takes spherical potentials, not rigid "
                          'molecules (form = "rigid-molecule"); rigid molecules are simulated by '
-                         'the energy route only, [simulation] routes = ["energy"]')
+                         'the energy and microcanonical routes, [simulation] routes = ["energy"]')
     other = [r for r in routes if r not in MOLECULE_ROUTES]
     if other:
         what = f"the {' and '.join(other)} route{'s are' if len(other) > 1 else ' is'}"
         raise StudyError(f"{where}: {what} not yet supported for rigid-molecule potentials "
-                         '(form = "rigid-molecule"): the microcanonical route samples the kinetic '
-                         "energy of atoms and the direct route moves atoms by molecular dynamics; "
-                         'use routes = ["energy"] or the virial routes, routes = []')
+                         '(form = "rigid-molecule"): the direct route moves atoms by molecular '
+                         'dynamics; use routes = ["energy", "microcanonical"] or the virial '
+                         'routes, routes = []')
     if gas.n_species > 1:
         raise StudyError(f"{where}: simulation of a mixture with rigid molecules is not yet "
                          "supported (the rigid Monte Carlo takes one kind of molecule); use the "
@@ -219,7 +221,3 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          "dipole is not yet supported (the rigid Monte Carlo has site "
                          "Lennard-Jones or Mie and an axial quadrupole); use the virial routes, "
                          "[simulation] routes = []")
-    if sampler == "md":
-        raise StudyError(f'{where}: [simulation] sampler = "{sampler}": the energy route samples '
-                         'rigid molecules by canonical Monte Carlo; remove sampler or set '
-                         'sampler = "mc"')

@@ -55,14 +55,14 @@ def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
 
 
 def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys):
-    # the energy route takes rigid molecules (tests/mdsim/test_rigid_route.py); the
-    # microcanonical route does not
-    path = write_study(tmp_path, NITROGEN.replace("\nroutes = []", '\nroutes = ["microcanonical"]'))
+    # the energy and microcanonical routes take rigid molecules (tests/mdsim/test_rigid_route.py,
+    # test_rigid_nve.py); the direct route does not
+    path = write_study(tmp_path, NITROGEN.replace("\nroutes = []", '\nroutes = ["direct"]'))
     with pytest.raises(StudyError, match="not yet supported for rigid-molecule potentials"):
         plan_tasks(read_study(path))
     assert main(["run", str(path), "--out", str(tmp_path / "run")]) == 2
     err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and 'use routes = ["energy"] or the virial routes' in err[0]
+    assert len(err) == 1 and 'use routes = ["energy", "microcanonical"] or the virial' in err[0]
 
 
 @pytest.mark.parametrize("text", ["518 hartree * bohr^9", "532252.5 K angstrom^9"])
