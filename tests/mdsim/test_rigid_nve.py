@@ -15,6 +15,7 @@ import pytest
 from analysis.expansion import microcanonical_route
 from mdsim.errors import StudyError
 from mdsim.pipeline.plan import plan_tasks
+from mdsim.sampling import store
 from mdsim.sampling.rigid_stage import rigid_system
 from mdsim.sampling.state_point import sample_state_point
 from mdsim.study.reader import read_study
@@ -108,10 +109,18 @@ def test_nitrogen_microcanonical_route_against_coolprop(tmp_path, monkeypatch):
     assert 0.0 < se <= 0.5  # the target met
     sim = json.loads((run_dir / "results.json").read_text())["state_points"][0]["simulation"]
     assert sim["microcanonical"]["stopped_by"] == "target"
-    stages = sorted(p.name for p in (run_dir / "tasks" / "0000.stages").glob("final-state*.h5"))
-    assert stages and all("rigid-md-nve" == _method(run_dir, s) for s in stages)
-
-
-def _method(run_dir, stage):
-    from mdsim.sampling import store
-    return store.read_attrs(run_dir / "tasks" / "0000.stages" / stage)["method"]
+    # the fixed-energy chain is one trajectory: each stage continues the last one's centres,
+    # axes, velocities and angular momenta, so the shifted model's energy u_model + kinetic
+    # (which the dynamics conserve) carries across the stage boundary to the integrator's
+    # bounded error (0.006 epsilon per molecule peak to peak over the 22000 steps of this run;
+    # 0.015 allows for more stages; a stage started from other momenta would jump by ~0.1)
+    stages = run_dir / "tasks" / "0000.stages"
+    names = ["final-state-nve-pilot.h5"] + sorted(
+        p.name for p in stages.glob("final-state-nve-[0-9]*.h5"))
+    assert len(names) >= 2
+    totals = []
+    for name in names:
+        assert store.read_attrs(stages / name)["method"] == "rigid-md-nve"
+        s = store.read_samples(stages / name)
+        totals.append(s["u_model"] + s["kinetic"])
+    assert np.ptp(np.concatenate(totals)) < 0.015
