@@ -35,10 +35,6 @@ class RigidChain(Chain):
     stages are one chain.  Parameters as for ``Chain``.
     """
 
-    def __init__(self, *args, **kwargs):
-        super().__init__(*args, **kwargs)
-        self.is_md = self.method in MD_METHODS
-
     def continue_system(self, prev):
         """A system in the last configuration (centres, axes and MD momenta) of a finished stage."""
         system = super().continue_system(prev)

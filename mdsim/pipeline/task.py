@@ -18,6 +18,7 @@ from pathlib import Path
 
 from mdsim.errors import ConvergenceError
 from mdsim.files import atomic_write_text
+from mdsim.pipeline.chain import sampler_kind
 from mdsim.pipeline.plan import N_MAX, N_MIN, choose_particles, virial_start_guess
 from mdsim.sampling import store
 from mdsim.study.quantum_potential import feynman_hibbs_validity, uses_feynman_hibbs
@@ -323,7 +324,7 @@ class RunningTask:
             result = SampleResult(store.read_samples(path), {}, {}, path, done)
         if not done or name not in self.ledger:
             units = system.n_particles * (n_eq + n_samples * interval)
-            self.ledger.record(name, method[:2], time.process_time() - c0, units)
+            self.ledger.record(name, sampler_kind(method), time.process_time() - c0, units)
         self.n_stages += 1
         return result
 
