@@ -112,7 +112,7 @@ def test_nitrogen_microcanonical_route_against_coolprop(tmp_path, monkeypatch):
     # the fixed-energy chain is one trajectory: each stage continues the last one's centres,
     # axes, velocities and angular momenta, so the shifted model's energy u_model + kinetic
     # (which the dynamics conserve) carries across the stage boundary to the integrator's
-    # bounded error (0.006 epsilon per molecule peak to peak over the 22000 steps of this run;
+    # bounded error (0.005 epsilon per molecule peak to peak over the 12000 steps of this run;
     # 0.015 allows for more stages; a stage started from other momenta would jump by ~0.1)
     stages = run_dir / "tasks" / "0000.stages"
     names = ["final-state-nve-pilot.h5"] + sorted(

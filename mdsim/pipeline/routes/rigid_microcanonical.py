@@ -119,7 +119,9 @@ def run_rigid_microcanonical(job):
         f"(F/2 - 1) kT_i / N with F = 5N - 3 = {F} (3 translations and 2 rotations per molecule, "
         "the total momentum conserved); the final state by molecular dynamics at that energy, "
         "T_f by Ray's estimator over the same F")
-    start = {"start_temperature": job.units.temperature_to_reduced(job.T_f_guess)}
+    # one time step for every stage (the rule at T_i, above T_f), and the pilot's start
+    start = {"time_step": job.md_time_step(T_i_red),
+             "start_temperature": job.units.temperature_to_reduced(job.T_f_guess)}
     nve = job.new_chain(FINAL_STATE_NVE, 1, job.system_maker(job.rho_f, 1), "md-nve",
                         E_red=E_red, key="kinetic", md_settings=start)
     _pilot(nve)
