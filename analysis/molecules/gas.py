@@ -1,15 +1,21 @@
-"""The virial equation of state of a gas or mixture of rigid linear molecules and atoms.
+"""The virial equation of state of a gas or mixture of rigid molecules and atoms.
 
 :class:`MolecularVirialGas` offers every state function of
 :class:`analysis.virial_eos.VirialGas` (SI units), with B from the
-orientation quadrature of :mod:`analysis.molecules.second` and C from the
+orientation quadrature of :mod:`analysis.molecules.second` (over both
+molecules' rotations, :mod:`analysis.molecules.second_rotations`, for a
+non-linear molecule) and C from the
 Monte Carlo integration of :mod:`analysis.molecules.third`, whose standard
 error :meth:`MolecularVirialGas.C_stderr` gives.
 """
+import warnings
+
 import numpy as np
 
 from analysis.molecules.second import (DEFAULT_ORIENTATION_NODES, DEFAULT_RADIAL_NODES,
-                                       OrientationGrid)
+                                       pair_grid)
+from analysis.molecules.rotations import sphere_rule
+from analysis.molecules.second_rotations import DEFAULT_ROTATION_DEGREE
 from analysis.molecules.third import DEFAULT_DRAWS, TripletDraws
 from analysis import inputs
 from analysis.virial.quadrature import check_fractions
@@ -31,7 +37,7 @@ class MolecularVirialGas(VirialGas):
     Parameters
     ----------
     molecules : list of RigidMolecule
-        One per species (linear molecules or atoms).
+        One per species (molecules of any shape, or atoms).
     fractions : array_like, shape=(n_species,)
         Mole fractions (sum 1).
     n_draws : int, optional
@@ -39,7 +45,11 @@ class MolecularVirialGas(VirialGas):
     seed : int, optional
         Seed of the draws (fixed: the same gas gives the same numbers).
     n_orientation, n_radial : int, optional
-        Quadrature nodes of B2 (:class:`analysis.molecules.second.OrientationGrid`).
+        Quadrature nodes of B2 of linear molecules
+        (:class:`analysis.molecules.second.OrientationGrid`).
+    rotation_degree : int, optional
+        Lebedev degree of B2 of a pair with a non-linear molecule
+        (:class:`analysis.molecules.second_rotations.RotationGrid`).
 
     Notes
     -----
@@ -60,7 +70,8 @@ class MolecularVirialGas(VirialGas):
     """
 
     def __init__(self, molecules, fractions, n_draws=DEFAULT_DRAWS, seed=1,
-                 n_orientation=DEFAULT_ORIENTATION_NODES, n_radial=DEFAULT_RADIAL_NODES):
+                 n_orientation=DEFAULT_ORIENTATION_NODES, n_radial=DEFAULT_RADIAL_NODES,
+                 rotation_degree=DEFAULT_ROTATION_DEGREE):
         self.molecules = list(molecules)
         if not self.molecules:
             raise StudyError("'molecules': give at least one molecule")
@@ -73,9 +84,18 @@ class MolecularVirialGas(VirialGas):
         self.three_body_c9_K_A9 = 0.0
         self.pairs = None
         self.de_boer = np.zeros(ns)
-        for m in self.molecules:
-            m.axial_positions_s()  # refuses non-linear molecules now, not at the first state
-        self._grid_settings = (n_orientation, n_radial)
+        if any(m.is_nonlinear for m in self.molecules):
+            sphere_rule(rotation_degree, "rotation_degree")  # a bad degree is refused now
+        charged = [m.name for m in self.molecules
+                   if m.is_nonlinear and bool(np.any(m.charge_s != 0.0))]
+        if charged:
+            warnings.warn(
+                f"{', '.join(charged)}: B2 of a non-linear molecule with site charges is not "
+                f"converged at rotation degree {rotation_degree} (a three-site water model moved "
+                "by 1-2 % from degree 11 to 15, docs/physics.md section 7a.2): its B2, B3 and "
+                "every number that follows may be off by a few percent", UserWarning,
+                stacklevel=2)
+        self._grid_settings = (n_orientation, n_radial, rotation_degree)
         self._draw_settings = (n_draws, seed)
         self._grids = {}
         self._draws = None
@@ -83,8 +103,8 @@ class MolecularVirialGas(VirialGas):
 
     def _grid(self, a, b):
         if (a, b) not in self._grids:
-            self._grids[(a, b)] = OrientationGrid(self.molecules[a], self.molecules[b],
-                                                  *self._grid_settings)
+            self._grids[(a, b)] = pair_grid(self.molecules[a], self.molecules[b],
+                                            *self._grid_settings)
         return self._grids[(a, b)]
 
     def well_depths_K(self):

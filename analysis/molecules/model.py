@@ -6,7 +6,8 @@ charges in e, dipole moments in e angstrom, quadrupole moments in
 e angstrom^2, masses in kg/mol.  Site positions are in the body frame; the
 point dipole and quadrupole sit at its origin, on the molecule's axis (the
 line of the sites), so they need a linear molecule of two or more sites.
-An atom is a molecule of one site at the origin.
+A non-linear molecule (sites not on one line) carries site potentials and
+point charges only.  An atom is a molecule of one site at the origin.
 
 Array suffixes: ``_s`` sites, ``_v`` the three Cartesian components.
 """
@@ -100,7 +101,12 @@ class RigidMolecule:
         self.dipole = float(dipole_e_angstrom)
         self.quadrupole = float(quadrupole_e_angstrom2)
         self.axis_v = self._axis()
-        if (self.dipole or self.quadrupole) and (self.axis_v is None or len(self.sites) < 2):
+        if (self.dipole or self.quadrupole) and len(self.sites) >= 2 and self.axis_v is None:
+            raise StudyError(f"molecule '{self.name}': its sites are not on one line, and a point "
+                             "dipole or quadrupole sits on a linear molecule's axis (axial "
+                             "multipoles are for linear molecules only); describe the non-linear "
+                             "molecule's electrostatics by site charges (charge_e) instead")
+        if (self.dipole or self.quadrupole) and self.axis_v is None:
             raise StudyError(f"molecule '{self.name}': a point dipole or quadrupole sits on the "
                              "molecule's axis, which needs a linear molecule of two or more sites")
 
@@ -136,6 +142,11 @@ class RigidMolecule:
         return self.axis_v is not None
 
     @property
+    def is_nonlinear(self):
+        """True for sites not all on one line: its orientation is a rotation, not an axis."""
+        return self.n_sites > 1 and not self.is_linear
+
+    @property
     def rotational_dof(self):
         """Rotational degrees of freedom: 0 for an atom, 2 linear, 3 non-linear."""
         if self.n_sites == 1:
@@ -146,6 +157,11 @@ class RigidMolecule:
     def kinetic_dof(self):
         """Kinetic degrees of freedom of the rigid molecule: 3 + rotational_dof."""
         return 3 + self.rotational_dof
+
+    @property
+    def extent_angstrom(self):
+        """The largest distance of a site from the origin of the site positions, angstrom."""
+        return float(np.max(np.linalg.norm(self.position_sv, axis=1)))
 
     @property
     def has_multipoles(self):
@@ -216,8 +232,9 @@ class RigidMolecule:
                                  "the origin; give position = [0, 0, 0]")
             return np.zeros(1)
         if not self.is_linear:
-            raise StudyError(f"molecule '{self.name}': non-linear molecules are not yet supported "
-                             "by the orientation quadrature (linear molecules and atoms are)")
+            raise StudyError(f"molecule '{self.name}': its sites are not on one line, so they "
+                             "have no axial coordinates (a non-linear molecule is described by "
+                             "its site positions and rotations)")
         z = self.position_sv @ self.axis_v
         off = self.position_sv - np.outer(z, self.axis_v)
         if np.max(np.linalg.norm(off, axis=1)) > LINEAR_TOLERANCE_ANGSTROM:

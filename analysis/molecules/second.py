@@ -1,5 +1,8 @@
 """B2 of rigid linear molecules (and atoms) by Gauss quadrature over distance and relative orientation.
 
+(Non-linear molecules take the quadrature over both molecules' rotations of
+:mod:`analysis.molecules.second_rotations`; :func:`pair_grid` picks.)
+
 B2 = -2 pi int_0^inf R^2 <f(R, w1, w2)>_w dR, the average over the
 orientations of both molecules taken with the separation along z:
 molecule 1's axis at polar angle theta1 in the xz plane, molecule 2's at
@@ -20,10 +23,12 @@ import math
 import numpy as np
 
 from analysis.molecules.pair_energy import pair_energy
+from analysis.molecules.second_rotations import DEFAULT_ROTATION_DEGREE, RotationGrid
 from analysis.virial.quadrature import check_temperature, mayer, panel_nodes, shape_out
 from mdsim.checks import count
 
-__all__ = ["DEFAULT_ORIENTATION_NODES", "DEFAULT_RADIAL_NODES", "OrientationGrid", "b2_molecules"]
+__all__ = ["DEFAULT_ORIENTATION_NODES", "DEFAULT_RADIAL_NODES", "OrientationGrid", "pair_grid",
+           "b2_molecules"]
 
 #: Gauss-Legendre nodes in each of cos(theta1), cos(theta2) and phi (on
 #: [0, 1] for an end-symmetric molecule); see the tests for the convergence.
@@ -110,16 +115,32 @@ class OrientationGrid:
         return shape_out(tuple(out), T)
 
 
+def pair_grid(mol_a, mol_b, n_orientation=DEFAULT_ORIENTATION_NODES,
+              n_radial=DEFAULT_RADIAL_NODES, degree=DEFAULT_ROTATION_DEGREE):
+    """The B2 quadrature grid of a pair of molecules.
+
+    :class:`OrientationGrid` (``n_orientation``, ``n_radial``) when both are
+    linear molecules or atoms; else :class:`RotationGrid` over both
+    molecules' rotations (Lebedev ``degree``).
+    """
+    if not (mol_a.is_nonlinear or mol_b.is_nonlinear):
+        return OrientationGrid(mol_a, mol_b, n_orientation, n_radial)
+    return RotationGrid(mol_a, mol_b, degree)
+
+
 def b2_molecules(mol_a, mol_b, T, n_orientation=DEFAULT_ORIENTATION_NODES,
-                 n_radial=DEFAULT_RADIAL_NODES):
-    """Second virial coefficient of two rigid linear molecules (or atoms), with T-derivatives.
+                 n_radial=DEFAULT_RADIAL_NODES, degree=DEFAULT_ROTATION_DEGREE):
+    """Second virial coefficient of two rigid molecules (or atoms), with T-derivatives.
 
     Parameters
     ----------
     mol_a, mol_b : RigidMolecule
     T : float or ndarray, K
     n_orientation, n_radial : int, optional
-        Quadrature nodes (see :class:`OrientationGrid`).
+        Quadrature nodes of linear molecules (see :class:`OrientationGrid`).
+    degree : int, optional
+        Lebedev degree of the rotation quadrature of non-linear molecules
+        (see :class:`RotationGrid`).
 
     Returns
     -------
@@ -144,4 +165,4 @@ def b2_molecules(mol_a, mol_b, T, n_orientation=DEFAULT_ORIENTATION_NODES,
     >>> round(B / (2.0 * math.pi / 3.0), 4)
     -2.5381
     """
-    return OrientationGrid(mol_a, mol_b, n_orientation, n_radial).b2(T)
+    return pair_grid(mol_a, mol_b, n_orientation, n_radial, degree).b2(T)

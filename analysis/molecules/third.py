@@ -1,4 +1,4 @@
-"""B3 of rigid linear molecules (and atoms, and their mixtures) by Monte Carlo integration.
+"""B3 of rigid molecules (and atoms, and their mixtures) by Monte Carlo integration.
 
 B3 = -(1/3) int int <f12 f13 f23> d r12 d r13, averaged over the
 orientations of the three molecules.  Molecule 1 sits at the origin; the
@@ -6,7 +6,11 @@ centres of 2 and 3 are drawn in all space, direction uniform on the sphere,
 distance from the density p(r) = (3 / (2 R_c^3)) r^2 for r < R_c and
 (3 / (2 R_c^3)) R_c^6 / r^4 beyond (half the draws inside the contact
 distance R_c, the rest spread like the r^-6 tail of f; weight
-4 pi r^2 / p(r)), every axis uniform on the sphere.  The draws are made once, from a fixed seed, and
+4 pi r^2 / p(r)), every axis uniform on the sphere.  When a molecule is
+non-linear, each of the three also gets a rotation drawn uniformly from all
+rotations (after the axes, so a gas of linear molecules keeps its numbers),
+and every species triple with a non-linear molecule takes its energies from
+the rotations.  The draws are made once, from a fixed seed, and
 their energies kept, so B3(T) and its T-derivatives are smooth functions of
 T (one set of draws at every T) with a standard error from the scatter of
 the draws (the tests check it on the Lennard-Jones atom against the exact
@@ -21,7 +25,8 @@ import math
 
 import numpy as np
 
-from analysis.molecules.pair_energy import pair_energy
+from analysis.molecules.pair_energy import pair_energy, pair_energy_rotated
+from analysis.molecules.rotations import random_rotations
 from analysis.virial.quadrature import check_fractions, check_temperature, mayer
 from mdsim.checks import count
 
@@ -65,7 +70,7 @@ class TripletDraws:
     Parameters
     ----------
     molecules : list of RigidMolecule
-        The species (linear molecules or atoms).
+        The species (molecules of any shape, or atoms).
     n_draws : int, optional
     seed : int, optional
 
@@ -89,13 +94,16 @@ class TripletDraws:
         n = count("n_draws", n_draws, 1000, "Monte Carlo draws, e.g. 200000")
         rng = np.random.default_rng(count("seed", seed, 0))
         sigma = max(s.potential.sigma for m in self.molecules for s in m.sites)
-        ext = max(float(np.max(np.abs(m.axial_positions_s()))) for m in self.molecules)
+        ext = max(m.extent_angstrom for m in self.molecules)
         self.r_contact = R_CONTACT_SIGMA * sigma + 2.0 * ext
         r2, w2 = _radii(rng, self.r_contact, n)
         r3, w3 = _radii(rng, self.r_contact, n)
         self.d12_nv = r2[:, None] * _unit_vectors(rng, n)
         self.d13_nv = r3[:, None] * _unit_vectors(rng, n)
         self.e_nv = [_unit_vectors(rng, n) for _ in range(3)]
+        self.rot_nvv = None
+        if any(m.is_nonlinear for m in self.molecules):
+            self.rot_nvv = [random_rotations(rng, n) for _ in range(3)]
         self.weight_n = w2 * w3
         self._energies = {}
 
@@ -109,10 +117,13 @@ class TripletDraws:
         key = (a, b, c)
         if key not in self._energies:
             m = self.molecules
-            e1, e2, e3 = self.e_nv
-            self._energies[key] = (pair_energy(m[a], m[b], self.d12_nv, e1, e2),
-                                   pair_energy(m[a], m[c], self.d13_nv, e1, e3),
-                                   pair_energy(m[b], m[c], self.d13_nv - self.d12_nv, e2, e3))
+            if not any(m[k].is_nonlinear for k in key):
+                energy, (o1, o2, o3) = pair_energy, self.e_nv
+            else:
+                energy, (o1, o2, o3) = pair_energy_rotated, self.rot_nvv
+            self._energies[key] = (energy(m[a], m[b], self.d12_nv, o1, o2),
+                                   energy(m[a], m[c], self.d13_nv, o1, o3),
+                                   energy(m[b], m[c], self.d13_nv - self.d12_nv, o2, o3))
         return self._energies[key]
 
     def integrand(self, fractions, T):

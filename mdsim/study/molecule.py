@@ -179,7 +179,8 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     A gas of rigid molecules is simulated by the energy route (canonical
     Monte Carlo) and the microcanonical route (its final state by
     fixed-energy molecular dynamics), for one linear molecule (site
-    Lennard-Jones or Mie plus an axial point quadrupole).  Spheres pass.
+    Lennard-Jones or Mie plus an axial point quadrupole); a non-linear
+    molecule is refused (the virial routes take it).  Spheres pass.
 
     Parameters
     ----------
@@ -211,6 +212,11 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          '(form = "rigid-molecule"): the direct route moves atoms by molecular '
                          'dynamics; use routes = ["energy", "microcanonical"] or the virial '
                          'routes, routes = []')
+    nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
+    if nonlinear:
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
+                         "simulation takes linear molecules only; use the virial routes, "
+                         "[simulation] routes = []")
     if gas.n_species > 1:
         raise StudyError(f"{where}: simulation of a mixture with rigid molecules is not yet "
                          "supported (the rigid Monte Carlo takes one kind of molecule); use the "

@@ -54,15 +54,23 @@ def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
         read_study(write_study(tmp_path, NITROGEN.replace(old, new)))
 
 
-def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys):
-    # the energy and microcanonical routes take rigid molecules (tests/mdsim/test_rigid_route.py,
-    # test_rigid_nve.py); the direct route does not
-    path = write_study(tmp_path, NITROGEN.replace("\nroutes = []", '\nroutes = ["direct"]'))
-    with pytest.raises(StudyError, match="not yet supported for rigid-molecule potentials"):
+@pytest.mark.parametrize("name, route, match, line", [
+    # the energy and microcanonical routes take rigid linear molecules
+    # (tests/mdsim/test_rigid_route.py, test_rigid_nve.py); the direct route does not
+    ("nitrogen", "direct", "not yet supported for rigid-molecule potentials",
+     'use routes = ["energy", "microcanonical"] or the virial'),
+    # the rigid-molecule engine is linear-only; the virial routes answer instead
+    ("propane", "energy", "molecule 'propane' is not linear.*routes = \\[\\]",
+     "takes linear molecules only"),
+])
+def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys, name, route, match, line):
+    text = (CONFIGS / f"{name}.toml").read_text()
+    path = write_study(tmp_path, text.replace("\nroutes = []", f'\nroutes = ["{route}"]'))
+    with pytest.raises(StudyError, match=match):
         plan_tasks(read_study(path))
     assert main(["run", str(path), "--out", str(tmp_path / "run")]) == 2
     err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and 'use routes = ["energy", "microcanonical"] or the virial' in err[0]
+    assert len(err) == 1 and line in err[0]
 
 
 @pytest.mark.parametrize("text", ["518 hartree * bohr^9", "532252.5 K angstrom^9"])
@@ -79,3 +87,28 @@ def test_argon_three_body_config_carries_c9():
     assert study.gas.three_body_c9_K_A9 == pytest.approx(518 * 315775.02 * 0.529177211 ** 9,
                                                          rel=1e-6)
     assert plan_tasks(study) == []
+
+
+PROPANE = (CONFIGS / "propane.toml").read_text()
+
+
+def test_propane_config_reads_as_a_rigid_nonlinear_molecule():
+    # 3 translations + 3 rotations: c_v_ig = 3 R + the vibrational part the config gives
+    # (60.7 J/(mol K) at 400 K: c_p 94.0 J/(mol K) minus 4 R, from memory)
+    from mdsim.study.statepoints import ideal_heat_capacity
+    from mdsim.units import R_GAS
+    study = read_study(CONFIGS / "propane.toml")
+    (mol,) = study.gas.molecules
+    assert mol.is_nonlinear
+    assert (mol.n_sites, mol.kinetic_dof, study.gas.dof_per_particle) == (3, 6, 6)
+    assert mol.molar_mass_kg_mol == pytest.approx(0.0440956)
+    assert "Martin and Siepmann" in mol.source
+    assert ideal_heat_capacity(study).cv(400.0) == pytest.approx(3.0 * R_GAS + 60.7)
+    assert plan_tasks(study) == []  # routes = []: the virial routes only
+
+
+def test_nonlinear_molecule_refuses_axial_multipoles(tmp_path):
+    text = PROPANE.replace('form = "rigid-molecule"', 'form = "rigid-molecule"\n'
+                           'quadrupole = "1.0 D angstrom"')
+    with pytest.raises(StudyError, match="not on one line.*linear molecules only"):
+        read_study(write_study(tmp_path, text))

@@ -29,8 +29,12 @@ def test_nonlinear_molecule_has_three_rotations():
     mol = RigidMolecule("bent", sites)
     assert mol.kinetic_dof == 6
     assert np.all(mol.moments_of_inertia() > 0.0)
-    with pytest.raises(StudyError, match="non-linear molecules are not yet supported"):
+    assert mol.is_nonlinear and not mol.is_linear
+    with pytest.raises(StudyError, match="not on one line, so they have no axial coordinates"):
         mol.axial_positions_s()
+    # axial multipoles are for linear molecules: refused with the reason and the way out
+    with pytest.raises(StudyError, match="not on one line.*linear molecules only.*site charges"):
+        RigidMolecule("bent Q", sites, quadrupole_e_angstrom2=0.3)
 
 
 def test_asymmetric_molecule_is_not_end_symmetric():
