@@ -144,7 +144,8 @@ def choose_particles(study, given, rho_i, state_point_index, dT_guess, target_K)
 def check_route_applies(study, route, cv_ig, T_i):
     """Refuse a route whose assumptions the study breaks (before any work).
 
-    The direct route simulates atoms; the microcanonical route assumes the
+    The direct route simulates atoms or rigid molecules (whose model sets f), not
+    spheres with a larger f; the microcanonical route assumes the
     constant classical heat capacity c_v_ig = (f/2) R of f kinetic degrees of
     freedom, probed at T_i / 2, T_i and 3 T_i / 2 (where the model is defined).
 
@@ -154,7 +155,7 @@ def check_route_applies(study, route, cv_ig, T_i):
         Naming ``[simulation] routes``, the broken assumption and the route to use.
     """
     f = study.gas.dof_per_particle
-    if route == "direct" and f != 3:
+    if route == "direct" and f != 3 and study.gas.molecules is None:
         raise StudyError(f"study file '{study.path}', [simulation] key 'routes': the direct "
                          f"route simulates atoms (3 degrees of freedom), but [gas] "
                          f"dof_per_particle = {f}; use the energy route for molecules")

@@ -1,8 +1,8 @@
 """Tasks of a gas of rigid molecules: their stage chains and what the task takes from the model.
 
-A study with ``[potential] form = "rigid-molecule"`` runs the energy and
-microcanonical routes (:mod:`mdsim.pipeline.routes`) as a sphere study
-does, pressure iteration included (:mod:`mdsim.pipeline.initial_state`);
+A study with ``[potential] form = "rigid-molecule"`` runs the energy,
+microcanonical and direct routes (:mod:`mdsim.pipeline.routes`) as a sphere
+study does, pressure iteration included (:mod:`mdsim.pipeline.initial_state`);
 only its stages differ.  Each stage is canonical Monte Carlo of the rigid
 linear molecules (translations and rotations, :mod:`mdsim.sampling.rigid_stage`)
 or their molecular dynamics, thermostatted or at fixed energy
@@ -98,9 +98,15 @@ def set_up_molecular_task(job):
     study = job.study
     job.virial_gas = virial_gas(study)
     mol = study.gas.molecules[0]
+    mc = "canonical Monte Carlo with translation and rotation moves"
+    md = "molecular dynamics (symplectic rigid-body splitting, shifted-energy model)"
+    how = {"energy": md.replace("molecular", "thermostatted molecular", 1)
+           if job.task.get("sampler") == "md" else mc,
+           "microcanonical": f"the initial state by {mc}, the final state by fixed-energy {md}",
+           "direct": f"{md}, thermostatted at the initial state, then at fixed energy"}
     job.notes.append(
-        f"rigid molecules ({mol.name}, {mol.n_sites} sites): canonical Monte Carlo with "
-        f"translation and rotation moves, molecular cut-off "
+        f"rigid molecules ({mol.name}, {mol.n_sites} sites): "
+        f"{how.get(job.task.get('route'), mc)}, molecular cut-off "
         f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
         f"c_v_ig = {mol.kinetic_dof}/2 R from the model's translations and rotations plus the "
         "study's vibrational part")

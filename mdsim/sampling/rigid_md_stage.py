@@ -65,7 +65,8 @@ class RigidMDStageSampler:
         kT, reduced ("rigid-md-nvt": the thermostat's target).
     energy : float, optional
         Total energy per molecule, u_full + kinetic, reduced
-        ("rigid-md-nve"; module docstring).
+        ("rigid-md-nve" from a fresh start, module docstring; a run from
+        the system's momenta keeps their energy and may leave it out).
     start_temperature : float, optional
         kT, reduced, of the thermostatted equilibration of a fresh
         "rigid-md-nve" start (required for one).
@@ -96,17 +97,18 @@ class RigidMDStageSampler:
             raise StudyError(f"setting 'method' = {method!r}: rigid-molecule MD offers "
                              f"{', '.join(MD_METHODS)}")
         nve = method == "rigid-md-nve"
-        if (nve and (energy is None or temperature is not None)) or (
+        momenta = None
+        if system.v_ni is not None and system.l_ni is not None:
+            momenta = (system.v_ni, system.l_ni)
+        if (nve and (temperature is not None or (energy is None and momenta is None))) or (
                 not nve and (temperature is None or energy is not None)):
             raise SettingError("method", method, "rigid-md-nvt takes a temperature, "
-                               "rigid-md-nve an energy per molecule (not both)")
+                               "rigid-md-nve an energy per molecule or the system's momenta "
+                               "(not a temperature)")
         self.method, self.system = method, system
         self.model = copy.copy(system.model)
         self.model.shifted = 1  # the dynamics need the shifted energy (mdsim.engine.rigid_md)
         self.dof_per_particle = int(system.dof_per_particle)
-        momenta = None
-        if system.v_ni is not None and system.l_ni is not None:
-            momenta = (system.v_ni, system.l_ni)
         self.energy = None if energy is None else float(energy)
         self.fresh_nve = nve and momenta is None  # equilibrate, then set the energy
         if self.fresh_nve:

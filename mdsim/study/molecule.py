@@ -170,15 +170,16 @@ def mean_kinetic_dof(fractions, molecules):
 
 
 #: The simulation routes that take rigid molecules (docs/physics.md, "Rigid molecules").
-MOLECULE_ROUTES = ("energy", "microcanonical")
+MOLECULE_ROUTES = ("energy", "microcanonical", "direct")
 
 
 def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
     A gas of rigid molecules is simulated by the energy route (canonical
-    Monte Carlo) and the microcanonical route (its final state by
-    fixed-energy molecular dynamics), for one linear molecule (site
+    Monte Carlo), the microcanonical route (its final state by fixed-energy
+    molecular dynamics) and the direct route (molecular dynamics of the
+    expansion), for one linear molecule (site
     Lennard-Jones or Mie plus an axial point quadrupole); a non-linear
     molecule is refused (the virial routes take it).  Spheres pass.
 
@@ -204,14 +205,14 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     if routes is None:
         raise StudyError(f"{where}: this simulation takes spherical potentials, not rigid "
                          'molecules (form = "rigid-molecule"); rigid molecules are simulated by '
-                         'the energy and microcanonical routes, [simulation] routes = ["energy"]')
+                         'the energy, microcanonical and direct routes, [simulation] routes = '
+                         '["energy"]')
     other = [r for r in routes if r not in MOLECULE_ROUTES]
     if other:
         what = f"the {' and '.join(other)} route{'s are' if len(other) > 1 else ' is'}"
         raise StudyError(f"{where}: {what} not yet supported for rigid-molecule potentials "
-                         '(form = "rigid-molecule"): the direct route moves atoms by molecular '
-                         'dynamics; use routes = ["energy", "microcanonical"] or the virial '
-                         'routes, routes = []')
+                         '(form = "rigid-molecule"); use routes = ["energy", "microcanonical", '
+                         '"direct"] or the virial routes, routes = []')
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
     if nonlinear:
         raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "

@@ -109,7 +109,6 @@ def test_nitrogen_energy_route_through_the_pipeline_against_coolprop(tmp_path, m
 
 
 @pytest.mark.parametrize("change, match", [
-    ('routes = ["energy", "direct"]', "direct route is not yet supported"),
     ('quantum_potential = "feynman-hibbs"', "not to rigid molecules"),
     ('quadrupole = "1.4397 D angstrom"\ndipole = "0.5 D"', "charges or a dipole"),
 ])
