@@ -78,13 +78,16 @@ def test_a_run_off_its_energy_moves_the_ray_temperature_by_offset_over_cv():
     assert moved.final_temperature_stderr_K == pytest.approx(0.01 / 2.5, rel=1e-12)
 
 
-def test_the_microcanonical_route_refuses_a_vibrational_heat_capacity(tmp_path):
-    # the route assumes c_v_ig = (f/2) R of the model's 5 kinetic degrees of freedom, as for
-    # spheres: a vibrational part is refused at planning, naming the route to use
-    text = energy_study(tmp_path, routes='["microcanonical"]').read_text().replace(
+@pytest.mark.parametrize("route", ["microcanonical", "direct"])
+def test_the_fixed_energy_routes_refuse_a_vibrational_heat_capacity(tmp_path, route):
+    # both routes' MD carries the model's 5 kinetic degrees of freedom and no vibration: they
+    # take c_v_ig = (f/2) R only, as the microcanonical route of spheres; a vibrational part
+    # (CO2's table, here a constant) is refused at planning, naming the route to use
+    text = energy_study(tmp_path, routes=f'["{route}"]').read_text().replace(
         'ideal_heat_capacity = "0 R"', 'ideal_heat_capacity = "0.5 R"')
     (tmp_path / "vib.toml").write_text(text)
-    with pytest.raises(StudyError, match="constant classical c_v_ig"):
+    with pytest.raises(StudyError, match=f"the {route} route assumes a constant classical "
+                       "c_v_ig.*use the energy route"):
         plan_tasks(read_study(tmp_path / "vib.toml"))
 
 
