@@ -1,4 +1,4 @@
-"""A linear rigid molecule in the reduced units of the engine.
+"""A linear rigid molecule (or an atom) in the reduced units of the engine.
 
 The engine's rigid-molecule kernels (:mod:`mdsim.engine.rigid_pair`) take,
 per molecule type, the axial site offsets from the centre of mass (sigma),
@@ -24,7 +24,8 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
     ----------
     molecule : RigidMolecule
         A linear molecule of two or more sites (point quadrupole allowed,
-        no point dipole or site charges yet).
+        no point dipole or site charges yet), or an atom (one site at the
+        origin: offset 0, no quadrupole).
     energy_unit_K : float
         epsilon/k of the reduced units, K.
     length_unit_angstrom : float
@@ -42,7 +43,7 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
     Raises
     ------
     StudyError
-        For an atom, a non-linear molecule, a dipole or site charges, or a
+        For a non-linear molecule, a dipole or site charges, or a
         quadrupole away from the centre of mass.
 
     Examples
@@ -55,11 +56,15 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
     >>> z, pots, q = reduced_linear_type(n2, 34.897, 3.3211)
     >>> [round(v, 4) for v in z], pots[0].epsilon, round(q, 4)
     ([-0.1575, 0.1575], 1.0, 1.0328)
+    >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.04)])
+    >>> z, pots, q = reduced_linear_type(ar, 34.897, 3.3211)
+    >>> z, round(pots[0].epsilon, 4), q
+    ([0.0], 3.3467, 0.0)
     """
     name = molecule.name
-    if molecule.n_sites < 2 or not molecule.is_linear:
+    if molecule.n_sites > 1 and not molecule.is_linear:
         raise StudyError(f"molecule '{name}': the rigid-molecule simulation kernels take linear "
-                         "molecules of two or more sites (an atom is a spherical potential)")
+                         "molecules and atoms (one site); use the virial routes for it")
     if molecule.dipole or molecule.has_charges:
         raise StudyError(f"molecule '{name}': point dipoles and site charges are not yet "
                          "simulated (only an axial point quadrupole); remove them or use the "

@@ -1,7 +1,8 @@
 """Canonical Monte Carlo of rigid linear molecules: the sampler.
 
 :class:`RigidMCSampler` moves one molecule at a time, a translation or a
-rotation of its axis (kernels in :mod:`mdsim.engine.rigid_mc_kernels`),
+rotation of its axis (an atom of a mixture only translations; kernels in
+:mod:`mdsim.engine.rigid_mc_kernels`),
 with the Metropolis acceptance at temperature kT.  The two step sizes are
 tuned toward ``target_acceptance`` in :meth:`RigidMCSampler.equilibrate`
 only and frozen during :meth:`RigidMCSampler.run`, which keeps detailed
@@ -59,7 +60,7 @@ def lattice_start(n_molecules, box_i, seed):
 
 
 class RigidMCSampler:
-    """Canonical (NVT) Monte Carlo of rigid linear molecules.
+    """Canonical (NVT) Monte Carlo of rigid linear molecules and their mixtures with atoms.
 
     Parameters
     ----------
@@ -161,8 +162,9 @@ class RigidMCSampler:
         self.u_trunc = rigid_moves(
             self.centre_ni, self.axis_ni, self.type_n, self.box_i, self.ncell_i, self.head_c,
             self.next_n, self.cell_n, m.site_start_t, m.site_z_k, m.params_kk, m.form,
-            m.quad_t, m.rc, m.core ** 2, self.state, int(n_moves), float(self.max_displacement),
-            float(self.max_angle), 1.0 / self.temperature, float(self.u_trunc), self.tried_m,
+            m.quad_t, m.rc, m.core ** 2, m.rotates_t, self.state, int(n_moves),
+            float(self.max_displacement), float(self.max_angle), 1.0 / self.temperature,
+            float(self.u_trunc), self.tried_m,
             self.accepted_m)
         if not math.isfinite(self.u_trunc):
             raise SimulationError("rigid Monte Carlo: the running energy is no longer finite")
@@ -172,23 +174,27 @@ class RigidMCSampler:
         """Run ``n_sweeps`` sweeps (N trial moves each), tuning both step sizes.
 
         After each block of at least 400 trial moves each step is
-        multiplied by exp(acceptance - target) of its own kind of move,
+        multiplied by exp(acceptance - target) of its own kind of move (the
+        angle only when some molecule rotates: atoms are only displaced),
         the displacement capped at half the shortest box edge and the angle
         at pi (a dilute gas accepts nearly every move and ends at the caps).
         """
         n_sweeps = count("equilibration_sweeps", n_sweeps, 0, "sweeps of N trial moves")
         total = n_sweeps * self.n_molecules
         block = max(2 * _TUNE_BLOCK_MOVES, self.n_molecules)
+        rotating = bool(self.model.rotates_t[self.type_n].any())  # atoms alone never turn
         done = 0
         while done < total:
             k = min(block, total - done)
             tried, acc = self._moves(k)
-            if tried.min() >= _TUNE_BLOCK_MOVES // 2:
-                rate = acc / tried
+            enough = tried >= _TUNE_BLOCK_MOVES // 2
+            if enough[0] and (enough[1] or not rotating):
+                rate = acc / np.maximum(tried, 1)
                 self.max_displacement = min(0.5 * float(self.box_i.min()), max(
                     _MIN_STEP, self.max_displacement * math.exp(rate[0] - self.target_acceptance)))
-                self.max_angle = min(math.pi, max(
-                    _MIN_STEP, self.max_angle * math.exp(rate[1] - self.target_acceptance)))
+                if rotating:
+                    self.max_angle = min(math.pi, max(
+                        _MIN_STEP, self.max_angle * math.exp(rate[1] - self.target_acceptance)))
             done += k
 
     def run(self, n_samples, interval):

@@ -4,7 +4,8 @@ A trial move picks a molecule at random and, with probability 1/2 each,
 either displaces its centre uniformly inside a cube of half-width
 ``max_displacement`` or turns its axis by an angle drawn uniformly from
 [-max_angle, max_angle] about an axis drawn uniformly on the sphere
-(Rodrigues' rotation formula).  Both proposals are symmetric (the reverse
+(Rodrigues' rotation formula); an atom (a type that does not rotate) is
+always displaced, its rotation being no move at all.  Both proposals are symmetric (the reverse
 move has the same probability), so the Metropolis acceptance
 min(1, exp(-dU / kT)) keeps detailed balance (Allen and Tildesley, Computer
 Simulation of Liquids, 2nd ed. 2017, section 4.7).
@@ -95,8 +96,8 @@ def _turn(state, ex, ey, ez, max_angle):
 
 @njit(cache=True)
 def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell_n,
-                site_start_t, site_z_k, params_kk, form, quad_t, rc, core2, state, n_moves,
-                max_displacement, max_angle, beta, u_total, tried_m, accepted_m):
+                site_start_t, site_z_k, params_kk, form, quad_t, rc, core2, rotates_t, state,
+                n_moves, max_displacement, max_angle, beta, u_total, tried_m, accepted_m):
     """``n_moves`` Metropolis trial moves (translation or rotation, 1/2 each).
 
     Parameters
@@ -111,6 +112,8 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
         The model of :class:`mdsim.engine.rigid_model.LinearPairModel`.
     core2 : float, sigma^2
         The square of its hard core at the centre (0: none); a move into it is rejected.
+    rotates_t : ndarray, shape=(n_types,), int64
+        0 for a type that is never turned (an atom): its moves are all translations.
     state : ndarray, shape=(4,), uint64
         The random stream (advanced).
     n_moves : int
@@ -132,7 +135,7 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
     cells_c = np.empty((2 * ncell_i[3] + 1) ** 3, dtype=np.int64)
     for _ in range(n_moves):
         i = min(int(_rng.uniform(state) * n), n - 1)
-        kind = 0 if _rng.uniform(state) < 0.5 else 1
+        kind = 0 if _rng.uniform(state) < 0.5 or rotates_t[type_n[i]] == 0 else 1
         xo, yo, zo = centre_ni[i, 0], centre_ni[i, 1], centre_ni[i, 2]
         eo_x, eo_y, eo_z = axis_ni[i, 0], axis_ni[i, 1], axis_ni[i, 2]
         if kind == 0:

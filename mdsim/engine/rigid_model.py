@@ -42,6 +42,17 @@ class LinearPairModel:
     site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted
         The arguments of :func:`forces_half`, in its order.
     core : float, sigma
+    rotates_t : ndarray, shape=(n_types,), int64
+        1 for a type whose energy depends on its axis, 0 for an atom (one
+        site at the centre, no quadrupole), which Monte Carlo never turns.
+
+    Notes
+    -----
+    An atom is a type of one site at offset 0 without a quadrupole; a
+    mixture of molecules and atoms is one model of several types, unlike
+    sites mixed by the Lorentz-Berthelot rules of
+    :func:`mdsim.engine.potentials.combine` (the one home of the rule, which
+    the virial routes use too).
 
     Examples
     --------
@@ -83,6 +94,9 @@ class LinearPairModel:
                                    for k in range(n_k)])
         self.form = FORM_LJ if all_lj else FORM_MIE
         self.quad_t = np.array(quads)
+        self.rotates_t = np.array([int(self.quad_t[t] != 0.0 or np.any(
+            self.site_z_k[starts[t]:starts[t + 1]] != 0.0)) for t in range(len(quads))],
+            dtype=np.int64)
         self.rc = rc
         self.shifted = int(bool(shifted))
         self.core = float(core)

@@ -16,11 +16,13 @@ angular momenta, as well as the centres.
 model: the molecular virial series (B2 by orientation quadrature, B3 by Monte Carlo
 integration) for the first guesses and the pressure iteration's slope.
 """
+import numpy as np
+
 from mdsim.errors import StudyError
 from mdsim.pipeline.chain import Chain
 from mdsim.sampling import store
 from mdsim.sampling.rigid_md_stage import MD_METHODS
-from mdsim.sampling.rigid_stage import METHOD, rigid_system
+from mdsim.sampling.rigid_stage import METHOD, mixture_system
 
 __all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method",
            "reduced_rigid_inertia"]
@@ -40,8 +42,10 @@ class RigidChain(Chain):
         system = super().continue_system(prev)
         state, _ = store.read_checkpoint(prev.path)
         system.axis_ni = state["axis_ni"].astype(float)
-        if "angular_momenta" in state:
+        if "angular_momenta" in state:  # MD: the run continued with its momenta
             system.l_ni = state["angular_momenta"].astype(float)
+        if "type_n" in state:  # a mixture: the types of the molecules continued
+            system.type_n = np.asarray(state["type_n"], dtype=np.int64)
         return system
 
     def _settings(self, prev):
@@ -75,13 +79,20 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
 
     The molecular cut-off is the study's ``[potential] cutoff`` (sigma of the
     first site), with the isotropic site-site tail (:mod:`mdsim.engine.rigid_mc`).
+    A mixture's box holds the study's mole fractions rounded to whole
+    molecules (:meth:`mdsim.study.reader.Study.counts`).
     """
-    molecule = job.study.gas.molecules[0]
+    molecules = job.study.gas.molecules
+    counts_t = job.study.counts(job.n_particles)
     rc = float(job.study.reduced_pairs().rc_max)
     T = job.T_i if temperature_K is None else temperature_K
+    if len(molecules) > 1:
+        note = _mixture_note(job.study.gas, counts_t)
+        if note not in job.notes:
+            job.notes.append(note)
 
     def make():
-        return rigid_system(molecule, T, rho_mol_m3, job.n_particles, rc, job.start_seed(tag))
+        return mixture_system(molecules, counts_t, T, rho_mol_m3, rc, job.start_seed(tag))
     return make
 
 
@@ -97,16 +108,30 @@ def set_up_molecular_task(job):
     from mdsim.study.statepoints import virial_gas
     study = job.study
     job.virial_gas = virial_gas(study)
-    mol = study.gas.molecules[0]
-    mc = "canonical Monte Carlo with translation and rotation moves"
+    gas = study.gas
+    what = ", ".join(f"{m.name}, {m.n_sites} site{'s' if m.n_sites > 1 else ''}"
+                     for m in gas.molecules)
+    moves = ("translation and rotation moves (atoms translations only)"
+             if any(m.n_sites == 1 for m in gas.molecules) else "translation and rotation moves")
+    mc = f"canonical Monte Carlo with {moves}"
     md = "molecular dynamics (symplectic rigid-body splitting, shifted-energy model)"
     how = {"energy": md.replace("molecular", "thermostatted molecular", 1)
            if job.task.get("sampler") == "md" else mc,
            "microcanonical": f"the initial state by {mc}, the final state by fixed-energy {md}",
            "direct": f"{md}, thermostatted at the initial state, then at fixed energy"}
     job.notes.append(
-        f"rigid molecules ({mol.name}, {mol.n_sites} sites): "
-        f"{how.get(job.task.get('route'), mc)}, molecular cut-off "
+        f"rigid molecules ({what}): {how.get(job.task.get('route'), mc)}, molecular cut-off "
         f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
-        f"c_v_ig = {mol.kinetic_dof}/2 R from the model's translations and rotations plus the "
-        "study's vibrational part")
+        f"c_v_ig = {gas.kinetic_dof:.4g}/2 R from the model's translations and rotations plus "
+        "the study's vibrational part")
+
+
+def _mixture_note(gas, counts_t):
+    """What the task says of a mixture's box: its molecules, and the rules between them."""
+    n = int(sum(counts_t))
+    box = ", ".join(f"{c} {m.name}" for c, m in zip(counts_t, gas.molecules))
+    x = ", ".join(f"{c / n:.4g}" for c in counts_t)
+    return (f"mixture: {box} in the box (mole fractions {x}: the study's "
+            f"{', '.join(f'{v:.4g}' for v in gas.fractions)} rounded to whole molecules); "
+            "unlike sites by Lorentz-Berthelot, quadrupole-quadrupole energy between the "
+            "molecules that carry one")

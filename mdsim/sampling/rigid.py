@@ -1,4 +1,5 @@
-"""One state point of a gas of rigid linear molecules by canonical Monte Carlo.
+"""One state point of a gas of rigid linear molecules (or their mixture with atoms) by
+canonical Monte Carlo.
 
 :func:`sample_rigid_state` puts ``n_molecules`` molecules of a
 :class:`~analysis.molecules.RigidMolecule` in a cubic box at the density
@@ -15,7 +16,7 @@ from analysis.expansion.energy import StateSample
 from analysis.stats import mean_and_stderr, variance_and_stderr
 from mdsim.engine.rigid_mc import RigidMCSampler
 from mdsim.numbers import value_with_error
-from mdsim.sampling.rigid_box import rigid_box
+from mdsim.sampling.rigid_box import mixture_box, rigid_box
 
 __all__ = ["RigidStateEstimate", "sample_rigid_state"]
 
@@ -70,13 +71,15 @@ class RigidStateEstimate:
 
 
 def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=256, cutoff=5.0,
-                       equilibration_sweeps=200, samples=200, interval=2, seed=1):
-    """u_res and p of a gas of one linear rigid molecule at (T, rho), canonical Monte Carlo.
+                       equilibration_sweeps=200, samples=200, interval=2, seed=1,
+                       counts_t=None):
+    """u_res and p of a gas of linear rigid molecules at (T, rho), canonical Monte Carlo.
 
     Parameters
     ----------
-    molecule : RigidMolecule
-        Linear, two or more sites, optional axial quadrupole.
+    molecule : RigidMolecule or list of RigidMolecule
+        Linear, two or more sites, optional axial quadrupole; a list is a
+        mixture of such molecules and atoms, with ``counts_t``.
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3
     n_molecules : int
@@ -85,6 +88,8 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     equilibration_sweeps, samples, interval : int
         Sweeps (N trial moves) to equilibrate; recorded samples; sweeps between them.
     seed : int
+    counts_t : list of int, optional
+        Molecules of each type of a mixture (then ``n_molecules`` is their sum).
 
     Returns
     -------
@@ -102,9 +107,12 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     >>> est.u_res_J_mol < 0, 0.9e7 < est.pressure_Pa < 1.1e7
     (True, True)
     """
-    box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
+    if counts_t is None:
+        box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
+    else:
+        box = mixture_box(molecule, counts_t, temperature_K, density_mol_m3, cutoff, seed)
     T, rho, n, units = box.temperature_K, box.density_mol_m3, len(box.centre_ni), box.units
-    sampler = RigidMCSampler(box.model, box.centre_ni, box.axis_ni, np.zeros(n, dtype=np.int64),
+    sampler = RigidMCSampler(box.model, box.centre_ni, box.axis_ni, box.type_n,
                              box.box_i, temperature=box.temperature, seed=[seed, 1])
     sampler.equilibrate(equilibration_sweeps)
     tried0, accepted0 = sampler.tried_m.copy(), sampler.accepted_m.copy()

@@ -1,9 +1,10 @@
-"""A cubic box of one linear rigid molecule at (T, rho) in reduced units: the common set-up
-of the Monte Carlo (:mod:`mdsim.sampling.rigid`) and molecular-dynamics
-(:mod:`mdsim.sampling.rigid_dynamics`) state points.
+"""A cubic box of linear rigid molecules (one kind, or a mixture with atoms) at (T, rho) in
+reduced units: the common set-up of the Monte Carlo (:mod:`mdsim.sampling.rigid`) and
+molecular-dynamics (:mod:`mdsim.sampling.rigid_dynamics`) state points.
 
-The reduced units are those of the molecule's first site: its epsilon and
-sigma, and the molecule's mass.
+The reduced units are those of the first molecule's first site: its epsilon
+and sigma, and the first molecule's mass.  A mixture's molecules are placed
+on the lattice in a seeded random order of their types.
 """
 import dataclasses
 
@@ -14,9 +15,10 @@ from analysis.molecules.reduced import reduced_linear_type
 from mdsim.checks import count, positive
 from mdsim.engine.rigid_mc import lattice_start
 from mdsim.engine.rigid_model import LinearPairModel
+from mdsim.errors import SettingError
 from mdsim.units import ReducedUnits
 
-__all__ = ["RigidBox", "rigid_box", "reduced_inertia", "centre_core"]
+__all__ = ["RigidBox", "rigid_box", "mixture_box", "reduced_inertia", "centre_core"]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -32,10 +34,12 @@ class RigidBox:
     units : mdsim.units.ReducedUnits
     model : mdsim.engine.rigid_model.LinearPairModel
     inertia : float
-        Moment of inertia of the linear rotor, m sigma^2.
+        Moment of inertia of the (first) linear rotor, m sigma^2.
     box_i : ndarray, shape=(3,), sigma
     centre_ni, axis_ni : ndarray, shape=(n, 3)
         Centres on a simple cubic lattice, axes uniform on the sphere.
+    type_n : ndarray, shape=(n,), int64
+        The type (index into the molecules) of each molecule.
     """
 
     temperature_K: float
@@ -47,6 +51,7 @@ class RigidBox:
     box_i: np.ndarray
     centre_ni: np.ndarray
     axis_ni: np.ndarray
+    type_n: np.ndarray = None
 
 
 def reduced_inertia(molecule, units):
@@ -63,10 +68,10 @@ def reduced_inertia(molecule, units):
     return float(molecule.moments_of_inertia()[-1] / (units.mass_kg * units.sigma_m ** 2))
 
 
-def centre_core(molecule):
+def centre_core(molecule, sigma_angstrom=None):
     """The hard core at the centre of a molecule with a point multipole, in sigma of its first
-    site (0 without one): OVERLAP_SIGMA times its largest site sigma, the overlap rule of
-    :mod:`analysis.molecules.pair_energy` (docs/physics.md section 7a.1).
+    site (or ``sigma_angstrom``; 0 without one): OVERLAP_SIGMA times its largest site sigma,
+    the overlap rule of :mod:`analysis.molecules.pair_energy` (docs/physics.md section 7a.1).
 
     >>> from mdsim.engine.potentials import LennardJones
     >>> from analysis.molecules import RigidMolecule, Site
@@ -79,7 +84,8 @@ def centre_core(molecule):
     if molecule.quadrupole == 0.0 and molecule.dipole == 0.0:
         return 0.0
     sigma = max(s.potential.sigma for s in molecule.sites)
-    return OVERLAP_SIGMA * sigma / molecule.sites[0].potential.sigma
+    unit = molecule.sites[0].potential.sigma if sigma_angstrom is None else sigma_angstrom
+    return OVERLAP_SIGMA * sigma / unit
 
 
 def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
@@ -95,7 +101,7 @@ def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed
     n_molecules : int
     cutoff : float, sigma
         Molecular (centre-centre) cut-off.
-    seed : int
+    seed : int or list of int
         Seeds the start axes.
     shifted : bool
         The shifted-energy pair model (molecular dynamics) instead of the
@@ -116,16 +122,66 @@ def rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed
     >>> round(b.temperature, 3), round(b.inertia, 4), round(float(b.box_i[0]), 3)
     (8.597, 0.0248, 8.985)
     """
+    n = count("n_molecules", n_molecules, 2, "molecules in the box")
+    return mixture_box([molecule], [n], temperature_K, density_mol_m3, cutoff, seed, shifted)
+
+
+def mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed,
+                shifted=False):
+    """The :class:`RigidBox` of a mixture of linear molecules and atoms at (T, rho).
+
+    Parameters
+    ----------
+    molecules : list of RigidMolecule
+        One per type: linear molecules (optional axial quadrupole) or atoms
+        (one site at the origin).
+    counts_t : list of int
+        Molecules of each type (each >= 0, at least 2 in all).
+    temperature_K, density_mol_m3, cutoff, seed, shifted
+        As for :func:`rigid_box`; the seed also orders the types on the lattice.
+
+    Returns
+    -------
+    RigidBox
+
+    Notes
+    -----
+    The hard core at the centres (:func:`centre_core`) is the largest of the
+    molecules with a multipole and applies to every pair: between other
+    pairs it lies far inside the site-site repulsion, so it removes nothing
+    (for air's 2CLJQ N2, O2 and LJ Ar: two centres that close put two sites
+    within 0.56 of their sigma, a site-site energy above 600 kT at 295 K).
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(34.897, 3.3211)
+    >>> n2 = RigidMolecule("N2", [Site(lj, (0, 0, -0.5232), 0.0140067),
+    ...                           Site(lj, (0, 0, 0.5232), 0.0140067)])
+    >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.039948)])
+    >>> b = mixture_box([n2, ar], [50, 14], 300.0, 4000.0, 3.0, seed=1)
+    >>> np.bincount(b.type_n).tolist(), b.model.rotates_t.tolist()
+    ([50, 14], [1, 0])
+    """
     T = positive("temperature_K", temperature_K, "a temperature in K")
     rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
-    n = count("n_molecules", n_molecules, 2, "molecules in the box")
-    site = molecule.sites[0].potential
-    units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
-    model = LinearPairModel([reduced_linear_type(molecule, site.epsilon, site.sigma)],
+    counts_t = [count(f"counts_t[{t}]", c, 0, "molecules of a type") for t, c in
+                enumerate(counts_t)]
+    if len(counts_t) != len(molecules):
+        raise SettingError("counts_t", counts_t, f"needs one count per molecule "
+                           f"({len(molecules)})")
+    n = count("n_molecules", sum(counts_t), 2, "molecules in the box")
+    site = molecules[0].sites[0].potential
+    units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecules[0].molar_mass_kg_mol)
+    model = LinearPairModel([reduced_linear_type(m, site.epsilon, site.sigma) for m in molecules],
                             positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted,
-                            core=centre_core(molecule))
-    inertia = reduced_inertia(molecule, units)
+                            core=max(centre_core(m, site.sigma) for m in molecules))
+    inertia = reduced_inertia(molecules[0], units)
     box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, axis_ni = lattice_start(n, box_i, seed)
+    type_n = np.repeat(np.arange(len(counts_t), dtype=np.int64), counts_t)
+    if len(counts_t) > 1:  # a pure gas keeps its start (no draw)
+        type_n = np.random.default_rng([*np.atleast_1d(seed).tolist(), 1]).permutation(type_n)
     return RigidBox(T, rho, units.temperature_to_reduced(T), units, model, inertia, box_i,
-                    centre_ni, axis_ni)
+                    centre_ni, axis_ni, type_n)

@@ -105,6 +105,9 @@ class RigidMDStageSampler:
             raise SettingError("method", method, "rigid-md-nvt takes a temperature, "
                                "rigid-md-nve an energy per molecule or the system's momenta "
                                "(not a temperature)")
+        if system.model.n_types > 1:
+            raise SettingError("system", f"{system.model.n_types} kinds of molecule", "rigid "
+                               "MD takes one kind of molecule; sample a mixture by rigid-mc-nvt")
         self.method, self.system = method, system
         self.model = copy.copy(system.model)
         self.model.shifted = 1  # the dynamics need the shifted energy (mdsim.engine.rigid_md)

@@ -19,9 +19,9 @@ import dataclasses
 import numpy as np
 
 from mdsim.errors import StudyError
-from mdsim.sampling.rigid_box import rigid_box
+from mdsim.sampling.rigid_box import mixture_box, rigid_box
 
-__all__ = ["METHOD", "RigidSystem", "RigidMCStageSampler", "rigid_system"]
+__all__ = ["METHOD", "RigidSystem", "RigidMCStageSampler", "rigid_system", "mixture_system"]
 
 METHOD = "rigid-mc-nvt"
 """The method name of canonical Monte Carlo of rigid molecules in stage files."""
@@ -40,9 +40,13 @@ class RigidSystem:
     axis_ni : ndarray, shape=(n, 3)
         Unit axes.
     dof_per_particle : int
-        Kinetic degrees of freedom per molecule (3 + 2 for a linear rotor).
+        Kinetic degrees of freedom per molecule (3 + 2 for a linear rotor;
+        of a mixture the largest, as ``[gas] dof_per_particle``).
+    type_n : ndarray, shape=(n,), int64, optional
+        The type of each molecule (default: all type 0).
     inertia : float, m sigma^2
-        Moment of inertia of the linear rotor (molecular dynamics).
+        Moment of inertia of the (first) linear rotor (molecular dynamics,
+        which takes one kind of molecule).
     v_ni, l_ni : ndarray, shape=(n, 3), optional
         Velocities and angular momenta to start molecular dynamics from (a
         continued stage); None for a fresh start.
@@ -53,9 +57,14 @@ class RigidSystem:
     r_ni: np.ndarray
     axis_ni: np.ndarray
     dof_per_particle: int
+    type_n: np.ndarray = None
     inertia: float = float("nan")
     v_ni: np.ndarray = None
     l_ni: np.ndarray = None
+
+    def __post_init__(self):
+        if self.type_n is None:  # one kind of molecule
+            self.type_n = np.zeros(self.n_particles, dtype=np.int64)
 
     @property
     def n_particles(self):
@@ -68,10 +77,6 @@ class RigidSystem:
     @property
     def density(self):
         return self.n_particles / self.volume
-
-    @property
-    def type_n(self):
-        return np.zeros(self.n_particles, dtype=np.int64)
 
 
 def rigid_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed):
@@ -102,7 +107,30 @@ def rigid_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, s
     """
     box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
     return RigidSystem(box.model, box.box_i, box.centre_ni, box.axis_ni,
-                       int(molecule.kinetic_dof), box.inertia)
+                       int(molecule.kinetic_dof), inertia=box.inertia)
+
+
+def mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed):
+    """A :class:`RigidSystem` of a mixture of linear molecules and atoms
+    (:func:`mdsim.sampling.rigid_box.mixture_box`: lattice centres, the types in a seeded
+    random order, random axes); arguments as there.
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(34.897, 3.3211)
+    >>> n2 = RigidMolecule("N2", [Site(lj, (0, 0, -0.5232), 0.0140067),
+    ...                           Site(lj, (0, 0, 0.5232), 0.0140067)])
+    >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.039948)])
+    >>> s = mixture_system([n2, ar], [60, 4], 300.0, 4000.0, 3.0, seed=1)
+    >>> s.n_particles, s.dof_per_particle, np.bincount(s.type_n).tolist()
+    (64, 5, [60, 4])
+    """
+    box = mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed)
+    return RigidSystem(box.model, box.box_i, box.centre_ni, box.axis_ni,
+                       max(int(m.kinetic_dof) for m in molecules), box.type_n,
+                       inertia=box.inertia)
 
 
 class RigidMCStageSampler:
@@ -168,12 +196,12 @@ class RigidMCStageSampler:
                 "max_angle": float(mc.max_angle), "u_trunc_total": float(mc.u_trunc),
                 "tried_m": mc.tried_m.copy(), "accepted_m": mc.accepted_m.copy(),
                 "head_c": mc.head_c.copy(), "next_n": mc.next_n.copy(),
-                "cell_n": mc.cell_n.copy()}
+                "cell_n": mc.cell_n.copy(), "type_n": mc.type_n.copy()}
 
     def set_state(self, state):
         """Continue from a dictionary made by :meth:`get_state`."""
         mc = self.mc
-        missing = sorted(set(self.get_state()) - set(state))
+        missing = sorted(set(self.get_state()) - set(state) - {"type_n"})  # older files: one type
         if missing:
             raise StudyError(f"rigid Monte Carlo state is missing {missing}; it must come from "
                              "RigidMCStageSampler.get_state")
@@ -186,6 +214,9 @@ class RigidMCStageSampler:
                 raise StudyError(f"rigid Monte Carlo state '{key}' has shape {value.shape}, "
                                  f"this sampler {target.shape}; resume with the same system")
             target[...] = value
+        if not np.array_equal(np.asarray(state.get("type_n", mc.type_n)), mc.type_n):
+            raise StudyError("rigid Monte Carlo state: the molecule types differ from this "
+                             "sampler's; resume with the same system")
         mc.max_displacement = float(state["max_displacement"])
         mc.max_angle = float(state["max_angle"])
         mc.u_trunc = float(state["u_trunc_total"])

@@ -177,11 +177,13 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
     A gas of rigid molecules is simulated by the energy route (canonical
-    Monte Carlo), the microcanonical route (its final state by fixed-energy
-    molecular dynamics) and the direct route (molecular dynamics of the
-    expansion), for one linear molecule (site
-    Lennard-Jones or Mie plus an axial point quadrupole); a non-linear
-    molecule is refused (the virial routes take it).  Spheres pass.
+    Monte Carlo of linear molecules, site Lennard-Jones or Mie plus an axial
+    point quadrupole, one kind or a mixture with atoms; or thermostatted
+    molecular dynamics of one kind, ``sampler = "md"``), the microcanonical
+    route (its final state by fixed-energy molecular dynamics) and the direct
+    route (molecular dynamics of the expansion), those two for one kind of
+    linear molecule; a non-linear molecule is refused (the virial routes
+    take it).  Spheres pass.
 
     Parameters
     ----------
@@ -193,7 +195,7 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         (which a gas of molecules cannot give).
     sampler : str
         ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo for rigid
-        molecules, "md" thermostatted molecular dynamics): each is supported.
+        molecules, "md" thermostatted molecular dynamics of one kind of molecule).
 
     Raises
     ------
@@ -218,13 +220,15 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
                          "simulation takes linear molecules only; use the virial routes, "
                          "[simulation] routes = []")
-    if gas.n_species > 1:
-        raise StudyError(f"{where}: simulation of a mixture with rigid molecules is not yet "
-                         "supported (the rigid Monte Carlo takes one kind of molecule); use the "
-                         "virial routes, [simulation] routes = []")
-    mol = gas.molecules[0]
-    if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
-        raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
-                         "dipole is not yet supported (the rigid Monte Carlo has site "
-                         "Lennard-Jones or Mie and an axial quadrupole); use the virial routes, "
-                         "[simulation] routes = []")
+    for mol in gas.molecules:  # a mixture of linear molecules and atoms is simulated too
+        if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
+            raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
+                             f"dipole ('{mol.name}') is not yet supported (the rigid Monte Carlo "
+                             "has site Lennard-Jones or Mie and an axial quadrupole); use the "
+                             "virial routes, [simulation] routes = []")
+    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
+    if gas.n_species > 1 and by_md:
+        raise StudyError(f"{where}: {' and '.join(by_md)}: a mixture with rigid molecules is "
+                         "simulated by the energy route's canonical Monte Carlo only (the rigid "
+                         'molecular dynamics takes one kind of molecule); use routes = ["energy"] '
+                         'with sampler "auto" or "mc", or the virial routes, routes = []')

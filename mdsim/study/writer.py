@@ -121,7 +121,8 @@ def resolved_study_document(study, copies=None):
     _relocate_data_files(study, doc, copies)
     gas = doc["gas"]
     gas.setdefault("quantum", study.gas.quantum)
-    gas.setdefault("dof_per_particle", int(study.gas.dof_per_particle))
+    if study.gas.molecules is None:  # rigid molecules: the model sets it (a mixture has several)
+        gas.setdefault("dof_per_particle", int(study.gas.dof_per_particle))
     doc.setdefault("potential", {})
     if "species" not in gas:
         pairs = study.gas.pairs_K_angstrom

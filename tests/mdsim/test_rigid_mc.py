@@ -20,7 +20,7 @@ from mdsim.engine.rigid_model import LinearPairModel
 from mdsim.errors import SettingError
 from mdsim.sampling.rigid import sample_rigid_state
 from mdsim.study.reader import read_study
-from mdsim.units import R_GAS
+from mdsim.units import N_A, R_GAS
 
 CONFIGS = Path(__file__).resolve().parents[2] / "configs"
 
@@ -133,3 +133,54 @@ def test_nitrogen_energy_route_from_100_bar_doubled_against_coolprop(nitrogen, n
     # its virial route, tests/analysis/molecules/test_against_coolprop.py)
     assert res.delta_T_K == pytest.approx(T_f - T_i, abs=3 * res.delta_T_stderr_K
                                           + 0.02 * abs(T_f - T_i))
+
+
+@pytest.fixture(scope="module")
+def air():
+    """configs/air_2cljq.toml: 2CLJQ N2 and O2 and LJ Ar (Vrabec et al. 2001, from memory)."""
+    return read_study(CONFIGS / "air_2cljq.toml")
+
+
+def test_a_mixture_keeps_its_books_and_never_turns_an_atom(air):
+    # air's molecules at a liquid-like density (rho sigma^3 = 0.5, kT = 2 epsilon of N2), so
+    # that moves are rejected too; 40 N2, 16 O2, 8 Ar
+    from mdsim.sampling.rigid_box import mixture_box
+    units = air.units
+    rho = 0.5 / (units.sigma_m ** 3 * N_A)
+    box = mixture_box(air.gas.molecules, [40, 16, 8], 2.0 * units.epsilon_K, rho, 2.4, seed=3)
+    assert np.bincount(box.type_n).tolist() == [40, 16, 8]
+    s = RigidMCSampler(box.model, box.centre_ni, box.axis_ni, box.type_n, box.box_i,
+                       temperature=2.0, seed=5)
+    axis0 = s.axis_ni.copy()
+    s.equilibrate(20)
+    s.run(3, 2)
+    assert np.all((s.acceptance_m > 0.2) & (s.acceptance_m < 0.8))
+    # the running energy equals the recomputed total (tolerance: round-off)
+    assert s.u_trunc == pytest.approx(s.energy_and_virial()[0], rel=1e-10)
+    atoms = box.type_n == 2
+    assert np.array_equal(s.axis_ni[atoms], axis0[atoms])  # an atom is never turned
+    turned = np.any(s.axis_ni[~atoms] != axis0[~atoms], axis=1)
+    assert turned.mean() > 0.9  # the molecules were (about 13 rotations tried each)
+
+
+def test_air_at_22_bar_against_its_virial_series(air):
+    # the mixture's u_res and p at 295.15 K and the density of 22 bar by the model's B2 + B3
+    # series (the virial routes' mixing: Lorentz-Berthelot per site pair), 200 molecules
+    gas = MolecularVirialGas(air.gas.molecules, air.gas.fractions, n_draws=30000)
+    T = 295.15
+    rho = gas.density_from_pressure(T, 22e5)
+    counts = air.counts(200)
+    est = sample_rigid_state(air.gas.molecules, T, rho, n_molecules=200, cutoff=5.0,
+                             equilibration_sweeps=50, samples=1000, interval=1, seed=3,
+                             counts_t=counts)
+    # the box's mole fractions are the study's rounded to whole molecules (156, 42, 2): the
+    # series at the box's fractions
+    box_gas = MolecularVirialGas(air.gas.molecules, counts / counts.sum(), n_draws=30000)
+    u3, u2 = box_gas.u_res_J_mol(T, rho, 3), box_gas.u_res_J_mol(T, rho, 2)
+    u3_stderr = 0.5 * R_GAS * T ** 2 * rho ** 2 * box_gas.C_stderr(T)[1]
+    # tolerance: 3 combined standard errors plus a third of the B3 term for the missing B4
+    # term (as for nitrogen above; the B3 term is 0.3 % of u_res here)
+    tol = 3 * math.hypot(est.u_res_stderr, u3_stderr) + abs(u3 - u2) / 3
+    assert est.u_res_J_mol == pytest.approx(u3, abs=tol)
+    p3 = box_gas.pressure_Pa(T, rho, 3)
+    assert est.pressure_Pa == pytest.approx(p3, abs=3 * est.pressure_stderr)

@@ -113,19 +113,23 @@ def _slow_system(molecules_t, type_n, centre_ni, axis_ni, box_i, rc):
     return u / EPS_K
 
 
+def _random_start(rng, box_i, n):
+    """n random centres in a periodic box, every pair at least 1.1 sigma apart."""
+    while True:
+        centre_ni = rng.uniform(0, 1, (n, 3)) * box_i
+        diff = centre_ni[:, None] - centre_ni[None]
+        diff -= box_i * np.rint(diff / box_i)
+        if (np.sqrt((diff ** 2).sum(-1)) + 10 * np.eye(n)).min() > 1.1:
+            return centre_ni
+
+
 def test_box_kernel_against_a_slow_numpy_sum(nitrogen, oxygen):
     # 10 molecules (two types) in a periodic box: energy against the NumPy pair
     # energy; forces and torques against finite differences of that energy
     rng = np.random.default_rng(5)
     box_i = np.array([4.0, 4.5, 5.0])
     n, rc = 10, 2.2
-    while True:  # random start without overlaps (every pair at least 1.1 sigma apart)
-        centre_ni = rng.uniform(0, 1, (n, 3)) * box_i
-        diff = centre_ni[:, None] - centre_ni[None]
-        diff -= box_i * np.rint(diff / box_i)
-        dist = np.sqrt((diff ** 2).sum(-1)) + 10 * np.eye(n)
-        if dist.min() > 1.1:
-            break
+    centre_ni = _random_start(rng, box_i, n)
     axis_ni = np.array([random_unit(rng) for _ in range(n)])
     type_n = np.array([0, 1] * 5, dtype=np.int64)
     mols = [nitrogen, oxygen]
@@ -163,3 +167,39 @@ def test_box_kernel_against_a_slow_numpy_sum(nitrogen, oxygen):
     f2, t2 = np.zeros((n, 3)), np.zeros((n, 3))
     assert forces_half(centre_ni, axis_ni, type_n, box_i, *model.arrays(), nb_nj, count_n,
                        f2, t2) == (u, w)
+
+
+def test_mixture_of_molecules_and_an_atom_in_the_monte_carlo_kernels(nitrogen, oxygen,
+                                                                      argon_atom):
+    # air's three kinds (2CLJQ N2 and O2, LJ Ar; conftest.py) in one periodic box: the Monte
+    # Carlo cell kernels' total energy and one molecule's energy against the analysis
+    # layer's pair energy summed over pairs (unlike sites by Lorentz-Berthelot there too,
+    # the quadrupole energy only between N2 and O2), to round-off (1e-10)
+    from mdsim.engine.rigid_mc import RigidMCSampler
+    from mdsim.engine.rigid_mc_kernels import molecule_energy
+    rng = np.random.default_rng(11)
+    box_i = np.array([5.0, 5.5, 6.0])
+    n, rc = 15, 2.4
+    centre_ni = _random_start(rng, box_i, n)
+    axis_ni = np.array([random_unit(rng) for _ in range(n)])
+    type_n = np.array([0, 1, 2] * 5, dtype=np.int64)
+    mols = [nitrogen, oxygen, argon_atom]
+    model = _model(mols, cutoff=rc)
+    assert model.rotates_t.tolist() == [1, 1, 0]
+    mc = RigidMCSampler(model, centre_ni, axis_ni, type_n, box_i, temperature=2.0, seed=1)
+    u, _ = mc.energy_and_virial()
+    assert u == pytest.approx(_slow_system(mols, type_n, centre_ni, axis_ni, box_i, rc),
+                              rel=1e-10)
+    cells = np.empty((2 * mc.ncell_i[3] + 1) ** 3, dtype=np.int64)
+    for i in (2, 4):  # an argon atom and an oxygen molecule against all others
+        c, e = centre_ni[i], axis_ni[i]
+        u_i = molecule_energy(i, c[0], c[1], c[2], e[0], e[1], e[2], mc.centre_ni, mc.axis_ni,
+                              type_n, box_i, mc.ncell_i, mc.head_c, mc.next_n,
+                              *model.arrays()[:5], rc, 0.0, cells)
+        others = np.arange(n) != i
+        d = centre_ni[others] - c
+        d -= box_i * np.rint(d / box_i)
+        near = (d ** 2).sum(-1) < rc * rc
+        want = sum(float(pair_energy(mols[type_n[i]], mols[t], dv * SIGMA_A, e, ev))
+                   for t, dv, ev in zip(type_n[others][near], d[near], axis_ni[others][near]))
+        assert u_i == pytest.approx(want / EPS_K, rel=1e-10)
