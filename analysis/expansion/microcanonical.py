@@ -29,7 +29,8 @@ def _kinetic_series(kinetic_t_red):
 
 
 def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K, T_i,
-                         initial_energy_stderr_red=0.0, cv_red=None, rho_f=None):
+                         initial_energy_stderr_red=0.0, cv_red=None, rho_f=None,
+                         energy_offset_red=(0.0, 0.0)):
     """Final temperature from a microcanonical Monte Carlo run at V_f.
 
     Parameters
@@ -54,6 +55,12 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
         propagation; f / 2 (the kinetic part) by default.
     rho_f : float, optional
         Final density, mol/m^3, recorded in the result.
+    energy_offset_red : (float, float)
+        The mean energy per particle of the sampled run minus E, with its
+        standard error (epsilon): nonzero when the run conserves another
+        energy than the one E counts (molecular dynamics with a shifted
+        potential, E counted with the plain cut plus tail) or drifts.  T_f
+        is moved by -offset / c_v and the offset's error added.
 
     Returns
     -------
@@ -63,7 +70,9 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
     -----
     1 / (k T) = (F/2 - 1) <1 / (E - U)>, E - U = N K_t (J. R. Ray, Phys.
     Rev. A 44, 4061, 1991).  stderr from the statistical inefficiency of
-    1 / (N K_t): s_T = T^2 (F/2 - 1) s_<1/(E-U)>.
+    1 / (N K_t): s_T = T^2 (F/2 - 1) s_<1/(E-U)>.  A run at the energy
+    E + delta gives T(E) = T(E + delta) - delta / c_v to first order in
+    delta (c_v = dE/dT per particle at fixed volume).
 
     Examples
     --------
@@ -91,17 +100,24 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
     s_stat = T_f_red ** 2 * (F / 2.0 - 1.0) * inv.stderr
     cv = f / 2.0 if cv_red is None else positive("cv_red", cv_red, "heat capacity per particle in k")
     s_e = float(initial_energy_stderr_red) / cv
+    offset, s_offset = (float(x) for x in energy_offset_red)
+    T_f_red -= offset / cv
+    s_stat = math.hypot(s_stat, s_offset / cv)
     T_f = T_f_red * eps
     err_f = s_stat * eps
     err_d = math.hypot(s_stat, s_e) * eps
     notes = ["1/(kT) = (F/2 - 1) <1/(E - U)> (Ray 1991); classical constant c_v_ig = f/2 k",
              "delta_T_stderr_K includes the initial-energy stderr divided by "
              + ("f/2 (kinetic heat capacity)" if cv_red is None else "the given cv_red")]
+    if offset or s_offset:
+        notes.append(f"the run's mean energy lies {offset:.3g} epsilon per particle from E: "
+                     "T_f moved by -offset/c_v (same c_v)")
     return SampledExpansionResult(
         route="microcanonical", method="ray estimator", initial_temperature_K=T_i,
         final_temperature_K=T_f, final_temperature_stderr_K=err_f, delta_T_K=T_f - T_i,
         delta_T_stderr_K=err_d, final_density_mol_m3=None if rho_f is None else float(rho_f),
         details={"final_temperature_red": T_f_red, "statistical_inefficiency": inv.g,
                  "samples_discarded": inv.t0, "samples_used": inv.n_used,
-                 "kinetic_dof_total": F},
+                 "kinetic_dof_total": F, "energy_offset_red": offset,
+                 "energy_offset_stderr_red": s_offset},
         notes=notes)

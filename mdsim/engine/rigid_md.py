@@ -23,18 +23,33 @@ import math
 import numpy as np
 from mdsim.checks import count, positive, positive_array
 from mdsim.engine import rng as _rng
-from mdsim.engine.integrator import BASE_TIME_STEP, energy_drift, run_in_blocks
+from mdsim.engine.integrator import default_time_step, energy_drift, run_in_blocks
 from mdsim.engine.neighbours import NeighbourList, choose_skin, wrap_positions
 from mdsim.engine.rigid_integrator import (ROTATIONAL_DOF, draw_axes, kinetic_parts,
                                            rigid_block, start_momenta, translational_dof)
 from mdsim.engine.rigid_pair import forces_half
 from mdsim.errors import SettingError, SimulationError, StudyError
 
-__all__ = ["RigidMDSampler", "METHODS", "ROTATION_STEP", "drift_K_per_ns"]
+__all__ = ["RigidMDSampler", "METHODS", "ROTATION_STEP", "drift_K_per_ns", "rigid_time_step"]
 
 METHODS = ("md-nvt", "md-nve")
 #: Default largest rotation per step at the rms angular speed sqrt(2 kT / I), rad.
 ROTATION_STEP = 0.05
+
+
+def rigid_time_step(temperature, mass, inertia):
+    """The default time step of rigid linear molecules at kT/epsilon = ``temperature`` (reduced).
+
+    The smaller of the atomic rule (:func:`mdsim.engine.integrator.default_time_step`
+    for the lightest ``mass``) and the step that turns a molecule of the
+    smallest ``inertia`` at the rms angular speed sqrt(2 kT / I) by
+    ``ROTATION_STEP`` radian.
+
+    >>> round(rigid_time_step(8.6, 1.0, 0.0248), 6)  # N2 at 300 K: the translation decides
+    0.001705
+    """
+    rotation = ROTATION_STEP / math.sqrt(2.0 * float(temperature) / float(np.min(inertia)))
+    return min(default_time_step(temperature, np.atleast_1d(mass)), rotation)
 
 
 def drift_K_per_ns(e_conserved_t, interval, time_step, units):
@@ -240,10 +255,7 @@ class RigidMDSampler:
             if dt > 0.05:
                 raise SettingError("time_step", time_step, "must be at most 0.05 (reduced)")
             return dt
-        translation = BASE_TIME_STEP * math.sqrt(float(self.mass_n.min())) * min(
-            1.0, 1.0 / math.sqrt(t_state))
-        rotation = ROTATION_STEP / math.sqrt(2.0 * t_state / float(self.inertia_n.min()))
-        return min(translation, rotation)
+        return rigid_time_step(t_state, self.mass_n, self.inertia_n)
 
     # -- internals -----------------------------------------------------------------
     def rebuild_list(self):
@@ -281,8 +293,9 @@ class RigidMDSampler:
             raise SimulationError(f"rigid-molecule MD: non-finite energy at step "
                                   f"{self.step + 1}; shorten the time step")
 
-    def _plain_cut_energy(self):
-        """The plain-cut energy of the current configuration (the Monte Carlo model)."""
+    def plain_cut_energy(self):
+        """The plain-cut energy of the current configuration (the Monte Carlo model), epsilon
+        (the whole box, without the tail)."""
         arrays = list(self.model.arrays())
         arrays[-1] = 0  # shifted = 0
         u, _ = forces_half(self.r_ni, self.e_ni, self.type_n, self.box_i, *arrays,
@@ -318,7 +331,7 @@ class RigidMDSampler:
             self._advance(interval, thermostat)
             u, w, e_th, kt, kr = self.obs
             out["u_model"][t] = u / n
-            out["u_cut"][t] = self._plain_cut_energy() / n
+            out["u_cut"][t] = self.plain_cut_energy() / n
             out["u_full"][t] = out["u_cut"][t] + self.u_tail
             out["kinetic_trans"][t] = kt / n
             out["kinetic_rot"][t] = kr / n
@@ -368,6 +381,15 @@ class RigidMDSampler:
             raise SettingError("state", "r_ref_ni", "not in cell order for this box; the state "
                                "belongs to another sampler")
         self.nlist.build(r_ref)
+
+    def scale_momenta(self, factor):
+        """Multiply every velocity and angular momentum by ``factor`` (> 0): the kinetic energy
+        by factor^2, its split between translations and rotations kept (a start at a chosen
+        total energy)."""
+        factor = positive("factor", factor, "a positive scale of the momenta")
+        self.v_ni *= factor
+        self.l_ni *= factor
+        self.obs[3:] = kinetic_parts(self.v_ni, self.l_ni, self.mass_n, self.inertia_n)
 
     def momenta(self):
         """Velocities and angular momenta in the order the molecules were given (copies)."""

@@ -36,7 +36,8 @@ from mdsim.pipeline.stage_names import stage_name
 from mdsim.pipeline.start_cache import StartCache
 from mdsim.sampling import store
 
-__all__ = ["Chain", "mean_se", "production_mean", "production_pressure", "run_to", "settle", "solve_or_extend",
+__all__ = ["Chain", "sampler_kind", "mean_se", "production_mean", "production_pressure", "run_to",
+           "settle", "solve_or_extend",
            "stage_share", "split_share", "SAFETY", "MIN_STAGE_SAMPLES", "MIN_CHAIN_SAMPLES",
            "ERROR_BLOCKS", "MAX_STAGES_PER_CHAIN", "UNSETTLED_BUDGET"]
 
@@ -54,6 +55,15 @@ SAFETY = 0.8
 EQUILIBRATION_MC_SWEEPS = 200
 EQUILIBRATION_MD_STEPS = 2000
 MD_PILOT_INTERVAL = 10
+
+
+def sampler_kind(method):
+    """"md" or "mc": the kind of a stage method, the CPU ledger's row kind.
+
+    >>> sampler_kind("md-nve"), sampler_kind("rigid-md-nvt"), sampler_kind("rigid-mc-nvt")
+    ('md', 'md', 'mc')
+    """
+    return "md" if method.startswith("md") or "-md-" in method else "mc"
 
 
 def stage_share(task, per_kelvin_red):
@@ -125,7 +135,7 @@ class Chain:
         self.E_red = E_red
         self.key = key
         self.md_settings = dict(md_settings or {})
-        self.is_md = method.startswith("md")
+        self.is_md = sampler_kind(method) == "md"
         self.results = []
         self.pilot = None
         self.pilot_name = stage_name(label)
@@ -236,7 +246,7 @@ class Chain:
         job = self.job
         if job.stage_path(name).is_file() or name in job.ledger:
             return n_samples
-        rate = job.cost_per_unit(self.method[:2])
+        rate = job.cost_per_unit(sampler_kind(self.method))
         if rate is None:
             return n_samples
         affordable = int(job.budget_left() / (rate * self.make_system().n_particles

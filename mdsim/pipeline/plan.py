@@ -144,9 +144,11 @@ def choose_particles(study, given, rho_i, state_point_index, dT_guess, target_K)
 def check_route_applies(study, route, cv_ig, T_i):
     """Refuse a route whose assumptions the study breaks (before any work).
 
-    The direct route simulates atoms; the microcanonical route assumes the
-    constant classical heat capacity c_v_ig = (f/2) R of f kinetic degrees of
-    freedom, probed at T_i / 2, T_i and 3 T_i / 2 (where the model is defined).
+    The direct route simulates atoms or rigid molecules (whose model sets f), not
+    spheres with a larger f; the microcanonical route, and the direct route of
+    rigid molecules (whose MD has no vibrations), assume the constant classical
+    heat capacity c_v_ig = (f/2) R of f kinetic degrees of freedom, probed at
+    T_i / 2, T_i and 3 T_i / 2 (where the model is defined).
 
     Raises
     ------
@@ -154,21 +156,23 @@ def check_route_applies(study, route, cv_ig, T_i):
         Naming ``[simulation] routes``, the broken assumption and the route to use.
     """
     f = study.gas.dof_per_particle
-    if route == "direct" and f != 3:
+    if route == "direct" and f != 3 and study.gas.molecules is None:
         raise StudyError(f"study file '{study.path}', [simulation] key 'routes': the direct "
                          f"route simulates atoms (3 degrees of freedom), but [gas] "
                          f"dof_per_particle = {f}; use the energy route for molecules")
-    if route == "microcanonical":
+    # the rigid molecules' MD has no vibrations: as the microcanonical route, it takes only the
+    # model's kinetic (f/2) R
+    if route == "microcanonical" or (route == "direct" and study.gas.molecules is not None):
         want = 0.5 * f * R_GAS
         lo, hi = cv_ig.valid_range
         probes = [T for T in (0.5 * T_i, T_i, 1.5 * T_i) if lo <= T <= hi] or [T_i]
         got = [float(cv_ig.cv(T)) for T in probes]
         if any(abs(c - want) > 1e-6 * want for c in got):
             raise StudyError(
-                f"study file '{study.path}', [simulation] key 'routes': the microcanonical route "
+                f"study file '{study.path}', [simulation] key 'routes': the {route} route "
                 f"assumes a constant classical c_v_ig = f/2 R = {want:.5g} J/(mol K) (f = "
                 f"dof_per_particle = {f}), but [gas] ideal_heat_capacity gives {got[0]:.5g} "
-                "J/(mol K); remove 'microcanonical' from routes and use the energy route, "
+                f"J/(mol K); remove '{route}' from routes and use the energy route, "
                 "which takes any c_v_ig(T)")
 
 

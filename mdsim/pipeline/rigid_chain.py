@@ -1,13 +1,16 @@
 """Tasks of a gas of rigid molecules: their stage chains and what the task takes from the model.
 
-A study with ``[potential] form = "rigid-molecule"`` runs the energy route
-(:mod:`mdsim.pipeline.routes.energy`) as a sphere study does, pressure
-iteration included (:mod:`mdsim.pipeline.initial_state`); only its stages
-differ.  Each stage is canonical Monte Carlo of the rigid linear molecules
-(translations and rotations, :mod:`mdsim.sampling.rigid_stage`) in a run
-file like any other, checkpointed after every block and resumed bit for
-bit.  :class:`RigidChain` continues one Markov chain across its stages,
-carrying the axes and both tuned steps as well as the centres.
+A study with ``[potential] form = "rigid-molecule"`` runs the energy,
+microcanonical and direct routes (:mod:`mdsim.pipeline.routes`) as a sphere
+study does, pressure iteration included (:mod:`mdsim.pipeline.initial_state`);
+only its stages differ.  Each stage is canonical Monte Carlo of the rigid
+linear molecules (translations and rotations, :mod:`mdsim.sampling.rigid_stage`)
+or their molecular dynamics, thermostatted or at fixed energy
+(:mod:`mdsim.sampling.rigid_md_stage`), in a run file like any other,
+checkpointed after every block and resumed bit for bit.
+:class:`RigidChain` continues one chain across its stages, carrying the
+axes and, for Monte Carlo, both tuned steps, for MD the velocities and
+angular momenta, as well as the centres.
 
 :func:`set_up_molecular_task` gives the running task what follows from the
 model: the molecular virial series (B2 by orientation quadrature, B3 by Monte Carlo
@@ -18,29 +21,36 @@ import numpy as np
 from mdsim.errors import StudyError
 from mdsim.pipeline.chain import Chain
 from mdsim.sampling import store
+from mdsim.sampling.rigid_md_stage import MD_METHODS
 from mdsim.sampling.rigid_stage import METHOD, mixture_system
 
-__all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method"]
+__all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method",
+           "reduced_rigid_inertia"]
 
 
 class RigidChain(Chain):
-    """A :class:`mdsim.pipeline.chain.Chain` of rigid-molecule stages (method ``rigid-mc-nvt``).
+    """A :class:`mdsim.pipeline.chain.Chain` of rigid-molecule stages (:func:`rigid_method`).
 
     A continued stage starts from the previous stage's centres and axes (the
-    axes from its final checkpoint) and both of its tuned steps, so the
-    production stages are one Markov chain.  Parameters as for ``Chain``.
+    axes from its final checkpoint) and, for Monte Carlo, both of its tuned
+    steps, for MD its velocities and angular momenta, so the production
+    stages are one chain.  Parameters as for ``Chain``.
     """
 
     def continue_system(self, prev):
-        """A system in the last configuration (centres and axes) of a finished stage."""
+        """A system in the last configuration (centres, axes and MD momenta) of a finished stage."""
         system = super().continue_system(prev)
         state, _ = store.read_checkpoint(prev.path)
         system.axis_ni = state["axis_ni"].astype(float)
+        if "angular_momenta" in state:  # MD: the run continued with its momenta
+            system.l_ni = state["angular_momenta"].astype(float)
         if "type_n" in state:  # a mixture: the types of the molecules continued
             system.type_n = np.asarray(state["type_n"], dtype=np.int64)
         return system
 
     def _settings(self, prev):
+        if self.is_md:
+            return dict(self.md_settings)
         if prev is None:
             return {}
         attrs = store.read_attrs(prev.path)
@@ -48,16 +58,20 @@ class RigidChain(Chain):
                 "max_angle": float(attrs["sampler_final_max_angle_rad"])}
 
 
-def rigid_method(method):
-    """The stage method of a rigid-molecule task for the route's NVT method.
+_RIGID_METHODS = {"mc-nvt": METHOD, **{engine: stage for stage, engine in MD_METHODS.items()}}
 
-    >>> rigid_method("mc-nvt")
-    'rigid-mc-nvt'
+
+def rigid_method(method):
+    """The stage method of a rigid-molecule task for the route's engine method.
+
+    >>> rigid_method("mc-nvt"), rigid_method("md-nve")
+    ('rigid-mc-nvt', 'rigid-md-nve')
     """
-    if method != "mc-nvt":
+    if method not in _RIGID_METHODS:
         raise StudyError(f"method {method!r}: rigid molecules are sampled by canonical Monte "
-                         f'Carlo only; set [simulation] sampler = "mc"')
-    return METHOD
+                         "Carlo or by molecular dynamics (thermostatted or at fixed energy), "
+                         f"not {method}")
+    return _RIGID_METHODS[method]
 
 
 def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
@@ -82,6 +96,12 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
     return make
 
 
+def reduced_rigid_inertia(job):
+    """The moment of inertia of the task's molecule in the study's reduced units, m sigma^2."""
+    from mdsim.sampling.rigid_box import reduced_inertia
+    return reduced_inertia(job.study.gas.molecules[0], job.units)
+
+
 def set_up_molecular_task(job):
     """Give a running task of rigid molecules its virial series and notes (its c_v_ig with the
     model's kinetic part comes from :func:`mdsim.study.statepoints.ideal_heat_capacity`)."""
@@ -93,8 +113,14 @@ def set_up_molecular_task(job):
                      for m in gas.molecules)
     moves = ("translation and rotation moves (atoms translations only)"
              if any(m.n_sites == 1 for m in gas.molecules) else "translation and rotation moves")
+    mc = f"canonical Monte Carlo with {moves}"
+    md = "molecular dynamics (symplectic rigid-body splitting, shifted-energy model)"
+    how = {"energy": md.replace("molecular", "thermostatted molecular", 1)
+           if job.task.get("sampler") == "md" else mc,
+           "microcanonical": f"the initial state by {mc}, the final state by fixed-energy {md}",
+           "direct": f"{md}, thermostatted at the initial state, then at fixed energy"}
     job.notes.append(
-        f"rigid molecules ({what}): canonical Monte Carlo with {moves}, molecular cut-off "
+        f"rigid molecules ({what}): {how.get(job.task.get('route'), mc)}, molecular cut-off "
         f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
         f"c_v_ig = {gas.kinetic_dof:.4g}/2 R from the model's translations and rotations plus "
         "the study's vibrational part")

@@ -18,6 +18,7 @@ from pathlib import Path
 
 from mdsim.errors import ConvergenceError
 from mdsim.files import atomic_write_text
+from mdsim.pipeline.chain import sampler_kind
 from mdsim.pipeline.plan import N_MAX, N_MIN, choose_particles, virial_start_guess
 from mdsim.sampling import store
 from mdsim.study.quantum_potential import feynman_hibbs_validity, uses_feynman_hibbs
@@ -249,9 +250,15 @@ class RunningTask:
         return RigidChain(self, label, chain_id, make_system, rigid_method(method), **kwargs)
 
     def md_time_step(self, T_red):
-        """The MD time step at a reduced temperature for the study's masses (reduced)."""
+        """The MD time step at a reduced temperature for the study's masses (reduced); for
+        rigid molecules also short enough for their rotation
+        (:func:`mdsim.engine.rigid_md.rigid_time_step`)."""
         from mdsim.engine.integrator import default_time_step
         masses = self.study.gas.molar_masses_kg_mol / self.study.gas.molar_masses_kg_mol[0]
+        if self.study.gas.molecules is not None:
+            from mdsim.pipeline.rigid_chain import reduced_rigid_inertia
+            from mdsim.engine.rigid_md import rigid_time_step
+            return float(rigid_time_step(T_red, masses, reduced_rigid_inertia(self)))
         return float(default_time_step(T_red, masses))
 
     # -- CPU budget -----------------------------------------------------------------------
@@ -317,7 +324,7 @@ class RunningTask:
             result = SampleResult(store.read_samples(path), {}, {}, path, done)
         if not done or name not in self.ledger:
             units = system.n_particles * (n_eq + n_samples * interval)
-            self.ledger.record(name, method[:2], time.process_time() - c0, units)
+            self.ledger.record(name, sampler_kind(method), time.process_time() - c0, units)
         self.n_stages += 1
         return result
 

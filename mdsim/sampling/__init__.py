@@ -15,7 +15,9 @@ expansion from pair-potential samples (a check, not a route).
 One state point of a gas of rigid linear molecules: by Monte Carlo
 (:mod:`~mdsim.sampling.rigid`) or molecular dynamics
 (:mod:`~mdsim.sampling.rigid_dynamics`), from the box of
-:mod:`~mdsim.sampling.rigid_box`.
+:mod:`~mdsim.sampling.rigid_box`; the same samplers as stages of a task's
+run files: :mod:`~mdsim.sampling.rigid_stage` (Monte Carlo) and
+:mod:`~mdsim.sampling.rigid_md_stage` (MD, thermostatted or at fixed energy).
 """
 from mdsim.sampling.coexistence import CoexistencePoint, coexistence_point
 from mdsim.sampling.estimates import Estimate, summarise

@@ -15,7 +15,7 @@ from mdsim.errors import ConvergenceError
 __all__ = ["Estimate", "summarise", "CANONICAL"]
 
 #: methods with a set temperature (the canonical ensemble)
-CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion", "rigid-mc-nvt")
+CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion", "rigid-mc-nvt", "rigid-md-nvt")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -103,7 +103,7 @@ def summarise(samples, method, n_particles, volume, temperature=None, dof_per_pa
     if method in CANONICAL:
         T = float(temperature)
         out["temperature"] = Estimate(T, 0.0, math.nan)
-        if method == "md-nvt" or np.all(np.isfinite(samples["pressure"])):
+        if method in ("md-nvt", "rigid-md-nvt") or np.all(np.isfinite(samples["pressure"])):
             p = mean_and_stderr(samples["pressure"])
             out["pressure"] = Estimate(p.mean, p.stderr, p.g)
         var = variance_and_stderr(samples["u_full"])
@@ -112,7 +112,7 @@ def summarise(samples, method, n_particles, volume, temperature=None, dof_per_pa
             d = mean_and_stderr(np.asarray(samples["u_full"]) - samples["u_effective"])
             c_v, s_c = c_v - 2.0 * d.mean / T, math.hypot(s_c, 2.0 * d.stderr / T)
         out["c_v_res"] = Estimate(c_v, s_c, var.g)
-    elif method == "md-nve":
+    elif method in ("md-nve", "rigid-md-nve"):
         t = mean_and_stderr(samples["temperature_inst"])
         out["temperature"] = Estimate(t.mean, t.stderr, t.g)
         p = mean_and_stderr(samples["pressure"])

@@ -44,6 +44,12 @@ class RigidSystem:
         of a mixture the largest, as ``[gas] dof_per_particle``).
     type_n : ndarray, shape=(n,), int64, optional
         The type of each molecule (default: all type 0).
+    inertia : float, m sigma^2
+        Moment of inertia of the (first) linear rotor (molecular dynamics,
+        which takes one kind of molecule).
+    v_ni, l_ni : ndarray, shape=(n, 3), optional
+        Velocities and angular momenta to start molecular dynamics from (a
+        continued stage); None for a fresh start.
     """
 
     model: object
@@ -52,6 +58,9 @@ class RigidSystem:
     axis_ni: np.ndarray
     dof_per_particle: int
     type_n: np.ndarray = None
+    inertia: float = float("nan")
+    v_ni: np.ndarray = None
+    l_ni: np.ndarray = None
 
     def __post_init__(self):
         if self.type_n is None:  # one kind of molecule
@@ -98,7 +107,7 @@ def rigid_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, s
     """
     box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
     return RigidSystem(box.model, box.box_i, box.centre_ni, box.axis_ni,
-                       int(molecule.kinetic_dof))
+                       int(molecule.kinetic_dof), inertia=box.inertia)
 
 
 def mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed):
@@ -120,7 +129,8 @@ def mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cutoff, s
     """
     box = mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed)
     return RigidSystem(box.model, box.box_i, box.centre_ni, box.axis_ni,
-                       max(int(m.kinetic_dof) for m in molecules), box.type_n)
+                       max(int(m.kinetic_dof) for m in molecules), box.type_n,
+                       inertia=box.inertia)
 
 
 class RigidMCStageSampler:

@@ -170,21 +170,20 @@ def mean_kinetic_dof(fractions, molecules):
 
 
 #: The simulation routes that take rigid molecules (docs/physics.md, "Rigid molecules").
-MOLECULE_ROUTES = ("energy",)
+MOLECULE_ROUTES = ("energy", "microcanonical", "direct")
 
 
 def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
-    A gas of rigid molecules is simulated by the energy route only, with
-    nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
-    if nonlinear:
-        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
-                         "simulation takes linear molecules only; use the virial routes, "
-                         "[simulation] routes = []")
-    canonical Monte Carlo of linear molecules (site Lennard-Jones or Mie
-    plus an axial point quadrupole), one kind or a mixture with atoms.
-    Spheres pass.
+    A gas of rigid molecules is simulated by the energy route (canonical
+    Monte Carlo of linear molecules, site Lennard-Jones or Mie plus an axial
+    point quadrupole, one kind or a mixture with atoms; or thermostatted
+    molecular dynamics of one kind, ``sampler = "md"``), the microcanonical
+    route (its final state by fixed-energy molecular dynamics) and the direct
+    route (molecular dynamics of the expansion), those two for one kind of
+    linear molecule; a non-linear molecule is refused (the virial routes
+    take it).  Spheres pass.
 
     Parameters
     ----------
@@ -195,7 +194,8 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         The simulation routes asked for; None for a simulation of spheres
         (which a gas of molecules cannot give).
     sampler : str
-        ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo here).
+        ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo for rigid
+        molecules, "md" thermostatted molecular dynamics of one kind of molecule).
 
     Raises
     ------
@@ -207,14 +207,14 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     if routes is None:
         raise StudyError(f"{where}: this simulation takes spherical potentials, not rigid "
                          'molecules (form = "rigid-molecule"); rigid molecules are simulated by '
-                         'the energy route only, [simulation] routes = ["energy"]')
+                         'the energy, microcanonical and direct routes, [simulation] routes = '
+                         '["energy"]')
     other = [r for r in routes if r not in MOLECULE_ROUTES]
     if other:
         what = f"the {' and '.join(other)} route{'s are' if len(other) > 1 else ' is'}"
         raise StudyError(f"{where}: {what} not yet supported for rigid-molecule potentials "
-                         '(form = "rigid-molecule"): the microcanonical route samples the kinetic '
-                         "energy of atoms and the direct route moves atoms by molecular dynamics; "
-                         'use routes = ["energy"] or the virial routes, routes = []')
+                         '(form = "rigid-molecule"); use routes = ["energy", "microcanonical", '
+                         '"direct"] or the virial routes, routes = []')
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
     if nonlinear:
         raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
@@ -226,7 +226,9 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                              f"dipole ('{mol.name}') is not yet supported (the rigid Monte Carlo "
                              "has site Lennard-Jones or Mie and an axial quadrupole); use the "
                              "virial routes, [simulation] routes = []")
-    if sampler == "md":
-        raise StudyError(f'{where}: [simulation] sampler = "{sampler}": the energy route samples '
-                         'rigid molecules by canonical Monte Carlo; remove sampler or set '
-                         'sampler = "mc"')
+    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
+    if gas.n_species > 1 and by_md:
+        raise StudyError(f"{where}: {' and '.join(by_md)}: a mixture with rigid molecules is "
+                         "simulated by the energy route's canonical Monte Carlo only (the rigid "
+                         'molecular dynamics takes one kind of molecule); use routes = ["energy"] '
+                         'with sampler "auto" or "mc", or the virial routes, routes = []')

@@ -55,11 +55,9 @@ def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
 
 
 @pytest.mark.parametrize("name, route, match, line", [
-    # the energy route takes rigid linear molecules (tests/mdsim/test_rigid_route.py); the
-    # microcanonical route does not
-    ("nitrogen", "microcanonical", "not yet supported for rigid-molecule potentials",
-     'use routes = ["energy"] or the virial routes'),
-    # the rigid-molecule engine is linear-only; the virial routes answer instead
+    # every simulation route takes rigid linear molecules (tests/mdsim/test_rigid_route.py,
+    # test_rigid_nve.py); the rigid-molecule engine is linear-only, the virial routes answer
+    # instead
     ("propane", "energy", "molecule 'propane' is not linear.*routes = \\[\\]",
      "takes linear molecules only"),
 ])

@@ -4,10 +4,12 @@
     NVT sampling of u_res at the initial state and at the final density;
     T_f from U(T_f, rho_f) = U(T_i, rho_i) by Newton steps or MBAR.  Any c_v_ig(T).
 ``microcanonical`` (:mod:`mdsim.pipeline.routes.microcanonical`)
-    Microcanonical Monte Carlo at the final density and the initial state's
-    energy; T_f from the Ray temperature.  Constant classical c_v_ig only.
+    Microcanonical Monte Carlo (rigid molecules: fixed-energy MD) at the final
+    density and the initial state's energy; T_f from the Ray temperature.
+    Constant classical c_v_ig only.
 ``direct`` (:mod:`mdsim.pipeline.routes.direct`)
-    The wall removed: NVE MD of the gas filling the enlarged box.  Atoms only.
+    The wall removed: NVE MD of the gas filling the enlarged box.  Atoms or rigid
+    molecules (:mod:`mdsim.pipeline.routes.rigid_direct`).
 
 Each runner takes a :class:`mdsim.pipeline.task.RunningTask` and returns
 ``(result, series, final_pressure, extra)``: the solver's result from

@@ -6,7 +6,9 @@ left in place (the wall removed); MD NVE while the gas fills the box, in
 short stages whose end configurations give the density profile along z over
 time, then a relaxed tail of the same NVE run
 (:func:`analysis.expansion.direct_route`; model-to-full potential
-correction).  Atoms only.  Stage files: ``initial-state-*``,
+correction).  Atoms, or rigid molecules with their MD stages and 5N - 3
+kinetic degrees of freedom (:mod:`mdsim.pipeline.routes.rigid_direct`).
+Stage files: ``initial-state-*``,
 ``wall-removed-filling-NN`` and ``wall-removed-relaxed-NN``.
 """
 import math
@@ -47,15 +49,19 @@ def run_direct(job):
     """
     T_i_red = job.units.temperature_to_reduced(job.T_i)
     dt = job.md_time_step(T_i_red)
-    share = stage_share(job, 1.5)
+    chain_class = WallRemovedChain
+    if job.study.gas.molecules is not None:  # rigid molecules: their MD stages and 5N - 3
+        from mdsim.pipeline.routes.rigid_direct import RigidWallRemovedChain
+        chain_class = RigidWallRemovedChain
+    share = stage_share(job, 0.5 * job.study.gas.dof_per_particle)
     init = run_initial_state(job, "md-nvt", T_i_red, share, key="u_model",
                              md_settings={"time_step": dt})
     start = init.results[0]  # the expansion always starts from the end of the first stage
 
-    nve = WallRemovedChain(job, init.make_system(), dt, T_i_red)
+    nve = chain_class(job, init.make_system(), dt, T_i_red)
     nve.fill(start)
     nve.start_tail()
-    cv_red = _final_heat_capacity(job, init, nve.base.n_particles)
+    cv_red = _final_heat_capacity(job, init, nve)
     job.notes.append("direct route: the NVE run starts with the velocities scaled so that its "
                      "energy is the canonical mean energy of the initial state")
     res = _sample_to_target(job, init, nve, T_i_red, cv_red)
@@ -90,15 +96,18 @@ class WallRemovedChain(Chain):
         Initial temperature, reduced.
     """
 
+    nve_method = "md-nve"
+    """The stage method of the NVE run."""
+
     def __init__(self, job, base, dt, T_i_red):
         self.base = base
         self.box_f = np.array(base.box_i, dtype=float)
         self.box_f[2] *= job.r
-        super().__init__(job, WALL_REMOVED_RELAXED, 1, self.make_expanded, "md-nve",
+        super().__init__(job, WALL_REMOVED_RELAXED, 1, self.make_expanded, self.nve_method,
                          md_settings={"time_step": dt}, key="temperature_inst")
         self.dt = dt
         self.T_i_red = T_i_red
-        m_min = float(np.min(base.masses_a))
+        m_min = self.lightest_mass()
         crossing = self.box_f[2] / math.sqrt(T_i_red / m_min)
         self.fill_steps = int(math.ceil(DIRECT_CROSSINGS * crossing / dt))
         self.interval = max(1, self.fill_steps // (DIRECT_SNAPSHOTS * SAMPLES_PER_FILLING_STAGE))
@@ -109,20 +118,33 @@ class WallRemovedChain(Chain):
         """An empty system in the enlarged box (positions all zero until set)."""
         return wall_removed_system(self.base, self.job.r)
 
+    def lightest_mass(self):
+        """The lightest particle's mass, reduced (it sets the crossing time)."""
+        return float(np.min(self.base.masses_a))
+
+    def kinetic_dof(self):
+        """Kinetic degrees of freedom of the NVE run: 3N - 3 (total momentum removed)."""
+        return 3 * self.base.n_particles - 3
+
+    def start_at_canonical_energy(self, system, start):
+        """The expanded system's first stage with its momenta scaled to the canonical mean
+        energy (:func:`start_at_canonical_energy`)."""
+        system.v_ni = start_at_canonical_energy(system, start, self.T_i_red, self.dt)
+        return system
+
     def fill(self, start):
         """Run (or read back) the filling stages from the end of the NVT stage ``start``."""
         job = self.job
         for k in range(DIRECT_SNAPSHOTS):
             prev = self.results[-1] if self.results else start
+            system = self.continue_system(prev)  # its velocities (and a molecule's axes)
             final = store.read_final(prev.path)
-            system = self.make_expanded()
             # the particles are left in place: the new part of the box starts empty
             system.r_ni = np.ascontiguousarray(np.mod(np.asarray(final["positions"], dtype=float),
                                                       np.asarray(final["box"], dtype=float)))
-            system.v_ni = np.asarray(final["velocities"], dtype=float)
             if k == 0:
-                system.v_ni = start_at_canonical_energy(system, start, self.T_i_red, self.dt)
-            res = job.stage(stage_name(WALL_REMOVED_FILLING, k), system, "md-nve", n_eq=0,
+                system = self.start_at_canonical_energy(system, start)
+            res = job.stage(stage_name(WALL_REMOVED_FILLING, k), system, self.method, n_eq=0,
                             n_samples=SAMPLES_PER_FILLING_STAGE, interval=self.interval,
                             seed=job.stage_seed(1, 100 + k), time_step=self.dt)
             self.results.append(res)
@@ -154,7 +176,7 @@ class WallRemovedChain(Chain):
         if k >= MAX_STAGES_PER_CHAIN:
             return False
         system = self.continue_system(self.results[-1])
-        res = job.stage(name, system, "md-nve", n_eq=0,
+        res = job.stage(name, system, self.method, n_eq=0,
                         n_samples=int(max(MIN_STAGE_SAMPLES, n_samples)), interval=self.interval,
                         seed=job.stage_seed(1, 200 + k), time_step=self.dt)
         self.results.append(res)
@@ -239,9 +261,9 @@ def start_at_canonical_energy(system, start, T_i_red, dt):
     return np.asarray(system.v_ni, dtype=float) * math.sqrt(k_target / k_now)
 
 
-def _final_heat_capacity(job, init, n):
+def _final_heat_capacity(job, init, nve):
     """c_v at the final state per particle (reduced): kinetic part + scaled residual part."""
-    kin = (3 * n - 3) / (2.0 * n)
+    kin = nve.kinetic_dof() / (2.0 * nve.base.n_particles)
     cv_res_i = init.summary()["c_v_res"]
     cv_red = kin + (max(0.0, cv_res_i.value) / job.r if cv_res_i.available else 0.0)
     job.notes.append(f"direct route: c_v at the final state taken as the kinetic part plus the "
@@ -261,7 +283,8 @@ def _sample_to_target(job, init, nve, T_i_red, cv_red):
         s_f = nve.samples()
         return direct_route(s_f["temperature_inst"], s_f["u_model"], s_f["u_full"],
                             s_i["u_model"], s_i["u_full"], T_i_red, nve.base.n_particles,
-                            job.eps_K, cv_red=cv_red, rho_f=job.rho_f)
+                            job.eps_K, cv_red=cv_red, kinetic_dof=nve.kinetic_dof(),
+                            rho_f=job.rho_f)
 
     res = solve_or_extend(nve, solve)
     while res.delta_T_stderr_K > job.target_K and job.stopped_by != "cpu budget":

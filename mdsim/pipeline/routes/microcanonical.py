@@ -24,7 +24,8 @@ from mdsim.pipeline.routes.direct import wall_removed_system
 from mdsim.pipeline.stage_names import FINAL_STATE_NVE
 from mdsim.sampling import store
 
-__all__ = ["run_microcanonical", "final_start", "potential_energy"]
+__all__ = ["run_microcanonical", "final_start", "potential_energy", "sample_to_target",
+           "kinetic_series"]
 
 
 def run_microcanonical(job):
@@ -38,8 +39,14 @@ def run_microcanonical(job):
     -------
     res, series, pressure, extra
         As :func:`mdsim.pipeline.routes.energy.run_energy`; ``series`` holds
-        the kinetic and running Ray temperatures (K) by sample.
+        the kinetic and running Ray temperatures (K) by sample.  A gas of
+        rigid molecules runs
+        :func:`mdsim.pipeline.routes.rigid_microcanonical.run_rigid_microcanonical`.
     """
+    if job.study.gas.molecules is not None:
+        from mdsim.pipeline.routes.rigid_microcanonical import run_rigid_microcanonical
+        return run_rigid_microcanonical(job)
+    from analysis.expansion import microcanonical_route
     f = job.study.gas.dof_per_particle
     T_i_red = job.units.temperature_to_reduced(job.T_i)
     share = stage_share(job, 0.5 * f)
@@ -60,7 +67,12 @@ def run_microcanonical(job):
     if not nve.results:
         # T ~ 2 K / f: the kinetic series needs the stderr (f/2) x that of T, which is `share`
         nve.extend(nve.samples_for(share), mandatory=True)
-    res = _sample_to_target(job, nve, si, f)
+
+    def solve():
+        return microcanonical_route(nve.samples()["kinetic"], job.n_particles, f, job.eps_K,
+                                    job.T_i, initial_energy_stderr_red=si, rho_f=job.rho_f)
+
+    res = sample_to_target(job, nve, solve)
     job.final_chain = nve
     p = nve.summary().get("pressure")
     pressure = ({"value": job.units.pressure_to_Pa(p.value),
@@ -68,7 +80,7 @@ def run_microcanonical(job):
                 if p is not None and p.available else None)
     extra = {"energy_per_particle_red": E_red, "initial_samples": init.n_samples(),
              "nve_samples": nve.n_samples()}
-    return res, _series(job, nve, f), pressure, extra
+    return res, kinetic_series(job, nve, f), pressure, extra
 
 
 def potential_energy(system):
@@ -137,15 +149,12 @@ def final_start(job, init, E_red):
     return make_wall_removed
 
 
-def _sample_to_target(job, nve, initial_stderr_red, f):
-    """Solve, and extend the NVE chain while its share of the error is above the target."""
-    from analysis.expansion import microcanonical_route
+def sample_to_target(job, nve, solve):
+    """Solve, and extend the NVE chain while its share of the error is above the target.
 
-    def solve():
-        return microcanonical_route(nve.samples()["kinetic"], job.n_particles, f, job.eps_K,
-                                    job.T_i, initial_energy_stderr_red=initial_stderr_red,
-                                    rho_f=job.rho_f)
-
+    ``solve()`` gives the route's result from the chain's samples so far
+    (:func:`analysis.expansion.microcanonical_route`).
+    """
     res = solve_or_extend(nve, solve)
     while res.delta_T_stderr_K > job.target_K and job.stopped_by != "cpu budget":
         s_nve = res.final_temperature_stderr_K
@@ -163,8 +172,9 @@ def _sample_to_target(job, nve, initial_stderr_red, f):
     return res
 
 
-def _series(job, nve, f):
-    """Kinetic temperature and running Ray temperature by sample (K), for the plots."""
+def kinetic_series(job, nve, f):
+    """Kinetic temperature and running Ray temperature by sample (K), for the plots (``f``:
+    kinetic degrees of freedom per particle, F = f N)."""
     K_t = nve.samples()["kinetic"]
     n = job.n_particles
     F = f * n
