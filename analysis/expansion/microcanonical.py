@@ -28,6 +28,27 @@ def _kinetic_series(kinetic_t_red):
     return K_t
 
 
+def _ray_temperature(K_t, N, F):
+    """Ray's estimator: kT_f / epsilon, its statistical error and the mean of 1/(N K)."""
+    if F <= 2.0:
+        raise StudyError(f"microcanonical route: F = f N = {F:g} kinetic degrees of freedom; the "
+                         "estimator needs F > 2.")
+    inv = stats.mean_and_stderr(1.0 / (N * K_t))
+    T_f_red = 1.0 / ((F / 2.0 - 1.0) * inv.mean)
+    return T_f_red, T_f_red ** 2 * (F / 2.0 - 1.0) * inv.stderr, inv
+
+
+def _notes(cv_red, offset, s_offset):
+    """The notes of a microcanonical result."""
+    notes = ["1/(kT) = (F/2 - 1) <1/(E - U)> (Ray 1991); classical constant c_v_ig = f/2 k",
+             "delta_T_stderr_K includes the initial-energy stderr divided by "
+             + ("f/2 (kinetic heat capacity)" if cv_red is None else "the given cv_red")]
+    if offset or s_offset:
+        notes.append(f"the run's mean energy lies {offset:.3g} epsilon per particle from E: "
+                     "T_f moved by -offset/c_v (same c_v)")
+    return notes
+
+
 def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K, T_i,
                          initial_energy_stderr_red=0.0, cv_red=None, rho_f=None,
                          energy_offset_red=(0.0, 0.0)):
@@ -58,9 +79,8 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
     energy_offset_red : (float, float)
         The mean energy per particle of the sampled run minus E, with its
         standard error (epsilon): nonzero when the run conserves another
-        energy than the one E counts (molecular dynamics with a shifted
-        potential, E counted with the plain cut plus tail) or drifts.  T_f
-        is moved by -offset / c_v and the offset's error added.
+        energy than E's (MD with a shifted potential) or drifts; T_f is
+        moved by -offset / c_v and the offset's error added.
 
     Returns
     -------
@@ -91,13 +111,7 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
     eps = positive("epsilon_K", epsilon_K, "epsilon/k of the reduced units, in K")
     T_i = positive("T_i", T_i, "the initial temperature in K")
     F = f * N
-    if F <= 2.0:
-        raise StudyError(f"microcanonical route: F = f N = {F:g} kinetic degrees of freedom; the "
-                         "estimator needs F > 2.")
-    inv = stats.mean_and_stderr(1.0 / (N * K_t))
-    beta = (F / 2.0 - 1.0) * inv.mean
-    T_f_red = 1.0 / beta
-    s_stat = T_f_red ** 2 * (F / 2.0 - 1.0) * inv.stderr
+    T_f_red, s_stat, inv = _ray_temperature(K_t, N, F)
     cv = f / 2.0 if cv_red is None else positive("cv_red", cv_red, "heat capacity per particle in k")
     s_e = float(initial_energy_stderr_red) / cv
     offset, s_offset = (float(x) for x in energy_offset_red)
@@ -106,12 +120,6 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
     T_f = T_f_red * eps
     err_f = s_stat * eps
     err_d = math.hypot(s_stat, s_e) * eps
-    notes = ["1/(kT) = (F/2 - 1) <1/(E - U)> (Ray 1991); classical constant c_v_ig = f/2 k",
-             "delta_T_stderr_K includes the initial-energy stderr divided by "
-             + ("f/2 (kinetic heat capacity)" if cv_red is None else "the given cv_red")]
-    if offset or s_offset:
-        notes.append(f"the run's mean energy lies {offset:.3g} epsilon per particle from E: "
-                     "T_f moved by -offset/c_v (same c_v)")
     return SampledExpansionResult(
         route="microcanonical", method="ray estimator", initial_temperature_K=T_i,
         final_temperature_K=T_f, final_temperature_stderr_K=err_f, delta_T_K=T_f - T_i,
@@ -120,4 +128,4 @@ def microcanonical_route(kinetic_t_red, n_particles, dof_per_particle, epsilon_K
                  "samples_discarded": inv.t0, "samples_used": inv.n_used,
                  "kinetic_dof_total": F, "energy_offset_red": offset,
                  "energy_offset_stderr_red": s_offset},
-        notes=notes)
+        notes=_notes(cv_red, offset, s_offset))

@@ -23,64 +23,17 @@ import math
 import numpy as np
 from mdsim.checks import count, positive, positive_array
 from mdsim.engine import rng as _rng
-from mdsim.engine.integrator import default_time_step, energy_drift, run_in_blocks
+from mdsim.engine.integrator import run_in_blocks
 from mdsim.engine.neighbours import NeighbourList, choose_skin, wrap_positions
 from mdsim.engine.rigid_integrator import (ROTATIONAL_DOF, draw_axes, kinetic_parts,
                                            rigid_block, start_momenta, translational_dof)
+from mdsim.engine.rigid_md_steps import rigid_time_step
 from mdsim.engine.rigid_pair import forces_half
 from mdsim.errors import SettingError, SimulationError, StudyError
 
-__all__ = ["RigidMDSampler", "METHODS", "ROTATION_STEP", "drift_K_per_ns", "rigid_time_step"]
+__all__ = ["RigidMDSampler", "METHODS"]
 
 METHODS = ("md-nvt", "md-nve")
-#: Default largest rotation per step at the rms angular speed sqrt(2 kT / I), rad.
-ROTATION_STEP = 0.05
-
-
-def rigid_time_step(temperature, mass, inertia):
-    """The default time step of rigid linear molecules at kT/epsilon = ``temperature`` (reduced).
-
-    The smaller of the atomic rule (:func:`mdsim.engine.integrator.default_time_step`
-    for the lightest ``mass``) and the step that turns a molecule of the
-    smallest ``inertia`` at the rms angular speed sqrt(2 kT / I) by
-    ``ROTATION_STEP`` radian.
-
-    >>> round(rigid_time_step(8.6, 1.0, 0.0248), 6)  # N2 at 300 K: the translation decides
-    0.001705
-    """
-    rotation = ROTATION_STEP / math.sqrt(2.0 * float(temperature) / float(np.min(inertia)))
-    return min(default_time_step(temperature, np.atleast_1d(mass)), rotation)
-
-
-def drift_K_per_ns(e_conserved_t, interval, time_step, units):
-    """Drift of the conserved energy per molecule, K per ns (least-squares slope).
-
-    Parameters
-    ----------
-    e_conserved_t : ndarray, shape=(n_samples,)
-        ``RigidMDSampler.run(...)["e_conserved"]`` (epsilon per molecule).
-    interval : int
-        Steps between samples.
-    time_step : float
-        Reduced time step.
-    units : mdsim.units.ReducedUnits
-        epsilon/k and the time unit.
-
-    Returns
-    -------
-    float
-        d(E/N k)/dt in K/ns.
-
-    Examples
-    --------
-    >>> from mdsim.units import ReducedUnits
-    >>> u = ReducedUnits(34.897, 3.3211e-10, 0.0280134)  # tau = 3.26 ps
-    >>> e = 1e-4 * np.arange(11)  # 1e-4 epsilon per sample of 10 steps of 0.002
-    >>> round(drift_K_per_ns(e, 10, 0.002, u), 1)
-    53.5
-    """
-    slope = energy_drift(e_conserved_t, interval, time_step)  # epsilon per tau per molecule
-    return slope * units.epsilon_K * 1e-9 / units.time_s
 
 
 class RigidMDSampler:
@@ -109,7 +62,7 @@ class RigidMDSampler:
     method : {"md-nvt", "md-nve"}
     time_step : float, optional
         Reduced; default the smaller of 0.005 min(1, 1/sqrt(T*)) sqrt(m)
-        (the atomic rule) and ``ROTATION_STEP`` / sqrt(2 T* / I).
+        (the atomic rule) and ``mdsim.engine.rigid_md_steps.ROTATION_STEP`` / sqrt(2 T* / I).
     thermostat_time : float
         Relaxation time of the thermostat, reduced.
     skin : float, optional

@@ -252,12 +252,12 @@ class RunningTask:
     def md_time_step(self, T_red):
         """The MD time step at a reduced temperature for the study's masses (reduced); for
         rigid molecules also short enough for their rotation
-        (:func:`mdsim.engine.rigid_md.rigid_time_step`)."""
+        (:func:`mdsim.engine.rigid_md_steps.rigid_time_step`)."""
         from mdsim.engine.integrator import default_time_step
         masses = self.study.gas.molar_masses_kg_mol / self.study.gas.molar_masses_kg_mol[0]
         if self.study.gas.molecules is not None:
             from mdsim.pipeline.rigid_chain import reduced_rigid_inertia
-            from mdsim.engine.rigid_md import rigid_time_step
+            from mdsim.engine.rigid_md_steps import rigid_time_step
             return float(rigid_time_step(T_red, masses, reduced_rigid_inertia(self)))
         return float(default_time_step(T_red, masses))
 

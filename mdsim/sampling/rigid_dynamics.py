@@ -15,7 +15,8 @@ import dataclasses
 
 from analysis.stats import mean_and_stderr
 from mdsim.checks import count
-from mdsim.engine.rigid_md import METHODS, RigidMDSampler, drift_K_per_ns
+from mdsim.engine.rigid_md import METHODS, RigidMDSampler
+from mdsim.engine.rigid_md_steps import drift_K_per_ns
 from mdsim.errors import SettingError
 from mdsim.numbers import value_with_error
 from mdsim.sampling.rigid_box import rigid_box

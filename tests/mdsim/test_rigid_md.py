@@ -17,7 +17,8 @@ import pytest
 
 from analysis.block_error import block_stderr
 from analysis.stats import mean_and_stderr
-from mdsim.engine.rigid_md import RigidMDSampler, drift_K_per_ns
+from mdsim.engine.rigid_md import RigidMDSampler
+from mdsim.engine.rigid_md_steps import drift_K_per_ns
 from mdsim.errors import SettingError
 from mdsim.sampling.rigid import sample_rigid_state
 from mdsim.sampling.rigid_box import rigid_box
