@@ -1,6 +1,28 @@
-"""Fixtures shared by the test folders: the Lennard-Jones reference equation of state."""
+"""Fixtures shared by the test folders: the Lennard-Jones reference equation of state; how
+the tests are shared between pytest-xdist workers.
+
+The README's test command runs the suite on every core (``-n auto --dist
+loadgroup``).  :func:`pytest_collection_modifyitems` keeps each test file on
+one worker, so a file's module- and session-scoped fixtures (a finished
+pipeline run, a built table) are computed once, and every test that needs
+the Slurm test cluster on one worker, which starts it once.  Without xdist
+the marks do nothing.
+"""
+from pathlib import Path
+
 import numpy as np
 import pytest
+
+TESTS = Path(__file__).resolve().parent
+
+
+def pytest_collection_modifyitems(config, items):
+    """Give every test an ``xdist_group``: "slurm" for tests/cluster, else its own file."""
+    for item in items:
+        path = Path(str(item.path)).resolve()
+        rel = path.relative_to(TESTS) if path.is_relative_to(TESTS) else path
+        group = "slurm" if rel.parts[0] == "cluster" else str(rel)
+        item.add_marker(pytest.mark.xdist_group(group))
 
 
 class TholLJ:

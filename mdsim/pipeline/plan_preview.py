@@ -25,6 +25,7 @@ the enlarged box is cheaper per step, so its estimate errs high).
 import math
 import time
 import types
+import warnings
 
 from mdsim.errors import ConvergenceError
 from mdsim.numbers import plain
@@ -226,11 +227,17 @@ def preview_plan(study, *, pilot=True):
         What :func:`mdsim.pipeline.plan.plan_tasks` refuses, or a state that
         needs more particles than a task may choose.
     """
+    from analysis.virial import QuantumCorrectionWarning
     from analysis.virial_eos import VirialGas
-    from mdsim.study.statepoints import ideal_heat_capacity
+    from mdsim.study.statepoints import ideal_heat_capacity, virial_gas
     g = study.gas
-    gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
-                    quantum="classical")  # as a running task guesses: classical
+    if g.molecules is not None:  # the model's own series, as a running task guesses
+        gas = virial_gas(study)
+    else:  # as a running task guesses: classical (the de Boer check is the virial routes')
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", QuantumCorrectionWarning)
+            gas = VirialGas(g.pairs_K_angstrom, g.fractions, g.molar_masses_kg_mol,
+                            quantum="classical")
     cv_ig = ideal_heat_capacity(study)
     pilots, out = {}, []
     for task in plan_tasks(study):
