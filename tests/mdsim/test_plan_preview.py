@@ -112,10 +112,13 @@ def test_plan_particles_and_cpu_time_agree_with_a_real_run(tmp_path):
     """The particles the plan names are those the task uses; its CPU time is the right size."""
     study = _study_file(tmp_path, routes='["energy"]', target="8 K")
     entries = preview_plan(read_study(study))
-    out = tmp_path / "run"
-    status, _ = _run(["run", str(study), "--no-plots", "--out", str(out), "--workers", "1",
-                      "--quiet"])
-    assert status == 0
+    # a first run compiles the kernels the pilot does not use (a fresh clone's cold numba
+    # cache put 5.5 CPU-s of compiling into the ledger); the second run is the one compared
+    for name in ("warm-up", "run"):
+        out = tmp_path / name
+        status, _ = _run(["run", str(study), "--no-plots", "--out", str(out), "--workers", "1",
+                          "--quiet"])
+        assert status == 0
     import h5py
     for e in entries:
         with h5py.File(out / "tasks" / f"{e['index']:04d}.h5", "r") as f:
