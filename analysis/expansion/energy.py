@@ -78,11 +78,12 @@ class NewtonStep(Result):
     step_K : float
         next - current.
     temperature_stderr_K : float
-        sqrt(s_i^2 + s_k^2) / c_v: the standard error a temperature found
-        from these two energies carries.
+        The standard error of ``next_temperature_K``: sqrt(s_i^2 + s_k^2) / c_v
+        from the two energies, with |step| s(c_v) / c_v from the sampled heat
+        capacity's error added in quadrature.
     converged : bool
-        |step| < tolerance * temperature_stderr_K: sampling again would not
-        move the estimate by more than its own noise.
+        |step| < tolerance * sqrt(s_i^2 + s_k^2) / c_v: sampling again would
+        not move the estimate by more than its own noise.
     """
 
     temperature_K: float
@@ -144,7 +145,9 @@ def newton_step(sample, u_initial, T_i, cv_ig, tolerance=NEWTON_TOLERANCE):
     residual = cv_ig.u(T_k) + sample.u_res_J_mol - cv_ig.u(T_i) - u_i
     step = max(-residual / cv, -MAX_DOWN_STEP * T_k)
     err = math.hypot(s_i, sample.u_res_stderr_J_mol) / cv
-    return NewtonStep(T_k, T_k + step, step, err, bool(abs(step) < tolerance * err))
+    err_cv = abs(step) * float(sample.cv_res_stderr_J_molK) / cv  # T_k + step through c_v's error
+    return NewtonStep(T_k, T_k + step, step, math.hypot(err, err_cv),
+                      bool(abs(step) < tolerance * err))
 
 
 def _best_newton_step(samples, u_initial, T_i, cv_ig, tolerance):
