@@ -17,11 +17,10 @@ from analysis.expansion import microcanonical_route
 from mdsim.errors import StudyError
 from mdsim.pipeline.plan import plan_tasks
 from mdsim.sampling import store
-from mdsim.sampling.rigid_stage import rigid_system
-from mdsim.sampling.state_point import sample_state_point
 from mdsim.study.reader import read_study
 
-from test_rigid_route import CONFIGS, coolprop_delta_T, energy_study
+from test_rigid_route import (CONFIGS, coolprop_delta_T, energy_study,
+                              interrupted_and_uninterrupted)
 
 
 @pytest.mark.parametrize("method, temperature, energy, settings", [
@@ -31,26 +30,10 @@ from test_rigid_route import CONFIGS, coolprop_delta_T, energy_study
 def test_rigid_md_stage_resumes_bit_for_bit(tmp_path, method, temperature, energy, settings):
     # the MD stage follows the protocol of sample_state_point: an interrupted run file
     # continues from its checkpoint to the numbers of an uninterrupted run (exact equality)
-    mol = read_study(CONFIGS / "nitrogen.toml").gas.molecules[0]
     run = dict(n_equilibration=100, n_samples=60, interval=5, seed=[3, 1], checkpoint_every=20,
                **settings)
-
-    def system():
-        return rigid_system(mol, 300.0, 4000.0, 64, 3.0, seed=5)
-
-    def stop(done, total):
-        if done == 20:
-            raise KeyboardInterrupt
-
     path = tmp_path / "r.h5"
-    with pytest.raises(KeyboardInterrupt):
-        sample_state_point(system(), method, temperature, energy, path=path, progress=stop,
-                           **run)
-    resumed = sample_state_point(system(), method, temperature, energy, path=path, **run)
-    ref = sample_state_point(system(), method, temperature, energy, **run)
-    assert resumed.resumed
-    for key in ref.samples:
-        assert np.array_equal(resumed.samples[key], ref.samples[key]), key
+    resumed, ref = interrupted_and_uninterrupted(path, 20, run, method, temperature, energy)
     s = ref.samples
     if energy is not None:
         # the fixed energy: the shifted model's total u_model + kinetic is conserved to the

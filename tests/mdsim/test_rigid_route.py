@@ -45,27 +45,34 @@ def coolprop_delta_T(CP):
     return T_f - 300.0
 
 
-def test_rigid_stage_resumes_bit_for_bit(tmp_path):
-    # the stage sampler follows the protocol of sample_state_point: an interrupted run file
-    # continues from its checkpoint to the numbers of an uninterrupted run (exact equality)
+def interrupted_and_uninterrupted(path, stop_at, run, *args):
+    """A 64-molecule N2 stage run into ``path``, interrupted after ``stop_at`` samples and
+    resumed, and the same run uninterrupted: (resumed, uninterrupted), asserted equal."""
     mol = read_study(CONFIGS / "nitrogen.toml").gas.molecules[0]
-    run = dict(n_equilibration=100, n_samples=120, interval=1, seed=[3, 1], checkpoint_every=40)
 
     def system():
         return rigid_system(mol, 300.0, 4000.0, 64, 3.0, seed=5)
 
     def stop(done, total):
-        if done == 40:
+        if done == stop_at:
             raise KeyboardInterrupt
 
-    path = tmp_path / "r.h5"
     with pytest.raises(KeyboardInterrupt):
-        sample_state_point(system(), METHOD, 8.6, path=path, progress=stop, **run)
-    resumed = sample_state_point(system(), METHOD, 8.6, path=path, **run)
-    ref = sample_state_point(system(), METHOD, 8.6, **run)
+        sample_state_point(system(), *args, path=path, progress=stop, **run)
+    resumed = sample_state_point(system(), *args, path=path, **run)
+    ref = sample_state_point(system(), *args, **run)
     assert resumed.resumed
     for key in ref.samples:
         assert np.array_equal(resumed.samples[key], ref.samples[key]), key
+    return resumed, ref
+
+
+def test_rigid_stage_resumes_bit_for_bit(tmp_path):
+    # the stage sampler follows the protocol of sample_state_point: an interrupted run file
+    # continues from its checkpoint to the numbers of an uninterrupted run (exact equality)
+    run = dict(n_equilibration=100, n_samples=120, interval=1, seed=[3, 1], checkpoint_every=40)
+    path = tmp_path / "r.h5"
+    resumed, _ = interrupted_and_uninterrupted(path, 40, run, METHOD, 8.6)
     state, _ = store.read_checkpoint(path)
     assert np.allclose(np.linalg.norm(state["axis_ni"], axis=1), 1.0, atol=1e-12)
     assert store.read_final(path)["positions"].shape == (64, 3)
