@@ -194,14 +194,23 @@ class RigidMolecule:
         """Centre of mass in the body frame, angstrom."""
         return self.mass_s @ self.position_sv / self.mass_s.sum()
 
+    def inertia_tensor(self):
+        """Inertia tensor about the centre of mass in the site frame, kg m^2.
+
+        I = sum_s m_s (|r_s|^2 1 - r_s r_s^T), r_s from the centre of mass
+        (Goldstein, Classical Mechanics, chapter 5).
+        """
+        r = (self.position_sv - self.centre_of_mass_v()) * 1e-10
+        m = self.mass_s / N_A
+        return np.einsum("s,sk,sk->", m, r, r) * np.eye(3) - np.einsum("s,si,sj->ij", m, r, r)
+
     def moments_of_inertia(self):
         """Principal moments of inertia about the centre of mass, kg m^2 (ascending).
 
         Notes
         -----
-        The eigenvalues of I = sum_s m_s (|r_s|^2 1 - r_s r_s^T), r_s from
-        the centre of mass (Goldstein, Classical Mechanics, chapter 5); a
-        linear molecule has one zero moment.
+        The eigenvalues of :meth:`inertia_tensor`; a linear molecule has one
+        zero moment.
 
         Examples
         --------
@@ -212,10 +221,7 @@ class RigidMolecule:
         >>> [f"{m:.3e}" for m in n2.moments_of_inertia()]
         ['0.000e+00', '1.406e-46', '1.406e-46']
         """
-        r = (self.position_sv - self.centre_of_mass_v()) * 1e-10
-        m = self.mass_s / N_A
-        inertia = np.einsum("s,sk,sk->", m, r, r) * np.eye(3) - np.einsum("s,si,sj->ij", m, r, r)
-        moments = np.linalg.eigvalsh(inertia)
+        moments = np.linalg.eigvalsh(self.inertia_tensor())
         return np.where(np.abs(moments) < 1e-12 * max(moments.max(), 1e-300), 0.0, moments)
 
     def axial_positions_s(self):

@@ -1,20 +1,23 @@
-"""A linear rigid molecule (or an atom) in the reduced units of the engine.
+"""A rigid molecule (linear, any shape, or an atom) in the reduced units of the engine.
 
 The engine's rigid-molecule kernels (:mod:`mdsim.engine.rigid_pair`) take,
 per molecule type, the axial site offsets from the centre of mass (sigma),
 the site potentials in reduced units and the reduced quadrupole
-Q* = Q / sqrt(4 pi epsilon_0 epsilon sigma^5).  This module turns a
+Q* = Q / sqrt(4 pi epsilon_0 epsilon sigma^5); the rigid-body kernels
+(:mod:`mdsim.engine.body_pair`) take the site positions in the principal-axes
+frame (sigma) and the site potentials.  This module turns a
 :class:`~analysis.molecules.model.RigidMolecule` (kelvin, angstrom,
 e angstrom^2) into those numbers.
 """
 import math
 
+import numpy as np
 
 from analysis.molecules.electrostatics import COULOMB_K_ANGSTROM
 from analysis.molecules.model import LINEAR_TOLERANCE_ANGSTROM
 from mdsim.errors import StudyError
 
-__all__ = ["reduced_linear_type"]
+__all__ = ["reduced_linear_type", "principal_frame", "reduced_body_type"]
 
 
 def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
@@ -82,3 +85,90 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
     pots = [s.potential.scaled(scale, length) for s in molecule.sites]
     quad = molecule.quadrupole * math.sqrt(COULOMB_K_ANGSTROM / (scale * length ** 5))
     return site_z, pots, float(quad)
+
+
+def principal_frame(molecule):
+    """The molecule's site positions in its principal-axes frame, and that frame.
+
+    Parameters
+    ----------
+    molecule : RigidMolecule
+
+    Returns
+    -------
+    body_si : ndarray, shape=(n_sites, 3), angstrom
+        Site positions from the centre of mass along the principal axes
+        (ascending moments of inertia).
+    frame_ii : ndarray, shape=(3, 3)
+        A proper rotation (det +1) whose columns are the principal axes in
+        the study's site frame: ``position = centre_of_mass + frame @ body``.
+
+    Notes
+    -----
+    The principal axes are the eigenvectors of
+    :meth:`RigidMolecule.inertia_tensor` (Goldstein, Classical Mechanics,
+    chapter 5).
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules.model import RigidMolecule, Site
+    >>> lj = LennardJones(50.0, 3.0)
+    >>> bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.016),
+    ...                               Site(lj, (0.8, 0.6, 0.0), 0.001),
+    ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
+    >>> body, frame = principal_frame(bent)
+    >>> bool(np.allclose(body.T @ np.diag(bent.mass_s) @ body, np.diag(
+    ...     np.diag(body.T @ np.diag(bent.mass_s) @ body)))), round(float(np.linalg.det(frame)), 12)
+    (True, 1.0)
+    """
+    rel = molecule.position_sv - molecule.centre_of_mass_v()
+    _, frame = np.linalg.eigh(molecule.inertia_tensor())
+    if np.linalg.det(frame) < 0.0:
+        frame[:, 2] *= -1.0
+    return rel @ frame, frame
+
+
+def reduced_body_type(molecule, energy_unit_K, length_unit_angstrom):
+    """``(site_positions, site_potentials)`` of a rigid molecule of any shape in reduced units.
+
+    Parameters
+    ----------
+    molecule : RigidMolecule
+        Sites with Lennard-Jones or Mie potentials; no point multipoles or
+        site charges (the rigid-body kernels have neither yet).
+    energy_unit_K, length_unit_angstrom : float
+        epsilon/k and sigma of the reduced units.
+
+    Returns
+    -------
+    site_positions : ndarray, shape=(n_sites, 3), sigma
+        In the principal-axes frame, centre of mass at the origin
+        (:func:`principal_frame`).
+    site_potentials : list of PairPotential
+        In reduced units.
+
+    Raises
+    ------
+    StudyError
+        For point multipoles or site charges.
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules.model import RigidMolecule, Site
+    >>> lj = LennardJones(50.0, 3.0)
+    >>> bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.016),
+    ...                               Site(lj, (0.8, 0.6, 0.0), 0.001),
+    ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
+    >>> pos, pots = reduced_body_type(bent, 50.0, 3.0)
+    >>> pos.shape, pots[0].epsilon, round(float(np.linalg.norm(pos[1] - pos[2])), 4)
+    ((3, 3), 1.0, 0.5333)
+    """
+    if molecule.has_multipoles or molecule.has_charges:
+        raise StudyError(f"molecule '{molecule.name}': point multipoles and site charges are not "
+                         "yet simulated for rigid bodies (site Lennard-Jones or Mie only); "
+                         "remove them or use the virial routes")
+    scale, length = float(energy_unit_K), float(length_unit_angstrom)
+    body_si, _ = principal_frame(molecule)
+    return body_si / length, [s.potential.scaled(scale, length) for s in molecule.sites]

@@ -97,8 +97,9 @@ class RigidMCSampler:
 
     def __init__(self, model, centre_ni, axis_ni, type_n, box_i, *, temperature, seed,
                  max_displacement=0.3, max_angle=0.5, target_acceptance=0.45):
-        if not isinstance(model, LinearPairModel):
-            raise TypeError("model must be an mdsim.engine.rigid_model.LinearPairModel")
+        if not isinstance(model, self.model_class):
+            raise TypeError(f"model must be a {self.model_class.__module__}."
+                            f"{self.model_class.__name__}")
         if model.shifted:
             raise SettingError("model.shifted", True, "Monte Carlo uses the plain cut with its "
                                "tail correction; build the model with shifted=False")
@@ -109,13 +110,9 @@ class RigidMCSampler:
                                f"cut-off {model.rc:g} (minimum image); use more molecules or a "
                                "shorter cut-off")
         c = np.ascontiguousarray(centre_ni, dtype=np.float64)
-        e = np.ascontiguousarray(axis_ni, dtype=np.float64)
         n = c.shape[0]
-        norm = np.linalg.norm(e, axis=-1) if e.shape == (n, 3) else np.zeros(1)
-        if c.shape != (n, 3) or e.shape != (n, 3) or not np.all(np.isfinite(c)) or \
-                not np.all(norm > 0.0):
-            raise SettingError("centre_ni, axis_ni", (c.shape, e.shape), "need two (n, 3) "
-                               "arrays of finite centres and non-zero axes")
+        if c.shape != (n, 3) or not np.all(np.isfinite(c)):
+            raise SettingError("centre_ni", c.shape, "needs an (n, 3) array of finite centres")
         self.type_n = np.ascontiguousarray(type_n, dtype=np.int64).reshape(n)
         if self.type_n.min() < 0 or self.type_n.max() >= model.n_types:
             raise SettingError("type_n", sorted(set(self.type_n.tolist())),
@@ -123,7 +120,7 @@ class RigidMCSampler:
         self.n_molecules = n
         self.centre_ni = np.mod(c, self.box_i)
         self.centre_ni[self.centre_ni >= self.box_i] = 0.0
-        self.axis_ni = e / norm[:, None]
+        self.set_orientations(axis_ni)
         self.temperature = _positive("temperature", temperature)
         self.max_displacement = min(_positive("max_displacement", max_displacement),
                                     0.5 * float(self.box_i.min()))
@@ -148,6 +145,18 @@ class RigidMCSampler:
         if not math.isfinite(self.u_trunc):
             raise SimulationError("rigid Monte Carlo: the start configuration has a non-finite "
                                   "energy; start from a looser configuration")
+
+    model_class = LinearPairModel
+    """The model the sampler takes (a subclass for other bodies takes its own)."""
+
+    def set_orientations(self, axis_ni):
+        """Set the axes (normalised here) from an (n, 3) array of non-zero vectors."""
+        e = np.ascontiguousarray(axis_ni, dtype=np.float64)
+        norm = np.linalg.norm(e, axis=-1) if e.shape == (self.n_molecules, 3) else np.zeros(1)
+        if e.shape != (self.n_molecules, 3) or not np.all(norm > 0.0):
+            raise SettingError("axis_ni", e.shape, f"needs an ({self.n_molecules}, 3) array of "
+                               "non-zero axes")
+        self.axis_ni = e / norm[:, None]
 
     def energy_and_virial(self):
         """Total truncated energy and molecular virial of the current configuration, epsilon."""

@@ -10,8 +10,7 @@ import math
 
 import numpy as np
 
-from mdsim.engine.forms import FORM_LJ, FORM_MIE
-from mdsim.engine.potentials import LennardJones, Mie, combine
+from mdsim.engine.site_pairs import site_pair_potential, site_site_tail, site_table
 from mdsim.engine.rigid_pair import forces_half
 from mdsim.errors import SettingError, SimulationError
 
@@ -58,6 +57,7 @@ class LinearPairModel:
     --------
     Two LJ sites at +-0.1575 sigma (nitrogen-like), two molecules side by side:
 
+    >>> from mdsim.engine.potentials import LennardJones
     >>> m = LinearPairModel([([-0.1575, 0.1575], [LennardJones(1.0, 1.0)] * 2, 0.0)], 4.0)
     >>> z, x = np.array([0.0, 0.0, 1.0]), np.array([1.5, 0.0, 0.0])
     >>> u, force_b, torque_a, torque_b = m.pair(x, z, z)
@@ -66,33 +66,21 @@ class LinearPairModel:
     """
 
     def __init__(self, types, cutoff, shifted=False, core=0.0):
-        starts, zs, pots, quads = [0], [], [], []
+        zs, quads = [], []
         for t, (site_z, site_pots, quad) in enumerate(types):
             site_z = [float(z) for z in site_z]
             if not site_z or len(site_z) != len(site_pots):
                 raise SettingError(f"types[{t}]", site_z, "needs one potential per site and at "
                                    "least one site")
-            for p in site_pots:
-                if not isinstance(p, Mie):
-                    raise SettingError(f"types[{t}] site potential", p, "rigid molecules take "
-                                       "Lennard-Jones or Mie sites; give one of those")
             zs += site_z
-            pots += list(site_pots)
-            starts.append(len(zs))
             quads.append(float(quad))
+        pots, self.params_kk, self.form, self.site_start_t = site_table([t[1] for t in types])
+        starts = self.site_start_t
         rc = float(cutoff)
         if not rc > 0.0 or not math.isfinite(rc):
             raise SettingError("cutoff", cutoff, "must be a positive number of sigma")
-        all_lj = all(type(p) is LennardJones for p in pots)
-        if not all_lj:  # a Mie 12-6 row is the same potential, so LJ sites mix with Mie ones
-            pots = [Mie(p.epsilon, p.sigma, p.repulsive, p.attractive) for p in pots]
-        self.site_start_t = np.array(starts, dtype=np.int64)
         self.site_z_k = np.array(zs)
         self.site_potentials = pots
-        n_k = len(pots)
-        self.params_kk = np.array([[self.site_pair_potential(k, m).params for m in range(n_k)]
-                                   for k in range(n_k)])
-        self.form = FORM_LJ if all_lj else FORM_MIE
         self.quad_t = np.array(quads)
         self.rotates_t = np.array([int(self.quad_t[t] != 0.0 or np.any(
             self.site_z_k[starts[t]:starts[t + 1]] != 0.0)) for t in range(len(quads))],
@@ -114,52 +102,16 @@ class LinearPairModel:
 
     def site_pair_potential(self, k, m):
         """The potential between sites k and m (like, or Lorentz-Berthelot)."""
-        a, b = self.site_potentials[k], self.site_potentials[m]
-        return a if a == b else combine(a, b)
+        return site_pair_potential(self.site_potentials, k, m)
 
     def tail(self, density, fraction_t=None):
-        """Isotropic site-site long-range corrections of the plain molecular cut-off.
-
-        Parameters
-        ----------
-        density : float, 1/sigma^3
-            Number density of molecules.
-        fraction_t : array_like, shape=(n_types,), optional
-            Mole fractions of the molecule types (default: one type).
-
-        Returns
-        -------
-        u_tail : float, epsilon
-            Energy per molecule.
-        p_tail : float, epsilon/sigma^3
-
-        Notes
-        -----
-        Every site pair is taken as uncorrelated beyond the centre-centre
-        cut-off rc, with the site-site distance equal to rc:
-        U_tail / N = 2 pi rho sum_ab x_a x_b sum_(k in a, m in b) I_u,km and
-        P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the
-        integrals of :meth:`PairPotential.tail_integrals` (the atomic
-        formulas of Allen and Tildesley, Computer Simulation of Liquids,
-        section 2.8, applied site by site: common practice, no source).
-        The quadrupole-quadrupole energy averages to zero over orientations
-        and gets no tail.
+        """Isotropic site-site tail of the plain cut: (u_tail per molecule, p_tail), reduced
+        (:func:`mdsim.engine.site_pairs.site_site_tail`, which takes the same ``density``
+        and ``fraction_t``).  The quadrupole-quadrupole energy averages to zero over
+        orientations and gets no tail.
         """
-        x_t = np.ones(1) if fraction_t is None else np.asarray(fraction_t, dtype=float)
-        if x_t.shape != (self.n_types,) or abs(x_t.sum() - 1.0) > 1e-9 or np.any(x_t < 0):
-            raise SettingError("fraction_t", fraction_t, f"needs {self.n_types} mole fractions "
-                               ">= 0 that sum to 1")
-        s_u = s_w = 0.0
-        st = self.site_start_t
-        for a in range(self.n_types):
-            for b in range(self.n_types):
-                for k in range(st[a], st[a + 1]):
-                    for m in range(st[b], st[b + 1]):
-                        i_u, i_w = self.site_pair_potential(k, m).tail_integrals(self.rc)
-                        s_u += x_t[a] * x_t[b] * i_u
-                        s_w += x_t[a] * x_t[b] * i_w
-        rho = float(density)
-        return 2.0 * math.pi * rho * s_u, -2.0 * math.pi / 3.0 * rho * rho * s_w
+        return site_site_tail(self.site_potentials, self.site_start_t, self.rc, density,
+                              fraction_t)
 
     def pair(self, d_i, axis_a_i, axis_b_i, type_a=0, type_b=0):
         """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).

@@ -4,12 +4,13 @@ A study with ``[potential] form = "rigid-molecule"`` runs the energy,
 microcanonical and direct routes (:mod:`mdsim.pipeline.routes`) as a sphere
 study does, pressure iteration included (:mod:`mdsim.pipeline.initial_state`);
 only its stages differ.  Each stage is canonical Monte Carlo of the rigid
-linear molecules (translations and rotations, :mod:`mdsim.sampling.rigid_stage`)
-or their molecular dynamics, thermostatted or at fixed energy
+molecules (translations and rotations: linear ones :mod:`mdsim.sampling.rigid_stage`,
+non-linear ones :mod:`mdsim.sampling.body_stage`)
+or molecular dynamics of linear ones, thermostatted or at fixed energy
 (:mod:`mdsim.sampling.rigid_md_stage`), in a run file like any other,
 checkpointed after every block and resumed bit for bit.
 :class:`RigidChain` continues one chain across its stages, carrying the
-axes and, for Monte Carlo, both tuned steps, for MD the velocities and
+axes (or quaternions) and, for Monte Carlo, both tuned steps, for MD the velocities and
 angular momenta, as well as the centres.
 
 :func:`set_up_molecular_task` gives the running task what follows from the
@@ -22,10 +23,11 @@ from mdsim.errors import StudyError
 from mdsim.pipeline.chain import Chain
 from mdsim.sampling import store
 from mdsim.sampling.rigid_md_stage import MD_METHODS
+from mdsim.sampling.body_stage import BODY_METHOD, body_system
 from mdsim.sampling.rigid_stage import METHOD, mixture_system
 
 __all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method",
-           "reduced_rigid_inertia"]
+           "reduced_rigid_inertia", "is_nonlinear_gas"]
 
 
 class RigidChain(Chain):
@@ -34,13 +36,24 @@ class RigidChain(Chain):
     A continued stage starts from the previous stage's centres and axes (the
     axes from its final checkpoint) and, for Monte Carlo, both of its tuned
     steps, for MD its velocities and angular momenta, so the production
-    stages are one chain.  Parameters as for ``Chain``.
+    stages are one chain.  Parameters as for ``Chain``; a gas of non-linear
+    molecules runs their Monte Carlo (:data:`BODY_METHOD`, orientations as
+    quaternions) where a linear one runs :data:`METHOD`.
     """
 
+    def __init__(self, task, label, chain_id, make_system, method, **kwargs):
+        if method == METHOD and is_nonlinear_gas(task.study.gas):
+            method = BODY_METHOD
+        super().__init__(task, label, chain_id, make_system, method, **kwargs)
+
     def continue_system(self, prev):
-        """A system in the last configuration (centres, axes and MD momenta) of a finished stage."""
+        """A system in the last configuration (centres, orientations and MD momenta) of a
+        finished stage."""
         system = super().continue_system(prev)
         state, _ = store.read_checkpoint(prev.path)
+        if "quat_nq" in state:  # a non-linear molecule's orientations
+            system.quat_nq = state["quat_nq"].astype(float)
+            return system
         system.axis_ni = state["axis_ni"].astype(float)
         if "angular_momenta" in state:  # MD: the run continued with its momenta
             system.l_ni = state["angular_momenta"].astype(float)
@@ -91,9 +104,21 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
         if note not in job.notes:
             job.notes.append(note)
 
+    if is_nonlinear_gas(job.study.gas):
+        def make():
+            return body_system(molecules[0], T, rho_mol_m3, int(sum(counts_t)), rc,
+                               job.start_seed(tag))
+        return make
+
     def make():
         return mixture_system(molecules, counts_t, T, rho_mol_m3, rc, job.start_seed(tag))
     return make
+
+
+def is_nonlinear_gas(gas):
+    """True for a gas of non-linear rigid molecules (one kind: the simulations take no mixture
+    of them, :func:`mdsim.study.molecule.check_simulation_supported`)."""
+    return gas.molecules is not None and any(m.is_nonlinear for m in gas.molecules)
 
 
 def reduced_rigid_inertia(job):

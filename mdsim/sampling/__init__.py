@@ -18,6 +18,8 @@ One state point of a gas of rigid linear molecules: by Monte Carlo
 :mod:`~mdsim.sampling.rigid_box`; the same samplers as stages of a task's
 run files: :mod:`~mdsim.sampling.rigid_stage` (Monte Carlo) and
 :mod:`~mdsim.sampling.rigid_md_stage` (MD, thermostatted or at fixed energy).
+Non-linear rigid molecules: their box (:mod:`~mdsim.sampling.body_box`) and
+their Monte Carlo as stages (:mod:`~mdsim.sampling.body_stage`).
 """
 from mdsim.sampling.coexistence import CoexistencePoint, coexistence_point
 from mdsim.sampling.estimates import Estimate, summarise

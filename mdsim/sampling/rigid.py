@@ -1,5 +1,5 @@
-"""One state point of a gas of rigid linear molecules (or their mixture with atoms) by
-canonical Monte Carlo.
+"""One state point of a gas of rigid molecules (linear ones or their mixture with atoms, or
+one kind of non-linear molecule) by canonical Monte Carlo.
 
 :func:`sample_rigid_state` puts ``n_molecules`` molecules of a
 :class:`~analysis.molecules.RigidMolecule` in a cubic box at the density
@@ -14,8 +14,10 @@ import numpy as np
 
 from analysis.expansion.energy import StateSample
 from analysis.stats import mean_and_stderr, variance_and_stderr
+from mdsim.engine.body_mc import BodyMCSampler
 from mdsim.engine.rigid_mc import RigidMCSampler
 from mdsim.numbers import value_with_error
+from mdsim.sampling.body_box import body_box
 from mdsim.sampling.rigid_box import mixture_box, rigid_box
 
 __all__ = ["RigidStateEstimate", "sample_rigid_state"]
@@ -73,13 +75,14 @@ class RigidStateEstimate:
 def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=256, cutoff=5.0,
                        equilibration_sweeps=200, samples=200, interval=2, seed=1,
                        counts_t=None):
-    """u_res and p of a gas of linear rigid molecules at (T, rho), canonical Monte Carlo.
+    """u_res and p of a gas of rigid molecules at (T, rho), canonical Monte Carlo.
 
     Parameters
     ----------
     molecule : RigidMolecule or list of RigidMolecule
-        Linear, two or more sites, optional axial quadrupole; a list is a
-        mixture of such molecules and atoms, with ``counts_t``.
+        Linear, two or more sites, optional axial quadrupole, or non-linear
+        (site Lennard-Jones or Mie only: :mod:`mdsim.engine.body_mc`); a list
+        is a mixture of linear molecules and atoms, with ``counts_t``.
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3
     n_molecules : int
@@ -107,13 +110,18 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     >>> est.u_res_J_mol < 0, 0.9e7 < est.pressure_Pa < 1.1e7
     (True, True)
     """
-    if counts_t is None:
-        box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
+    if counts_t is None and molecule.is_nonlinear:  # a rigid body: orientations as quaternions
+        box = body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
+        sampler = BodyMCSampler(box.model, box.centre_ni, box.quat_nq, box.type_n, box.box_i,
+                                temperature=box.temperature, seed=[seed, 1])
     else:
-        box = mixture_box(molecule, counts_t, temperature_K, density_mol_m3, cutoff, seed)
+        if counts_t is None:
+            box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
+        else:
+            box = mixture_box(molecule, counts_t, temperature_K, density_mol_m3, cutoff, seed)
+        sampler = RigidMCSampler(box.model, box.centre_ni, box.axis_ni, box.type_n,
+                                 box.box_i, temperature=box.temperature, seed=[seed, 1])
     T, rho, n, units = box.temperature_K, box.density_mol_m3, len(box.centre_ni), box.units
-    sampler = RigidMCSampler(box.model, box.centre_ni, box.axis_ni, box.type_n,
-                             box.box_i, temperature=box.temperature, seed=[seed, 1])
     sampler.equilibrate(equilibration_sweeps)
     tried0, accepted0 = sampler.tried_m.copy(), sampler.accepted_m.copy()
     out = sampler.run(samples, interval)

@@ -163,18 +163,30 @@ class RigidMCStageSampler:
     ['acceptance', 'pressure', 'u_full', 'u_trunc']
     """
 
+    method_name = METHOD
+    """The stage method this class runs."""
+
     def __init__(self, system, temperature=None, energy=None, seed=0, method=METHOD,
                  max_displacement=0.3, max_angle=0.5):
-        from mdsim.engine.rigid_mc import RigidMCSampler
-        if method != METHOD or temperature is None or energy is not None:
+        if method != self.method_name or temperature is None or energy is not None:
             raise StudyError(f"setting 'method' = {method!r}: rigid molecules are sampled by "
-                             f"canonical Monte Carlo ({METHOD!r}) at a set temperature")
-        self.method = METHOD
+                             f"canonical Monte Carlo ({self.method_name!r}) at a set temperature")
+        self.method = self.method_name
         self.system = system
         self.dof_per_particle = int(system.dof_per_particle)
-        self.mc = RigidMCSampler(system.model, system.r_ni, system.axis_ni, system.type_n,
-                                 system.box_i, temperature=temperature, seed=seed,
-                                 max_displacement=max_displacement, max_angle=max_angle)
+        self.mc = self.engine(system, temperature=temperature, seed=seed,
+                              max_displacement=max_displacement, max_angle=max_angle)
+
+    @staticmethod
+    def engine(system, **settings):
+        """The engine's sampler of the system (:class:`mdsim.engine.rigid_mc.RigidMCSampler`)."""
+        from mdsim.engine.rigid_mc import RigidMCSampler
+        return RigidMCSampler(system.model, system.r_ni, system.axis_ni, system.type_n,
+                              system.box_i, **settings)
+
+    def orientation_state(self):
+        """The orientation arrays of the checkpoint: {"axis_ni": the axes}."""
+        return {"axis_ni": self.mc.axis_ni}
 
     def equilibrate(self, n_sweeps):
         """Equilibration sweeps, tuning both steps (:meth:`RigidMCSampler.equilibrate`)."""
@@ -191,7 +203,8 @@ class RigidMCStageSampler:
     def get_state(self):
         """Everything needed to continue bit for bit (arrays are copies, cell lists included)."""
         mc = self.mc
-        return {"positions": mc.centre_ni.copy(), "axis_ni": mc.axis_ni.copy(),
+        return {"positions": mc.centre_ni.copy(),
+                **{k: v.copy() for k, v in self.orientation_state().items()},
                 "rng_state": mc.state.copy(), "max_displacement": float(mc.max_displacement),
                 "max_angle": float(mc.max_angle), "u_trunc_total": float(mc.u_trunc),
                 "tried_m": mc.tried_m.copy(), "accepted_m": mc.accepted_m.copy(),
@@ -205,7 +218,7 @@ class RigidMCStageSampler:
         if missing:
             raise StudyError(f"rigid Monte Carlo state is missing {missing}; it must come from "
                              "RigidMCStageSampler.get_state")
-        for key, target in (("positions", mc.centre_ni), ("axis_ni", mc.axis_ni),
+        for key, target in (("positions", mc.centre_ni), *self.orientation_state().items(),
                             ("rng_state", mc.state), ("tried_m", mc.tried_m),
                             ("accepted_m", mc.accepted_m), ("head_c", mc.head_c),
                             ("next_n", mc.next_n), ("cell_n", mc.cell_n)):

@@ -182,8 +182,9 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     molecular dynamics of one kind, ``sampler = "md"``), the microcanonical
     route (its final state by fixed-energy molecular dynamics) and the direct
     route (molecular dynamics of the expansion), those two for one kind of
-    linear molecule; a non-linear molecule is refused (the virial routes
-    take it).  Spheres pass.
+    linear molecule; one kind of non-linear molecule (site Lennard-Jones or
+    Mie, no charges) by the energy route's canonical Monte Carlo only.
+    Spheres pass.
 
     Parameters
     ----------
@@ -215,11 +216,6 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         raise StudyError(f"{where}: {what} not yet supported for rigid-molecule potentials "
                          '(form = "rigid-molecule"); use routes = ["energy", "microcanonical", '
                          '"direct"] or the virial routes, routes = []')
-    nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
-    if nonlinear:
-        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
-                         "simulation takes linear molecules only; use the virial routes, "
-                         "[simulation] routes = []")
     for mol in gas.molecules:  # a mixture of linear molecules and atoms is simulated too
         if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
             raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
@@ -227,6 +223,13 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                              "has site Lennard-Jones or Mie and an axial quadrupole); use the "
                              "virial routes, [simulation] routes = []")
     by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
+    nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
+    if nonlinear and (gas.n_species > 1 or by_md):
+        what = "a mixture" if gas.n_species > 1 else " and ".join(by_md)
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and a non-linear "
+                         "molecule is simulated by the energy route's canonical Monte Carlo of "
+                         f"one kind of molecule only, not {what}; use routes = [\"energy\"] with "
+                         'sampler "auto" or "mc", or the virial routes, [simulation] routes = []')
     if gas.n_species > 1 and by_md:
         raise StudyError(f"{where}: {' and '.join(by_md)}: a mixture with rigid molecules is "
                          "simulated by the energy route's canonical Monte Carlo only (the rigid "

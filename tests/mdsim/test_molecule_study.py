@@ -56,10 +56,10 @@ def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
 
 @pytest.mark.parametrize("name, route, match, line", [
     # every simulation route takes rigid linear molecules (tests/mdsim/test_rigid_route.py,
-    # test_rigid_nve.py); the rigid-molecule engine is linear-only, the virial routes answer
-    # instead
-    ("propane", "energy", "molecule 'propane' is not linear.*routes = \\[\\]",
-     "takes linear molecules only"),
+    # test_rigid_nve.py); a non-linear one only the energy route's Monte Carlo
+    # (tests/mdsim/test_body_mc.py), the virial routes answer the others
+    ("propane", "direct", "molecule 'propane' is not linear.*routes = \\[\\]",
+     "canonical Monte Carlo of one kind of molecule only, not direct"),
 ])
 def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys, name, route, match, line):
     text = (CONFIGS / f"{name}.toml").read_text()

@@ -1,0 +1,122 @@
+"""Site-site interactions of rigid molecules: the site-pair parameter table and the isotropic tail.
+
+Shared by the models of linear molecules (:mod:`mdsim.engine.rigid_model`)
+and of rigid bodies of any shape (:mod:`mdsim.engine.body_model`): their
+sites interact through Lennard-Jones or Mie potentials, like sites by their
+own potential and unlike sites by the Lorentz-Berthelot rules of
+:func:`mdsim.engine.potentials.combine` (the one home of the rule).
+Reduced units.
+
+Array suffixes: ``_t`` molecule type, ``_k`` site (of all types).
+"""
+import math
+
+import numpy as np
+
+from mdsim.engine.forms import FORM_LJ, FORM_MIE
+from mdsim.engine.potentials import LennardJones, Mie, combine
+from mdsim.errors import SettingError
+
+__all__ = ["site_table", "site_pair_potential", "site_site_tail"]
+
+
+def site_table(types_pots):
+    """Site potentials, their pair parameter rows, the form and the type starts.
+
+    Parameters
+    ----------
+    types_pots : list of list of Mie
+        The like-site potentials of each molecule type (LennardJones is a Mie).
+
+    Returns
+    -------
+    pots : list of Mie
+        All sites in order (LennardJones, or all as Mie when any is not LJ).
+    params_kk : ndarray, shape=(n_sites, n_sites, N_PARAM), float64
+    form : int
+        FORM_LJ or FORM_MIE.
+    site_start_t : ndarray, shape=(n_types + 1,), int64
+
+    Examples
+    --------
+    >>> pots, p, form, start = site_table([[LennardJones(1.0, 1.0), LennardJones(2.0, 1.2)]])
+    >>> p.shape[:2], form == FORM_LJ, start.tolist()
+    ((2, 2), True, [0, 2])
+    """
+    starts, pots = [0], []
+    for t, site_pots in enumerate(types_pots):
+        if not site_pots:
+            raise SettingError(f"types[{t}]", site_pots, "needs at least one site")
+        for p in site_pots:
+            if not isinstance(p, Mie):
+                raise SettingError(f"types[{t}] site potential", p, "rigid molecules take "
+                                   "Lennard-Jones or Mie sites; give one of those")
+        pots += list(site_pots)
+        starts.append(len(pots))
+    all_lj = all(type(p) is LennardJones for p in pots)
+    if not all_lj:  # a Mie 12-6 row is the same potential, so LJ sites mix with Mie ones
+        pots = [Mie(p.epsilon, p.sigma, p.repulsive, p.attractive) for p in pots]
+    n_k = len(pots)
+    params_kk = np.array([[site_pair_potential(pots, k, m).params for m in range(n_k)]
+                          for k in range(n_k)])
+    return pots, params_kk, FORM_LJ if all_lj else FORM_MIE, np.array(starts, dtype=np.int64)
+
+
+def site_pair_potential(pots, k, m):
+    """The potential between sites k and m of ``pots`` (like, or Lorentz-Berthelot)."""
+    a, b = pots[k], pots[m]
+    return a if a == b else combine(a, b)
+
+
+def site_site_tail(pots, site_start_t, rc, density, fraction_t=None):
+    """Isotropic site-site long-range corrections of a plain molecular cut-off.
+
+    Parameters
+    ----------
+    pots : list of Mie
+        The site potentials (:func:`site_table`).
+    site_start_t : ndarray, shape=(n_types + 1,), int64
+    rc : float, sigma
+        Molecular (centre-centre) cut-off.
+    density : float, 1/sigma^3
+        Number density of molecules.
+    fraction_t : array_like, shape=(n_types,), optional
+        Mole fractions of the molecule types (default: one type).
+
+    Returns
+    -------
+    u_tail : float, epsilon
+        Energy per molecule.
+    p_tail : float, epsilon/sigma^3
+
+    Notes
+    -----
+    Every site pair is taken as uncorrelated beyond the centre-centre
+    cut-off rc, with the site-site distance equal to rc:
+    U_tail / N = 2 pi rho sum_ab x_a x_b sum_(k in a, m in b) I_u,km and
+    P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the
+    integrals of :meth:`PairPotential.tail_integrals` (the atomic
+    formulas of Allen and Tildesley, Computer Simulation of Liquids,
+    section 2.8, applied site by site: common practice, no source).
+    Point multipoles average to zero over orientations and get no tail.
+
+    >>> u, p = site_site_tail([LennardJones(1.0, 1.0)], np.array([0, 1]), 3.0, 0.5)
+    >>> round(float(u), 4), round(float(p), 4)  # LJ atom: (8/9) pi rho (rc^-9 - 3 rc^-3), ...
+    (-0.1551, -0.155)
+    """
+    n_types = len(site_start_t) - 1
+    x_t = np.ones(1) if fraction_t is None else np.asarray(fraction_t, dtype=float)
+    if x_t.shape != (n_types,) or abs(x_t.sum() - 1.0) > 1e-9 or np.any(x_t < 0):
+        raise SettingError("fraction_t", fraction_t, f"needs {n_types} mole fractions "
+                           ">= 0 that sum to 1")
+    s_u = s_w = 0.0
+    st = site_start_t
+    for a in range(n_types):
+        for b in range(n_types):
+            for k in range(st[a], st[a + 1]):
+                for m in range(st[b], st[b + 1]):
+                    i_u, i_w = site_pair_potential(pots, k, m).tail_integrals(rc)
+                    s_u += x_t[a] * x_t[b] * i_u
+                    s_w += x_t[a] * x_t[b] * i_w
+    rho = float(density)
+    return float(2.0 * math.pi * rho * s_u), float(-2.0 * math.pi / 3.0 * rho * rho * s_w)

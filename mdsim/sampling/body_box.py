@@ -1,0 +1,119 @@
+"""A cubic box of one kind of non-linear rigid molecule at (T, rho) in reduced units: the set-up
+of its Monte Carlo (:mod:`mdsim.sampling.body_stage`) and of :func:`mdsim.sampling.rigid.sample_rigid_state`.
+
+The reduced units are those of the molecule's first site (its epsilon and
+sigma) and the molecule's mass, as for linear molecules
+(:mod:`mdsim.sampling.rigid_box`).  The sites are placed in the principal-axes
+frame with the centre of mass at the origin
+(:func:`analysis.molecules.reduced.reduced_body_type`).
+"""
+import dataclasses
+
+import numpy as np
+
+from analysis.molecules.reduced import reduced_body_type
+from mdsim.checks import count, positive
+from mdsim.engine.body_mc import body_lattice_start
+from mdsim.engine.body_model import BodyPairModel
+from mdsim.units import ReducedUnits
+
+__all__ = ["BodyBox", "body_box", "reduced_principal_inertia"]
+
+
+@dataclasses.dataclass(frozen=True)
+class BodyBox:
+    """The reduced model and start configuration of a state point of non-linear molecules.
+
+    Attributes
+    ----------
+    temperature_K, density_mol_m3 : float
+        The state asked for (SI).
+    temperature : float
+        kT/epsilon.
+    units : mdsim.units.ReducedUnits
+    model : mdsim.engine.body_model.BodyPairModel
+    inertia_i : ndarray, shape=(3,), m sigma^2
+        Principal moments of inertia (ascending), reduced.
+    box_i : ndarray, shape=(3,), sigma
+    centre_ni : ndarray, shape=(n, 3), sigma
+        Centres on a simple cubic lattice.
+    quat_nq : ndarray, shape=(n, 4)
+        Orientations uniform over the rotations.
+    type_n : ndarray, shape=(n,), int64
+    """
+
+    temperature_K: float
+    density_mol_m3: float
+    temperature: float
+    units: ReducedUnits
+    model: BodyPairModel
+    inertia_i: np.ndarray
+    box_i: np.ndarray
+    centre_ni: np.ndarray
+    quat_nq: np.ndarray
+    type_n: np.ndarray
+
+
+def reduced_principal_inertia(molecule, units):
+    """Principal moments of inertia of a molecule in reduced units, m sigma^2 (ascending).
+
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(50.0, 3.0)
+    >>> bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.016),
+    ...                               Site(lj, (0.8, 0.6, 0.0), 0.001),
+    ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
+    >>> np.round(reduced_principal_inertia(bent, ReducedUnits(50.0, 3e-10, 0.018)), 5).tolist()
+    [0.00395, 0.0079, 0.01185]
+    """
+    return np.asarray(molecule.moments_of_inertia(), dtype=float) / (
+        units.mass_kg * units.sigma_m ** 2)
+
+
+def body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
+             shifted=False):
+    """The :class:`BodyBox` of ``n_molecules`` non-linear molecules at (T, rho).
+
+    Parameters
+    ----------
+    molecule : RigidMolecule
+        Any shape, site Lennard-Jones or Mie (no charges or multipoles).
+    temperature_K : float, K
+    density_mol_m3 : float, mol/m^3
+    n_molecules : int
+    cutoff : float, sigma
+        Molecular (centre-centre) cut-off.
+    seed : int or list of int
+        Seeds the start orientations.
+    shifted : bool
+        The shifted-energy pair model (molecular dynamics) instead of the
+        plain cut (Monte Carlo).
+
+    Returns
+    -------
+    BodyBox
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(50.0, 3.0)
+    >>> bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.016),
+    ...                               Site(lj, (0.8, 0.6, 0.0), 0.001),
+    ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
+    >>> b = body_box(bent, 300.0, 2000.0, 27, 3.0, seed=1)
+    >>> round(b.temperature, 3), b.quat_nq.shape, round(float(b.box_i[0]), 3)
+    (6.0, (27, 4), 9.399)
+    """
+    T = positive("temperature_K", temperature_K, "a temperature in K")
+    rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
+    n = count("n_molecules", n_molecules, 2, "molecules in the box")
+    site = molecule.sites[0].potential
+    units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
+    model = BodyPairModel([reduced_body_type(molecule, site.epsilon, site.sigma)],
+                          positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted)
+    box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
+    centre_ni, quat_nq = body_lattice_start(n, box_i, seed)
+    return BodyBox(T, rho, units.temperature_to_reduced(T), units, model,
+                   reduced_principal_inertia(molecule, units), box_i, centre_ni, quat_nq,
+                   np.zeros(n, dtype=np.int64))
