@@ -25,7 +25,13 @@ energy of a configuration), :mod:`~mdsim.engine.rigid_pair` (pair energy, forces
 and torques of rigid linear molecules) and :mod:`~mdsim.engine.rigid_model` (their model), :mod:`~mdsim.engine.rigid_mc_kernels` and
 :mod:`~mdsim.engine.rigid_mc` (their Monte Carlo), :mod:`~mdsim.engine.rigid_integrator`
 and :mod:`~mdsim.engine.rigid_md` (their molecular dynamics; its time step and drift
-in :mod:`~mdsim.engine.rigid_md_steps`).
+in :mod:`~mdsim.engine.rigid_md_steps`); rigid bodies of any shape (non-linear
+molecules): :mod:`~mdsim.engine.body_rotation` (quaternions),
+:mod:`~mdsim.engine.body_pair` and :mod:`~mdsim.engine.body_model` (pair energy,
+forces, torques; the site-pair table and tail shared with the linear model in
+:mod:`~mdsim.engine.site_pairs`), :mod:`~mdsim.engine.body_mc_kernels` and
+:mod:`~mdsim.engine.body_mc` (Monte Carlo), :mod:`~mdsim.engine.body_integrator`
+and :mod:`~mdsim.engine.body_md` (molecular dynamics).
 """
 from pathlib import Path as _Path
 

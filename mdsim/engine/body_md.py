@@ -1,0 +1,198 @@
+"""Molecular dynamics of rigid bodies of any shape (non-linear molecules): the sampler.
+
+The bodies interact through :mod:`mdsim.engine.body_pair` (site
+Lennard-Jones or Mie, one centre-centre cut-off) in its shifted-energy
+form, so that the dynamics conserve energy; the plain-cut energy (the Monte
+Carlo model) is evaluated beside it at every sample.  The steps are the
+symplectic splitting of :mod:`mdsim.engine.body_integrator` with, in
+equilibration or "md-nvt", stochastic velocity rescaling of translations
+(3N - 3 degrees of freedom) and rotations (3N) separately.  A half Verlet
+list on the centres (:class:`mdsim.engine.neighbours.NeighbourList`) is
+rebuilt when a centre has moved half the skin; the bodies are kept in its
+cell-sorted order, ``id_n`` maps back to the order they were given in.
+
+Array suffixes: ``_n`` body, ``_i`` Cartesian component, ``_q`` quaternion
+component.
+"""
+import math
+
+import numpy as np
+
+from mdsim.checks import count, positive
+from mdsim.engine import rng as _rng
+from mdsim.engine.body_integrator import (BODY_ROTATIONAL_DOF, body_block, body_kinetic_parts,
+                                          body_start_momenta)
+from mdsim.engine.body_pair import body_forces_half
+from mdsim.engine.integrator import run_in_blocks
+from mdsim.engine.neighbours import NeighbourList, choose_skin
+from mdsim.engine.rigid_integrator import translational_dof
+from mdsim.engine.rigid_md import METHODS
+from mdsim.engine.rigid_md_steps import rigid_time_step
+from mdsim.errors import SettingError, SimulationError
+
+__all__ = ["BodyMDSampler"]
+
+
+class BodyMDSampler:
+    """Molecular dynamics of one kind of rigid body (NVT by velocity rescaling, or NVE).
+
+    Parameters
+    ----------
+    model : BodyPairModel
+        Built with ``shifted=True``.
+    centre_ni : array_like, shape=(n, 3), sigma
+    quat_nq : array_like, shape=(n, 4)
+        Orientations (normalised here).
+    box_i : array_like, shape=(3,), sigma
+    inertia_i : array_like, shape=(3,), m sigma^2
+        Principal moments of inertia of the body (mass 1, the unit).
+    temperature : float
+        kT, reduced: the start momenta's and the thermostat's.
+    seed : int or list of int
+    method : {"md-nvt", "md-nve"}
+        Production with or without the thermostat (equilibration always has it).
+    time_step, thermostat_time : float, optional
+        Reduced; the time step by default that of
+        :func:`mdsim.engine.rigid_md_steps.rigid_time_step` for the smallest moment.
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from mdsim.engine.body_model import BodyPairModel
+    >>> from mdsim.engine.body_mc import body_lattice_start
+    >>> pos = [[0.0, 0.1, 0.0], [0.25, -0.05, 0.0], [-0.25, -0.05, 0.0]]
+    >>> model = BodyPairModel([(pos, [LennardJones(1.0, 1.0)] * 3)], 2.5, shifted=True)
+    >>> c, q = body_lattice_start(27, np.full(3, 7.5), seed=1)
+    >>> md = BodyMDSampler(model, c, q, [7.5] * 3, [0.01, 0.04, 0.05], temperature=3.0, seed=1)
+    >>> out = md.run(3, 10)
+    >>> out["e_conserved"].shape, sorted(out)[:2]
+    ((3,), ['e_conserved', 'kinetic_rot'])
+    """
+
+    def __init__(self, model, centre_ni, quat_nq, box_i, inertia_i, *, temperature, seed,
+                 method="md-nvt", time_step=None, thermostat_time=0.5):
+        if method not in METHODS:
+            raise SettingError("method", method, f"molecular dynamics offers {', '.join(METHODS)}")
+        if not model.shifted:
+            raise SettingError("model", "plain cut", "molecular dynamics needs the shifted-"
+                               "energy model: build BodyPairModel(..., shifted=True)")
+        self.model, self.method = model, method
+        r = np.array(centre_ni, dtype=float)
+        q = np.array(quat_nq, dtype=float)
+        n = len(r)
+        if r.shape != (n, 3) or q.shape != (n, 4) or n < 2 or not np.all(np.isfinite(r)):
+            raise SettingError("centre_ni, quat_nq", (r.shape, q.shape), "need (n, 3) finite "
+                               "centres and (n, 4) quaternions, n >= 2")
+        inertia = np.asarray(inertia_i, dtype=float)
+        if inertia.shape != (3,) or not np.all(inertia > 0.0):
+            raise SettingError("inertia_i", inertia.tolist(), "needs three positive principal "
+                               "moments (m sigma^2)")
+        self.box_i = np.asarray(box_i, dtype=float).reshape(3)
+        if np.any(self.box_i <= 2.0 * model.rc):
+            raise SettingError("box_i", self.box_i.tolist(), f"each edge must exceed twice the "
+                               f"cut-off {model.rc:g}; use more molecules or a shorter cut-off")
+        self.n = n
+        self.temperature = positive("temperature", temperature, "kT/epsilon")
+        self.rng = _rng.make_state(seed)
+        self.type_n = np.zeros(n, dtype=np.int64)
+        self.mass_n = np.ones(n)
+        self.inertia_ni = np.tile(inertia, (n, 1))
+        self.r_ni = r
+        self.quat_nq = q / np.linalg.norm(q, axis=1)[:, None]
+        self.offset_nsi = model.offsets(self.quat_nq, self.type_n)
+        self.v_ni, self.pb_ni = body_start_momenta(self.rng, self.mass_n, self.inertia_ni,
+                                                   self.temperature)
+        self.nf_trans, self.nf_rot = translational_dof(n), BODY_ROTATIONAL_DOF * n
+        self.time_step = (rigid_time_step(self.temperature, 1.0, inertia.min())
+                          if time_step is None else positive("time_step", time_step, "reduced"))
+        self.thermostat_time = positive("thermostat_time", thermostat_time, "reduced time")
+        self.volume = float(np.prod(self.box_i))
+        self.u_tail, self.p_tail = model.tail(n / self.volume)
+        self.nlist = NeighbourList(n, self.box_i, model.rc,
+                                   choose_skin(n / self.volume, self.temperature, model.rc))
+        self.id_n = np.arange(n, dtype=np.int64)
+        self.f_ni, self.tau_ni = np.zeros((n, 3)), np.zeros((n, 3))
+        self.obs = np.zeros(5)
+        self.step = 0
+        self.rebuild_list()
+        self._forces(self.model.shifted, self.f_ni, self.tau_ni)
+        self.obs[3:] = body_kinetic_parts(self.v_ni, self.pb_ni, self.mass_n, self.inertia_ni)
+
+    def rebuild_list(self):
+        """Sort the bodies into cell order and rebuild the neighbour list."""
+        order = self.nlist.sort_order(self.r_ni)
+        if not np.array_equal(order, np.arange(self.n)):
+            for name in ("r_ni", "v_ni", "quat_nq", "pb_ni", "offset_nsi", "f_ni", "tau_ni",
+                         "id_n"):
+                setattr(self, name, np.ascontiguousarray(getattr(self, name)[order]))
+        self.nlist.build(self.r_ni)
+
+    def _forces(self, shifted, f_ni, tau_ni):
+        m = self.model
+        u, w = body_forces_half(self.r_ni, self.offset_nsi, self.type_n, self.box_i,
+                                m.site_start_t, m.params_kk, m.form, m.rc, shifted,
+                                self.nlist.nb_nk, self.nlist.count_n, f_ni, tau_ni)
+        if not math.isfinite(u):
+            raise SimulationError("rigid-body MD: non-finite energy (two bodies overlap); start "
+                                  "from a looser configuration")
+        if shifted:
+            self.obs[0], self.obs[1] = u, w
+        return u
+
+    def _advance(self, n_steps, thermostat):
+        m = self.model
+        c = math.exp(-self.time_step / self.thermostat_time)
+
+        def block(steps, resume):
+            return body_block(
+                steps, resume, self.time_step, self.r_ni, self.v_ni, self.quat_nq, self.pb_ni,
+                self.offset_nsi, self.f_ni, self.tau_ni, self.mass_n, self.inertia_ni,
+                self.nlist.r_ref_ni, 0.25 * self.nlist.skin ** 2, self.type_n, self.box_i,
+                m.site_start_t, m.site_body_ki, m.params_kk, m.form, m.rc, m.shifted,
+                self.nlist.nb_nk, self.nlist.count_n, thermostat, self.temperature,
+                self.nf_trans, self.nf_rot, c, self.rng, self.obs)
+        done, status = run_in_blocks(n_steps, block, self.rebuild_list)
+        self.step += done
+        if status == 2:
+            raise SimulationError(f"rigid-body MD: non-finite energy at step {self.step + 1}; "
+                                  "shorten the time step")
+
+    def equilibrate(self, n_steps):
+        """``n_steps`` unrecorded steps with the thermostat."""
+        self._advance(count("equilibration steps", n_steps, 0), True)
+
+    def run(self, n_samples, interval):
+        """Production: ``n_samples`` samples, one every ``interval`` steps.
+
+        Returns
+        -------
+        dict of str -> ndarray, shape=(n_samples,), float64
+            Per body: "u_model" (shifted), "u_full" (plain cut plus tail, the
+            Monte Carlo model), "kinetic_trans", "kinetic_rot"; the kinetic
+            temperatures "temperature_trans" (2 K_trans / (3N - 3)) and
+            "temperature_rot" (2 K_rot / 3N); "pressure" (the set kT in NVT,
+            the translational one in NVE, with the plain-cut virial of the
+            shifted model and the tail); "e_conserved" (kinetic plus shifted
+            energy minus what the thermostat added).
+        """
+        n_samples = count("n_samples", n_samples)
+        interval = count("interval", interval)
+        keys = ("u_model", "u_full", "kinetic_trans", "kinetic_rot", "temperature_trans",
+                "temperature_rot", "pressure", "e_conserved")
+        out = {k: np.empty(n_samples) for k in keys}
+        thermostat = self.method == "md-nvt"
+        n = self.n
+        scratch = np.zeros((n, 3)), np.zeros((n, 3))
+        for t in range(n_samples):
+            self._advance(interval, thermostat)
+            u, w, e_th, kt, kr = self.obs
+            out["u_model"][t] = u / n
+            out["u_full"][t] = self._forces(0, *scratch) / n + self.u_tail
+            out["kinetic_trans"][t] = kt / n
+            out["kinetic_rot"][t] = kr / n
+            out["temperature_trans"][t] = 2.0 * kt / self.nf_trans
+            out["temperature_rot"][t] = 2.0 * kr / self.nf_rot
+            t_kin = self.temperature if thermostat else out["temperature_trans"][t]
+            out["pressure"][t] = (n * t_kin + w / 3.0) / self.volume + self.p_tail
+            out["e_conserved"][t] = (kt + kr + u + e_th) / n
+        return out
