@@ -125,7 +125,9 @@ def _quantum_line(study):
 
 def _assumptions(study, cv):
     """What every number of the report assumes."""
+    counts = study.gas.describe_heat_capacity_counts()
     lines = [
+        f"- Ideal-gas heat capacity: {cv.describe()}; {counts}." if counts else
         f"- Ideal-gas heat capacity: {cv.describe()}. A simulation of spherical particles "
         "carries only translation (3/2 R); rotations and vibrations enter only through this "
         "c_v_ig, so a wrong c_v_ig gives a wrong Delta T (3/2 R for a diatomic gas overstates "
