@@ -126,8 +126,6 @@ def resolved_study_document(study, copies=None):
     gas.setdefault("quantum", study.gas.quantum)
     if study.gas.molecules is None:  # rigid molecules: the model sets it (a mixture has several)
         gas.setdefault("dof_per_particle", int(study.gas.dof_per_particle))
-    else:
-        gas.setdefault("ideal_heat_capacity_counts", study.gas.ideal_heat_capacity_counts)
     doc.setdefault("potential", {})
     if "species" not in gas:
         pairs = study.gas.pairs_K_angstrom

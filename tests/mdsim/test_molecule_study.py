@@ -228,7 +228,8 @@ def test_propane_whole_table_and_vibrational_table_give_one_delta_t(tmp_path):
 
 
 def test_the_run_summary_says_what_the_heat_capacity_counts():
-    # the report's assumptions line is these two texts (mdsim.pipeline.report_md)
+    # the report's assumptions line is these two texts (mdsim.pipeline.report_md); mdsim
+    # virial prints them too
     from mdsim.pipeline.summary import run_summary
     gas = run_summary(read_study(CONFIGS / "propane.toml"), [])["gas"]
     assert (gas["ideal_heat_capacity_counts"], gas["ideal_heat_capacity_counts_given"]) == \
@@ -236,6 +237,10 @@ def test_the_run_summary_says_what_the_heat_capacity_counts():
     assert gas["ideal_heat_capacity_used"].endswith(
         "given whole, of which 6/2 R is the rigid model's (translation and rotation) and the "
         "rest vibrational")
+    from mdsim.cli.cmd_virial import format_virial_table
+    lines = format_virial_table({"study": "propane", "state_points": [], "gas": gas})
+    assert lines[1].startswith('c_v_ig: ideal_heat_capacity_counts = "all motions" (given); '
+                               "used: tabulated c_v_ig from propane_ideal_cv.csv")
     argon = run_summary(read_study(CONFIGS / "argon.toml"), [])["gas"]
     assert (argon["ideal_heat_capacity_counts"], argon["ideal_heat_capacity_counts_given"]) == \
         (None, False)
