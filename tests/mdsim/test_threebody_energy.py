@@ -16,7 +16,7 @@ from mdsim.engine.mc_cells import cell_grid
 from mdsim.engine.potentials import LennardJones, PairMatrix, axilrod_teller_sq
 from mdsim.engine.system import System
 from mdsim.engine.threebody import (CELL_LIST_MIN_ATOMS, build_partner_lists, partner_lists,
-                                    three_body_energy)
+                                    partner_lists_cells, three_body_energy)
 from mdsim.errors import SettingError
 from mdsim.sampling.three_body import three_body_delta_T_shift, three_body_energy_shift
 
@@ -75,20 +75,23 @@ def _numpy_partners(r_ni, box, rc):
 
 
 @pytest.mark.parametrize("n, density, rc, reach", [
-    (900, 0.5, 3.0, 2),                 # rho* 0.5, rc = 3 sigma
-    (900, 0.01, 5.0, 1),                # a gas: cells of edge >= rc
-    (850, 0.8, "L/4", 2),               # a liquid, rc = L/4
-    (1000, 0.05, "just below L/4", 2),  # a gas, rc = (1/4 - 1e-9) L
+    (900, 0.5, 3.0, 2),                # rho* 0.5, rc = 3 sigma: build_partner_lists' cells
+    (400, 0.01, 5.0, 1),               # a gas: cells of edge >= rc
+    (400, 0.8, "L/4", 2),              # a liquid, rc = L/4
+    (400, 0.05, "just below L/4", 2),  # a gas, rc = (1/4 - 1e-9) L
 ])
 def test_cell_partner_lists_equal_the_all_pairs_lists(n, density, rc, reach):
-    # The linked-cell build (used from CELL_LIST_MIN_ATOMS atoms on) against the all-pairs
-    # kernel and a NumPy reference: the same partners in the same order, vectors equal bit
-    # for bit; positions spread over three periodic images (any image may be given)
+    # The linked-cell build against the all-pairs kernel and a NumPy reference: the same
+    # partners in the same order, vectors equal bit for bit; positions spread over three
+    # periodic images (any image may be given).  From CELL_LIST_MIN_ATOMS atoms on
+    # build_partner_lists picks the cells; below, the cell kernel is called directly.
     box = (n / density) ** (1.0 / 3.0)
     rc = {"L/4": 0.25 * box, "just below L/4": (0.25 - 1e-9) * box}.get(rc, rc)
     r = np.random.default_rng(n).uniform(-box, 2.0 * box, (n, 3))
-    assert n >= CELL_LIST_MIN_ATOMS and cell_grid(np.full(3, box), rc, n)[3] == reach
-    cells = build_partner_lists(r, box, rc)
+    grid = cell_grid(np.full(3, box), rc, n)
+    assert grid[3] == reach
+    cells = (build_partner_lists(r, box, rc) if n >= CELL_LIST_MIN_ATOMS
+             else partner_lists_cells(r, box, rc * rc, grid))
     pairs = partner_lists(r, box, rc * rc)
     np.testing.assert_array_equal(cells[1], pairs[1])
     assert cells[1].mean() > 2.0  # lists worth comparing
