@@ -26,7 +26,7 @@ import numpy as np
 from numba import njit
 
 from mdsim.checks import positive
-from mdsim.engine.mc_cells import cell_grid, cell_neighbour, wrap_coordinate
+from mdsim.engine.mc_cells import cell_grid, cells_around, wrap_coordinate
 from mdsim.engine.neighbours import cell_sort
 from mdsim.engine.potentials import axilrod_teller_sq
 from mdsim.errors import SettingError
@@ -88,23 +88,23 @@ def _fill_from_cells(s_ni, order_n, cell_start_c, box, rc2, ncell_i, partner_nk,
                      count_n):
     """Partners of every atom from the cells within reach of its own (atoms sorted by cell,
     ``s_ni`` their positions as given); rows of ``partner_nk`` by atom, in cell order.
-    Writes past the width are dropped and counted: returns the largest count."""
-    nx, ny, nz, reach = ncell_i[0], ncell_i[1], ncell_i[2], ncell_i[3]
+
+    Branch-free: every candidate is written to the slot after the partners
+    so far (the last slot once the row is full) and counted if inside rc.
+    Returns the largest count; when it reaches the width, rows were cut
+    short and the caller grows them and calls again.
+    """
+    nx, ny, nz = ncell_i[0], ncell_i[1], ncell_i[2]
+    box_i = np.full(3, box)
     inv_box = 1.0 / box
     last = partner_nk.shape[1] - 1
-    around_c = np.empty((2 * reach + 1) ** 3, dtype=np.int64)
+    around_c = np.empty((2 * ncell_i[3] + 1) ** 3, dtype=np.int64)
     count_n[:] = 0
     for ix in range(nx):
         for iy in range(ny):
-            for iz in range(nz):
-                m = 0
-                for a in range(min(nx, 2 * reach + 1)):
-                    ax = cell_neighbour(ix, a, nx, reach)
-                    for b in range(min(ny, 2 * reach + 1)):
-                        by = cell_neighbour(iy, b, ny, reach)
-                        for d in range(min(nz, 2 * reach + 1)):
-                            around_c[m] = (ax * ny + by) * nz + cell_neighbour(iz, d, nz, reach)
-                            m += 1
+            for iz in range(nz):  # the cells within reach of the cell's centre
+                m = cells_around((ix + 0.5) * box / nx, (iy + 0.5) * box / ny,
+                                 (iz + 0.5) * box / nz, box_i, ncell_i, around_c)
                 c = (ix * ny + iy) * nz + iz
                 for p in range(cell_start_c[c], cell_start_c[c + 1]):
                     i = order_n[p]

@@ -161,8 +161,8 @@ def _model_samples(model):
     """(T, c_v) where a table or polynomial model is lowest: its rows, or its range on a grid.
 
     A table's monotone piecewise cubic stays between the values of the rows
-    either side, so its rows hold its lowest value; a polynomial is sampled at 401 points
-    of its valid range (an open range: 1 K to 2000 K).
+    either side, so its rows hold its lowest value; a polynomial is sampled
+    at 401 points of its valid range (an open range: 1 K to 2000 K).
     """
     rows = getattr(model, "temperature_K", None)
     if rows is not None:
