@@ -117,7 +117,8 @@ def _insertion_kind(job, system):
     """The insertion stage's method, the species' mole fractions in the box and the tail
     energy of one inserted particle of each: test particles for spheres
     (:mod:`mdsim.engine.insertion`), test molecules of each type, turned at random, for
-    rigid molecules and the atoms of their mixtures (:mod:`mdsim.sampling.rigid_insertion_stage`)."""
+    rigid molecules and the atoms of their mixtures
+    (:mod:`mdsim.sampling.rigid_insertion_stage`)."""
     if job.study.gas.molecules is not None:
         from mdsim.sampling.rigid_insertion_stage import METHOD, insertion_tails
         return METHOD, system.fractions_t, insertion_tails(system)
