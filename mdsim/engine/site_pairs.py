@@ -17,7 +17,8 @@ from mdsim.engine.forms import FORM_LJ, FORM_MIE
 from mdsim.engine.potentials import LennardJones, Mie, combine
 from mdsim.errors import SettingError
 
-__all__ = ["site_table", "site_pair_potential", "site_site_tail"]
+__all__ = ["site_table", "site_pair_potential", "site_site_tail", "type_pair_tail_integrals",
+           "check_fractions"]
 
 
 def site_table(types_pots):
@@ -104,19 +105,34 @@ def site_site_tail(pots, site_start_t, rc, density, fraction_t=None):
     >>> round(float(u), 4), round(float(p), 4)  # LJ atom: (8/9) pi rho (rc^-9 - 3 rc^-3), ...
     (-0.1551, -0.155)
     """
-    n_types = len(site_start_t) - 1
+    x_t = check_fractions(fraction_t, len(site_start_t) - 1)
+    s_u = s_w = 0.0
+    for a in range(len(x_t)):
+        for b in range(len(x_t)):
+            i_u, i_w = type_pair_tail_integrals(pots, site_start_t, rc, a, b)
+            s_u += x_t[a] * x_t[b] * i_u
+            s_w += x_t[a] * x_t[b] * i_w
+    rho = float(density)
+    return float(2.0 * math.pi * rho * s_u), float(-2.0 * math.pi / 3.0 * rho * rho * s_w)
+
+
+def type_pair_tail_integrals(pots, site_start_t, rc, a, b):
+    """Sums over the sites k of type a and m of type b of the tail integrals at rc
+    (:meth:`PairPotential.tail_integrals`): (S_u, S_w)."""
+    s_u = s_w = 0.0
+    st = site_start_t
+    for k in range(st[a], st[a + 1]):
+        for m in range(st[b], st[b + 1]):
+            i_u, i_w = site_pair_potential(pots, k, m).tail_integrals(rc)
+            s_u += i_u
+            s_w += i_w
+    return s_u, s_w
+
+
+def check_fractions(fraction_t, n_types):
+    """Mole fractions of the molecule types as an array (default: one type), checked."""
     x_t = np.ones(1) if fraction_t is None else np.asarray(fraction_t, dtype=float)
     if x_t.shape != (n_types,) or abs(x_t.sum() - 1.0) > 1e-9 or np.any(x_t < 0):
         raise SettingError("fraction_t", fraction_t, f"needs {n_types} mole fractions "
                            ">= 0 that sum to 1")
-    s_u = s_w = 0.0
-    st = site_start_t
-    for a in range(n_types):
-        for b in range(n_types):
-            for k in range(st[a], st[a + 1]):
-                for m in range(st[b], st[b + 1]):
-                    i_u, i_w = site_pair_potential(pots, k, m).tail_integrals(rc)
-                    s_u += x_t[a] * x_t[b] * i_u
-                    s_w += x_t[a] * x_t[b] * i_w
-    rho = float(density)
-    return float(2.0 * math.pi * rho * s_u), float(-2.0 * math.pi / 3.0 * rho * rho * s_w)
+    return x_t

@@ -4,8 +4,10 @@
 sampler protocol (``MCSampler`` for "mc-nvt"/"mc-nve", ``MDSampler`` for
 "md-nvt"/"md-nve", ``InsertionSampler`` for "mc-nvt-insertion",
 :class:`~mdsim.sampling.rigid_stage.RigidMCStageSampler` for rigid molecules,
-"rigid-mc-nvt", :class:`~mdsim.sampling.body_stage.BodyMCStageSampler` for
-non-linear ones, "rigid-body-mc-nvt", and
+"rigid-mc-nvt", with test-molecule insertions
+:class:`~mdsim.sampling.rigid_insertion_stage.RigidInsertionStageSampler`,
+"rigid-mc-nvt-insertion", :class:`~mdsim.sampling.body_stage.BodyMCStageSampler`
+for non-linear molecules, "rigid-body-mc-nvt", and
 :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler`,
 "rigid-md-nvt"/"rigid-md-nve"), streams the samples into one HDF5 run file
 (:mod:`mdsim.sampling.store`) with a checkpoint after every block, and resumes an
@@ -39,6 +41,8 @@ METHODS = {
     "md-nve": ("mdsim.engine.md", "MDSampler"),
     "mc-nvt-insertion": ("mdsim.engine.insertion", "InsertionSampler"),
     "rigid-mc-nvt": ("mdsim.sampling.rigid_stage", "RigidMCStageSampler"),
+    "rigid-mc-nvt-insertion": ("mdsim.sampling.rigid_insertion_stage",
+                               "RigidInsertionStageSampler"),
     "rigid-body-mc-nvt": ("mdsim.sampling.body_stage", "BodyMCStageSampler"),
     "rigid-md-nvt": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
     "rigid-md-nve": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
