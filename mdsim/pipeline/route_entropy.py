@@ -156,8 +156,8 @@ def sample_route_entropy(job, res):
     """
     if job.initial_chain is None or job.final_chain is None:
         return _unavailable("the route kept no chain at one of its end states")
-    if job.study.gas.molecules is not None and any(m.is_nonlinear
-                                                   for m in job.study.gas.molecules):
+    from mdsim.pipeline.rigid_chain import is_nonlinear_gas
+    if is_nonlinear_gas(job.study.gas):
         return _unavailable("not available for non-linear rigid molecules: the test-molecule "
                             "insertion turns a linear molecule's axis, not a rigid body")
     if job.feynman_hibbs:

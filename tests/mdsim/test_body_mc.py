@@ -226,6 +226,7 @@ def propane_study(tmp_path, routes='["energy"]', extra=""):
                         f'target_stderr = "0.3 K"\nseed = 7\n{extra}')
     path = tmp_path / "propane.toml"
     path.write_text(text)
+    (tmp_path / "propane_ideal_cv.csv").write_text((CONFIGS / "propane_ideal_cv.csv").read_text())
     return path
 
 
