@@ -3,7 +3,7 @@
 Rigid-molecule stages in resumable run files (mdsim.sampling.rigid_stage),
 the task through the pipeline (mdsim.pipeline.rigid_chain), its Delta T
 against CoolProp's nitrogen (Span et al. 2000; test-only), and the
-refusals that remain (charges, MD of a mixture); air as a mixture of
+refusals that remain (charges); air as a mixture of
 molecules and an atom against CoolProp's air (Lemmon et al. 2000; test-only).
 """
 import csv
