@@ -3,11 +3,14 @@
 2CLJQ nitrogen and oxygen with Lennard-Jones argon (Vrabec, Stoll and Hasse 2001, values from
 memory).  Checks: the step kernel against a slow NumPy step with per-type masses and moments of
 inertia (an atom never turned); equipartition per molecule type and between translation and
-rotation in NVT, reached from a start far from it; the conserved energy of NVE; the MD routes
-are planned for a mixture.  The dense-fluid state (rho sigma^3 = 0.3, kT = 4 epsilon of N2,
+rotation in NVT, reached from a start far from it; the conserved energy of NVE; thermostatted
+MD against canonical Monte Carlo at air's initial state (295.15 K, 22 bar); the MD routes are
+planned for a mixture, and the microcanonical route through the pipeline against the model's
+virial route and CoolProp's air (Lemmon et al. 2000; test-only).  The dense-fluid state (rho sigma^3 = 0.3, kT = 4 epsilon of N2,
 about 140 K, above the critical temperatures of N2 and O2) makes collisions frequent, so that
 the checks are cheap.
 """
+import json
 import math
 import pathlib
 
@@ -27,6 +30,7 @@ from mdsim.study.reader import read_study
 from mdsim.units import N_A
 
 from test_rigid_md import numpy_steps
+from test_rigid_route import check_air_route, run_air
 
 CONFIGS = pathlib.Path(__file__).resolve().parents[2] / "configs"
 COUNTS = [28, 20, 16]  # N2, O2, Ar: enough of each for its own temperature
@@ -198,3 +202,20 @@ def test_md_and_monte_carlo_agree_for_air_at_22_bar(air):
     # with the mixture's molecules counted once each, and the virial's sign and size)
     assert md.u_res_stderr < 0.04 * abs(mc.u_res_J_mol)
     assert md.pressure_stderr < 0.1e5
+
+
+@pytest.mark.slow
+def test_air_microcanonical_route_through_the_pipeline(tmp_path, monkeypatch):
+    # air (2CLJQ N2 and O2, LJ Ar) from 22 bar at 295.15 K doubled by the microcanonical route:
+    # the initial state by canonical Monte Carlo, the final state by fixed-energy MD of the
+    # mixture with F = 3N - 3 + 2 N_rot = 597 + 2 x 198 kinetic degrees of freedom (156 N2,
+    # 42 O2, 2 Ar); against the model's virial route and CoolProp's air as the energy route's
+    # test (tests/mdsim/test_rigid_route.py)
+    pytest.importorskip("CoolProp.CoolProp")
+    rows, run_dir = run_air(tmp_path, monkeypatch, 'routes = ["microcanonical"]\n'
+                            'target_stderr = "0.15 K"\nseed = 7')
+    check_air_route(rows, "microcanonical")
+    task = json.loads((run_dir / "results.json").read_text())
+    sim = task["state_points"][0]["simulation"]["microcanonical"]
+    assert sim["stopped_by"] == "target"
+    assert "F = 3N - 3 + 2 N_rot = 993" in (run_dir / "report.md").read_text()
