@@ -219,3 +219,19 @@ def test_air_microcanonical_route_through_the_pipeline(tmp_path, monkeypatch):
     sim = task["state_points"][0]["simulation"]["microcanonical"]
     assert sim["stopped_by"] == "target"
     assert "F = 3N - 3 + 2 N_rot = 993" in (run_dir / "report.md").read_text()
+
+
+def test_the_energy_routes_md_settings_take_a_rigid_system(air):
+    # the energy route's MD settings read the cut-off of the system to choose the Verlet skin;
+    # a rigid system has its model's molecular cut-off (sampler = "md" for rigid molecules
+    # failed there), and the MD stage sampler takes that skin
+    from types import SimpleNamespace
+    from mdsim.pipeline.routes.sampler_choice import md_skin, state_md_settings
+    from mdsim.sampling.rigid_md_stage import RigidMDStageSampler
+    from mdsim.sampling.rigid_stage import mixture_system
+    system = mixture_system(air.gas.molecules, [12, 8, 4], 295.15, 900.78, 3.0, seed=1)
+    job = SimpleNamespace(study=air, md_time_step=lambda T_red: 0.0017)
+    settings = state_md_settings(job, lambda: system, 8.46)
+    assert settings["skin"] == md_skin(system.density, 3.0)
+    md = RigidMDStageSampler(system, temperature=8.46, seed=1, **settings).md
+    assert md.skin == settings["skin"] and md.time_step == 0.0017
