@@ -135,8 +135,7 @@ def set_up_molecular_task(job):
     job.notes.append(
         f"rigid molecules ({what}): {how.get(job.task.get('route'), mc)}, molecular cut-off "
         f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
-        f"c_v_ig = {gas.kinetic_dof:.4g}/2 R from the model's translations and rotations plus "
-        "the study's vibrational part")
+        f"{gas.describe_heat_capacity_counts()}")
 
 
 def _mixture_note(gas, counts_t):

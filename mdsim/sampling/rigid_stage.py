@@ -85,6 +85,11 @@ class RigidSystem:
     def density(self):
         return self.n_particles / self.volume
 
+    @property
+    def fractions_t(self):
+        """Mole fractions of the model's molecule types in the box, shape=(n_types,)."""
+        return np.bincount(self.type_n, minlength=self.model.n_types) / self.n_particles
+
 
 def rigid_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed):
     """A :class:`RigidSystem` of one linear molecule at a density (lattice centres, random axes).

@@ -19,7 +19,7 @@ from mdsim.pipeline.plan import plan_tasks
 from mdsim.sampling import store
 from mdsim.study.reader import read_study
 
-from test_rigid_route import (coolprop_delta_T, energy_study,
+from test_rigid_route import (check_route_entropy, coolprop_delta_T, energy_study,
                               interrupted_and_uninterrupted)
 
 
@@ -105,6 +105,7 @@ def test_nitrogen_microcanonical_route_against_coolprop(tmp_path, monkeypatch):
     names = ["final-state-nve-pilot.h5"] + sorted(
         p.name for p in stages.glob("final-state-nve-[0-9]*.h5"))
     assert len(names) >= 2
+    check_route_entropy(row)  # Delta s from the route's end states (insertion at T_f, rho_f)
     totals = []
     for name in names:
         assert store.read_attrs(stages / name)["method"] == "rigid-md-nve"
@@ -143,3 +144,4 @@ def test_nitrogen_direct_route_against_coolprop(tmp_path, monkeypatch):
         s = store.read_samples(stages / name)
         totals.append(s["u_model"] + s["kinetic"])
     assert len(names) >= 17 and np.ptp(np.concatenate(totals)) < 0.02
+    check_route_entropy(row)  # the final state's insertion run starts from the relaxed box
