@@ -27,7 +27,7 @@ from mdsim.sampling.body_stage import BODY_METHOD, body_system
 from mdsim.sampling.rigid_stage import METHOD, mixture_system
 
 __all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method",
-           "reduced_rigid_inertia", "is_nonlinear_gas"]
+           "reduced_rigid_inertia", "box_kinetic_dof", "is_nonlinear_gas"]
 
 
 class RigidChain(Chain):
@@ -57,8 +57,11 @@ class RigidChain(Chain):
         system.axis_ni = state["axis_ni"].astype(float)
         if "angular_momenta" in state:  # MD: the run continued with its momenta
             system.l_ni = state["angular_momenta"].astype(float)
-        if "type_n" in state:  # a mixture: the types of the molecules continued
-            system.type_n = np.asarray(state["type_n"], dtype=np.int64)
+        # a mixture: the types of the molecules continued, in the system's order (MD keeps its
+        # own arrays in cell order and writes the types in the system's as molecule_types)
+        types = state.get("molecule_types", state.get("type_n"))
+        if types is not None:
+            system.type_n = np.asarray(types, dtype=np.int64)
         return system
 
     def _settings(self, prev):
@@ -122,9 +125,19 @@ def is_nonlinear_gas(gas):
 
 
 def reduced_rigid_inertia(job):
-    """The moment of inertia of the task's molecule in the study's reduced units, m sigma^2."""
+    """The moments of inertia of the task's molecules in the study's reduced units, m sigma^2
+    (0 for an atom of a mixture), shape=(n_species,)."""
     from mdsim.sampling.rigid_box import reduced_inertia
-    return reduced_inertia(job.study.gas.molecules[0], job.units)
+    return np.array([reduced_inertia(m, job.units) for m in job.study.gas.molecules])
+
+
+def box_kinetic_dof(job):
+    """F = 3N - 3 + 2 N_rot of the task's box (:meth:`mdsim.study.reader.Study.counts` of
+    each species; N_rot the linear rotors, not the atoms of a mixture)."""
+    from mdsim.sampling.rigid_md_stage import kinetic_dof_total
+    counts_t = job.study.counts(job.n_particles)
+    n_rot = sum(int(c) for c, m in zip(counts_t, job.study.gas.molecules) if m.rotational_dof)
+    return kinetic_dof_total(int(sum(counts_t)), n_rot)
 
 
 def set_up_molecular_task(job):

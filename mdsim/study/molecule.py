@@ -176,15 +176,14 @@ MOLECULE_ROUTES = ("energy", "microcanonical", "direct")
 def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
-    A gas of rigid molecules is simulated by the energy route (canonical
-    Monte Carlo of linear molecules, site Lennard-Jones or Mie plus an axial
-    point quadrupole, one kind or a mixture with atoms; or thermostatted
-    molecular dynamics of one kind, ``sampler = "md"``), the microcanonical
-    route (its final state by fixed-energy molecular dynamics) and the direct
-    route (molecular dynamics of the expansion), those two for one kind of
-    linear molecule; one kind of non-linear molecule (site Lennard-Jones or
-    Mie, no charges) by the energy route's canonical Monte Carlo only.
-    Spheres pass.
+    A gas of rigid molecules (linear molecules with site Lennard-Jones or
+    Mie and an axial point quadrupole, one kind or a mixture with atoms) is
+    simulated by the energy route (canonical Monte Carlo, or thermostatted
+    molecular dynamics with ``sampler = "md"``), the microcanonical route
+    (its final state by fixed-energy molecular dynamics) and the direct
+    route (molecular dynamics of the expansion); one kind of non-linear
+    molecule (site Lennard-Jones or Mie, no charges) by the energy route's
+    canonical Monte Carlo only.  Spheres pass.
 
     Parameters
     ----------
@@ -196,7 +195,7 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         (which a gas of molecules cannot give).
     sampler : str
         ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo for rigid
-        molecules, "md" thermostatted molecular dynamics of one kind of molecule).
+        molecules, "md" thermostatted molecular dynamics).
 
     Raises
     ------
@@ -230,8 +229,3 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          "molecule is simulated by the energy route's canonical Monte Carlo of "
                          f"one kind of molecule only, not {what}; use routes = [\"energy\"] with "
                          'sampler "auto" or "mc", or the virial routes, [simulation] routes = []')
-    if gas.n_species > 1 and by_md:
-        raise StudyError(f"{where}: {' and '.join(by_md)}: a mixture with rigid molecules is "
-                         "simulated by the energy route's canonical Monte Carlo only (the rigid "
-                         'molecular dynamics takes one kind of molecule); use routes = ["energy"] '
-                         'with sampler "auto" or "mc", or the virial routes, routes = []')

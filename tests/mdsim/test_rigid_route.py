@@ -3,7 +3,7 @@
 Rigid-molecule stages in resumable run files (mdsim.sampling.rigid_stage),
 the task through the pipeline (mdsim.pipeline.rigid_chain), its Delta T
 against CoolProp's nitrogen (Span et al. 2000; test-only), and the
-refusals that remain (charges, MD of a mixture); air as a mixture of
+refusals that remain (charges); air as a mixture of
 molecules and an atom against CoolProp's air (Lemmon et al. 2000; test-only).
 """
 import csv
@@ -182,55 +182,79 @@ def test_co2_keeps_its_centres_apart_and_meets_its_virial_series():
     assert est.pressure_Pa == pytest.approx(20e5, abs=3 * est.pressure_stderr + 0.002 * 20e5)
 
 
-@pytest.mark.slow
-def test_air_energy_route_through_the_pipeline_against_coolprop_and_its_virial_route(
-        tmp_path, monkeypatch):
-    # air as a mixture of rigid molecules and an atom (configs/air_2cljq.toml: 2CLJQ N2 and
-    # O2, LJ Ar), 295.15 K and 22 bar, volume doubled, by the energy route with 200 molecules
-    CP = pytest.importorskip("CoolProp.CoolProp")
-    from scipy.optimize import brentq
+def run_air(tmp_path, monkeypatch, simulation):
+    """configs/air_2cljq.toml (2CLJQ N2 and O2, LJ Ar) at 295.15 K and 22 bar, volume doubled,
+    through the pipeline with 200 molecules and the ``[simulation]`` lines given: the rows
+    of results.csv by route, and the run directory.
+
+    Cheaper than the defaults, which the checks do not need: no Joule inversion curve (the
+    virial route's, tested with it) and 30000 Monte Carlo draws of B3 instead of 200000 (its
+    error enters the virial route's stderr)."""
     from analysis.molecules import MolecularVirialGas
     import mdsim.pipeline.report as report
     from mdsim.pipeline.run_study import run_study
-    # cheaper than the defaults, which the check does not need: no Joule inversion curve
-    # (the virial route's, tested with it) and 30000 Monte Carlo draws of B3 instead of
-    # 200000 (its error enters the virial route's stderr, used below)
     monkeypatch.setattr(report, "run_inversion", lambda vg, records: (None, [], []))
     defaults = list(MolecularVirialGas.__init__.__defaults__)
     defaults[0] = 30000
     monkeypatch.setattr(MolecularVirialGas.__init__, "__defaults__", tuple(defaults))
     text = (CONFIGS / "air_2cljq.toml").read_text().replace(
-        "\nroutes = []", '\nroutes = ["energy"]\nparticles = 200\ntarget_stderr = "0.15 K"\n'
-        "seed = 7\n")
+        "\nroutes = []", f"\n{simulation}\nparticles = 200\n")
     (tmp_path / "air.toml").write_text(text)
     run_dir = tmp_path / "run"
     run_study(read_study(tmp_path / "air.toml"), run_dir, workers=1, quiet=True, plots=False)
     rows = {r["route"]: r for r in csv.DictReader((run_dir / "results.csv").open())}
-    row = rows["energy"]
+    return rows, run_dir
+
+
+def coolprop_air_delta_T(CP):
+    """Delta T of CoolProp's air (Lemmon et al. 2000; test-only) from 22 bar at 295.15 K, the
+    volume doubled at the same U, K."""
+    from scipy.optimize import brentq
+    rho = CP.PropsSI("Dmolar", "T", 295.15, "P", 22e5, "Air")
+    u_ref = CP.PropsSI("Umolar", "T", 295.15, "Dmolar", rho, "Air")
+    T_f = brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho / 2, "Air") - u_ref,
+                 280.0, 295.15, xtol=1e-9)
+    return T_f - 295.15
+
+
+def check_air_route(rows, route):
+    """The route's Delta T against the model's own virial route and CoolProp's air; returns
+    (Delta T, stderr), K."""
+    CP = pytest.importorskip("CoolProp.CoolProp")
+    row = rows[route]
     dT, se = float(row["delta_T_K"]), float(row["delta_T_stderr_K"])
     assert row["status"] == "done" and row["n_particles"] == "200"
     assert 0.0 < se <= 0.15  # the target met
-    # the sampled initial pressure is the 22 bar asked for (3 stderr; the pressure
-    # iteration accepts 1 stderr)
-    p, p_se = (float(row[k]) for k in ("initial_pressure_sampled_Pa",
-                                       "initial_pressure_sampled_stderr_Pa"))
-    assert p == pytest.approx(22e5, abs=3 * p_se)
     # against the model's own virial route (B2 + B3): 4 standard errors of both, plus a
     # third of the B3 part for the missing B4 term (the allowance of test_rigid_mc.py)
     vir, vir2 = rows["virial_b2b3"], rows["virial_b2"]
     v, v_se = float(vir["delta_T_K"]), float(vir["delta_T_stderr_K"] or 0.0)
     b3_part = abs(v - float(vir2["delta_T_K"]))
     assert dT == pytest.approx(v, abs=4 * np.hypot(se, v_se) + b3_part / 3)
-    # against CoolProp's air (Lemmon et al. 2000; test-only), from 22 bar doubled at the same
-    # U: 4 standard errors plus 3 % for the model, whose virial route is 1.6 % from it here
+    # against CoolProp's air from 22 bar doubled at the same U: 4 standard errors plus 3 %
+    # for the model, whose virial route is 1.6 % from it here
     # (tests/analysis/molecules/test_against_coolprop.py: -3.07 K against -3.12 K, measured)
-    rho = CP.PropsSI("Dmolar", "T", 295.15, "P", 22e5, "Air")
-    u_ref = CP.PropsSI("Umolar", "T", 295.15, "Dmolar", rho, "Air")
-    T_f = brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho / 2, "Air") - u_ref,
-                 280.0, 295.15, xtol=1e-9)
-    assert dT == pytest.approx(T_f - 295.15, abs=4 * se + 0.03 * abs(T_f - 295.15))
+    ref = coolprop_air_delta_T(CP)
+    assert dT == pytest.approx(ref, abs=4 * se + 0.03 * abs(ref))
     # the trade's figure: about 3 K of cooling from 22 bar (common practice, no source)
     assert -3.6 < dT < -2.5
+    return dT, se
+
+
+@pytest.mark.slow
+def test_air_energy_route_through_the_pipeline_against_coolprop_and_its_virial_route(
+        tmp_path, monkeypatch):
+    # air as a mixture of rigid molecules and an atom by the energy route (Monte Carlo)
+    pytest.importorskip("CoolProp.CoolProp")
+    rows, run_dir = run_air(tmp_path, monkeypatch, 'routes = ["energy"]\ntarget_stderr = '
+                            '"0.15 K"\nseed = 7')
+    check_air_route(rows, "energy")
+    # the sampled initial pressure is the 22 bar asked for (3 stderr; the pressure
+    # iteration accepts 1 stderr)
+    row = rows["energy"]
+    p, p_se = (float(row[k]) for k in ("initial_pressure_sampled_Pa",
+                                       "initial_pressure_sampled_stderr_Pa"))
+    assert p == pytest.approx(22e5, abs=3 * p_se)
     # the box's composition is said: 156 N2, 42 O2, 2 Ar of 200 (largest remainders of
     # 200 x the study's fractions 0.7812, 0.2095, 0.0093)
     report_md = (run_dir / "report.md").read_text()
