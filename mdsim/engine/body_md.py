@@ -54,6 +54,11 @@ class BodyMDSampler:
     time_step, thermostat_time : float, optional
         Reduced; the time step by default that of
         :func:`mdsim.engine.rigid_md_steps.rigid_time_step` for the smallest moment.
+    skin : float, optional
+        Verlet skin, sigma (default :func:`mdsim.engine.neighbours.choose_skin`).
+    momenta : (v_ni, pb_ni), optional
+        Velocities and body-frame angular momenta to start from (a continued
+        run); default a canonical draw at ``temperature``.
 
     Examples
     --------
@@ -70,7 +75,8 @@ class BodyMDSampler:
     """
 
     def __init__(self, model, centre_ni, quat_nq, box_i, inertia_i, *, temperature, seed,
-                 method="md-nvt", time_step=None, thermostat_time=0.5):
+                 method="md-nvt", time_step=None, thermostat_time=0.5, skin=None,
+                 momenta=None):
         if method not in METHODS:
             raise SettingError("method", method, f"molecular dynamics offers {', '.join(METHODS)}")
         if not model.shifted:
@@ -100,16 +106,23 @@ class BodyMDSampler:
         self.r_ni = r
         self.quat_nq = q / np.linalg.norm(q, axis=1)[:, None]
         self.offset_nsi = model.offsets(self.quat_nq, self.type_n)
-        self.v_ni, self.pb_ni = body_start_momenta(self.rng, self.mass_n, self.inertia_ni,
-                                                   self.temperature)
+        if momenta is None:
+            self.v_ni, self.pb_ni = body_start_momenta(self.rng, self.mass_n, self.inertia_ni,
+                                                       self.temperature)
+        else:
+            self.v_ni, self.pb_ni = (np.array(x, dtype=float) for x in momenta)
+            if self.v_ni.shape != (n, 3) or self.pb_ni.shape != (n, 3) or not (
+                    np.all(np.isfinite(self.v_ni)) and np.all(np.isfinite(self.pb_ni))):
+                raise SettingError("momenta", "(v_ni, pb_ni)", f"needs two ({n}, 3) finite "
+                                   "arrays: velocities and body-frame angular momenta")
         self.nf_trans, self.nf_rot = translational_dof(n), BODY_ROTATIONAL_DOF * n
         self.time_step = (rigid_time_step(self.temperature, 1.0, inertia.min())
                           if time_step is None else positive("time_step", time_step, "reduced"))
         self.thermostat_time = positive("thermostat_time", thermostat_time, "reduced time")
         self.volume = float(np.prod(self.box_i))
         self.u_tail, self.p_tail = model.tail(n / self.volume)
-        self.nlist = NeighbourList(n, self.box_i, model.rc,
-                                   choose_skin(n / self.volume, self.temperature, model.rc))
+        skin = choose_skin(n / self.volume, self.temperature, model.rc) if skin is None else skin
+        self.nlist = NeighbourList(n, self.box_i, model.rc, skin)
         self.id_n = np.arange(n, dtype=np.int64)
         self.f_ni, self.tau_ni = np.zeros((n, 3)), np.zeros((n, 3))
         self.obs = np.zeros(5)
@@ -195,4 +208,40 @@ class BodyMDSampler:
             t_kin = self.temperature if thermostat else out["temperature_trans"][t]
             out["pressure"][t] = (n * t_kin + w / 3.0) / self.volume + self.p_tail
             out["e_conserved"][t] = (kt + kr + u + e_th) / n
+        return out
+
+    _STATE_ARRAYS = ("r_ni", "v_ni", "quat_nq", "pb_ni", "offset_nsi", "f_ni", "tau_ni", "id_n",
+                     "rng", "obs")
+
+    def get_state(self):
+        """Everything needed to continue bit for bit (copies)."""
+        state = {name: getattr(self, name).copy() for name in self._STATE_ARRAYS}
+        state.update(r_ref_ni=self.nlist.r_ref_ni.copy(), step=int(self.step),
+                     method=self.method, time_step=float(self.time_step))
+        return state
+
+    def set_state(self, state):
+        """Continue from :meth:`get_state` output (same model, box and settings)."""
+        missing = [k for k in (*self._STATE_ARRAYS, "r_ref_ni", "step") if k not in state]
+        if missing:
+            raise SettingError("state", f"missing {', '.join(missing)}", "was not written by "
+                               "BodyMDSampler.get_state")
+        if np.shape(state["r_ni"]) != (self.n, 3):
+            raise SettingError("state", f"{np.shape(state['r_ni'])[0]} bodies",
+                               f"this sampler has {self.n}")
+        for name in self._STATE_ARRAYS:
+            setattr(self, name, np.array(state[name], dtype=getattr(self, name).dtype))
+        self.step = int(state["step"])
+        self.method = str(state["method"])
+        self.time_step = float(state["time_step"])
+        self.nlist.build(np.array(state["r_ref_ni"], dtype=float))
+
+    def in_given_order(self, name):
+        """A per-body array (``"r_ni"`` wrapped into the box, ``"quat_nq"``, ``"v_ni"``,
+        ``"pb_ni"``) in the order the bodies were given (a copy)."""
+        a = getattr(self, name).copy()
+        if name == "r_ni":
+            a = np.mod(a, self.box_i)
+        out = np.empty_like(a)
+        out[self.id_n] = a
         return out

@@ -23,6 +23,7 @@ from mdsim.errors import StudyError
 from mdsim.pipeline.chain import Chain
 from mdsim.sampling import store
 from mdsim.sampling.rigid_md_stage import MD_METHODS
+from mdsim.sampling.body_md_stage import BODY_MD_METHOD
 from mdsim.sampling.body_stage import BODY_METHOD, body_system
 from mdsim.sampling.rigid_stage import METHOD, mixture_system
 
@@ -38,12 +39,13 @@ class RigidChain(Chain):
     steps, for MD its velocities and angular momenta, so the production
     stages are one chain.  Parameters as for ``Chain``; a gas of non-linear
     molecules runs their Monte Carlo (:data:`BODY_METHOD`, orientations as
-    quaternions) where a linear one runs :data:`METHOD`.
+    quaternions) or thermostatted MD (:data:`BODY_MD_METHOD`) where a linear
+    one runs :data:`METHOD` or "rigid-md-nvt".
     """
 
     def __init__(self, task, label, chain_id, make_system, method, **kwargs):
-        if method == METHOD and is_nonlinear_gas(task.study.gas):
-            method = BODY_METHOD
+        if is_nonlinear_gas(task.study.gas):
+            method = _BODY_METHODS.get(method, method)
         super().__init__(task, label, chain_id, make_system, method, **kwargs)
 
     def continue_system(self, prev):
@@ -51,8 +53,10 @@ class RigidChain(Chain):
         finished stage."""
         system = super().continue_system(prev)
         state, _ = store.read_checkpoint(prev.path)
-        if "quat_nq" in state:  # a non-linear molecule's orientations
+        if "quat_nq" in state:  # a non-linear molecule's orientations (and MD's momenta)
             system.quat_nq = state["quat_nq"].astype(float)
+            if "angular_momenta" in state:
+                system.pb_ni = state["angular_momenta"].astype(float)
             return system
         system.axis_ni = state["axis_ni"].astype(float)
         if "angular_momenta" in state:  # MD: the run continued with its momenta
@@ -75,6 +79,8 @@ class RigidChain(Chain):
 
 
 _RIGID_METHODS = {"mc-nvt": METHOD, **{engine: stage for stage, engine in MD_METHODS.items()}}
+# the stage methods of a non-linear molecule in place of a linear one's
+_BODY_METHODS = {METHOD: BODY_METHOD, "rigid-md-nvt": BODY_MD_METHOD}
 
 
 def rigid_method(method):
@@ -126,9 +132,12 @@ def is_nonlinear_gas(gas):
 
 def reduced_rigid_inertia(job):
     """The moments of inertia of the task's molecules in the study's reduced units, m sigma^2
-    (0 for an atom of a mixture), shape=(n_species,)."""
+    (0 for an atom of a mixture, the smallest principal moment of a non-linear molecule,
+    which sets its time step), shape=(n_species,)."""
+    from mdsim.sampling.body_box import reduced_principal_inertia
     from mdsim.sampling.rigid_box import reduced_inertia
-    return np.array([reduced_inertia(m, job.units) for m in job.study.gas.molecules])
+    return np.array([reduced_principal_inertia(m, job.units).min() if m.is_nonlinear
+                     else reduced_inertia(m, job.units) for m in job.study.gas.molecules])
 
 
 def box_kinetic_dof(job):

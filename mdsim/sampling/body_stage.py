@@ -36,6 +36,8 @@ class BodySystem(RigidSystem):
         Orientations (:mod:`mdsim.engine.body_rotation`).
     inertia_i : ndarray, shape=(3,), m sigma^2
         Principal moments of inertia.
+    pb_ni : ndarray, shape=(n, 3), optional
+        Body-frame angular momenta to start MD from (a continued stage).
     model, box_i, r_ni, dof_per_particle, type_n
         As for :class:`RigidSystem` (the model a
         :class:`mdsim.engine.body_model.BodyPairModel`, 3 + 3 degrees of freedom).
@@ -43,6 +45,7 @@ class BodySystem(RigidSystem):
 
     quat_nq: np.ndarray = None
     inertia_i: np.ndarray = None
+    pb_ni: np.ndarray = None
 
 
 def body_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed):

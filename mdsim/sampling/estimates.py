@@ -16,7 +16,7 @@ __all__ = ["Estimate", "summarise", "CANONICAL"]
 
 #: methods with a set temperature (the canonical ensemble)
 CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion", "rigid-mc-nvt", "rigid-mc-nvt-insertion",
-             "rigid-body-mc-nvt",
+             "rigid-body-mc-nvt", "rigid-body-md-nvt",
              "rigid-md-nvt")
 
 
@@ -105,7 +105,8 @@ def summarise(samples, method, n_particles, volume, temperature=None, dof_per_pa
     if method in CANONICAL:
         T = float(temperature)
         out["temperature"] = Estimate(T, 0.0, math.nan)
-        if method in ("md-nvt", "rigid-md-nvt") or np.all(np.isfinite(samples["pressure"])):
+        if method in ("md-nvt", "rigid-md-nvt", "rigid-body-md-nvt") or \
+                np.all(np.isfinite(samples["pressure"])):
             p = mean_and_stderr(samples["pressure"])
             out["pressure"] = Estimate(p.mean, p.stderr, p.g)
         var = variance_and_stderr(samples["u_full"])

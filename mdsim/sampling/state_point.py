@@ -7,7 +7,8 @@ sampler protocol (``MCSampler`` for "mc-nvt"/"mc-nve", ``MDSampler`` for
 "rigid-mc-nvt", with test-molecule insertions
 :class:`~mdsim.sampling.rigid_insertion_stage.RigidInsertionStageSampler`,
 "rigid-mc-nvt-insertion", :class:`~mdsim.sampling.body_stage.BodyMCStageSampler`
-for non-linear molecules, "rigid-body-mc-nvt", and
+and :class:`~mdsim.sampling.body_md_stage.BodyMDStageSampler` for non-linear
+molecules, "rigid-body-mc-nvt" and "rigid-body-md-nvt", and
 :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler`,
 "rigid-md-nvt"/"rigid-md-nve"), streams the samples into one HDF5 run file
 (:mod:`mdsim.sampling.store`) with a checkpoint after every block, and resumes an
@@ -44,6 +45,7 @@ METHODS = {
     "rigid-mc-nvt-insertion": ("mdsim.sampling.rigid_insertion_stage",
                                "RigidInsertionStageSampler"),
     "rigid-body-mc-nvt": ("mdsim.sampling.body_stage", "BodyMCStageSampler"),
+    "rigid-body-md-nvt": ("mdsim.sampling.body_md_stage", "BodyMDStageSampler"),
     "rigid-md-nvt": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
     "rigid-md-nve": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
 }

@@ -183,7 +183,8 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     (its final state by fixed-energy molecular dynamics) and the direct
     route (molecular dynamics of the expansion); one kind of non-linear
     molecule (site Lennard-Jones or Mie, no charges) by the energy route's
-    canonical Monte Carlo only.  Spheres pass.
+    canonical Monte Carlo only (its MD stage, "rigid-body-md-nvt", is not yet
+    offered: docs/physics.md section 7a.1).  Spheres pass.
 
     Parameters
     ----------
@@ -221,8 +222,8 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                              f"dipole ('{mol.name}') is not yet supported (the rigid Monte Carlo "
                              "has site Lennard-Jones or Mie and an axial quadrupole); use the "
                              "virial routes, [simulation] routes = []")
-    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
+    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
     if nonlinear and (gas.n_species > 1 or by_md):
         what = "a mixture" if gas.n_species > 1 else " and ".join(by_md)
         raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and a non-linear "

@@ -230,13 +230,11 @@ def propane_study(tmp_path, routes='["energy"]', extra=""):
     return path
 
 
-@pytest.mark.slow
-def test_propane_energy_route_against_its_virial_route_and_coolprop(tmp_path, monkeypatch):
-    CP = pytest.importorskip("CoolProp.CoolProp")
-    from scipy.optimize import brentq
+def run_propane_study(tmp_path, monkeypatch, extra=""):
+    """The propane study by the energy route through the pipeline: (run_dir, results rows)."""
     import mdsim.pipeline.report as report
-    from mdsim.pipeline.run_study import run_study
     from analysis.molecules import MolecularVirialGas
+    from mdsim.pipeline.run_study import run_study
     # cheaper than the defaults, which the check does not need (as in test_rigid_route.py's
     # air): no Joule inversion curve (the virial route's, tested with it) and 30000 Monte
     # Carlo draws of B3 instead of 200000 (its error enters the virial route's stderr)
@@ -245,8 +243,16 @@ def test_propane_energy_route_against_its_virial_route_and_coolprop(tmp_path, mo
     defaults[0] = 30000
     monkeypatch.setattr(MolecularVirialGas.__init__, "__defaults__", tuple(defaults))
     run_dir = tmp_path / "run"
-    run_study(read_study(propane_study(tmp_path)), run_dir, workers=1, quiet=True, plots=False)
-    rows = {r["route"]: r for r in csv.DictReader((run_dir / "results.csv").open())}
+    run_study(read_study(propane_study(tmp_path, extra=extra)), run_dir, workers=1, quiet=True,
+              plots=False)
+    return run_dir, {r["route"]: r for r in csv.DictReader((run_dir / "results.csv").open())}
+
+
+@pytest.mark.slow
+def test_propane_energy_route_against_its_virial_route_and_coolprop(tmp_path, monkeypatch):
+    CP = pytest.importorskip("CoolProp.CoolProp")
+    from scipy.optimize import brentq
+    run_dir, rows = run_propane_study(tmp_path, monkeypatch)
     row = rows["energy"]
     dT, se = float(row["delta_T_K"]), float(row["delta_T_stderr_K"])
     assert row["status"] == "done" and row["n_particles"] == "128"
@@ -277,6 +283,11 @@ def test_propane_energy_route_against_its_virial_route_and_coolprop(tmp_path, mo
 
 @pytest.mark.parametrize("routes, extra, match", [
     ('["energy", "microcanonical"]', "", "not linear.*not microcanonical"),
+    ('["direct"]', "", "not linear.*not direct"),
+    # the MD stage of the energy route exists (tests/mdsim/test_body_md.py) but is not
+    # offered: at 20 bar (rho sigma^3 = 0.02) its chain was still drifting after the
+    # route's 2000 equilibration steps (measured u_full -0.85 in the pilot, -1.10 in the
+    # third stage, Monte Carlo -1.03 epsilon)
     ('["energy"]', 'sampler = "md"', "not linear.*not sampler"),
 ])
 def test_what_nonlinear_molecules_cannot_simulate_yet_is_refused(tmp_path, routes, extra, match):
