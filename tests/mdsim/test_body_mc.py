@@ -165,31 +165,39 @@ def test_monte_carlo_keeps_its_books_against_the_numpy_reference(propane):
     assert np.array_equal(again.run(4, 2)["u_trunc"], out["u_trunc"])
 
 
-def test_body_stage_resumes_bit_for_bit(tmp_path, propane):
-    # the stage sampler follows the protocol of sample_state_point: an interrupted run file
-    # continues from its checkpoint to the numbers of an uninterrupted run (exact equality)
-    from mdsim.sampling import store
-    from mdsim.sampling.body_stage import BODY_METHOD, body_system
+def interrupted_and_uninterrupted(path, make_system, method, temperature, run):
+    """A stage run into ``path``, interrupted after 20 samples and resumed, and the same run
+    uninterrupted: their samples asserted equal (the checkpoint continues bit for bit)."""
     from mdsim.sampling.state_point import sample_state_point
-    run = dict(n_equilibration=200, n_samples=100, interval=1, seed=[3, 1], checkpoint_every=20)
 
     def stop(done, total):
         if done == 20:
             raise KeyboardInterrupt
 
-    def system():
-        return body_system(propane, 400.0, 700.0, 27, 3.0, seed=5)
-
-    path = tmp_path / "b.h5"
     with pytest.raises(KeyboardInterrupt):
-        sample_state_point(system(), BODY_METHOD, 4.1, path=path, progress=stop, **run)
-    resumed = sample_state_point(system(), BODY_METHOD, 4.1, path=path, **run)
-    ref = sample_state_point(system(), BODY_METHOD, 4.1, **run)
+        sample_state_point(make_system(), method, temperature, path=path, progress=stop, **run)
+    resumed = sample_state_point(make_system(), method, temperature, path=path, **run)
+    ref = sample_state_point(make_system(), method, temperature, **run)
     assert resumed.resumed
     for key in ref.samples:
         assert np.array_equal(resumed.samples[key], ref.samples[key]), key
+
+
+@pytest.mark.parametrize("md", [False, True])
+def test_body_stages_resume_bit_for_bit(tmp_path, propane, md):
+    # the Monte Carlo and MD stage samplers follow the protocol of sample_state_point
+    from mdsim.sampling import store
+    from mdsim.sampling.body_md_stage import BODY_MD_METHOD
+    from mdsim.sampling.body_stage import BODY_METHOD, body_system
+    run = dict(n_equilibration=200, n_samples=60, interval=5 if md else 1, seed=[3, 1],
+               checkpoint_every=20)
+    path = tmp_path / "b.h5"
+    interrupted_and_uninterrupted(path, lambda: body_system(propane, 400.0, 700.0, 27, 3.0,
+                                                            seed=5),
+                                  BODY_MD_METHOD if md else BODY_METHOD, 4.1, run)
     state, _ = store.read_checkpoint(path)
     assert np.allclose(np.linalg.norm(state["quat_nq"], axis=1), 1.0, atol=1e-12)
+    assert ("angular_momenta" in state) == md
 
 
 @pytest.fixture(scope="module")

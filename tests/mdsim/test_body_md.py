@@ -175,32 +175,3 @@ def test_md_and_mc_agree_on_energy_and_pressure(propane):
     # the thermostat holds both groups at the set temperature (3 block standard errors)
     for key in ("temperature_trans", "temperature_rot"):
         assert out[key].mean() == pytest.approx(b.temperature, abs=3 * block_stderr(out[key], 10))
-
-
-def test_md_stage_resumes_bit_for_bit(tmp_path, propane):
-    # the MD stage sampler follows the protocol of sample_state_point: an interrupted run file
-    # continues from its checkpoint to the numbers of an uninterrupted run (exact equality)
-    from mdsim.sampling import store
-    from mdsim.sampling.body_md_stage import BODY_MD_METHOD
-    from mdsim.sampling.body_stage import body_system
-    from mdsim.sampling.state_point import sample_state_point
-    run = dict(n_equilibration=200, n_samples=60, interval=5, seed=[3, 1], checkpoint_every=20)
-
-    def stop(done, total):
-        if done == 20:
-            raise KeyboardInterrupt
-
-    def system():
-        return body_system(propane, T_K, RHO, 64, 3.0, seed=5)
-
-    path = tmp_path / "md.h5"
-    with pytest.raises(KeyboardInterrupt):
-        sample_state_point(system(), BODY_MD_METHOD, 5.1, path=path, progress=stop, **run)
-    resumed = sample_state_point(system(), BODY_MD_METHOD, 5.1, path=path, **run)
-    ref = sample_state_point(system(), BODY_MD_METHOD, 5.1, **run)
-    assert resumed.resumed
-    for key in ref.samples:
-        assert np.array_equal(resumed.samples[key], ref.samples[key]), key
-    state, _ = store.read_checkpoint(path)
-    assert np.allclose(np.linalg.norm(state["quat_nq"], axis=1), 1.0, atol=1e-12)
-    assert state["angular_momenta"].shape == (64, 3)
