@@ -124,6 +124,10 @@ def set_up_molecular_task(job):
         f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
         f"c_v_ig = {gas.kinetic_dof:.4g}/2 R from the model's translations and rotations plus "
         "the study's vibrational part")
+    from mdsim.sampling.rigid_box import electrostatics_note
+    note = electrostatics_note(gas.molecules, float(study.reduced_pairs().rc_max))
+    if note:
+        job.notes.append(note)
 
 
 def _mixture_note(gas, counts_t):

@@ -78,7 +78,8 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     Parameters
     ----------
     molecule : RigidMolecule or list of RigidMolecule
-        Linear, two or more sites, optional axial quadrupole; a list is a
+        Linear, two or more sites, optional site charges or axial point dipole
+        and quadrupole; a list is a
         mixture of such molecules and atoms, with ``counts_t``.
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3

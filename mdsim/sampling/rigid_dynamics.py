@@ -91,7 +91,8 @@ def sample_rigid_state_md(molecule, temperature_K, density_mol_m3, *, method="md
     Parameters
     ----------
     molecule : RigidMolecule
-        Linear, two or more sites, optional axial quadrupole.
+        Linear, two or more sites, optional site charges or axial point dipole
+        and quadrupole.
     temperature_K : float, K
         The thermostat's target (equilibration, and NVT production).
     density_mol_m3 : float, mol/m^3

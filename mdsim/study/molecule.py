@@ -177,8 +177,9 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
     A gas of rigid molecules is simulated by the energy route (canonical
-    Monte Carlo of linear molecules, site Lennard-Jones or Mie plus an axial
-    point quadrupole, one kind or a mixture with atoms; or thermostatted
+    Monte Carlo of linear molecules, site Lennard-Jones or Mie with site
+    charges, or with an axial point dipole and quadrupole, one kind or a
+    mixture with atoms; or thermostatted
     molecular dynamics of one kind, ``sampler = "md"``), the microcanonical
     route (its final state by fixed-energy molecular dynamics) and the direct
     route (molecular dynamics of the expansion), those two for one kind of
@@ -220,12 +221,15 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the rigid-molecule "
                          "simulation takes linear molecules only; use the virial routes, "
                          "[simulation] routes = []")
-    for mol in gas.molecules:  # a mixture of linear molecules and atoms is simulated too
-        if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
-            raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
-                             f"dipole ('{mol.name}') is not yet supported (the rigid Monte Carlo "
-                             "has site Lennard-Jones or Mie and an axial quadrupole); use the "
-                             "virial routes, [simulation] routes = []")
+    charged = [m.name for m in gas.molecules if m.has_charges]
+    polar = [m.name for m in gas.molecules if m.has_multipoles]
+    if charged and polar:  # site charges and axial multipoles: no charge-multipole energy
+        who = (f"molecule '{charged[0]}' carries site charges and point multipoles"
+               if charged[0] == polar[0] else f"molecule '{charged[0]}' carries site charges "
+               f"and '{polar[0]}' point multipoles")
+        raise StudyError(f"{where}: {who}; the simulation has no charge-multipole "
+                         "energy (nor have the virial routes): describe every molecule by site "
+                         "charges, or every molecule by point dipoles and quadrupoles")
     by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
     if gas.n_species > 1 and by_md:
         raise StudyError(f"{where}: {' and '.join(by_md)}: a mixture with rigid molecules is "
