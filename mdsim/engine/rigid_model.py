@@ -54,7 +54,7 @@ class LinearPairModel:
 
     Attributes
     ----------
-    site_start_t, site_z_k, params_kk, form, moment_tm, rc, shifted
+    site_start_t, site_z_k, params_kk, form, elec_tm, rc, shifted
         The arguments of :func:`forces_half`, in its order.
     charged : bool
         True when some site carries a charge.
@@ -102,10 +102,13 @@ class LinearPairModel:
         self.site_start_t = np.array(starts, dtype=np.int64)
         self.site_z_k = np.array(zs)
         self.site_potentials = pots
-        self.moment_tm = np.array(moments, dtype=float).reshape(-1, 2)
         self.charge_k = np.array(charges, dtype=float)
         self.charged = bool(np.any(self.charge_k != 0.0))
-        if self.charged and np.any(self.moment_tm != 0.0):
+        charged_t = [float(np.any(self.charge_k[starts[t]:starts[t + 1]] != 0.0))
+                     for t in range(len(moments))]
+        self.elec_tm = np.column_stack([np.array(moments, dtype=float).reshape(-1, 2),
+                                          charged_t])
+        if self.charged and np.any(self.elec_tm[:, :2] != 0.0):
             raise SettingError("types", "site charges and point multipoles", "the kernels have "
                                "no charge-multipole energy; give every molecule charges, or "
                                "every molecule multipoles")
@@ -118,7 +121,7 @@ class LinearPairModel:
                                'and 0 with coulomb = "cut"')
         self.params_kk = self._pair_rows(rc)
         self.form = FORM_LJ if all_lj else FORM_MIE
-        self.rotates_t = np.array([int(np.any(self.moment_tm[t] != 0.0) or np.any(
+        self.rotates_t = np.array([int(np.any(self.elec_tm[t, :2] != 0.0) or np.any(
             self.site_z_k[starts[t]:starts[t + 1]] != 0.0)) for t in range(len(moments))],
             dtype=np.int64)
         self.rc = rc
@@ -143,11 +146,11 @@ class LinearPairModel:
 
     @property
     def n_types(self):
-        return len(self.moment_tm)
+        return len(self.elec_tm)
 
     def arrays(self):
-        """``(site_start_t, site_z_k, params_kk, form, moment_tm, rc, shifted)``."""
-        return (self.site_start_t, self.site_z_k, self.params_kk, self.form, self.moment_tm,
+        """``(site_start_t, site_z_k, params_kk, form, elec_tm, rc, shifted)``."""
+        return (self.site_start_t, self.site_z_k, self.params_kk, self.form, self.elec_tm,
                 self.rc, self.shifted)
 
     def site_pair_potential(self, k, m):
@@ -230,7 +233,7 @@ class LinearPairModel:
     def forces(self, centre_ni, axis_ni, type_n, box_i, nb_nj, count_n, force_ni, torque_ni):
         """:func:`forces_half` with this model; raises SimulationError on a non-finite energy."""
         u, w = forces_half(centre_ni, axis_ni, type_n, box_i, self.site_start_t, self.site_z_k,
-                           self.params_kk, self.form, self.moment_tm, self.rc, self.shifted, nb_nj,
+                           self.params_kk, self.form, self.elec_tm, self.rc, self.shifted, nb_nj,
                            count_n, force_ni, torque_ni)
         if not (math.isfinite(u) and math.isfinite(w)):
             raise SimulationError(f"rigid molecules: non-finite pair energy {u} (two molecules "
