@@ -109,6 +109,11 @@ STUDY_CASES = [
     ("cv-below-translation", {("gas", "ideal_heat_capacity"): '"1 R"'},
      ["ideal_heat_capacity", "1 R"]),
     ("cv-words", {("gas", "ideal_heat_capacity"): '"lots"'}, ["ideal_heat_capacity", "lots"]),
+    # what ideal_heat_capacity counts means something for rigid molecules only
+    ("cv-counts-for-atoms", {("gas", "ideal_heat_capacity_counts"): '"vibrations"'},
+     ["ideal_heat_capacity_counts", "vibrations", "rigid molecules", "remove it"]),
+    ("cv-counts-unknown", {("gas", "ideal_heat_capacity_counts"): '"rotations"'},
+     ["ideal_heat_capacity_counts", "rotations", "all motions"]),
     ("name-with-slash", {("study", "name"): '"../evil"'}, ["name", "../evil"]),
     ("table-file-missing", {("potential", "form"): '"table"', ("potential", "epsilon"): None,
                             ("potential", "sigma"): None,

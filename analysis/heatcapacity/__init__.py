@@ -27,10 +27,11 @@ re-exports the public names of both.
 """
 from analysis.heatcapacity.models import (ConstantHeatCapacity, IdealGasHeatCapacity,
                                           KineticPlusInternal, PolynomialHeatCapacity,
-                                          TabulatedHeatCapacity)
+                                          TabulatedHeatCapacity, WholeOfRigidModel)
 from analysis.heatcapacity.reading import (TABLE_HEADER, heat_capacity_from_spec,
                                            parse_molar_heat_capacity, read_heat_capacity_table)
 
 __all__ = ["IdealGasHeatCapacity", "ConstantHeatCapacity", "PolynomialHeatCapacity",
-           "TabulatedHeatCapacity", "KineticPlusInternal", "heat_capacity_from_spec",
+           "TabulatedHeatCapacity", "KineticPlusInternal", "WholeOfRigidModel",
+           "heat_capacity_from_spec",
            "parse_molar_heat_capacity", "read_heat_capacity_table", "TABLE_HEADER"]

@@ -16,7 +16,7 @@ from mdsim.errors import StudyError
 from mdsim.units import R_GAS
 
 __all__ = ["IdealGasHeatCapacity", "ConstantHeatCapacity", "PolynomialHeatCapacity",
-           "TabulatedHeatCapacity", "KineticPlusInternal"]
+           "TabulatedHeatCapacity", "KineticPlusInternal", "WholeOfRigidModel"]
 
 
 class IdealGasHeatCapacity(abc.ABC):
@@ -269,6 +269,21 @@ def _check_range(valid_range):
     return (lo, hi)
 
 
+def _check_model(name, model):
+    if not isinstance(model, IdealGasHeatCapacity):
+        raise StudyError(f"'{name}' must be an ideal-gas heat capacity model; got "
+                         f"{type(model).__name__}")
+    return model
+
+
+def _check_kinetic_dof(kinetic_dof):
+    f = float(kinetic_dof)
+    if not (math.isfinite(f) and 3.0 <= f <= 6.0):
+        raise StudyError(f"'kinetic_dof' = {kinetic_dof!r}: kinetic degrees of freedom per "
+                         "molecule lie between 3 (atoms) and 6 (rigid non-linear molecules)")
+    return f
+
+
 class KineticPlusInternal(IdealGasHeatCapacity):
     """c_v_ig = (f/2) R + c_v_internal(T): a rigid model's kinetic part plus the rest.
 
@@ -294,15 +309,8 @@ class KineticPlusInternal(IdealGasHeatCapacity):
     """
 
     def __init__(self, internal, kinetic_dof):
-        if not isinstance(internal, IdealGasHeatCapacity):
-            raise StudyError(f"'internal' must be an ideal-gas heat capacity model; got "
-                             f"{type(internal).__name__}")
-        f = float(kinetic_dof)
-        if not (math.isfinite(f) and 3.0 <= f <= 6.0):
-            raise StudyError(f"'kinetic_dof' = {kinetic_dof!r}: kinetic degrees of freedom per "
-                             "molecule lie between 3 (atoms) and 6 (rigid non-linear molecules)")
-        self.internal = internal
-        self.kinetic_dof = f
+        self.internal = _check_model("internal", internal)
+        self.kinetic_dof = _check_kinetic_dof(kinetic_dof)
         self.valid_range = internal.valid_range
         self.reference_temperature_K = internal.reference_temperature_K
 
@@ -320,3 +328,52 @@ class KineticPlusInternal(IdealGasHeatCapacity):
     def describe(self):
         return (f"{self.kinetic_dof:.6g}/2 R (rigid model: translation and rotation) plus "
                 f"{self.internal.describe()}")
+
+
+class WholeOfRigidModel(IdealGasHeatCapacity):
+    """The whole c_v_ig of a rigid model's gas, given: (f/2) R kinetic, the rest vibrational.
+
+    The values are the given model's; the rigid model carries f = 3 + 2
+    (linear) or 3 + 3 (non-linear) kinetic degrees of freedom of it, and
+    the vibrational part is what is left, c_v_ig - (f/2) R (the same sum
+    :class:`KineticPlusInternal` builds from the vibrational part).
+
+    Parameters
+    ----------
+    whole : IdealGasHeatCapacity
+        The whole ideal-gas c_v (translation, rotation and vibration).
+    kinetic_dof : float
+        f, the kinetic degrees of freedom per molecule (a mole-fraction
+        mean for a mixture), >= 3.
+
+    Examples
+    --------
+    Rigid non-linear molecules with a whole c_v_ig of 10 R:
+
+    >>> cv = WholeOfRigidModel(ConstantHeatCapacity.in_units_of_R(10.0), 6)
+    >>> round(cv.cv(400.0) / R_GAS, 6), round(cv.vibrational_cv(400.0) / R_GAS, 6)
+    (10.0, 7.0)
+    """
+
+    def __init__(self, whole, kinetic_dof):
+        self.whole = _check_model("whole", whole)
+        self.kinetic_dof = _check_kinetic_dof(kinetic_dof)
+        self.valid_range = whole.valid_range
+        self.reference_temperature_K = whole.reference_temperature_K
+
+    def vibrational_cv(self, T):
+        """c_v_ig - (f/2) R in J/(mol K): what the rigid model lacks."""
+        return self.cv(T) - 0.5 * self.kinetic_dof * R_GAS
+
+    def _cv(self, T):
+        return self.whole._cv(T)
+
+    def _u(self, T):
+        return self.whole._u(T)
+
+    def _s(self, T):
+        return self.whole._s(T)
+
+    def describe(self):
+        return (f"{self.whole.describe()} given whole, of which {self.kinetic_dof:.6g}/2 R is "
+                "the rigid model's (translation and rotation) and the rest vibrational")

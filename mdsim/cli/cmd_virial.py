@@ -83,6 +83,12 @@ def format_virial_table(summary):
     """Plain-text lines for ``mdsim virial``."""
     lines = [f"study {summary['study']}: virial routes (B2 only, and B2 + B3; "
              "Delta T = T_final - T_initial; each value carries its unit)"]
+    gas = summary.get("gas", {})
+    if gas.get("ideal_heat_capacity_counts"):  # rigid molecules: what the study's c_v holds
+        how = ("given" if gas["ideal_heat_capacity_counts_given"]
+               else "the default for linear molecules")
+        lines.append(f'c_v_ig: ideal_heat_capacity_counts = "{gas["ideal_heat_capacity_counts"]}" '
+                     f"({how}); used: {gas['ideal_heat_capacity_used']}")
     for rec in summary["state_points"]:
         lines += _state_point_lines(rec)
     lines += [f"warning: {w}" for w in summary.get("warnings", [])]

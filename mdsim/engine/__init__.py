@@ -23,7 +23,8 @@ pair kernel), :mod:`~mdsim.engine.pair_potential` (the potential interface),
 damped shifted-force sum), :mod:`~mdsim.engine.threebody` (the Axilrod-Teller
 energy of a configuration), :mod:`~mdsim.engine.rigid_pair` (pair energy, forces
 and torques of rigid linear molecules) and :mod:`~mdsim.engine.rigid_model` (their model), :mod:`~mdsim.engine.rigid_mc_kernels` and
-:mod:`~mdsim.engine.rigid_mc` (their Monte Carlo), :mod:`~mdsim.engine.rigid_integrator`
+:mod:`~mdsim.engine.rigid_mc` (their Monte Carlo), :mod:`~mdsim.engine.rigid_insertion`
+(their test-molecule insertion), :mod:`~mdsim.engine.rigid_integrator`
 and :mod:`~mdsim.engine.rigid_md` (their molecular dynamics; its time step and drift
 in :mod:`~mdsim.engine.rigid_md_steps`).
 """

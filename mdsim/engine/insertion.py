@@ -35,7 +35,8 @@ from mdsim.engine.mc_kernels import species_energy
 from mdsim.engine.montecarlo import MCSampler
 
 __all__ = ["insertion_sums", "inserted_particle_energy", "insertion_tail", "InsertionSampler",
-           "METHOD", "factor_key", "factor_square_key"]
+           "METHOD", "factor_key", "factor_square_key", "insertion_stream",
+           "saved_insertion_stream", "run_with_insertions"]
 
 METHOD = "mc-nvt-insertion"
 """The sampler method name of canonical Monte Carlo with test-particle insertions."""
@@ -49,6 +50,60 @@ def factor_key(species):
 def factor_square_key(species):
     """Sample series of the mean squared Boltzmann factor (for the effective sample count)."""
     return f"insertion_factor_sq_{int(species)}"
+
+
+def insertion_stream(seed):
+    """The random stream of the insertions of a sampler seeded with ``seed``: the same seed
+    followed by 1, apart from the sampler's own stream.
+
+    >>> bool((insertion_stream([3, 1]) == _rng.make_state([3, 1, 1])).all())
+    True
+    """
+    seed_list = list(seed) if isinstance(seed, (list, tuple)) else [int(seed)]
+    return _rng.make_state(seed_list + [1])
+
+
+def saved_insertion_stream(state, sampler):
+    """The insertion stream saved in a sampler state (a copy), or a StudyError naming the
+    ``sampler`` class whose ``get_state`` makes it."""
+    if "insertion_rng_state" not in state:
+        from mdsim.errors import StudyError
+        raise StudyError(f"test-particle insertion state is missing 'insertion_rng_state'; "
+                         f"it must come from {sampler}.get_state")
+    return np.asarray(state["insertion_rng_state"]).astype(np.uint64).copy()
+
+
+def run_with_insertions(run_once, sums, n_species, n_samples, insertions):
+    """Samples of a canonical run, each followed by insertions of every species.
+
+    Parameters
+    ----------
+    run_once : callable
+        ``run_once()`` -> dict of the sampler's observables, arrays of one sample.
+    sums : callable
+        ``sums(a)`` -> (sum exp(-dU/kT), sum exp(-2 dU/kT)) over ``insertions``
+        test particles of species a in the current configuration.
+    n_species, n_samples, insertions : int
+
+    Returns
+    -------
+    dict of ndarray, each shape=(n_samples,)
+        The observables plus, per species a, :func:`factor_key` (the mean
+        Boltzmann factor of a sample's insertions) and
+        :func:`factor_square_key` (the mean of its square).
+    """
+    blocks = []
+    extra = {k(a): np.empty(n_samples) for a in range(n_species)
+             for k in (factor_key, factor_square_key)}
+    for t in range(n_samples):
+        blocks.append(run_once())
+        for a in range(n_species):
+            s1, s2 = sums(a)
+            extra[factor_key(a)][t] = s1 / insertions
+            extra[factor_square_key(a)][t] = s2 / insertions
+    out = {k: np.concatenate([b[k] for b in blocks]) for k in blocks[0]}
+    out.update(extra)
+    return out
 
 
 @njit(cache=True)
@@ -185,8 +240,7 @@ class InsertionSampler:
         self.system = system
         self.insertions = count("insertions", system.n_particles if insertions is None
                                 else insertions, 1, "test particles per species and sample")
-        seed_list = list(seed) if isinstance(seed, (list, tuple)) else [int(seed)]
-        self.insertion_state = _rng.make_state(seed_list + [1])
+        self.insertion_state = insertion_stream(seed)
 
     @property
     def n_particles(self):
@@ -204,21 +258,13 @@ class InsertionSampler:
         n_samples = count("samples", n_samples, 1, "number of recorded samples")
         mc = self.mc
         beta = 1.0 / mc.temperature
-        n_species = mc.params_ab.shape[0]
-        blocks = []
-        extra = {k(a): np.empty(n_samples) for a in range(n_species)
-                 for k in (factor_key, factor_square_key)}
-        for t in range(n_samples):
-            blocks.append(mc.run(1, interval))
-            for a in range(n_species):
-                s1, s2 = insertion_sums(mc.r_ni, mc.species_n, mc.params_ab, mc.form, mc.table,
-                                        mc.box_i, mc.ncell_i, mc.head_c, mc.next_n, a, beta,
-                                        self.insertions, self.insertion_state)
-                extra[factor_key(a)][t] = s1 / self.insertions
-                extra[factor_square_key(a)][t] = s2 / self.insertions
-        out = {k: np.concatenate([b[k] for b in blocks]) for k in blocks[0]}
-        out.update(extra)
-        return out
+
+        def sums(a):
+            return insertion_sums(mc.r_ni, mc.species_n, mc.params_ab, mc.form, mc.table,
+                                  mc.box_i, mc.ncell_i, mc.head_c, mc.next_n, a, beta,
+                                  self.insertions, self.insertion_state)
+        return run_with_insertions(lambda: mc.run(1, interval), sums, mc.params_ab.shape[0],
+                                   n_samples, self.insertions)
 
     def get_state(self):
         state = self.mc.get_state()
@@ -226,12 +272,9 @@ class InsertionSampler:
         return state
 
     def set_state(self, state):
-        if "insertion_rng_state" not in state:
-            from mdsim.errors import StudyError
-            raise StudyError("test-particle insertion state is missing 'insertion_rng_state'; "
-                             "it must come from InsertionSampler.get_state")
+        stream = saved_insertion_stream(state, "InsertionSampler")
         self.mc.set_state(state)
-        self.insertion_state = np.asarray(state["insertion_rng_state"]).astype(np.uint64).copy()
+        self.insertion_state = stream
 
     def settings(self):
         out = self.mc.settings()

@@ -3,7 +3,10 @@
 State of molecule n: centre of mass ``r_ni``, velocity ``v_ni``, unit axis
 ``e_ni`` and angular momentum ``l_ni`` (perpendicular to the axis: a linear
 rotor has no spin about its own axis), mass ``mass_n`` and the one moment of
-inertia ``inertia_n`` of a linear rotor.  Reduced units throughout.
+inertia ``inertia_n`` of a linear rotor.  An atom of a mixture (one site at
+its centre, no multipole) has ``inertia_n`` = 0: no rotational degrees of
+freedom, its angular momentum stays zero (it feels no torque) and its axis
+is never turned.  Reduced units throughout.
 
 One step of length dt splits H = K_trans + K_rot + U into exactly solved
 parts, in the symmetric (Strang) order
@@ -30,7 +33,8 @@ with omega = L / I perpendicular to e,
 Thermostat (equilibration): stochastic velocity rescaling (Bussi, Donadio
 and Parrinello, J. Chem. Phys. 126, 014101, 2007) applied to two groups
 separately, the translations with nf = 3N - 3 (total momentum removed at
-the start and conserved) and the rotations with nf = 2N.  Rescaling each
+the start and conserved) and the rotations with nf = 2 N_rot (the N_rot
+linear rotors; atoms have none).  Rescaling each
 group towards its own canonical kinetic-energy distribution samples the
 canonical product distribution and brings translation and rotation to the
 target temperature on their own, which a gas with rare collisions would do
@@ -54,7 +58,7 @@ from mdsim.engine.rigid_pair import forces_half
 
 __all__ = ["ROTATIONAL_DOF", "kick", "drift_rotate", "kinetic_parts", "thermostat_groups",
            "draw_angular_momenta", "draw_axes", "start_momenta", "translational_dof",
-           "rigid_block"]
+           "rotational_dof", "rigid_block"]
 
 #: Rotational degrees of freedom of a linear rotor.
 ROTATIONAL_DOF = 2
@@ -67,6 +71,15 @@ def translational_dof(n_molecules):
     297
     """
     return 3 * int(n_molecules) - 3
+
+
+def rotational_dof(inertia_n):
+    """2 N_rot: two per linear rotor (``inertia_n`` > 0), none for an atom (``inertia_n`` = 0).
+
+    >>> rotational_dof(np.array([0.025, 0.025, 0.0]))
+    4
+    """
+    return ROTATIONAL_DOF * int(np.count_nonzero(np.asarray(inertia_n) > 0.0))
 
 
 @njit(cache=True)
@@ -111,7 +124,7 @@ def drift_rotate(dt, r_ni, v_ni, e_ni, l_ni, inertia_n, r_ref_ni):
     e_ni : ndarray, shape=(n, 3), float64, in/out
         Unit axes, turned about L/|L| through |L| dt / I.
     inertia_n : ndarray, shape=(n,), float64
-        Moment of inertia of each linear rotor.
+        Moment of inertia of each linear rotor; 0 for an atom (never turned).
     r_ref_ni : ndarray, shape=(n, 3), float64
         Centres at the last neighbour-list build.
 
@@ -136,7 +149,7 @@ def drift_rotate(dt, r_ni, v_ni, e_ni, l_ni, inertia_n, r_ref_ni):
         moved = max(moved, d2)
         lx, ly, lz = l_ni[n, 0], l_ni[n, 1], l_ni[n, 2]
         lnorm = math.sqrt(lx * lx + ly * ly + lz * lz)
-        if lnorm == 0.0:
+        if lnorm == 0.0 or inertia_n[n] == 0.0:
             continue
         angle = lnorm * dt / inertia_n[n]
         c, s = math.cos(angle), math.sin(angle)
@@ -159,6 +172,8 @@ def drift_rotate(dt, r_ni, v_ni, e_ni, l_ni, inertia_n, r_ref_ni):
 def kinetic_parts(v_ni, l_ni, mass_n, inertia_n):
     """Translational and rotational kinetic energy: sum m |v|^2 / 2 and sum |L|^2 / (2 I).
 
+    Atoms (I = 0) have no rotational term.
+
     Returns
     -------
     (float, float)
@@ -168,7 +183,8 @@ def kinetic_parts(v_ni, l_ni, mass_n, inertia_n):
     kr = 0.0
     for n in range(mass_n.size):
         kt += 0.5 * mass_n[n] * (v_ni[n, 0] ** 2 + v_ni[n, 1] ** 2 + v_ni[n, 2] ** 2)
-        kr += 0.5 * (l_ni[n, 0] ** 2 + l_ni[n, 1] ** 2 + l_ni[n, 2] ** 2) / inertia_n[n]
+        if inertia_n[n] > 0.0:
+            kr += 0.5 * (l_ni[n, 0] ** 2 + l_ni[n, 1] ** 2 + l_ni[n, 2] ** 2) / inertia_n[n]
     return kt, kr
 
 
@@ -185,7 +201,8 @@ def thermostat_groups(v_ni, l_ni, kin_trans, kin_rot, kT, nf_trans, nf_rot, c, s
     kT : float
         Target temperature.
     nf_trans, nf_rot : int
-        Degrees of freedom of the groups (3N - 3, 2N).
+        Degrees of freedom of the groups (3N - 3, 2 N_rot); no rotations (nf_rot = 0), no
+        rescaling of them.
     c : float
         exp(-dt / tau_thermostat).
     s : ndarray, shape=(4,), uint64
@@ -197,7 +214,7 @@ def thermostat_groups(v_ni, l_ni, kin_trans, kin_rot, kT, nf_trans, nf_rot, c, s
         The new K_trans and K_rot.
     """
     a = csvr_scale(kin_trans, 0.5 * nf_trans * kT, nf_trans, c, s)
-    b = csvr_scale(kin_rot, 0.5 * nf_rot * kT, nf_rot, c, s)
+    b = csvr_scale(kin_rot, 0.5 * nf_rot * kT, nf_rot, c, s) if nf_rot > 0 else 1.0
     v_ni *= a
     l_ni *= b
     return a * a * kin_trans, b * b * kin_rot
@@ -218,16 +235,21 @@ def draw_axes(s, e_ni):
 
 @njit(cache=True)
 def draw_angular_momenta(s, inertia_n, e_ni, kT, l_ni):
-    """Canonical angular momenta of linear rotors at kT, exactly 2N kT / 2 in total.
+    """Canonical angular momenta of linear rotors at kT, exactly 2 N_rot kT / 2 in total.
 
     Each L is an isotropic normal 3-vector of variance I kT with its axial
     part projected out: an isotropic normal in the plane normal to the axis
     (the canonical distribution of a linear rotor's two rotational degrees
-    of freedom).  The draw is then scaled so that K_rot = N kT exactly.
+    of freedom).  The draw is then scaled so that K_rot = N_rot kT exactly.
+    Atoms (I = 0) get L = 0.
     """
-    n_mol = inertia_n.size
+    n_rot = 0
     kin = 0.0
-    for n in range(n_mol):
+    for n in range(inertia_n.size):
+        if inertia_n[n] == 0.0:
+            l_ni[n, 0] = l_ni[n, 1] = l_ni[n, 2] = 0.0
+            continue
+        n_rot += 1
         sd = math.sqrt(inertia_n[n] * kT)
         axial = 0.0
         for d in range(3):
@@ -236,7 +258,8 @@ def draw_angular_momenta(s, inertia_n, e_ni, kT, l_ni):
         for d in range(3):
             l_ni[n, d] -= axial * e_ni[n, d]
             kin += 0.5 * l_ni[n, d] ** 2 / inertia_n[n]
-    l_ni *= math.sqrt(0.5 * ROTATIONAL_DOF * n_mol * kT / kin)
+    if n_rot > 0:
+        l_ni *= math.sqrt(0.5 * ROTATIONAL_DOF * n_rot * kT / kin)
 
 
 def start_momenta(s, mass_n, inertia_n, e_ni, kT):
@@ -247,6 +270,7 @@ def start_momenta(s, mass_n, inertia_n, e_ni, kT):
     s : ndarray, shape=(4,), uint64
         Random state, advanced.
     mass_n, inertia_n : ndarray, shape=(n,), float64
+        Masses, and moments of inertia (0 for an atom).
     e_ni : ndarray, shape=(n, 3), float64
         Unit axes.
     kT : float
@@ -255,7 +279,7 @@ def start_momenta(s, mass_n, inertia_n, e_ni, kT):
     Returns
     -------
     v_ni, l_ni : ndarray, shape=(n, 3), float64
-        With K_trans = (3N - 3) kT / 2 and K_rot = 2N kT / 2 exactly.
+        With K_trans = (3N - 3) kT / 2 and K_rot = 2 N_rot kT / 2 exactly.
 
     Examples
     --------

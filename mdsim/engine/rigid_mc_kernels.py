@@ -49,17 +49,20 @@ def _coulomb_u(dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t, site_z_
 
 
 @njit(cache=True)
-def molecule_energy(i, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_i, ncell_i, head_c,
-                    next_n, site_start_t, site_z_k, params_kk, form, elec_tm, rc, core2, cells_c):
-    """Energy of molecule i placed at centre (x, y, z) with axis (ex, ey, ez) with all others.
+def molecule_energy(i, ti, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_i, ncell_i,
+                    head_c, next_n, site_start_t, site_z_k, params_kk, form, elec_tm, rc, core2,
+                    cells_c):
+    """Energy of a molecule of type ti placed at centre (x, y, z) with axis (ex, ey, ez) with
+    all molecules but i.
 
-    Molecule i itself (at its stored place) is skipped.  Pairs whose
+    Molecule i itself (at its stored place) is skipped: i is the molecule moved
+    (``ti = type_n[i]``), or -1 for a test molecule that is none of them
+    (:mod:`mdsim.engine.rigid_insertion`).  Pairs whose
     centres are at least ``rc`` apart contribute nothing (plain cut); a
     pair whose centres are closer than sqrt(``core2``) overlaps (+inf: the
     hard core at the centre, :attr:`LinearPairModel.core`).
     ``cells_c`` is scratch space of (2 reach + 1)^3 int64.
     """
-    ti = type_n[i]
     charged_i = elec_tm[ti, 2] != 0.0
     lx, ly, lz = box_i[0], box_i[1], box_i[2]
     hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
@@ -91,10 +94,7 @@ def molecule_energy(i, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_i, n
 @njit(cache=True)
 def _turn(state, ex, ey, ez, max_angle):
     """The axis e turned by a uniform angle in [-max_angle, max_angle] about a random axis."""
-    kz = 2.0 * _rng.uniform(state) - 1.0
-    phi = 2.0 * math.pi * _rng.uniform(state)
-    s = math.sqrt(max(0.0, 1.0 - kz * kz))
-    kx, ky = s * math.cos(phi), s * math.sin(phi)
+    kx, ky, kz = _rng.unit_vector(state)
     theta = (2.0 * _rng.uniform(state) - 1.0) * max_angle
     c, sn = math.cos(theta), math.sin(theta)
     kdot = kx * ex + ky * ey + kz * ez
@@ -162,11 +162,12 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
             xn, yn, zn = xo, yo, zo
             en_x, en_y, en_z = _turn(state, eo_x, eo_y, eo_z, max_angle)
         tried_m[kind] += 1
-        u_new = molecule_energy(i, xn, yn, zn, en_x, en_y, en_z, centre_ni, axis_ni, type_n,
-                                box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
+        ti = type_n[i]
+        u_new = molecule_energy(i, ti, xn, yn, zn, en_x, en_y, en_z, centre_ni, axis_ni,
+                                type_n, box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
                                 params_kk, form, elec_tm, rc, core2, cells_c)
-        u_old = molecule_energy(i, xo, yo, zo, eo_x, eo_y, eo_z, centre_ni, axis_ni, type_n,
-                                box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
+        u_old = molecule_energy(i, ti, xo, yo, zo, eo_x, eo_y, eo_z, centre_ni, axis_ni,
+                                type_n, box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
                                 params_kk, form, elec_tm, rc, core2, cells_c)
         du = u_new - u_old
         if du > 0.0 and _rng.uniform(state) >= math.exp(-beta * du):

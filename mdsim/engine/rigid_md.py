@@ -1,4 +1,4 @@
-"""Molecular dynamics of linear rigid molecules: the sampler.
+"""Molecular dynamics of linear rigid molecules, one kind or a mixture with atoms: the sampler.
 
 The molecules interact through :mod:`mdsim.engine.rigid_pair` (site
 Lennard-Jones or Mie plus axial point quadrupoles, one centre-centre
@@ -8,7 +8,8 @@ energy (the Monte Carlo model) is evaluated beside it at every sample.  The
 steps are the symplectic splitting of :mod:`mdsim.engine.rigid_integrator`
 (half kick, drift with exact free rotation, half kick) with, in
 equilibration or "md-nvt", stochastic velocity rescaling of translations
-(3N - 3 degrees of freedom) and rotations (2N) separately.  A half Verlet
+(3N - 3 degrees of freedom) and rotations (2 N_rot, two for each of the
+N_rot linear rotors; an atom of a mixture has none) separately.  A half Verlet
 list on the centres (:class:`mdsim.engine.neighbours.NeighbourList`) with
 the molecular cut-off is rebuilt when a centre has moved half the skin.
 
@@ -25,9 +26,9 @@ from mdsim.checks import count, positive, positive_array
 from mdsim.engine import rng as _rng
 from mdsim.engine.integrator import run_in_blocks
 from mdsim.engine.neighbours import NeighbourList, choose_skin, wrap_positions
-from mdsim.engine.rigid_integrator import (ROTATIONAL_DOF, draw_axes, kinetic_parts,
-                                           rigid_block, start_momenta, translational_dof)
-from mdsim.engine.rigid_md_steps import rigid_time_step
+from mdsim.engine.rigid_integrator import (draw_axes, kinetic_parts, rigid_block,
+                                           rotational_dof, start_momenta, translational_dof)
+from mdsim.engine.rigid_md_steps import rigid_time_step, temperatures_by_type
 from mdsim.engine.rigid_pair import forces_half
 from mdsim.errors import SettingError, SimulationError, StudyError
 
@@ -37,7 +38,7 @@ METHODS = ("md-nvt", "md-nve")
 
 
 class RigidMDSampler:
-    """Molecular dynamics of linear rigid molecules (NVT by velocity rescaling, or NVE).
+    """Molecular dynamics of linear rigid molecules and atoms (NVT by velocity rescaling, or NVE).
 
     Parameters
     ----------
@@ -52,7 +53,9 @@ class RigidMDSampler:
     box_i : array_like, shape=(3,), sigma
     mass_t, inertia_t : array_like, shape=(n_types,)
         Mass (reduced) and moment of inertia (reduced, m sigma^2) of each
-        molecule type.
+        molecule type: positive for a type that rotates, 0 for an atom
+        (``model.rotates_t`` 0: one site at the centre, no quadrupole), which
+        has no rotational degrees of freedom.
     type_n : array_like, shape=(n,), int, optional
         Molecule types; default all 0.
     temperature : float, optional
@@ -62,7 +65,8 @@ class RigidMDSampler:
     method : {"md-nvt", "md-nve"}
     time_step : float, optional
         Reduced; default the smaller of 0.005 min(1, 1/sqrt(T*)) sqrt(m)
-        (the atomic rule) and ``mdsim.engine.rigid_md_steps.ROTATION_STEP`` / sqrt(2 T* / I).
+        (the atomic rule, the lightest m) and ``mdsim.engine.rigid_md_steps.ROTATION_STEP`` /
+        sqrt(2 T* / I) (the smallest I of a rotor).
     thermostat_time : float
         Relaxation time of the thermostat, reduced.
     skin : float, optional
@@ -80,7 +84,7 @@ class RigidMDSampler:
     :meth:`~mdsim.engine.rigid_model.LinearPairModel.tail`),
     "kinetic_trans", "kinetic_rot", "e_conserved" = (K + U_model +
     E_thermostat) / N, and "temperature_trans" = 2 K_trans / (3N - 3),
-    "temperature_rot" = 2 K_rot / (2N), "pressure_conf" = W / (3V) + p_tail
+    "temperature_rot" = 2 K_rot / (2 N_rot), "pressure_conf" = W / (3V) + p_tail
     (W the molecular virial of :func:`~mdsim.engine.rigid_pair.forces_half`,
     the same for both treatments of the cut-off), "pressure" =
     rho T_kin + pressure_conf, where T_kin is T_trans in NVE and the
@@ -129,9 +133,9 @@ class RigidMDSampler:
         self.n = n
         self.rng = _rng.make_state(seed)
         self.type_n = self._types(type_n, model.n_types)
-        self.mass_n = positive_array("mass_t", mass_t, "molecule masses, reduced")[self.type_n]
-        self.inertia_n = positive_array("inertia_t", inertia_t,
-                                        "moments of inertia, reduced (m sigma^2)")[self.type_n]
+        self.mass_n = self._per_type("mass_t", positive_array(
+            "mass_t", mass_t, "molecule masses, reduced"), model.n_types)[self.type_n]
+        self.inertia_n = self._inertia(inertia_t, model)[self.type_n]
         self.box_i = positive_array("box_i", box_i, "box edges in sigma")
         if self.box_i.shape != (3,):
             raise SettingError("box_i", list(self.box_i), "needs three edges")
@@ -148,7 +152,7 @@ class RigidMDSampler:
         self.r_ni = r
         self.e_ni = self._axes(axis_ni)
         self.v_ni, self.l_ni = self._momenta(momenta)
-        self.nf_trans, self.nf_rot = translational_dof(n), ROTATIONAL_DOF * n
+        self.nf_trans, self.nf_rot = translational_dof(n), rotational_dof(self.inertia_n)
         t_state = temperature if temperature is not None else self.temperature_now()
         self.time_step = self._time_step(time_step, t_state)
         self.thermostat_time = positive("thermostat_time", thermostat_time, "reduced time")
@@ -167,6 +171,27 @@ class RigidMDSampler:
         self.obs[3:] = kinetic_parts(self.v_ni, self.l_ni, self.mass_n, self.inertia_n)
 
     # -- set-up --------------------------------------------------------------------
+    @staticmethod
+    def _per_type(name, values_t, n_types):
+        if values_t.shape != (n_types,):
+            raise SettingError(name, values_t.tolist(), f"needs one value per molecule type "
+                               f"({n_types})")
+        return values_t
+
+    def _inertia(self, inertia_t, model):
+        """Moments of inertia per type: positive for a type that rotates, 0 for an atom."""
+        i_t = np.array(inertia_t, dtype=float).reshape(-1)
+        self._per_type("inertia_t", i_t, model.n_types)
+        rotates = model.rotates_t == 1
+        bad = ~np.isfinite(i_t) | (rotates & ~(i_t > 0.0)) | (~rotates & (i_t != 0.0))
+        if np.any(bad):
+            t = int(np.flatnonzero(bad)[0])
+            raise SettingError("inertia_t", i_t.tolist(), f"type {t} "
+                               + ("rotates and needs a positive moment of inertia (m sigma^2)"
+                                  if rotates[t] else "is an atom (one site at its centre, no "
+                                  "quadrupole), which has no rotation: give 0"))
+        return i_t
+
     def _types(self, type_n, n_types):
         if type_n is None:
             return np.zeros(self.n, dtype=np.int64)
@@ -195,12 +220,15 @@ class RigidMDSampler:
         if v.shape != (self.n, 3) or lm.shape != (self.n, 3) or not (
                 np.all(np.isfinite(v)) and np.all(np.isfinite(lm))):
             raise SettingError("momenta", "(v_ni, l_ni)", f"needs two ({self.n}, 3) finite arrays")
-        if self.temperature is not None and not (np.any(v) and np.any(lm)):
+        atoms = self.inertia_n == 0.0
+        if self.temperature is not None and not (np.any(v) and (np.any(lm) or atoms.all())):
             raise SettingError("momenta", "all zero velocities or angular momenta",
                                "the thermostat rescales each group and cannot start from rest; "
                                "give nonzero momenta or leave them out for a canonical draw")
         axial = np.sum(lm * self.e_ni, axis=1)
-        return v, lm - axial[:, None] * self.e_ni  # a linear rotor has no spin about its axis
+        lm = lm - axial[:, None] * self.e_ni  # a linear rotor has no spin about its axis
+        lm[atoms] = 0.0  # nor an atom any rotation
+        return v, lm
 
     def _time_step(self, time_step, t_state):
         if time_step is not None:
@@ -258,9 +286,15 @@ class RigidMDSampler:
 
     # -- sampling ------------------------------------------------------------------
     def temperature_now(self):
-        """The kinetic temperature 2 K / (5N - 3) of the current momenta."""
+        """The kinetic temperature 2 K / F of the current momenta, F = 3N - 3 + 2 N_rot."""
         kt, kr = kinetic_parts(self.v_ni, self.l_ni, self.mass_n, self.inertia_n)
-        return 2.0 * (kt + kr) / (translational_dof(self.n) + ROTATIONAL_DOF * self.n)
+        return 2.0 * (kt + kr) / (self.nf_trans + self.nf_rot)
+
+    def temperatures_by_type(self):
+        """Kinetic temperatures of each molecule type's translations and rotations now
+        (:func:`mdsim.engine.rigid_md_steps.temperatures_by_type`)."""
+        return temperatures_by_type(self.v_ni, self.l_ni, self.mass_n, self.inertia_n,
+                                    self.type_n, self.model.n_types)
 
     def equilibrate(self, n_steps):
         """``n_steps`` unrecorded steps, the thermostat on when a temperature is set."""
@@ -289,7 +323,7 @@ class RigidMDSampler:
             out["kinetic_trans"][t] = kt / n
             out["kinetic_rot"][t] = kr / n
             out["temperature_trans"][t] = 2.0 * kt / self.nf_trans
-            out["temperature_rot"][t] = 2.0 * kr / self.nf_rot
+            out["temperature_rot"][t] = 2.0 * kr / self.nf_rot if self.nf_rot else math.nan
             out["pressure_conf"][t] = w / (3.0 * self.volume) + self.p_tail
             t_kin = self.temperature if thermostat else out["temperature_trans"][t]
             out["pressure"][t] = n / self.volume * t_kin + out["pressure_conf"][t]

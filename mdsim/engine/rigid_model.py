@@ -186,21 +186,73 @@ class LinearPairModel:
         The charge, dipole and quadrupole energies of neutral molecules
         average to zero over orientations and get no tail.
         """
+        x_t = self._fractions(fraction_t)
+        s_u = s_w = 0.0
+        for a in range(self.n_types):
+            for b in range(self.n_types):
+                i_u, i_w = self._site_tail_integrals(a, b)
+                s_u += x_t[a] * x_t[b] * i_u
+                s_w += x_t[a] * x_t[b] * i_w
+        rho = float(density)
+        return 2.0 * math.pi * rho * s_u, -2.0 * math.pi / 3.0 * rho * rho * s_w
+
+    def insertion_tail(self, density, fraction_t=None, type_a=0):
+        """Long-range tail energy of one inserted molecule of type ``type_a``, epsilon.
+
+        Parameters
+        ----------
+        density : float, 1/sigma^3
+            Number density of molecules.
+        fraction_t : array_like, shape=(n_types,), optional
+            Mole fractions of the molecule types (default: one type).
+        type_a : int
+            Type of the inserted molecule.
+
+        Returns
+        -------
+        float
+            dU_tail,a = 4 pi rho sum_b x_b sum_(k in a, m in b) I_u,km, epsilon.
+
+        Notes
+        -----
+        With U_tail = (2 pi / V) sum_ab N_a N_b S_ab (:meth:`tail`, S_ab the
+        site-site integrals summed over the sites of a and b), one more
+        molecule of type a changes U_tail by (4 pi / V) sum_b N_b S_ab in the
+        thermodynamic limit: twice the tail energy per molecule of a pure
+        fluid (Frenkel and Smit, Understanding Molecular Simulation, 2nd ed.,
+        section 7.2.1, mu_tail = 2 u_tail, applied site by site as
+        :meth:`tail` does).
+
+        Examples
+        --------
+        >>> m = LinearPairModel([([-0.16, 0.16], [LennardJones(1.0, 1.0)] * 2, 0.5)], 3.0)
+        >>> round(float(m.insertion_tail(0.1) / m.tail(0.1)[0]), 12)
+        2.0
+        """
+        x_t = self._fractions(fraction_t)
+        a = int(type_a)
+        if not 0 <= a < self.n_types:
+            raise SettingError("type_a", type_a, f"types are 0 to {self.n_types - 1}")
+        s_u = sum(x_t[b] * self._site_tail_integrals(a, b)[0] for b in range(self.n_types))
+        return float(4.0 * math.pi * float(density) * s_u)
+
+    def _fractions(self, fraction_t):
         x_t = np.ones(1) if fraction_t is None else np.asarray(fraction_t, dtype=float)
         if x_t.shape != (self.n_types,) or abs(x_t.sum() - 1.0) > 1e-9 or np.any(x_t < 0):
             raise SettingError("fraction_t", fraction_t, f"needs {self.n_types} mole fractions "
                                ">= 0 that sum to 1")
+        return x_t
+
+    def _site_tail_integrals(self, a, b):
+        """Sums over the sites k of type a and m of type b of the tail integrals at rc."""
         s_u = s_w = 0.0
         st = self.site_start_t
-        for a in range(self.n_types):
-            for b in range(self.n_types):
-                for k in range(st[a], st[a + 1]):
-                    for m in range(st[b], st[b + 1]):
-                        i_u, i_w = self.site_pair_potential(k, m).tail_integrals(self.rc)
-                        s_u += x_t[a] * x_t[b] * i_u
-                        s_w += x_t[a] * x_t[b] * i_w
-        rho = float(density)
-        return 2.0 * math.pi * rho * s_u, -2.0 * math.pi / 3.0 * rho * rho * s_w
+        for k in range(st[a], st[a + 1]):
+            for m in range(st[b], st[b + 1]):
+                i_u, i_w = self.site_pair_potential(k, m).tail_integrals(self.rc)
+                s_u += i_u
+                s_w += i_w
+        return s_u, s_w
 
     def pair(self, d_i, axis_a_i, axis_b_i, type_a=0, type_b=0):
         """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).

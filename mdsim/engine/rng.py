@@ -11,6 +11,7 @@ Functions
 make_state(seed)      -> ndarray, shape=(4,), uint64
 uniform(state)        -> float in [0, 1)
 normal(state)         -> standard normal variate (Box-Muller, one of the pair)
+unit_vector(state)    -> (x, y, z) uniform on the unit sphere
 """
 import numpy as np
 from numba import njit
@@ -72,3 +73,14 @@ def fill_normal(s, out):
     flat = out.reshape(-1)
     for k in range(flat.size):
         flat[k] = normal(s)
+
+
+@njit(cache=True)
+def unit_vector(s):
+    """A unit vector uniform on the sphere: cos(theta) and phi uniform (Archimedes'
+    hat-box theorem; Allen and Tildesley, Computer Simulation of Liquids, 2nd ed. 2017,
+    appendix E).  Draws cos(theta) first, then phi."""
+    cz = 2.0 * uniform(s) - 1.0
+    phi = 2.0 * np.pi * uniform(s)
+    sn = np.sqrt(max(0.0, 1.0 - cz * cz))
+    return sn * np.cos(phi), sn * np.sin(phi), cz

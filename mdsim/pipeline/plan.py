@@ -147,7 +147,8 @@ def check_route_applies(study, route, cv_ig, T_i):
     The direct route simulates atoms or rigid molecules (whose model sets f), not
     spheres with a larger f; the microcanonical route, and the direct route of
     rigid molecules (whose MD has no vibrations), assume the constant classical
-    heat capacity c_v_ig = (f/2) R of f kinetic degrees of freedom, probed at
+    heat capacity c_v_ig = (f/2) R of f kinetic degrees of freedom (of rigid
+    molecules the model's, a mixture's the mole-fraction mean), probed at
     T_i / 2, T_i and 3 T_i / 2 (where the model is defined).
 
     Raises
@@ -163,6 +164,8 @@ def check_route_applies(study, route, cv_ig, T_i):
     # the rigid molecules' MD has no vibrations: as the microcanonical route, it takes only the
     # model's kinetic (f/2) R
     if route == "microcanonical" or (route == "direct" and study.gas.molecules is not None):
+        if study.gas.molecules is not None:
+            f = study.gas.kinetic_dof
         want = 0.5 * f * R_GAS
         lo, hi = cv_ig.valid_range
         probes = [T for T in (0.5 * T_i, T_i, 1.5 * T_i) if lo <= T <= hi] or [T_i]

@@ -125,7 +125,9 @@ def _quantum_line(study):
 
 def _assumptions(study, cv):
     """What every number of the report assumes."""
+    counts = study.gas.describe_heat_capacity_counts()
     lines = [
+        f"- Ideal-gas heat capacity: {cv.describe()}; {counts}." if counts else
         f"- Ideal-gas heat capacity: {cv.describe()}. A simulation of spherical particles "
         "carries only translation (3/2 R); rotations and vibrations enter only through this "
         "c_v_ig, so a wrong c_v_ig gives a wrong Delta T (3/2 R for a diatomic gas overstates "
@@ -207,8 +209,9 @@ def _results(points, records, rd):
     L += results_table(points, records) + [""]
     L += ["The entropy generated per mole by each route, s(T_f, rho_f) - s(T_i, rho_i): the "
           "virial routes from the truncated series, each simulation route from its own end "
-          "states (residual entropy (u_res - a_res)/T, a_res by test-particle insertion on "
-          "canonical samples at T_i and at the route's T_f; docs/physics.md section 6.2):", ""]
+          "states (residual entropy (u_res - a_res)/T, a_res by test-particle insertion (test "
+          "molecules at random orientations for rigid molecules) on canonical samples at T_i "
+          "and at the route's T_f; docs/physics.md sections 6.2 and 6.3):", ""]
     L += entropy_table(points, records) + [""]
     L += _two_phase_lines(points, records)
     L += ["The particles column gives N of the state point's simulation tasks, per route "

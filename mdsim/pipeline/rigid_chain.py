@@ -25,7 +25,7 @@ from mdsim.sampling.rigid_md_stage import MD_METHODS
 from mdsim.sampling.rigid_stage import METHOD, mixture_system
 
 __all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method",
-           "reduced_rigid_inertia"]
+           "reduced_rigid_inertia", "box_kinetic_dof"]
 
 
 class RigidChain(Chain):
@@ -44,8 +44,11 @@ class RigidChain(Chain):
         system.axis_ni = state["axis_ni"].astype(float)
         if "angular_momenta" in state:  # MD: the run continued with its momenta
             system.l_ni = state["angular_momenta"].astype(float)
-        if "type_n" in state:  # a mixture: the types of the molecules continued
-            system.type_n = np.asarray(state["type_n"], dtype=np.int64)
+        # a mixture: the types of the molecules continued, in the system's order (MD keeps its
+        # own arrays in cell order and writes the types in the system's as molecule_types)
+        types = state.get("molecule_types", state.get("type_n"))
+        if types is not None:
+            system.type_n = np.asarray(types, dtype=np.int64)
         return system
 
     def _settings(self, prev):
@@ -97,9 +100,19 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
 
 
 def reduced_rigid_inertia(job):
-    """The moment of inertia of the task's molecule in the study's reduced units, m sigma^2."""
+    """The moments of inertia of the task's molecules in the study's reduced units, m sigma^2
+    (0 for an atom of a mixture), shape=(n_species,)."""
     from mdsim.sampling.rigid_box import reduced_inertia
-    return reduced_inertia(job.study.gas.molecules[0], job.units)
+    return np.array([reduced_inertia(m, job.units) for m in job.study.gas.molecules])
+
+
+def box_kinetic_dof(job):
+    """F = 3N - 3 + 2 N_rot of the task's box (:meth:`mdsim.study.reader.Study.counts` of
+    each species; N_rot the linear rotors, not the atoms of a mixture)."""
+    from mdsim.sampling.rigid_md_stage import kinetic_dof_total
+    counts_t = job.study.counts(job.n_particles)
+    n_rot = sum(int(c) for c, m in zip(counts_t, job.study.gas.molecules) if m.rotational_dof)
+    return kinetic_dof_total(int(sum(counts_t)), n_rot)
 
 
 def set_up_molecular_task(job):
@@ -122,8 +135,7 @@ def set_up_molecular_task(job):
     job.notes.append(
         f"rigid molecules ({what}): {how.get(job.task.get('route'), mc)}, molecular cut-off "
         f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
-        f"c_v_ig = {gas.kinetic_dof:.4g}/2 R from the model's translations and rotations plus "
-        "the study's vibrational part")
+        f"{gas.describe_heat_capacity_counts()}")
     from mdsim.sampling.rigid_box import electrostatics_note
     note = electrostatics_note(gas.molecules, float(study.reduced_pairs().rc_max))
     if note:

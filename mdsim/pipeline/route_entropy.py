@@ -8,7 +8,11 @@ its final-density chain (the energy route's guess nearest T_f, the
 microcanonical run, the direct route's relaxed box), at T_f itself
 (docs/physics.md section 6.2).  :func:`analysis.sampled_entropy.residual_entropy`
 turns each into s_res, :func:`analysis.sampled_entropy.route_entropy` into
-Delta s.  Where insertion does not serve (a dense liquid), Delta s is
+Delta s.  A gas of rigid molecules inserts test molecules (centre uniform in
+the box, axis uniform on the sphere) of each type in the rigid Monte Carlo
+(method ``rigid-mc-nvt-insertion``) from the last configuration of the
+route's rigid chain, Monte Carlo or MD alike (docs/physics.md section 7a.6).
+Where insertion does not serve (a dense liquid), Delta s is
 reported as not available with the reason; it is never replaced by the
 virial value.
 
@@ -97,17 +101,30 @@ def _end_state(job, label, chain_id, source, T_red, target_s_red):
     (k per particle) the run is sized for.
     """
     from analysis.sampled_entropy import residual_entropy
-    from mdsim.engine.insertion import METHOD, insertion_tail
     last = source.results[-1] if source.results else source.pilot
     system = source.continue_system(last)
+    method, fractions_a, tails_a = _insertion_kind(job, system)
     name = stage_name(label, 0)
     n = reuse_or_clear_stage(job, name, T_red, _samples_needed(source, T_red, target_s_red))
-    stage = job.stage(name, system, METHOD, T_red, n_eq=EQUILIBRATION_SWEEPS,
+    stage = job.stage(name, system, method, T_red, n_eq=EQUILIBRATION_SWEEPS,
                       n_samples=n, interval=1, seed=job.stage_seed(chain_id, 1))
-    tails = [insertion_tail(system, a) for a in range(system.pairs.n_species)]
-    res = residual_entropy(stage.samples, T_red, system.density, system.fractions_a, tails,
+    res = residual_entropy(stage.samples, T_red, system.density, fractions_a, tails_a,
                            system.n_particles)
     return res, stage
+
+
+def _insertion_kind(job, system):
+    """The insertion stage's method, the species' mole fractions in the box and the tail
+    energy of one inserted particle of each: test particles for spheres
+    (:mod:`mdsim.engine.insertion`), test molecules of each type, turned at random, for
+    rigid molecules and the atoms of their mixtures
+    (:mod:`mdsim.sampling.rigid_insertion_stage`)."""
+    if job.study.gas.molecules is not None:
+        from mdsim.sampling.rigid_insertion_stage import METHOD, insertion_tails
+        return METHOD, system.fractions_t, insertion_tails(system)
+    from mdsim.engine.insertion import METHOD, insertion_tail
+    return METHOD, system.fractions_a, [insertion_tail(system, a)
+                                        for a in range(system.pairs.n_species)]
 
 
 def sample_route_entropy(job, res):
@@ -139,10 +156,6 @@ def sample_route_entropy(job, res):
     """
     if job.initial_chain is None or job.final_chain is None:
         return _unavailable("the route kept no chain at one of its end states")
-    if job.study.gas.molecules is not None:
-        return _unavailable("not available for rigid molecules: test-particle insertion is "
-                            "built for spherical particles (a molecule's insertion would also "
-                            "have to sample its orientation)")
     if job.feynman_hibbs:
         return _unavailable("the Feynman-Hibbs potential depends on temperature, and the "
                             "test-particle estimate of the residual entropy is not built for "

@@ -58,7 +58,7 @@ from mdsim.pipeline.record_values import (finite_or_none, one_line, value_stderr
 from mdsim.pipeline.virial_summary import (initial_temperature_warnings, virial_coefficients,
                                            virial_summary)
 from mdsim.study.routes import FINAL_PREFERENCE, SIMULATION_ROUTES, VIRIAL_ROUTES
-from mdsim.study.statepoints import virial_warnings
+from mdsim.study.statepoints import ideal_heat_capacity, virial_warnings
 
 __all__ = ["state_point_record", "run_summary", "best_simulation"]
 
@@ -280,7 +280,10 @@ def run_summary(study, records):
     dict
         ``study`` (name), ``description``, ``study_file``, ``gas`` (name,
         species, mole fractions, molar masses in kg/mol, potential form,
-        ideal heat capacity as given, quantum correction), ``routes``
+        ideal heat capacity as given, what it counts for rigid molecules
+        (``ideal_heat_capacity_counts``: "vibrations", "all motions" or None
+        for spheres, and whether the study gave it), the model the tool
+        used (``ideal_heat_capacity_used``), quantum correction), ``routes``
         (the simulation routes of the study), ``state_points`` (the
         records, by index), ``warnings`` (study-wide: the quantum checks).
     """
@@ -294,6 +297,9 @@ def run_summary(study, records):
                 "molar_masses_kg_mol": [float(m) for m in g.molar_masses_kg_mol],
                 "potential_form": g.pairs_K_angstrom.pots[0][0].name,
                 "ideal_heat_capacity": g.ideal_heat_capacity,
+                "ideal_heat_capacity_counts": g.ideal_heat_capacity_counts,
+                "ideal_heat_capacity_counts_given": bool(g.ideal_heat_capacity_counts_given),
+                "ideal_heat_capacity_used": ideal_heat_capacity(study).describe(),
                 "quantum_correction": bool(g.quantum_correction),
                 "quantum": g.quantum},
         "routes": list(study.simulation.get("routes", [])),

@@ -251,8 +251,8 @@ class RunningTask:
 
     def md_time_step(self, T_red):
         """The MD time step at a reduced temperature for the study's masses (reduced); for
-        rigid molecules also short enough for their rotation
-        (:func:`mdsim.engine.rigid_md_steps.rigid_time_step`)."""
+        rigid molecules also short enough for the rotation of the one with the smallest moment
+        of inertia (:func:`mdsim.engine.rigid_md_steps.rigid_time_step`)."""
         from mdsim.engine.integrator import default_time_step
         masses = self.study.gas.molar_masses_kg_mol / self.study.gas.molar_masses_kg_mol[0]
         if self.study.gas.molecules is not None:

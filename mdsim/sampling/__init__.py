@@ -17,7 +17,9 @@ One state point of a gas of rigid linear molecules: by Monte Carlo
 (:mod:`~mdsim.sampling.rigid_dynamics`), from the box of
 :mod:`~mdsim.sampling.rigid_box`; the same samplers as stages of a task's
 run files: :mod:`~mdsim.sampling.rigid_stage` (Monte Carlo) and
-:mod:`~mdsim.sampling.rigid_md_stage` (MD, thermostatted or at fixed energy).
+:mod:`~mdsim.sampling.rigid_md_stage` (MD, thermostatted or at fixed energy), and
+:mod:`~mdsim.sampling.rigid_insertion_stage` (Monte Carlo with test-molecule insertions,
+for the residual chemical potential and entropy).
 """
 from mdsim.sampling.coexistence import CoexistencePoint, coexistence_point
 from mdsim.sampling.estimates import Estimate, summarise

@@ -50,7 +50,7 @@ from mdsim.sampling.coexistence_cache import (TAIL_TREATMENT, CoexistencePoint, 
 
 __all__ = ["CoexistencePoint", "coexistence_point", "start_densities_guess", "cache_file",
            "cached_points", "potential_fingerprint", "TAIL_TREATMENT",
-           "PROGRESS_BLOCK_CYCLES", "DRIFT_LIMIT"]
+           "PROGRESS_BLOCK_CYCLES", "DRIFT_LIMIT", "MAX_REFUSED_VOLUME_MOVES"]
 
 # Lennard-Jones-shaped start guess of the coexisting densities (only the
 # start of the run; the Gibbs ensemble finds the coexisting states): a
@@ -58,6 +58,17 @@ __all__ = ["CoexistencePoint", "coexistence_point", "start_densities_guess", "ca
 # Thol 2016 curve, critical point T* = 1.31, rho* = 0.31.
 _GUESS_TC, _GUESS_RHOC, _GUESS_DIAMETER, _GUESS_WIDTH = 1.31, 0.31, 0.235, 0.538
 _GUESS_MIN_VAPOUR = 0.003
+# The vapour box starts this many times denser than the guess (at most halfway to
+# the rectilinear diameter): a vapour started at or below its coexisting density
+# (a truncated model's vapour is denser than the full potential's) draws particles
+# out of the liquid until the liquid box is pressed against 2 rc, where volume
+# moves are refused and the liquid is held below its density (measured: 10 to 17 %
+# refused, rho_l 0.016 low at T* 0.80, rc 3, docs/physics.md 3.4a); a vapour
+# started denser only returns a few particles to the liquid.
+_VAPOUR_START_FACTOR = 3.0
+MAX_REFUSED_VOLUME_MOVES = 0.01
+"""Share of the production's volume moves that may be refused (a box would have shrunk below
+2 rc) before the run is refused: above it the liquid box sat at 2 rc and its density is biased."""
 # The liquid box must stay larger than twice the cut-off: it starts with
 # this margin on its volume.
 _LIQUID_BOX_MARGIN = 1.25
@@ -78,17 +89,21 @@ tuning groups, so that the blocks give the numbers of one uninterrupted run)."""
 def start_densities_guess(T_red):
     """Start densities (vapour, liquid) of a Gibbs-ensemble run, Lennard-Jones-shaped.
 
-    Only the start: the run finds the coexisting states.  Close to or above
-    T* = 1.31 both guesses approach rho* = 0.31 (and the run will say that
-    there is no coexistence).
+    Only the start: the run finds the coexisting states.  The vapour starts
+    about three times denser than the coexisting vapour (at most halfway to
+    the mean of the two densities), so that the liquid box is not drained
+    down to twice the cut-off (module comments).  Close to or above T* = 1.31
+    both approach rho* = 0.31 (and the run will say that there is no
+    coexistence).
 
     >>> [round(x, 3) for x in start_densities_guess(0.9)]
-    [0.015, 0.752]
+    [0.044, 0.752]
     """
     t = max(1.0 - positive("T_red", T_red, "reduced kT/epsilon") / _GUESS_TC, 0.02)
     mid = _GUESS_RHOC + _GUESS_DIAMETER * t
     half = _GUESS_WIDTH * t ** 0.325
-    return max(mid - half, _GUESS_MIN_VAPOUR), mid + half
+    vapour = max(mid - half, _GUESS_MIN_VAPOUR)
+    return min(_VAPOUR_START_FACTOR * vapour, 0.5 * (vapour + mid)), mid + half
 
 
 def _start_split(pairs, n_particles, rho_vap, rho_liq):
@@ -191,8 +206,8 @@ def coexistence_point(pairs, T_red, *, n_particles=300, equilibration_cycles=300
     path = None if cache_dir is None else cache_file(cache_dir, pairs, T_red, *run)
     if path is not None and (cached := read_cached(path)) is not None:
         return cached
-    sampler, out = _run_gibbs(pairs, T_red, run, start_densities, progress)
-    point = _summarise(out, sampler, T_red, run[1], run[2])
+    sampler, out, pressed = _run_gibbs(pairs, T_red, run, start_densities, progress)
+    point = _summarise(out, sampler, T_red, run[1], run[2], pressed)
     if path is not None:
         write_cached(path, point)
     return point
@@ -214,7 +229,7 @@ def _checked_run(n_particles, equilibration_cycles, production_cycles, sample_in
 
 
 def _run_gibbs(pairs, T_red, run, start_densities, progress=None):
-    """(sampler, its run output): equilibrate, then produce, from the start densities.
+    """(sampler, its run output, (volume moves, refused) of the production): equilibrate, then produce, from the start densities.
 
     The run goes in blocks of about :data:`PROGRESS_BLOCK_CYCLES` cycles (the
     same numbers as one piece: the random stream continues, and the tuning
@@ -240,6 +255,7 @@ def _run_gibbs(pairs, T_red, run, start_densities, progress=None):
         sampler.equilibrate(m)
         done += m
         report(done)
+    moves_before = (sampler.counters["volume_moves"], sampler.volume_moves_refused)
     per_block = max(1, PROGRESS_BLOCK_CYCLES // sample_interval)
     parts = []
     while sum(len(p["u_full"]) for p in parts) < n_samples:
@@ -247,7 +263,22 @@ def _run_gibbs(pairs, T_red, run, start_densities, progress=None):
         parts.append(sampler.run(m, sample_interval))
         done += m * sample_interval
         report(done)
-    return sampler, {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
+    pressed = (sampler.counters["volume_moves"] - moves_before[0],
+               sampler.volume_moves_refused - moves_before[1])
+    return sampler, {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}, pressed
+
+
+def _check_not_pressed(sampler, pressed, T_red):
+    """Raise ConvergenceError when more than MAX_REFUSED_VOLUME_MOVES of the production's volume
+    moves (``pressed``: tried, refused) were refused (a box held at twice the cut-off: its
+    density is biased)."""
+    tried, refused = pressed
+    if tried and refused > MAX_REFUSED_VOLUME_MOVES * tried:
+        raise ConvergenceError(
+            f"Gibbs ensemble at T_red = {T_red:g}: {refused} of {tried} volume moves of the "
+            f"production were refused because a box would have shrunk below twice the cut-off "
+            f"({2.0 * sampler.rc:g} sigma): the liquid box is held there and its density is "
+            "biased; use more particles (n_particles) or a shorter cut-off")
 
 
 def _check_settled(x_t, name, T_red):
@@ -264,7 +295,7 @@ def _check_settled(x_t, name, T_red):
             "standard errors apart); run longer (more equilibration_cycles and production_cycles)")
 
 
-def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles):
+def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles, pressed):
     vap, liq, liq_t = _phase_series(out)
     swaps = np.count_nonzero(np.diff(liq_t)) / max(liq_t.size - 1, 1)
     if swaps > _MAX_SWAPS:
@@ -277,6 +308,7 @@ def _summarise(out, sampler, T_red, equilibration_cycles, production_cycles):
         raise StudyError(
             f"Gibbs ensemble at T_red = {T_red:g}: the vapour box emptied; use more particles "
             "(n_particles) so that the vapour holds at least a few")
+    _check_not_pressed(sampler, pressed, T_red)
     keys = (("rho", "rho"), ("u_full", "u"), ("pressure", "p"))
     phases = (("vap", vap), ("liq", liq))
     # the whole production, after the tuned equilibration (production_mean: no cut)

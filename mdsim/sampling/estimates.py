@@ -15,7 +15,8 @@ from mdsim.errors import ConvergenceError
 __all__ = ["Estimate", "summarise", "CANONICAL"]
 
 #: methods with a set temperature (the canonical ensemble)
-CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion", "rigid-mc-nvt", "rigid-md-nvt")
+CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion", "rigid-mc-nvt", "rigid-mc-nvt-insertion",
+             "rigid-md-nvt")
 
 
 @dataclasses.dataclass(frozen=True)

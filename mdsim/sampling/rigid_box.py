@@ -39,8 +39,10 @@ class RigidBox:
         kT/epsilon.
     units : mdsim.units.ReducedUnits
     model : mdsim.engine.rigid_model.LinearPairModel
-    inertia : float
-        Moment of inertia of the (first) linear rotor, m sigma^2.
+    mass_t : ndarray, shape=(n_types,)
+        Molecule masses in units of the first type's.
+    inertia_t : ndarray, shape=(n_types,), m sigma^2
+        Moments of inertia of the linear rotors (0 for an atom).
     box_i : ndarray, shape=(3,), sigma
     centre_ni, axis_ni : ndarray, shape=(n, 3)
         Centres on a simple cubic lattice, axes uniform on the sphere.
@@ -53,15 +55,21 @@ class RigidBox:
     temperature: float
     units: ReducedUnits
     model: LinearPairModel
-    inertia: float
+    mass_t: np.ndarray
+    inertia_t: np.ndarray
     box_i: np.ndarray
     centre_ni: np.ndarray
     axis_ni: np.ndarray
     type_n: np.ndarray = None
 
+    @property
+    def inertia(self):
+        """The moment of inertia of the first type, m sigma^2."""
+        return float(self.inertia_t[0])
+
 
 def reduced_inertia(molecule, units):
-    """The moment of inertia of a linear rotor in reduced units, m sigma^2.
+    """The moment of inertia of a linear rotor in reduced units, m sigma^2 (0 for an atom).
 
     >>> from mdsim.engine.potentials import LennardJones
     >>> from analysis.molecules import RigidMolecule, Site
@@ -168,8 +176,8 @@ def mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed
     ...                           Site(lj, (0, 0, 0.5232), 0.0140067)])
     >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.039948)])
     >>> b = mixture_box([n2, ar], [50, 14], 300.0, 4000.0, 3.0, seed=1)
-    >>> np.bincount(b.type_n).tolist(), b.model.rotates_t.tolist()
-    ([50, 14], [1, 0])
+    >>> np.bincount(b.type_n).tolist(), b.model.rotates_t.tolist(), float(b.inertia_t[1])
+    ([50, 14], [1, 0], 0.0)
     """
     T = positive("temperature_K", temperature_K, "a temperature in K")
     rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
@@ -185,14 +193,15 @@ def mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed
                             positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted,
                             core=max(centre_core(m, site.sigma) for m in molecules),
                             coulomb=COULOMB)
-    inertia = reduced_inertia(molecules[0], units)
+    mass_t = np.array([m.molar_mass_kg_mol for m in molecules]) / molecules[0].molar_mass_kg_mol
+    inertia_t = np.array([reduced_inertia(m, units) for m in molecules])
     box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, axis_ni = lattice_start(n, box_i, seed)
     type_n = np.repeat(np.arange(len(counts_t), dtype=np.int64), counts_t)
     if len(counts_t) > 1:  # a pure gas keeps its start (no draw)
         type_n = np.random.default_rng([*np.atleast_1d(seed).tolist(), 1]).permutation(type_n)
-    return RigidBox(T, rho, units.temperature_to_reduced(T), units, model, inertia, box_i,
-                    centre_ni, axis_ni, type_n)
+    return RigidBox(T, rho, units.temperature_to_reduced(T), units, model, mass_t, inertia_t,
+                    box_i, centre_ni, axis_ni, type_n)
 
 
 def electrostatics_note(molecules, cutoff):

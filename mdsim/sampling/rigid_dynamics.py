@@ -1,15 +1,16 @@
-"""One state point of a gas of rigid linear molecules by molecular dynamics.
+"""One state point of a gas of rigid linear molecules (or their mixture with atoms) by
+molecular dynamics.
 
 :func:`sample_rigid_state_md` puts ``n_molecules`` molecules of a
-:class:`~analysis.molecules.RigidMolecule` in a cubic box at the density
-asked for, equilibrates with the thermostat (stochastic velocity rescaling
+:class:`~analysis.molecules.RigidMolecule` (or of a mixture's types) in a
+cubic box at the density asked for, equilibrates with the thermostat (stochastic velocity rescaling
 of translations and rotations), and produces either canonically
 ("md-nvt", the averages at the temperature asked for) or
 microcanonically ("md-nve", the averages at the run's own temperature,
 which is reported, and the drift of the conserved energy in K per ns per
 molecule).  Means and standard errors come from the statistical
 inefficiency of each series (:mod:`analysis.stats`).  Reduced units
-inside: epsilon and sigma of the molecule's first site.
+inside: epsilon and sigma of the first molecule's first site.
 """
 import dataclasses
 
@@ -19,7 +20,7 @@ from mdsim.engine.rigid_md import METHODS, RigidMDSampler
 from mdsim.engine.rigid_md_steps import drift_K_per_ns
 from mdsim.errors import SettingError
 from mdsim.numbers import value_with_error
-from mdsim.sampling.rigid_box import rigid_box
+from mdsim.sampling.rigid_box import mixture_box, rigid_box
 
 __all__ = ["RigidDynamicsEstimate", "sample_rigid_state_md"]
 
@@ -34,14 +35,14 @@ class RigidDynamicsEstimate:
         "md-nvt" or "md-nve" (the production).
     temperature_K, temperature_stderr : float
         The target (NVT, error 0) or the run's kinetic temperature over
-        5N - 3 degrees of freedom (NVE).
+        F = 3N - 3 + 2 N_rot degrees of freedom (NVE).
     density_mol_m3 : float
     u_res_J_mol, u_res_stderr : float
         Residual internal energy per mole, plain cut plus tail.
     pressure_Pa, pressure_stderr : float
     temperature_trans_K, temperature_trans_stderr, temperature_rot_K, temperature_rot_stderr
         Kinetic temperatures of the translations (3N - 3 degrees of
-        freedom) and of the rotations (2N).
+        freedom) and of the rotations (2 N_rot, the linear rotors').
     drift_K_per_ns : float
         Slope of the conserved energy per molecule (NVE); NaN for NVT.
     time_step_s : float
@@ -85,14 +86,15 @@ class RigidDynamicsEstimate:
 
 def sample_rigid_state_md(molecule, temperature_K, density_mol_m3, *, method="md-nvt",
                           n_molecules=256, cutoff=5.0, equilibration_steps=2000, samples=200,
-                          interval=20, seed=1):
+                          interval=20, seed=1, counts_t=None):
     """u_res, p and the kinetic temperatures of a gas of linear rigid molecules by MD.
 
     Parameters
     ----------
-    molecule : RigidMolecule
+    molecule : RigidMolecule or list of RigidMolecule
         Linear, two or more sites, optional site charges or axial point dipole
-        and quadrupole.
+        and quadrupole; a list is a mixture of such molecules and atoms, with
+        ``counts_t``.
     temperature_K : float, K
         The thermostat's target (equilibration, and NVT production).
     density_mol_m3 : float, mol/m^3
@@ -104,6 +106,8 @@ def sample_rigid_state_md(molecule, temperature_K, density_mol_m3, *, method="md
     equilibration_steps, samples, interval : int
         Thermostatted steps first; recorded samples; steps between them.
     seed : int
+    counts_t : list of int, optional
+        Molecules of each type of a mixture (then ``n_molecules`` is their sum).
 
     Returns
     -------
@@ -123,11 +127,16 @@ def sample_rigid_state_md(molecule, temperature_K, density_mol_m3, *, method="md
     """
     if method not in METHODS:
         raise SettingError("method", method, f"molecular dynamics offers {', '.join(METHODS)}")
-    box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
-                    shifted=True)
+    if counts_t is None:
+        box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
+                        shifted=True)
+    else:
+        box = mixture_box(molecule, counts_t, temperature_K, density_mol_m3, cutoff, seed,
+                          shifted=True)
     T, rho, n, units = box.temperature_K, box.density_mol_m3, len(box.centre_ni), box.units
-    md = RigidMDSampler(box.model, box.centre_ni, box.axis_ni, box.box_i, mass_t=[1.0],
-                        inertia_t=[box.inertia], temperature=box.temperature, seed=[seed, 2])
+    md = RigidMDSampler(box.model, box.centre_ni, box.axis_ni, box.box_i, mass_t=box.mass_t,
+                        inertia_t=box.inertia_t, type_n=box.type_n, temperature=box.temperature,
+                        seed=[seed, 2])
     md.equilibrate(count("equilibration_steps", equilibration_steps, 0))
     md.set_method(method)
     out = md.run(samples, interval)

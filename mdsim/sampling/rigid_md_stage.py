@@ -22,10 +22,11 @@ difference and by the integrator's drift; both are in the samples (the
 route corrects for them, :mod:`mdsim.pipeline.routes.rigid_microcanonical`).
 A run continuing a stage's momenta keeps them as they are.
 
-Reduced units of the molecule's first site.  Run-file ``positions`` and
-``velocities`` are the molecular centres and their velocities in the order
-the system gave them; the checkpoint also holds ``axis_ni`` and
-``angular_momenta`` in that order, from which a continued stage starts.
+Reduced units of the first molecule's first site (a mixture's masses and
+moments of inertia in them).  Run-file ``positions`` and ``velocities`` are
+the molecular centres and their velocities in the order the system gave
+them; the checkpoint also holds ``axis_ni``, ``angular_momenta`` and
+``molecule_types`` in that order, from which a continued stage starts.
 """
 import copy
 
@@ -41,13 +42,15 @@ MD_METHODS = {"rigid-md-nvt": "md-nvt", "rigid-md-nve": "md-nve"}
 """The stage methods of rigid-molecule MD and the engine method of each."""
 
 
-def kinetic_dof_total(n_molecules):
-    """Kinetic degrees of freedom of n linear molecules in MD: 3N - 3 + 2N (momentum conserved).
+def kinetic_dof_total(n_molecules, n_rotors=None):
+    """Kinetic degrees of freedom of N molecules in MD, N_rot of them linear rotors (default
+    all) and the rest atoms: 3N - 3 + 2 N_rot (the total momentum conserved).
 
-    >>> kinetic_dof_total(128)
-    637
+    >>> kinetic_dof_total(128), kinetic_dof_total(200, 198)
+    (637, 993)
     """
-    return translational_dof(n_molecules) + ROTATIONAL_DOF * int(n_molecules)
+    n_rot = int(n_molecules) if n_rotors is None else int(n_rotors)
+    return translational_dof(n_molecules) + ROTATIONAL_DOF * n_rot
 
 
 class RigidMDStageSampler:
@@ -56,7 +59,9 @@ class RigidMDStageSampler:
     Parameters
     ----------
     system : RigidSystem
-        Its model is run in its shifted-energy form (the dynamics conserve
+        One kind of linear molecule, or a mixture of them and atoms, with
+        the masses and moments of inertia of its types.  Its model is run in
+        its shifted-energy form (the dynamics conserve
         that energy; ``u_full`` stays the plain cut's).  Its ``v_ni`` and
         ``l_ni`` (velocities, angular momenta), when set, start the run;
         otherwise momenta are drawn (and, for NVE, set to ``energy`` after
@@ -72,7 +77,7 @@ class RigidMDStageSampler:
         "rigid-md-nve" start (required for one).
     seed : int or list of int
     method : {"rigid-md-nvt", "rigid-md-nve"}
-    time_step, thermostat_time : float, optional
+    time_step, thermostat_time, skin : float, optional
         Reduced; defaults of :class:`~mdsim.engine.rigid_md.RigidMDSampler`.
 
     Examples
@@ -92,7 +97,7 @@ class RigidMDStageSampler:
     """
 
     def __init__(self, system, temperature=None, energy=None, seed=0, method="rigid-md-nvt",
-                 time_step=None, thermostat_time=0.5, start_temperature=None):
+                 time_step=None, thermostat_time=0.5, start_temperature=None, skin=None):
         if method not in MD_METHODS:
             raise StudyError(f"setting 'method' = {method!r}: rigid-molecule MD offers "
                              f"{', '.join(MD_METHODS)}")
@@ -105,9 +110,6 @@ class RigidMDStageSampler:
             raise SettingError("method", method, "rigid-md-nvt takes a temperature, "
                                "rigid-md-nve an energy per molecule or the system's momenta "
                                "(not a temperature)")
-        if system.model.n_types > 1:
-            raise SettingError("system", f"{system.model.n_types} kinds of molecule", "rigid "
-                               "MD takes one kind of molecule; sample a mixture by rigid-mc-nvt")
         self.method, self.system = method, system
         self.model = copy.copy(system.model)
         self.model.shifted = 1  # the dynamics need the shifted energy (mdsim.engine.rigid_md)
@@ -120,11 +122,12 @@ class RigidMDStageSampler:
                                    "equilibrates with the thermostat first: give kT/epsilon")
             temperature = start_temperature
         self.md = RigidMDSampler(self.model, system.r_ni, system.axis_ni, system.box_i,
-                                 mass_t=[1.0], inertia_t=[float(system.inertia)],
+                                 mass_t=system.mass_t, inertia_t=system.inertia_t,
+                                 type_n=system.type_n,
                                  temperature=temperature, seed=seed,
                                  method="md-nvt" if self.fresh_nve else MD_METHODS[method],
                                  time_step=time_step, thermostat_time=thermostat_time,
-                                 momenta=momenta)
+                                 skin=skin, momenta=momenta)
 
     def equilibrate(self, n_steps):
         """Unrecorded steps: thermostatted for NVT and a fresh NVE start (then set to the
@@ -144,17 +147,20 @@ class RigidMDStageSampler:
                 f"rigid-molecule MD at fixed energy: the equilibrated configuration holds "
                 f"{u_full:.5g} epsilon per molecule of potential energy, not below the energy "
                 f"asked for ({self.energy:.5g}); use the energy route at this state")
-        md.scale_momenta(np.sqrt(n * kinetic / (0.5 * kinetic_dof_total(n) * md.temperature_now())))
+        md.scale_momenta(np.sqrt(n * kinetic / (0.5 * self.kinetic_dof() * md.temperature_now())))
         md.set_method("md-nve")
         self.fresh_nve = False
 
+    def kinetic_dof(self):
+        """F = 3N - 3 + 2 N_rot of the run (:func:`kinetic_dof_total`)."""
+        return self.md.nf_trans + self.md.nf_rot
+
     def run(self, n_samples, interval):
         """Production samples: the engine's series (:class:`RigidMDSampler` Notes) plus
-        "kinetic" (K / N, translations and rotations) and "temperature_inst" (2K / (5N - 3))."""
+        "kinetic" (K / N, translations and rotations) and "temperature_inst" (2K / F)."""
         out = self.md.run(n_samples, interval)
         out["kinetic"] = out["kinetic_trans"] + out["kinetic_rot"]
-        out["temperature_inst"] = (2.0 * self.md.n / kinetic_dof_total(self.md.n)) \
-            * out["kinetic"]
+        out["temperature_inst"] = (2.0 * self.md.n / self.kinetic_dof()) * out["kinetic"]
         return out
 
     def positions(self):
@@ -166,11 +172,16 @@ class RigidMDStageSampler:
         return self.md.momenta()[0]
 
     def get_state(self):
-        """The engine's state (bit for bit) plus the axes and angular momenta in the system's
-        order, from which a continued stage starts."""
-        state = self.md.get_state()
-        state["axis_ni"] = self.md.configuration()[1]
-        state["angular_momenta"] = self.md.momenta()[1]
+        """The engine's state (bit for bit; its arrays in the engine's cell order) plus the
+        axes, angular momenta and molecule types in the system's order, from which a continued
+        stage starts."""
+        md = self.md
+        state = md.get_state()
+        state["axis_ni"] = md.configuration()[1]
+        state["angular_momenta"] = md.momenta()[1]
+        types = np.empty_like(md.type_n)
+        types[md.id_n] = md.type_n
+        state["molecule_types"] = types
         return state
 
     def set_state(self, state):
@@ -183,7 +194,7 @@ class RigidMDStageSampler:
         return {"method": self.method, "temperature_red": float(md.temperature or np.nan),
                 "n_particles": int(md.n), "density_red": float(self.system.density),
                 "dof_per_particle": self.dof_per_particle,
-                "kinetic_dof_total": int(kinetic_dof_total(md.n)),
+                "kinetic_dof_total": int(self.kinetic_dof()),
                 "time_step_red": float(md.time_step),
                 "thermostat_time_red": float(md.thermostat_time), "skin_red": float(md.skin),
                 "cutoff_red": float(md.model.rc), "u_tail_red": float(md.u_tail),

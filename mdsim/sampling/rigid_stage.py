@@ -44,9 +44,10 @@ class RigidSystem:
         of a mixture the largest, as ``[gas] dof_per_particle``).
     type_n : ndarray, shape=(n,), int64, optional
         The type of each molecule (default: all type 0).
-    inertia : float, m sigma^2
-        Moment of inertia of the (first) linear rotor (molecular dynamics,
-        which takes one kind of molecule).
+    mass_t : ndarray, shape=(n_types,), optional
+        Masses of the types in units of the first's (molecular dynamics).
+    inertia_t : ndarray, shape=(n_types,), m sigma^2, optional
+        Moments of inertia of the types, 0 for an atom (molecular dynamics).
     v_ni, l_ni : ndarray, shape=(n, 3), optional
         Velocities and angular momenta to start molecular dynamics from (a
         continued stage); None for a fresh start.
@@ -58,7 +59,8 @@ class RigidSystem:
     axis_ni: np.ndarray
     dof_per_particle: int
     type_n: np.ndarray = None
-    inertia: float = float("nan")
+    mass_t: np.ndarray = None
+    inertia_t: np.ndarray = None
     v_ni: np.ndarray = None
     l_ni: np.ndarray = None
 
@@ -71,12 +73,22 @@ class RigidSystem:
         return int(self.r_ni.shape[0])
 
     @property
+    def n_rotors(self):
+        """The molecules that rotate (linear rotors; not the atoms of a mixture)."""
+        return int(np.count_nonzero(self.model.rotates_t[self.type_n]))
+
+    @property
     def volume(self):
         return float(np.prod(self.box_i))
 
     @property
     def density(self):
         return self.n_particles / self.volume
+
+    @property
+    def fractions_t(self):
+        """Mole fractions of the model's molecule types in the box, shape=(n_types,)."""
+        return np.bincount(self.type_n, minlength=self.model.n_types) / self.n_particles
 
 
 def rigid_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed):
@@ -107,7 +119,7 @@ def rigid_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, s
     """
     box = rigid_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
     return RigidSystem(box.model, box.box_i, box.centre_ni, box.axis_ni,
-                       int(molecule.kinetic_dof), inertia=box.inertia)
+                       int(molecule.kinetic_dof), mass_t=box.mass_t, inertia_t=box.inertia_t)
 
 
 def mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed):
@@ -130,7 +142,7 @@ def mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cutoff, s
     box = mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed)
     return RigidSystem(box.model, box.box_i, box.centre_ni, box.axis_ni,
                        max(int(m.kinetic_dof) for m in molecules), box.type_n,
-                       inertia=box.inertia)
+                       mass_t=box.mass_t, inertia_t=box.inertia_t)
 
 
 class RigidMCStageSampler:

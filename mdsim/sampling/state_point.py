@@ -4,7 +4,9 @@
 sampler protocol (``MCSampler`` for "mc-nvt"/"mc-nve", ``MDSampler`` for
 "md-nvt"/"md-nve", ``InsertionSampler`` for "mc-nvt-insertion",
 :class:`~mdsim.sampling.rigid_stage.RigidMCStageSampler` for rigid molecules,
-"rigid-mc-nvt", and :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler`,
+"rigid-mc-nvt", with test-molecule insertions
+:class:`~mdsim.sampling.rigid_insertion_stage.RigidInsertionStageSampler`,
+"rigid-mc-nvt-insertion", and :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler`,
 "rigid-md-nvt"/"rigid-md-nve"), streams the samples into one HDF5 run file
 (:mod:`mdsim.sampling.store`) with a checkpoint after every block, and resumes an
 interrupted run from its ``NAME.h5.part`` file.  Because the samplers are
@@ -37,6 +39,8 @@ METHODS = {
     "md-nve": ("mdsim.engine.md", "MDSampler"),
     "mc-nvt-insertion": ("mdsim.engine.insertion", "InsertionSampler"),
     "rigid-mc-nvt": ("mdsim.sampling.rigid_stage", "RigidMCStageSampler"),
+    "rigid-mc-nvt-insertion": ("mdsim.sampling.rigid_insertion_stage",
+                               "RigidInsertionStageSampler"),
     "rigid-md-nvt": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
     "rigid-md-nve": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
 }

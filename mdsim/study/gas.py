@@ -13,7 +13,7 @@ import numpy as np
 from mdsim.errors import StudyError
 from mdsim.engine.potentials import PairMatrix
 from mdsim.study.fitted_range import check_fitted_range
-from mdsim.study.heat_capacity_spec import check_heat_capacity
+from mdsim.study.heat_capacity_spec import check_heat_capacity, heat_capacity_counts
 from mdsim.study.molecule import (MOLECULE_FORM, check_dof, mean_kinetic_dof, read_c9,
                                   read_molecule, species_molecules)
 from mdsim.study.potential import MIXING_KEYS, build_potential, check_k_ij
@@ -67,6 +67,13 @@ class Gas:
     fitted_range_K : (float, float) or None
         ``[potential] fitted_range``: the temperatures the potential was
         fitted over (:mod:`mdsim.study.fitted_range`), or None.
+    ideal_heat_capacity_counts : str or None
+        Rigid molecules: "vibrations" (``ideal_heat_capacity`` is the
+        vibrational part) or "all motions" (the whole c_v_ig); None for
+        spheres (always the whole c_v_ig).
+    ideal_heat_capacity_counts_given : bool
+        Whether the study gave ``ideal_heat_capacity_counts`` (else the
+        default of linear molecules, "vibrations").
     """
 
     name: str
@@ -83,6 +90,8 @@ class Gas:
     molecules: list = None
     three_body_c9_K_A9: float = 0.0
     fitted_range_K: tuple = None
+    ideal_heat_capacity_counts: str = None
+    ideal_heat_capacity_counts_given: bool = False
 
     @property
     def kinetic_dof(self):
@@ -106,6 +115,22 @@ class Gas:
             return spin_components("bose", ortho_fraction=HYDROGEN_SPIN_ISOMERS[self.nuclear_spin])
         spin = eval_fraction(self.nuclear_spin)
         return spin_components(self.statistics, internal_states=int(round(2.0 * spin + 1.0)))
+
+    def describe_heat_capacity_counts(self):
+        """One line: what ideal_heat_capacity holds for rigid molecules ("" for spheres)."""
+        counts = self.ideal_heat_capacity_counts
+        if counts is None:
+            return ""
+        how = ("given" if self.ideal_heat_capacity_counts_given
+               else "the default for linear molecules")
+        kinetic = f"{self.kinetic_dof:.4g}/2 R"
+        if counts == "all motions":
+            return (f'ideal_heat_capacity_counts = "all motions" ({how}): the study gives the '
+                    "whole c_v_ig, of which the model's translations and rotations carry "
+                    f"{kinetic}")
+        return (f'ideal_heat_capacity_counts = "vibrations" ({how}): the study gives the '
+                f"vibrational part, to which the tool adds the model's {kinetic} of translations "
+                "and rotations")
 
     def describe_quantum(self):
         """One line: the quantum treatment of the virial routes."""
@@ -318,13 +343,15 @@ def read_gas(ctx, doc, base_dir):
             ctx.fail("gas", "quantum", gas["quantum"], "not yet supported for rigid molecules",
                      "", "remove it (the rigid N2, O2 and CO2 models are classical)")
         dof = check_dof(ctx, doc["gas"], molecules)
+    counts, counts_given = heat_capacity_counts(ctx, doc["gas"], molecules)
     return Gas(name=gas.get("name") or sp.names[0], species_names=sp.names,
                pairs_K_angstrom=pairs, fractions=fractions,
                molar_masses_kg_mol=np.array(sp.masses, dtype=float),
                quantum=gas["quantum"], statistics=gas["statistics"],
                nuclear_spin=gas["nuclear_spin"],
                ideal_heat_capacity=check_heat_capacity(ctx, gas["ideal_heat_capacity"], base_dir,
-                                                       kinetic),
+                                                       kinetic, counts),
+               ideal_heat_capacity_counts=counts, ideal_heat_capacity_counts_given=counts_given,
                dof_per_particle=dof,
                units=ReducedUnits(p0.epsilon, p0.sigma * ANGSTROM, sp.masses[0]),
                molecules=molecules, three_body_c9_K_A9=sp.c9,

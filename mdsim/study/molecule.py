@@ -176,15 +176,15 @@ MOLECULE_ROUTES = ("energy", "microcanonical", "direct")
 def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
-    A gas of rigid molecules is simulated by the energy route (canonical
-    Monte Carlo of linear molecules, site Lennard-Jones or Mie with site
-    charges, or with an axial point dipole and quadrupole, one kind or a
-    mixture with atoms; or thermostatted
-    molecular dynamics of one kind, ``sampler = "md"``), the microcanonical
-    route (its final state by fixed-energy molecular dynamics) and the direct
-    route (molecular dynamics of the expansion), those two for one kind of
-    linear molecule; a non-linear molecule is refused (the virial routes
-    take it).  Spheres pass.
+    A gas of rigid molecules (linear molecules with site Lennard-Jones or
+    Mie and site charges, or an axial point dipole and quadrupole, one kind
+    or a mixture with atoms) is simulated by the energy route (canonical
+    Monte Carlo, or thermostatted molecular dynamics with ``sampler =
+    "md"``), the microcanonical route (its final state by fixed-energy
+    molecular dynamics) and the direct route (molecular dynamics of the
+    expansion); a non-linear molecule is refused (the virial routes take
+    it), and so are site charges together with point multipoles.  Spheres
+    pass.
 
     Parameters
     ----------
@@ -196,7 +196,7 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         (which a gas of molecules cannot give).
     sampler : str
         ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo for rigid
-        molecules, "md" thermostatted molecular dynamics of one kind of molecule).
+        molecules, "md" thermostatted molecular dynamics).
 
     Raises
     ------
@@ -230,9 +230,3 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         raise StudyError(f"{where}: {who}; the simulation has no charge-multipole "
                          "energy (nor have the virial routes): describe every molecule by site "
                          "charges, or every molecule by point dipoles and quadrupoles")
-    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
-    if gas.n_species > 1 and by_md:
-        raise StudyError(f"{where}: {' and '.join(by_md)}: a mixture with rigid molecules is "
-                         "simulated by the energy route's canonical Monte Carlo only (the rigid "
-                         'molecular dynamics takes one kind of molecule); use routes = ["energy"] '
-                         'with sampler "auto" or "mc", or the virial routes, routes = []')

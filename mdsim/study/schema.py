@@ -20,8 +20,9 @@ from mdsim.study.routes import DEFAULT_ROUTES, SIMULATION_ROUTES
 
 __all__ = ["ANGSTROM", "NO_DEFAULT", "Key", "SCHEMA", "TOP_LEVEL", "PIPELINE_TABLES",
            "RENAMED_KEYS", "REMOVED_KEYS", "FORMS", "SITE_FORMS", "QUANTUM_LEVELS", "STATISTICS",
-           "NUCLEAR_SPINS", "SAMPLERS", "QUANTUM_POTENTIALS", "CLUSTER_SYSTEMS", "TEMPERATURE_RANGE_K",
-           "PRESSURE_RANGE_PA", "DENSITY_RANGE_MOL_M3", "VOLUME_RATIO_MAX", "MAX_SWEEP_VALUES", "SEED_MAX"]
+           "NUCLEAR_SPINS", "HEAT_CAPACITY_COUNTS", "SAMPLERS", "QUANTUM_POTENTIALS",
+           "CLUSTER_SYSTEMS", "TEMPERATURE_RANGE_K", "PRESSURE_RANGE_PA", "DENSITY_RANGE_MOL_M3",
+           "VOLUME_RATIO_MAX", "MAX_SWEEP_VALUES", "SEED_MAX"]
 
 #: One angstrom in metres (potential lengths are kept in angstrom).
 ANGSTROM = 1e-10
@@ -92,6 +93,8 @@ QUANTUM_LEVELS = ("classical", "first-order", "second-order", "exact")
 STATISTICS = ("boltzmann", "bose", "fermi")
 #: [gas] nuclear_spin: I as text, or hydrogen's spin-isomer choice.
 NUCLEAR_SPINS = ("0", "1/2", "1", "3/2", "2", "5/2", "3", "normal-hydrogen", "para-hydrogen")
+#: [gas] ideal_heat_capacity_counts: what the ideal_heat_capacity of rigid molecules holds.
+HEAT_CAPACITY_COUNTS = ("vibrations", "all motions")
 SAMPLERS = ("auto", "mc", "md")
 QUANTUM_POTENTIALS = ("none", "feynman-hibbs")
 CLUSTER_SYSTEMS = ("slurm", "pbs")
@@ -121,6 +124,12 @@ _GAS_TABLES = {
         "molar_mass": Key("molar_mass", low=0.5e-3, high=1.0, example='"39.948 g/mol"', **_MASS),
         "ideal_heat_capacity": Key("heat_capacity", required=True, example='"1.5 R"',
                                    help="the ideal-gas c_v (translation plus internal modes)"),
+        "ideal_heat_capacity_counts": Key(
+            "string", choices=HEAT_CAPACITY_COUNTS, example='"all motions"',
+            help="rigid molecules only: \"vibrations\" when ideal_heat_capacity is the "
+            "vibrational part (the model adds its translations and rotations, f/2 R), \"all "
+            "motions\" when it is the whole ideal-gas c_v (the tool takes f/2 R off it); "
+            "required for non-linear molecules, \"vibrations\" by default for linear ones"),
         "quantum": Key("string", default="classical", choices=QUANTUM_LEVELS,
                        example='"exact"', help="the quantum treatment of B2 in the virial "
                        "routes: classical, first-order or second-order Wigner-Kirkwood, or "

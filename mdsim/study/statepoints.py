@@ -222,17 +222,24 @@ def virial_warnings(study):
 def ideal_heat_capacity(study):
     """The study's ideal-gas heat capacity model (``analysis.heatcapacity``), built once.
 
-    For rigid molecules the study gives the vibrational part; the model
-    adds the kinetic (f/2) R of the molecules' translations and rotations.
+    For rigid molecules ``[gas] ideal_heat_capacity_counts`` says what the
+    study gives: the vibrational part ("vibrations"), to which the model
+    adds the kinetic (f/2) R of the molecules' translations and rotations,
+    or the whole c_v_ig ("all motions"), of which (f/2) R is the model's
+    (``WholeOfRigidModel``).
     """
     model = getattr(study, "_cv_ig", None)
     if model is None:
         from analysis.heatcapacity import (ConstantHeatCapacity, KineticPlusInternal,
-                                           heat_capacity_from_spec, parse_molar_heat_capacity)
+                                           WholeOfRigidModel, heat_capacity_from_spec,
+                                           parse_molar_heat_capacity)
         spec = study.gas.ideal_heat_capacity
         where = f"study file '{study.path}', [gas] key 'ideal_heat_capacity'"
         if study.gas.molecules is None:
             model = heat_capacity_from_spec(spec, where=where)
+        elif study.gas.ideal_heat_capacity_counts == "all motions":
+            model = WholeOfRigidModel(heat_capacity_from_spec(spec, where=where),
+                                      study.gas.kinetic_dof)
         elif isinstance(spec, str) and not spec.strip().lower().endswith(".csv"):
             # a constant vibrational part, which may be 0: one constant with the kinetic part
             model = ConstantHeatCapacity(0.5 * study.gas.kinetic_dof * R_GAS

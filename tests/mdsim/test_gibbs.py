@@ -11,7 +11,7 @@ from mdsim.engine import rng as _rng
 from mdsim.engine.gibbs import GibbsSampler
 from mdsim.engine.gibbs_kernels import gibbs_transfers
 from mdsim.engine.potentials import LennardJones, PairMatrix
-from mdsim.errors import SettingError, StudyError
+from mdsim.errors import ConvergenceError, SettingError, StudyError
 from mdsim.pipeline.rundir import RunDir
 from mdsim.sampling import coexistence as coex
 from mdsim.sampling.coexistence import coexistence_point
@@ -260,6 +260,7 @@ class _SyntheticGibbs:
                     "pressure": np.column_stack([ar1(0.5, 0.1), 0.012 + ar1(0.9, 0.0005)])}
         self.n_particles, self.rc, self.seed = 300, 3.0, seed
         self.n_b, self.box_b = np.array([200, 100]), np.array([6.0, 19.0])
+        self.counters, self.volume_moves_refused = {"volume_moves": 0}, 0  # no volume moves
 
     def equilibrate(self, n_cycles):
         pass
@@ -294,3 +295,17 @@ def test_errors_of_a_slow_vapour_cover_the_scatter_of_independent_runs(monkeypat
         z_u.append((pt.u_vap + 0.15) / pt.u_vap_err)
     for z in (z_rho, z_u):
         assert 0.45 < float(np.median(np.abs(z))) < 0.95, np.median(np.abs(z))
+
+
+def test_a_liquid_box_held_at_twice_the_cutoff_is_refused_and_the_default_start_avoids_it():
+    """A vapour started at a tenth of its coexisting density (T* 0.8, rc 2.5: rho_v about 0.012,
+    measured here) draws the liquid down until its box sits at 2 rc, where a quarter of the
+    volume moves are refused (measured 144 of 600) and the liquid density is held: the run
+    is refused.  The default start (vapour about three times its guess) refuses none."""
+    pairs = PairMatrix([LennardJones(1.0, 1.0)], 2.5)
+    run = dict(n_particles=200, equilibration_cycles=300, production_cycles=600,
+               sample_interval=5, seed=1)
+    with pytest.raises(ConvergenceError, match="twice the cut-off"):
+        coexistence_point(pairs, 0.8, start_densities=(0.0015, 0.80), **run)
+    pt = coexistence_point(pairs, 0.8, **run)
+    assert pt.moves["volume_moves_refused"] == 0

@@ -62,13 +62,15 @@ def equilibrated(nitrogen):
 
 # --- the step against a slow NumPy version -----------------------------------------------
 
-def _numpy_forces(model, r, e, box):
+def numpy_forces(model, r, e, box, type_n=None):
+    """Forces and torques over all pairs by the model's one-pair method (minimum image)."""
+    t = np.zeros(len(r), dtype=int) if type_n is None else type_n
     f, tau = np.zeros_like(r), np.zeros_like(r)
     for i in range(len(r)):
         for j in range(i + 1, len(r)):
             d = r[j] - r[i]
             d -= box * np.rint(d / box)
-            _, fb, ta, tb = model.pair(d, e[i], e[j])  # zero beyond the cut-off
+            _, fb, ta, tb = model.pair(d, e[i], e[j], t[i], t[j])  # zero beyond the cut-off
             f[j] += fb
             f[i] -= fb
             tau[i] += ta
@@ -76,21 +78,23 @@ def _numpy_forces(model, r, e, box):
     return f, tau
 
 
-def _numpy_steps(model, r, e, v, lm, inertia, box, dt, n_steps):
-    """Half kick, drift, free rotation by Rodrigues' formula, half kick; unit mass."""
+def numpy_steps(model, r, e, v, lm, mass_n, inertia_n, box, dt, n_steps, type_n=None):
+    """Half kick, drift, free rotation by Rodrigues' formula, half kick; per-molecule masses
+    and moments of inertia, an atom's (inertia 0) axis never turned."""
     r, e, v, lm = (x.copy() for x in (r, e, v, lm))
-    f, tau = _numpy_forces(model, r, e, box)
+    rotor = inertia_n > 0
+    f, tau = numpy_forces(model, r, e, box, type_n)
     for _ in range(n_steps):
         for _half in range(2):
-            v += 0.5 * dt * f
+            v += 0.5 * dt * f / mass_n[:, None]
             lm += 0.5 * dt * (tau - np.sum(tau * e, axis=1)[:, None] * e)
             if _half == 0:
                 r += dt * v
-                w = np.linalg.norm(lm, axis=1)
-                u = lm / w[:, None]
-                e = (e * np.cos(w * dt / inertia)[:, None]
-                     + np.cross(u, e) * np.sin(w * dt / inertia)[:, None])
-                f, tau = _numpy_forces(model, r, e, box)
+                w = np.linalg.norm(lm[rotor], axis=1)
+                u = lm[rotor] / w[:, None]
+                angle = (w * dt / inertia_n[rotor])[:, None]
+                e[rotor] = e[rotor] * np.cos(angle) + np.cross(u, e[rotor]) * np.sin(angle)
+                f, tau = numpy_forces(model, r, e, box, type_n)
     return r, e, v, lm
 
 
@@ -102,7 +106,8 @@ def test_steps_match_a_numpy_reference(nitrogen):
     md.run(1, 40)  # 40 steps, a few list rebuilds with this thin skin
     assert md.nlist.n_builds > 1
     box = md.box_i[0]
-    ref = _numpy_steps(md.model, r0, e0, v0, l0, md.inertia_n[0], box, md.time_step, 40)
+    ref = numpy_steps(md.model, r0, e0, v0, l0, np.ones(n), np.full(n, md.inertia_n[0]), box,
+                      md.time_step, 40)
     got = (*md.configuration(), *md.momenta())
     d = got[0] - ref[0]
     np.testing.assert_allclose(d - box * np.rint(d / box), 0.0, atol=1e-9)  # periodic images

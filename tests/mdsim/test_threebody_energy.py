@@ -12,9 +12,11 @@ from analysis.expansion import virial_expansion
 from analysis.heatcapacity import ConstantHeatCapacity
 from analysis.virial.threebody import HARTREE_BOHR9_IN_K_ANGSTROM9
 from analysis.virial_eos import VirialGas
+from mdsim.engine.mc_cells import cell_grid
 from mdsim.engine.potentials import LennardJones, PairMatrix, axilrod_teller_sq
 from mdsim.engine.system import System
-from mdsim.engine.threebody import three_body_energy
+from mdsim.engine.threebody import (CELL_LIST_MIN_ATOMS, build_partner_lists, partner_lists,
+                                    partner_lists_cells, three_body_energy)
 from mdsim.errors import SettingError
 from mdsim.sampling.three_body import three_body_delta_T_shift, three_body_energy_shift
 
@@ -57,6 +59,48 @@ def test_kernel_against_slow_triplet_sum():
     r = rng.uniform(0.0, 8.0, (30, 3))
     assert three_body_energy(r, 8.0, 1.3, 2.0) == pytest.approx(_slow_reference(r, 8.0, 1.3, 2.0),
                                                                 rel=1e-12)
+
+
+def _numpy_partners(r_ni, box, rc):
+    """Slow reference of the partner lists: for each atom, every other atom closer than rc
+    (minimum image), in index order, with its vector r_j - r_i."""
+    out = []
+    for i in range(len(r_ni)):
+        d = r_ni - r_ni[i]
+        d -= box * np.rint(d / box)
+        keep = np.flatnonzero((np.einsum("ni,ni->n", d, d) < rc * rc)
+                              & (np.arange(len(r_ni)) != i))
+        out.append((keep, d[keep]))
+    return out
+
+
+@pytest.mark.parametrize("n, density, rc, reach", [
+    (900, 0.5, 3.0, 2),                # rho* 0.5, rc = 3 sigma: build_partner_lists' cells
+    (400, 0.01, 5.0, 1),               # a gas: cells of edge >= rc
+    (400, 0.8, "L/4", 2),              # a liquid, rc = L/4
+    (400, 0.05, "just below L/4", 2),  # a gas, rc = (1/4 - 1e-9) L
+])
+def test_cell_partner_lists_equal_the_all_pairs_lists(n, density, rc, reach):
+    # The linked-cell build against the all-pairs kernel and a NumPy reference: the same
+    # partners in the same order, vectors equal bit for bit; positions spread over three
+    # periodic images (any image may be given).  From CELL_LIST_MIN_ATOMS atoms on
+    # build_partner_lists picks the cells; below, the cell kernel is called directly.
+    box = (n / density) ** (1.0 / 3.0)
+    rc = {"L/4": 0.25 * box, "just below L/4": (0.25 - 1e-9) * box}.get(rc, rc)
+    r = np.random.default_rng(n).uniform(-box, 2.0 * box, (n, 3))
+    grid = cell_grid(np.full(3, box), rc, n)
+    assert grid[3] == reach
+    cells = (build_partner_lists(r, box, rc) if n >= CELL_LIST_MIN_ATOMS
+             else partner_lists_cells(r, box, rc * rc, grid))
+    pairs = partner_lists(r, box, rc * rc)
+    np.testing.assert_array_equal(cells[1], pairs[1])
+    assert cells[1].mean() > 2.0  # lists worth comparing
+    for i, (keep, d) in enumerate(_numpy_partners(r, box, rc)):
+        m = cells[1][i]
+        np.testing.assert_array_equal(cells[0][i, :m], keep)
+        np.testing.assert_array_equal(cells[0][i, :m], pairs[0][i, :m])
+        np.testing.assert_array_equal(cells[2][i, :m], pairs[2][i, :m])
+        np.testing.assert_allclose(cells[2][i, :m], d, rtol=0, atol=1e-12)
 
 
 def test_cutoff_beyond_a_quarter_box_is_refused():

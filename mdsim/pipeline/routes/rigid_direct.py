@@ -6,8 +6,9 @@ thermostatted rigid MD (``rigid-md-nvt``, with the pressure iteration), the
 box enlarged r-fold along z with the molecules (centres, axes, velocities
 and angular momenta) left in place, then fixed-energy rigid MD
 (``rigid-md-nve``) while the gas fills the box and relaxes.  The kinetic
-degrees of freedom are F = 5N - 3 (3 translations and 2 rotations per
-linear molecule, the total momentum conserved): in the temperature series
+degrees of freedom are F = 3N - 3 + 2 N_rot (3 translations per molecule
+and 2 rotations per linear rotor, none for the atoms of a mixture, the
+total momentum conserved): in the temperature series
 (``temperature_inst`` = 2K / F), in the canonical energy the run starts at
 and in the solver (:func:`analysis.expansion.direct_route`).
 """
@@ -43,12 +44,12 @@ class RigidWallRemovedChain(WallRemovedChain, RigidChain):
                                    v_ni=None, l_ni=None)
 
     def lightest_mass(self):
-        """The molecule's mass, 1 in the reduced units of a rigid-molecule study."""
-        return 1.0
+        """The lightest molecule's mass in the reduced units (the first molecule's mass)."""
+        return float(np.min(self.base.mass_t[np.unique(self.base.type_n)]))
 
     def kinetic_dof(self):
-        """5N - 3 (:func:`mdsim.sampling.rigid_md_stage.kinetic_dof_total`)."""
-        return kinetic_dof_total(self.base.n_particles)
+        """3N - 3 + 2 N_rot (:func:`mdsim.sampling.rigid_md_stage.kinetic_dof_total`)."""
+        return kinetic_dof_total(self.base.n_particles, self.base.n_rotors)
 
     def start_at_canonical_energy(self, system, start):
         """The expanded system with its velocities and angular momenta scaled by one factor so

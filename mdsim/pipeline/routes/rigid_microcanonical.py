@@ -3,9 +3,10 @@
 The initial state is sampled as for the energy route (canonical Monte
 Carlo of the molecules with the pressure iteration,
 :func:`mdsim.pipeline.initial_state.run_initial_state`).  Its energy per
-molecule, E = <u_full>(T_i, rho_i) + (F/2 - 1) kT_i / N with F = 5N - 3
-kinetic degrees of freedom (3 translations and 2 rotations per molecule,
-less the conserved total momentum), is the energy of the final state,
+molecule, E = <u_full>(T_i, rho_i) + (F/2 - 1) kT_i / N with F = 3N - 3 +
+2 N_rot kinetic degrees of freedom (3 translations per molecule and 2
+rotations per linear rotor, the atoms of a mixture having none, less the
+conserved total momentum), is the energy of the final state,
 sampled by molecular dynamics at fixed energy (``rigid-md-nve``,
 :mod:`mdsim.sampling.rigid_md_stage`) at rho_f, its pilot started from a
 lattice equilibrated with the thermostat at the B2 + B3 guess of T_f and
@@ -29,7 +30,7 @@ energy was set, and the integrator's drift) and moves T_f by -offset / c_v
 
 c_v_ig: as for spheres, the route assumes the constant classical heat
 capacity of the model's kinetic degrees of freedom, (5/2) R for a linear
-molecule; a study whose vibrational part is not zero is refused at planning
+molecule (a mixture: the mole-fraction mean with (3/2) R for its atoms); a study whose vibrational part is not zero is refused at planning
 (:func:`mdsim.pipeline.plan.check_route_applies`).  Stage files:
 ``initial-state-*`` and ``final-state-nve-*``.
 """
@@ -38,7 +39,6 @@ from mdsim.pipeline.chain import MD_PILOT_INTERVAL, mean_se, stage_share
 from mdsim.pipeline.initial_state import run_initial_state, sampled_pressure
 from mdsim.pipeline.routes.microcanonical import kinetic_series, sample_to_target
 from mdsim.pipeline.stage_names import FINAL_STATE_NVE
-from mdsim.sampling.rigid_md_stage import kinetic_dof_total
 
 __all__ = ["run_rigid_microcanonical", "energy_offset", "NVE_PILOT_SAMPLES"]
 
@@ -106,8 +106,9 @@ def run_rigid_microcanonical(job):
         As :func:`mdsim.pipeline.routes.microcanonical.run_microcanonical`.
     """
     from analysis.expansion import microcanonical_route
+    from mdsim.pipeline.rigid_chain import box_kinetic_dof
     n = job.n_particles
-    F = kinetic_dof_total(n)
+    F = box_kinetic_dof(job)
     f = F / n
     T_i_red = job.units.temperature_to_reduced(job.T_i)
     share = stage_share(job, 0.5 * job.study.gas.dof_per_particle)
@@ -116,9 +117,9 @@ def run_rigid_microcanonical(job):
     E_red = float(mi + (0.5 * F - 1.0) / n * T_i_red)
     job.notes.append(
         f"microcanonical route (rigid molecules): E per molecule = <u_full>(T_i, rho_i) + "
-        f"(F/2 - 1) kT_i / N with F = 5N - 3 = {F} (3 translations and 2 rotations per molecule, "
-        "the total momentum conserved); the final state by molecular dynamics at that energy, "
-        "T_f by Ray's estimator over the same F")
+        f"(F/2 - 1) kT_i / N with F = 3N - 3 + 2 N_rot = {F} (3 translations per molecule and 2 "
+        "rotations per linear rotor, the total momentum conserved); the final state by "
+        "molecular dynamics at that energy, T_f by Ray's estimator over the same F")
     # one time step for every stage (the rule at T_i, above T_f), and the pilot's start
     start = {"time_step": job.md_time_step(T_i_red),
              "start_temperature": job.units.temperature_to_reduced(job.T_f_guess)}

@@ -126,8 +126,8 @@ def state_md_settings(job, make_system, T_red):
     """The MD settings of the energy route at a state: the time step at T_red and the skin of
     the state's density (:func:`md_skin`)."""
     system = make_system()
-    return md_settings(job.md_time_step(T_red),
-                       md_skin(system.density, float(system.pairs.rc_max)))
+    rc = system.model.rc if job.study.gas.molecules is not None else system.pairs.rc_max
+    return md_settings(job.md_time_step(T_red), md_skin(system.density, float(rc)))
 
 
 def cost_coefficient(job, chain):

@@ -198,8 +198,8 @@ def test_mixture_of_molecules_and_an_atom_in_the_monte_carlo_kernels(nitrogen, o
     cells = np.empty((2 * mc.ncell_i[3] + 1) ** 3, dtype=np.int64)
     for i in (2, 4):  # an argon atom and an oxygen molecule against all others
         c, e = centre_ni[i], axis_ni[i]
-        u_i = molecule_energy(i, c[0], c[1], c[2], e[0], e[1], e[2], mc.centre_ni, mc.axis_ni,
-                              type_n, box_i, mc.ncell_i, mc.head_c, mc.next_n,
+        u_i = molecule_energy(i, type_n[i], c[0], c[1], c[2], e[0], e[1], e[2], mc.centre_ni,
+                              mc.axis_ni, type_n, box_i, mc.ncell_i, mc.head_c, mc.next_n,
                               *model.arrays()[:5], rc, 0.0, cells)
         others = np.arange(n) != i
         d = centre_ni[others] - c
