@@ -2,12 +2,14 @@
 
 The engine's rigid-molecule kernels (:mod:`mdsim.engine.rigid_pair`) take,
 per molecule type, the axial site offsets from the centre of mass (sigma),
-the site potentials in reduced units and the reduced quadrupole
-Q* = Q / sqrt(4 pi epsilon_0 epsilon sigma^5); the rigid-body kernels
+the site potentials in reduced units, the reduced quadrupole
+Q* = Q / sqrt(4 pi epsilon_0 epsilon sigma^5), dipole
+mu* = mu / sqrt(4 pi epsilon_0 epsilon sigma^3) and site charges
+q* = q / sqrt(4 pi epsilon_0 epsilon sigma); the rigid-body kernels
 (:mod:`mdsim.engine.body_pair`) take the site positions in the principal-axes
 frame (sigma) and the site potentials.  This module turns a
-:class:`~analysis.molecules.model.RigidMolecule` (kelvin, angstrom,
-e angstrom^2) into those numbers.
+:class:`~analysis.molecules.model.RigidMolecule` (kelvin, angstrom, e,
+e angstrom, e angstrom^2) into those numbers.
 """
 import math
 
@@ -21,14 +23,15 @@ __all__ = ["reduced_linear_type", "principal_frame", "reduced_body_type"]
 
 
 def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
-    """``(site_z, site_potentials, quadrupole)`` of a linear molecule in reduced units.
+    """``(site_z, site_potentials, quadrupole, dipole, site_charges)`` of a linear molecule
+    in reduced units.
 
     Parameters
     ----------
     molecule : RigidMolecule
-        A linear molecule of two or more sites (point quadrupole allowed,
-        no point dipole or site charges yet), or an atom (one site at the
-        origin: offset 0, no quadrupole).
+        A linear molecule of two or more sites (site charges, axial point
+        dipole and quadrupole allowed), or an atom (one site at the origin:
+        offset 0, no multipole).
     energy_unit_K : float
         epsilon/k of the reduced units, K.
     length_unit_angstrom : float
@@ -42,12 +45,16 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
         In reduced units.
     quadrupole : float
         Q* = Q sqrt(C / (epsilon sigma^5)), C = e^2 / (4 pi epsilon_0 k angstrom).
+    dipole : float
+        mu* = mu sqrt(C / (epsilon sigma^3)), along the axis.
+    site_charges : list of float
+        q* = q sqrt(C / (epsilon sigma)).
 
     Raises
     ------
     StudyError
-        For a non-linear molecule, a dipole or site charges, or a
-        quadrupole away from the centre of mass.
+        For a non-linear molecule, or a point multipole away from the
+        centre of mass.
 
     Examples
     --------
@@ -56,11 +63,11 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
     >>> lj = LennardJones(34.897, 3.3211)
     >>> n2 = RigidMolecule("N2", [Site(lj, (0, 0, -0.5232), 0.014),
     ...                           Site(lj, (0, 0, 0.5232), 0.014)], quadrupole_e_angstrom2=0.3)
-    >>> z, pots, q = reduced_linear_type(n2, 34.897, 3.3211)
-    >>> [round(v, 4) for v in z], pots[0].epsilon, round(q, 4)
-    ([-0.1575, 0.1575], 1.0, 1.0328)
+    >>> z, pots, q, mu, charges = reduced_linear_type(n2, 34.897, 3.3211)
+    >>> [round(v, 4) for v in z], pots[0].epsilon, round(q, 4), mu, charges
+    ([-0.1575, 0.1575], 1.0, 1.0328, 0.0, [0.0, 0.0])
     >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.04)])
-    >>> z, pots, q = reduced_linear_type(ar, 34.897, 3.3211)
+    >>> z, pots, q, mu, charges = reduced_linear_type(ar, 34.897, 3.3211)
     >>> z, round(pots[0].epsilon, 4), q
     ([0.0], 3.3467, 0.0)
     """
@@ -68,23 +75,22 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
     if molecule.n_sites > 1 and not molecule.is_linear:
         raise StudyError(f"molecule '{name}': the rigid-molecule simulation kernels take linear "
                          "molecules and atoms (one site); use the virial routes for it")
-    if molecule.dipole or molecule.has_charges:
-        raise StudyError(f"molecule '{name}': point dipoles and site charges are not yet "
-                         "simulated (only an axial point quadrupole); remove them or use the "
-                         "virial routes")
     z = molecule.axial_positions_s()
     z_com = float(molecule.mass_s @ z / molecule.mass_s.sum())
-    if molecule.quadrupole and abs(z_com) > LINEAR_TOLERANCE_ANGSTROM:
+    if molecule.has_multipoles and abs(z_com) > LINEAR_TOLERANCE_ANGSTROM:
         raise StudyError(f"molecule '{name}': its centre of mass lies {z_com:.4g} angstrom "
-                         "from the origin of the site positions, where the point quadrupole "
-                         "sits; the kernels put it at the centre of mass: place the origin "
+                         "from the origin of the site positions, where the point multipoles "
+                         "sit; the kernels put them at the centre of mass: place the origin "
                          "there")
     scale = float(energy_unit_K)
     length = float(length_unit_angstrom)
     site_z = [float(v) for v in (z - z_com) / length]
     pots = [s.potential.scaled(scale, length) for s in molecule.sites]
     quad = molecule.quadrupole * math.sqrt(COULOMB_K_ANGSTROM / (scale * length ** 5))
-    return site_z, pots, float(quad)
+    dipole = molecule.dipole * math.sqrt(COULOMB_K_ANGSTROM / (scale * length ** 3))
+    charges = [float(q) * math.sqrt(COULOMB_K_ANGSTROM / (scale * length))
+               for q in molecule.charge_s]
+    return site_z, pots, float(quad), float(dipole), charges
 
 
 def principal_frame(molecule):

@@ -185,7 +185,7 @@ def _kernel_rows(name, model, density, temperature, c_fn, quick, md_model, inert
         nb = np.ascontiguousarray(nl.nb_nk, dtype=np.int32)
         cnt = np.ascontiguousarray(nl.count_n, dtype=np.int32)
         n_pairs = ctypes.c_long(0)
-        qq = 0.75 * float(model.quad_t[0]) ** 2
+        qq = 0.75 * float(model.elec_tm[0, 1]) ** 2
         fc, tc = np.zeros((n, 3)), np.zeros((n, 3))
 
         def run_c():

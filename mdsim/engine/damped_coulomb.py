@@ -38,25 +38,82 @@ from mdsim.checks import non_negative, positive
 from mdsim.engine.charges import ChargeBox, CoulombResult, add_pair_force
 from mdsim.errors import SettingError
 
-__all__ = ["DampedShiftedForce", "dsf_pairs", "molecule_centres"]
+__all__ = ["DampedShiftedForce", "dsf_constants", "dsf_term", "dsf_pairs", "molecule_centres"]
 
 _TWO_OVER_SQRT_PI = 2.0 / math.sqrt(math.pi)
 
 
+def dsf_constants(alpha, rc):
+    """The two constants of :func:`dsf_term` for damping ``alpha`` (1/sigma) and cut-off ``rc``.
+
+    Returns
+    -------
+    offset : float, 1/sigma
+        erfc(a Rc)/Rc + slope Rc.
+    slope : float, 1/sigma^2
+        erfc(a Rc)/Rc^2 + (2a/sqrt(pi)) exp(-a^2 Rc^2)/Rc, minus the force of
+        a unit pair at Rc.
+
+    Examples
+    --------
+    Undamped, Rc = 2: slope 1/4, offset 1/2 + 1/2.
+
+    >>> dsf_constants(0.0, 2.0)
+    (1.0, 0.25)
+    """
+    a, rc = float(alpha), float(rc)
+    gauss = _TWO_OVER_SQRT_PI * a * math.exp(-a * a * rc * rc)
+    slope = math.erfc(a * rc) / (rc * rc) + gauss / rc
+    return math.erfc(a * rc) / rc + slope * rc, slope
+
+
+@njit(cache=True, inline="always")
+def dsf_term(qq, r2, alpha, offset, slope):
+    """The damped shifted-force energy of two charges and -(du/dr)/r (module docstring).
+
+    Parameters
+    ----------
+    qq : float
+        Product of the two charges, reduced.
+    r2 : float, sigma^2
+        Their squared distance.
+    alpha : float, 1/sigma
+        Damping (0: the undamped shifted force, no erfc evaluated).
+    offset, slope : float
+        :func:`dsf_constants` of alpha and the cut-off.
+
+    Returns
+    -------
+    u : float, epsilon
+        qq [erfc(a r)/r - offset + slope r].
+    f_over_r : float, epsilon/sigma^2
+        -(du/dr)/r: the force on the second charge is f_over_r times the
+        vector from the first to it (the convention of
+        :func:`mdsim.engine.forms.pair_eval`).
+    """
+    r = math.sqrt(r2)
+    if alpha == 0.0:
+        erfc_r = 1.0 / r
+        gauss = 0.0
+    else:
+        erfc_r = math.erfc(alpha * r) / r
+        gauss = _TWO_OVER_SQRT_PI * alpha * math.exp(-alpha * alpha * r2)
+    return qq * (erfc_r - offset + slope * r), qq * (erfc_r + gauss - slope * r) / r2
+
+
 @njit(cache=True)
-def dsf_pairs(r_ni, c_ni, q_n, mol_n, box, alpha, rc, f_ni):
+def dsf_pairs(r_ni, c_ni, q_n, mol_n, box, alpha, rc, offset, slope, f_ni):
     """All pairs: returns (E_pairs, E_intra, W); adds forces to ``f_ni``.
 
     A pair of charges of different molecules is included when the centres
     ``c_ni`` of their molecules are closer than ``rc`` (minimum image of the
-    centres; the charges keep their offsets from the centres).  Pairs of one
-    molecule give -q q erf(alpha r) / r (E_intra).
+    centres; the charges keep their offsets from the centres), with the
+    energy of :func:`dsf_term` (``offset``, ``slope``: :func:`dsf_constants`).
+    Pairs of one molecule give -q q erf(alpha r) / r (E_intra).
     """
     n = r_ni.shape[0]
     rc2 = rc * rc
     inv_box = 1.0 / box
-    erfc_rc = math.erfc(alpha * rc) / rc
-    f_rc = erfc_rc / rc + _TWO_OVER_SQRT_PI * alpha * math.exp(-alpha * alpha * rc2) / rc
     e_pairs = e_intra = w = 0.0
     for i in range(n - 1):
         qi = q_n[i]
@@ -77,20 +134,18 @@ def dsf_pairs(r_ni, c_ni, q_n, mol_n, box, alpha, rc, f_ni):
             dy = r_ni[i, 1] - r_ni[j, 1] - sy
             dz = r_ni[i, 2] - r_ni[j, 2] - sz
             r2 = dx * dx + dy * dy + dz * dz
-            r = math.sqrt(r2)
             qq = qi * q_n[j]
-            gauss = _TWO_OVER_SQRT_PI * alpha * math.exp(-alpha * alpha * r2)
             if same:
+                r = math.sqrt(r2)
                 u = -qq * math.erf(alpha * r) / r
-                rf = qq * gauss + u               # -r du/dr
+                f_over_r = (qq * _TWO_OVER_SQRT_PI * alpha * math.exp(-alpha * alpha * r2)
+                            + u) / r2
                 e_intra += u
             else:
-                erfc_r = math.erfc(alpha * r) / r
-                u = qq * (erfc_r - erfc_rc + f_rc * (r - rc))
-                rf = qq * (erfc_r + gauss - f_rc * r)
+                u, f_over_r = dsf_term(qq, r2, alpha, offset, slope)
                 e_pairs += u
-            w += rf
-            add_pair_force(f_ni, i, j, rf / r2, dx, dy, dz)
+            w += f_over_r * r2
+            add_pair_force(f_ni, i, j, f_over_r, dx, dy, dz)
     return e_pairs, e_intra, w
 
 
@@ -157,7 +212,7 @@ class DampedShiftedForce:
         f_ni = np.zeros_like(r)
         a, rc = self.damping, self.cutoff
         e_pairs, e_intra, w = dsf_pairs(r, self.centres(r), cb.charges_n, cb.molecule_n,
-                                        cb.box_length, a, rc, f_ni)
+                                        cb.box_length, a, rc, *dsf_constants(a, rc), f_ni)
         e_self = -math.erfc(a * rc) / (2.0 * rc) * self.q_times_molecule_charge \
             - a / math.sqrt(math.pi) * cb.sum_q2
         parts = {"pairs": e_pairs, "self": e_self, "intramolecular": e_intra}

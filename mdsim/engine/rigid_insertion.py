@@ -37,7 +37,7 @@ __all__ = ["rigid_insertion_sums", "insertion_sums_of"]
 
 @njit(cache=True)
 def rigid_insertion_sums(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n,
-                         site_start_t, site_z_k, params_kk, form, quad_t, rc, core2, t_test,
+                         site_start_t, site_z_k, params_kk, form, elec_tm, rc, core2, t_test,
                          beta, n_trials, rng_state):
     """Sums of exp(-beta dU) and exp(-2 beta dU) over ``n_trials`` random test molecules.
 
@@ -49,7 +49,7 @@ def rigid_insertion_sums(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, nex
     box_i : ndarray, shape=(3,), float64, sigma
     ncell_i, head_c, next_n : ndarray, int64
         The linked cells of the centres (:mod:`mdsim.engine.mc_cells`).
-    site_start_t, site_z_k, params_kk, form, quad_t, rc
+    site_start_t, site_z_k, params_kk, form, elec_tm, rc
         The model (:class:`mdsim.engine.rigid_model.LinearPairModel`).
     core2 : float, sigma^2
         Square of the hard core at the centre (0: none).
@@ -78,7 +78,7 @@ def rigid_insertion_sums(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, nex
         ex, ey, ez = _rng.unit_vector(rng_state)
         du = molecule_energy(-1, t_test, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_i,
                              ncell_i, head_c, next_n, site_start_t, site_z_k, params_kk, form,
-                             quad_t, rc, core2, cells_c)
+                             elec_tm, rc, core2, cells_c)
         if du < math.inf:
             w = math.exp(-beta * du)
             s1 += w
@@ -131,5 +131,5 @@ def insertion_sums_of(mc, type_a, n_trials, rng_state):
                            "mdsim.engine.rng.make_state")
     return rigid_insertion_sums(mc.centre_ni, mc.axis_ni, mc.type_n, mc.box_i, mc.ncell_i,
                                 mc.head_c, mc.next_n, m.site_start_t, m.site_z_k, m.params_kk,
-                                m.form, m.quad_t, m.rc, m.core ** 2, a,
+                                m.form, m.elec_tm, m.rc, m.core ** 2, a,
                                 1.0 / mc.temperature, n_trials, rng_state)

@@ -301,7 +301,7 @@ def start_momenta(s, mass_n, inertia_n, e_ni, kT):
 @njit(cache=True)
 def rigid_block(n_steps, resume, dt, r_ni, v_ni, e_ni, l_ni, f_ni, tau_ni, mass_n, inertia_n,
                 r_ref_ni, half_skin2, type_n, box_i, site_start_t, site_z_k, params_kk, form,
-                quad_t, rc, shifted, nb_nj, count_n, thermostat, kT, nf_trans, nf_rot, c, s,
+                elec_tm, rc, shifted, nb_nj, count_n, thermostat, kT, nf_trans, nf_rot, c, s,
                 obs):
     """Up to ``n_steps`` rigid-body steps; stop early when the list is stale.
 
@@ -319,7 +319,7 @@ def rigid_block(n_steps, resume, dt, r_ni, v_ni, e_ni, l_ni, f_ni, tau_ni, mass_
         Centres at the last list build.
     half_skin2 : float
         (skin / 2)^2.
-    type_n, box_i, site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted, nb_nj, count_n
+    type_n, box_i, site_start_t, site_z_k, params_kk, form, elec_tm, rc, shifted, nb_nj, count_n
         The arguments of :func:`mdsim.engine.rigid_pair.forces_half`.
     thermostat : bool
     kT : float
@@ -349,7 +349,7 @@ def rigid_block(n_steps, resume, dt, r_ni, v_ni, e_ni, l_ni, f_ni, tau_ni, mass_
                 return done, 1
         resume = False
         u, w = forces_half(r_ni, e_ni, type_n, box_i, site_start_t, site_z_k, params_kk, form,
-                           quad_t, rc, shifted, nb_nj, count_n, f_ni, tau_ni)
+                           elec_tm, rc, shifted, nb_nj, count_n, f_ni, tau_ni)
         obs[0], obs[1] = u, w
         if not np.isfinite(u):
             return done, 2

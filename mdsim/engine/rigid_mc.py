@@ -163,7 +163,7 @@ class RigidMCSampler:
         m = self.model
         return rigid_energy_virial(self.centre_ni, self.axis_ni, self.type_n, self.box_i,
                                    self.ncell_i, self.head_c, self.next_n, m.site_start_t,
-                                   m.site_z_k, m.params_kk, m.form, m.quad_t, m.rc)
+                                   m.site_z_k, m.params_kk, m.form, m.elec_tm, m.rc)
 
     def _moves(self, n_moves):
         m = self.model
@@ -171,7 +171,7 @@ class RigidMCSampler:
         self.u_trunc = rigid_moves(
             self.centre_ni, self.axis_ni, self.type_n, self.box_i, self.ncell_i, self.head_c,
             self.next_n, self.cell_n, m.site_start_t, m.site_z_k, m.params_kk, m.form,
-            m.quad_t, m.rc, m.core ** 2, m.rotates_t, self.state, int(n_moves),
+            m.elec_tm, m.rc, m.core ** 2, m.rotates_t, self.state, int(n_moves),
             float(self.max_displacement), float(self.max_angle), 1.0 / self.temperature,
             float(self.u_trunc), self.tried_m,
             self.accepted_m)

@@ -27,24 +27,30 @@ from mdsim.engine import rng as _rng
 from mdsim.engine.forms import FORM_LJ, FORM_MIE
 from mdsim.engine.mc_cells import (cell_coord, cell_insert, cell_remove, cells_around, min_image,
                                    wrap_coordinate)
-from mdsim.engine.rigid_pair import pair_forces, pair_terms
+from mdsim.engine.rigid_pair import coulomb_terms, pair_forces, pair_terms
 
 __all__ = ["molecule_energy", "rigid_moves", "rigid_energy_virial"]
 
 
 @njit(cache=True)
 def _pair_u(form, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t, site_z_k, params_kk,
-            quad_t):
+            elec_tm):
     if form == FORM_LJ:  # a constant form prunes pair_eval's other branches
         return pair_terms(FORM_LJ, False, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb,
-                          site_start_t, site_z_k, params_kk, quad_t)[0]
+                          site_start_t, site_z_k, params_kk, elec_tm)[0]
     return pair_terms(FORM_MIE, False, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb,
-                      site_start_t, site_z_k, params_kk, quad_t)[0]
+                      site_start_t, site_z_k, params_kk, elec_tm)[0]
+
+
+@njit(cache=True)
+def _coulomb_u(dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t, site_z_k, params_kk):
+    return coulomb_terms(False, dx, dy, dz, ax, ay, az, bx, by, bz, ta, tb, site_start_t,
+                         site_z_k, params_kk)[0]
 
 
 @njit(cache=True)
 def molecule_energy(i, ti, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_i, ncell_i,
-                    head_c, next_n, site_start_t, site_z_k, params_kk, form, quad_t, rc, core2,
+                    head_c, next_n, site_start_t, site_z_k, params_kk, form, elec_tm, rc, core2,
                     cells_c):
     """Energy of a molecule of type ti placed at centre (x, y, z) with axis (ex, ey, ez) with
     all molecules but i.
@@ -57,6 +63,7 @@ def molecule_energy(i, ti, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_
     hard core at the centre, :attr:`LinearPairModel.core`).
     ``cells_c`` is scratch space of (2 reach + 1)^3 int64.
     """
+    charged_i = elec_tm[ti, 2] != 0.0
     lx, ly, lz = box_i[0], box_i[1], box_i[2]
     hx, hy, hz = 0.5 * lx, 0.5 * ly, 0.5 * lz
     rc2 = rc * rc
@@ -72,9 +79,14 @@ def molecule_energy(i, ti, x, y, z, ex, ey, ez, centre_ni, axis_ni, type_n, box_
                 if d2 < core2:
                     return math.inf
                 if d2 < rc2:
+                    tj = type_n[j]
                     u += _pair_u(form, dx, dy, dz, ex, ey, ez, axis_ni[j, 0], axis_ni[j, 1],
-                                 axis_ni[j, 2], ti, type_n[j], site_start_t, site_z_k,
-                                 params_kk, quad_t)
+                                 axis_ni[j, 2], ti, tj, site_start_t, site_z_k,
+                                 params_kk, elec_tm)
+                    if charged_i and elec_tm[tj, 2] != 0.0:  # both carry site charges
+                        u += _coulomb_u(dx, dy, dz, ex, ey, ez, axis_ni[j, 0], axis_ni[j, 1],
+                                        axis_ni[j, 2], ti, tj, site_start_t, site_z_k,
+                                        params_kk)
             j = next_n[j]
     return u
 
@@ -96,7 +108,7 @@ def _turn(state, ex, ey, ez, max_angle):
 
 @njit(cache=True)
 def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell_n,
-                site_start_t, site_z_k, params_kk, form, quad_t, rc, core2, rotates_t, state,
+                site_start_t, site_z_k, params_kk, form, elec_tm, rc, core2, rotates_t, state,
                 n_moves, max_displacement, max_angle, beta, u_total, tried_m, accepted_m):
     """``n_moves`` Metropolis trial moves (translation or rotation, 1/2 each).
 
@@ -108,7 +120,7 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
     box_i : ndarray, shape=(3,), float64, sigma (each edge > 2 rc)
     ncell_i, head_c, next_n, cell_n
         The linked cells of :mod:`mdsim.engine.mc_cells` (updated).
-    site_start_t, site_z_k, params_kk, form, quad_t, rc
+    site_start_t, site_z_k, params_kk, form, elec_tm, rc
         The model of :class:`mdsim.engine.rigid_model.LinearPairModel`.
     core2 : float, sigma^2
         The square of its hard core at the centre (0: none); a move into it is rejected.
@@ -153,10 +165,10 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
         ti = type_n[i]
         u_new = molecule_energy(i, ti, xn, yn, zn, en_x, en_y, en_z, centre_ni, axis_ni,
                                 type_n, box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
-                                params_kk, form, quad_t, rc, core2, cells_c)
+                                params_kk, form, elec_tm, rc, core2, cells_c)
         u_old = molecule_energy(i, ti, xo, yo, zo, eo_x, eo_y, eo_z, centre_ni, axis_ni,
                                 type_n, box_i, ncell_i, head_c, next_n, site_start_t, site_z_k,
-                                params_kk, form, quad_t, rc, core2, cells_c)
+                                params_kk, form, elec_tm, rc, core2, cells_c)
         du = u_new - u_old
         if du > 0.0 and _rng.uniform(state) >= math.exp(-beta * du):
             continue
@@ -176,7 +188,7 @@ def rigid_moves(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n, cell
 
 @njit(cache=True)
 def rigid_energy_virial(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next_n,
-                        site_start_t, site_z_k, params_kk, form, quad_t, rc):
+                        site_start_t, site_z_k, params_kk, form, elec_tm, rc):
     """Total energy and virial W = sum_pairs d_ab . F_b over the cells (plain cut).
 
     Returns
@@ -202,7 +214,7 @@ def rigid_energy_virial(centre_ni, axis_ni, type_n, box_i, ncell_i, head_c, next
                         e, fx, fy, fz, _, _, _, _, _, _ = pair_forces(
                             form, dx, dy, dz, axis_ni[i, 0], axis_ni[i, 1], axis_ni[i, 2],
                             axis_ni[j, 0], axis_ni[j, 1], axis_ni[j, 2], type_n[i], type_n[j],
-                            site_start_t, site_z_k, params_kk, quad_t, rc, 0)
+                            site_start_t, site_z_k, params_kk, elec_tm, rc, 0)
                         u += e
                         w += dx * fx + dy * fy + dz * fz
                 j = next_n[j]

@@ -1,8 +1,10 @@
 """Rigid linear molecules in reduced units: the model the kernels of :mod:`~mdsim.engine.rigid_pair` take.
 
 :class:`LinearPairModel` checks a list of molecule types (axial site
-offsets, like-site Lennard-Jones or Mie potentials, point quadrupoles),
-builds the model arrays (site pairs mixed by Lorentz-Berthelot), gives the
+offsets, like-site Lennard-Jones or Mie potentials, site charges, axial
+point dipoles and quadrupoles), builds the model arrays (site pairs mixed
+by Lorentz-Berthelot, charge products with the damped shifted-force
+constants), gives the
 isotropic site-site tail correction and evaluates one pair for checks.
 Reduced units, as in :mod:`mdsim.engine.rigid_pair`.
 """
@@ -10,9 +12,12 @@ import math
 
 import numpy as np
 
+from mdsim.engine.damped_coulomb import dsf_constants
+from mdsim.engine.forms import N_PARAM
 from mdsim.engine.site_pairs import (check_fractions, site_pair_potential, site_site_tail,
                                      site_table, type_pair_tail_integrals)
-from mdsim.engine.rigid_pair import forces_half
+from mdsim.engine.rigid_pair import (CHARGES, DAMPING, DSF_OFFSET, DSF_SLOPE, N_PAIR_PARAM,
+                                     forces_half)
 from mdsim.errors import SettingError, SimulationError
 
 __all__ = ["LinearPairModel"]
@@ -23,10 +28,12 @@ class LinearPairModel:
 
     Parameters
     ----------
-    types : list of (site_z, site_potentials, quadrupole)
+    types : list of (site_z, site_potentials, quadrupole[, dipole[, site_charges]])
         One entry per molecule type: the axial site offsets from the centre
         (sigma), their like-site potentials (:class:`LennardJones` or
-        :class:`Mie`, reduced units), and the reduced point quadrupole Q*.
+        :class:`Mie`, reduced units), the reduced point quadrupole Q*, and
+        optionally the reduced point dipole mu* (along the axis) and the
+        reduced site charges q* (0 if left out).
     cutoff : float, sigma
         Molecular (centre-centre) cut-off.
     shifted : bool
@@ -36,15 +43,26 @@ class LinearPairModel:
         Hard core at the centre for Monte Carlo (0: none): two centres closer
         than it overlap (energy +inf), where point multipoles at the centres
         diverge and crossed molecules' sites need not keep them apart.
+    coulomb : {"cut", "dsf"}
+        The site charges' energy inside the molecular cut-off: "cut", plain
+        Coulomb q q / r (the charges of a neutral molecule treated as its
+        multipoles are: cut at the molecular cut-off; the more accurate
+        against Ewald, docs/physics.md section 7b.4), or "dsf", the damped
+        shifted-force energy (Fennell and Gezelter 2006) with Rc the cut-off.
+    damping : float, 1/sigma
+        alpha of the damped shifted-force energy ("dsf" only; 0 there is the
+        undamped shifted force).
 
     Attributes
     ----------
-    site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted
+    site_start_t, site_z_k, params_kk, form, elec_tm, rc, shifted
         The arguments of :func:`forces_half`, in its order.
+    charged : bool
+        True when some site carries a charge.
     core : float, sigma
     rotates_t : ndarray, shape=(n_types,), int64
         1 for a type whose energy depends on its axis, 0 for an atom (one
-        site at the centre, no quadrupole), which Monte Carlo never turns.
+        site at the centre, no multipole), which Monte Carlo never turns.
 
     Notes
     -----
@@ -52,7 +70,9 @@ class LinearPairModel:
     mixture of molecules and atoms is one model of several types, unlike
     sites mixed by the Lorentz-Berthelot rules of
     :func:`mdsim.engine.potentials.combine` (the one home of the rule, which
-    the virial routes use too).
+    the virial routes use too).  Site charges and point multipoles do not
+    mix: the kernels have no charge-multipole term, so a model with both
+    (in one type or in two) is refused, as the virial routes refuse it.
 
     Examples
     --------
@@ -66,25 +86,41 @@ class LinearPairModel:
     (-1.2101, True)
     """
 
-    def __init__(self, types, cutoff, shifted=False, core=0.0):
-        zs, quads = [], []
-        for t, (site_z, site_pots, quad) in enumerate(types):
-            site_z = [float(z) for z in site_z]
-            if not site_z or len(site_z) != len(site_pots):
-                raise SettingError(f"types[{t}]", site_z, "needs one potential per site and at "
-                                   "least one site")
+    def __init__(self, types, cutoff, shifted=False, core=0.0, coulomb="cut", damping=0.0):
+        zs, site_pots_t, moments, charges = [], [], [], []
+        for t, entry in enumerate(types):
+            site_z, site_pots, quad, dipole, site_q = _type_entry(t, entry)
             zs += site_z
-            quads.append(float(quad))
-        pots, self.params_kk, self.form, self.site_start_t = site_table([t[1] for t in types])
+            site_pots_t.append(list(site_pots))
+            charges += site_q
+            moments.append((dipole, quad))
+        pots, lj_rows, self.form, self.site_start_t = site_table(site_pots_t)
         starts = self.site_start_t
         rc = float(cutoff)
         if not rc > 0.0 or not math.isfinite(rc):
             raise SettingError("cutoff", cutoff, "must be a positive number of sigma")
         self.site_z_k = np.array(zs)
         self.site_potentials = pots
-        self.quad_t = np.array(quads)
-        self.rotates_t = np.array([int(self.quad_t[t] != 0.0 or np.any(
-            self.site_z_k[starts[t]:starts[t + 1]] != 0.0)) for t in range(len(quads))],
+        self.charge_k = np.array(charges, dtype=float)
+        self.charged = bool(np.any(self.charge_k != 0.0))
+        charged_t = [float(np.any(self.charge_k[starts[t]:starts[t + 1]] != 0.0))
+                     for t in range(len(moments))]
+        self.elec_tm = np.column_stack([np.array(moments, dtype=float).reshape(-1, 2),
+                                          charged_t])
+        if self.charged and np.any(self.elec_tm[:, :2] != 0.0):
+            raise SettingError("types", "site charges and point multipoles", "the kernels have "
+                               "no charge-multipole energy; give every molecule charges, or "
+                               "every molecule multipoles")
+        if coulomb not in ("cut", "dsf"):
+            raise SettingError("coulomb", coulomb, 'must be "cut" or "dsf"')
+        self.coulomb = coulomb
+        self.damping = float(damping)
+        if not 0.0 <= self.damping < math.inf or (coulomb == "cut" and self.damping):
+            raise SettingError("damping", damping, 'must be a finite alpha >= 0 in 1/sigma, '
+                               'and 0 with coulomb = "cut"')
+        self.params_kk = self._pair_rows(rc, lj_rows)
+        self.rotates_t = np.array([int(np.any(self.elec_tm[t, :2] != 0.0) or np.any(
+            self.site_z_k[starts[t]:starts[t + 1]] != 0.0)) for t in range(len(moments))],
             dtype=np.int64)
         self.rc = rc
         self.shifted = int(bool(shifted))
@@ -92,13 +128,25 @@ class LinearPairModel:
         if not 0.0 <= self.core < rc:
             raise SettingError("core", core, f"must lie in [0, cut-off {rc:g}) sigma")
 
+    def _pair_rows(self, rc, lj_rows):
+        """params_kk: each site pair's potential row (``lj_rows``), then its Coulomb columns."""
+        n_k = len(self.site_potentials)
+        rows = np.zeros((n_k, n_k, N_PAIR_PARAM))
+        # plain Coulomb is the DSF term with alpha, offset and slope 0
+        offset, slope = dsf_constants(self.damping, rc) if self.coulomb == "dsf" else (0.0, 0.0)
+        rows[:, :, :N_PARAM] = lj_rows
+        rows[:, :, CHARGES] = np.outer(self.charge_k, self.charge_k)
+        rows[:, :, DAMPING], rows[:, :, DSF_OFFSET], rows[:, :, DSF_SLOPE] = (
+            self.damping, offset, slope)
+        return rows
+
     @property
     def n_types(self):
-        return len(self.quad_t)
+        return len(self.elec_tm)
 
     def arrays(self):
-        """``(site_start_t, site_z_k, params_kk, form, quad_t, rc, shifted)``."""
-        return (self.site_start_t, self.site_z_k, self.params_kk, self.form, self.quad_t,
+        """``(site_start_t, site_z_k, params_kk, form, elec_tm, rc, shifted)``."""
+        return (self.site_start_t, self.site_z_k, self.params_kk, self.form, self.elec_tm,
                 self.rc, self.shifted)
 
     def site_pair_potential(self, k, m):
@@ -106,10 +154,32 @@ class LinearPairModel:
         return site_pair_potential(self.site_potentials, k, m)
 
     def tail(self, density, fraction_t=None):
-        """Isotropic site-site tail of the plain cut: (u_tail per molecule, p_tail), reduced
-        (:func:`mdsim.engine.site_pairs.site_site_tail`, which takes the same ``density``
-        and ``fraction_t``).  The quadrupole-quadrupole energy averages to zero over
-        orientations and gets no tail.
+        """Isotropic site-site long-range corrections of the plain molecular cut-off.
+
+        Parameters
+        ----------
+        density : float, 1/sigma^3
+            Number density of molecules.
+        fraction_t : array_like, shape=(n_types,), optional
+            Mole fractions of the molecule types (default: one type).
+
+        Returns
+        -------
+        u_tail : float, epsilon
+            Energy per molecule.
+        p_tail : float, epsilon/sigma^3
+
+        Notes
+        -----
+        Every site pair is taken as uncorrelated beyond the centre-centre
+        cut-off rc, with the site-site distance equal to rc:
+        U_tail / N = 2 pi rho sum_ab x_a x_b sum_(k in a, m in b) I_u,km and
+        P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the
+        integrals of :meth:`PairPotential.tail_integrals` (the atomic
+        formulas of Allen and Tildesley, Computer Simulation of Liquids,
+        section 2.8, applied site by site: common practice, no source).
+        The charge, dipole and quadrupole energies of neutral molecules
+        average to zero over orientations and get no tail.
         """
         return site_site_tail(self.site_potentials, self.site_start_t, self.rc, density,
                               fraction_t)
@@ -193,9 +263,30 @@ class LinearPairModel:
     def forces(self, centre_ni, axis_ni, type_n, box_i, nb_nj, count_n, force_ni, torque_ni):
         """:func:`forces_half` with this model; raises SimulationError on a non-finite energy."""
         u, w = forces_half(centre_ni, axis_ni, type_n, box_i, self.site_start_t, self.site_z_k,
-                           self.params_kk, self.form, self.quad_t, self.rc, self.shifted, nb_nj,
+                           self.params_kk, self.form, self.elec_tm, self.rc, self.shifted, nb_nj,
                            count_n, force_ni, torque_ni)
         if not (math.isfinite(u) and math.isfinite(w)):
             raise SimulationError(f"rigid molecules: non-finite pair energy {u} (two molecules "
                                   "overlap); start from a looser configuration")
         return u, w
+
+
+def _type_entry(t, entry):
+    """One checked entry of ``types``: (site_z, potentials, quadrupole, dipole, site charges)."""
+    if not 3 <= len(entry) <= 5:
+        raise SettingError(f"types[{t}]", len(entry), "needs (site_z, site_potentials, "
+                           "quadrupole[, dipole[, site_charges]])")
+    site_z, site_pots, quad = entry[:3]
+    dipole = float(entry[3]) if len(entry) > 3 else 0.0
+    site_z = [float(z) for z in site_z]
+    site_q = [0.0] * len(site_z) if len(entry) < 5 else [float(q) for q in entry[4]]
+    if not site_z or len(site_z) != len(site_pots) or len(site_q) != len(site_z):
+        raise SettingError(f"types[{t}]", site_z, "needs one potential (and one charge, if "
+                           "given) per site and at least one site")
+    values = [float(quad), dipole, *site_q]
+    if not all(math.isfinite(v) for v in values):
+        raise SettingError(f"types[{t}]", values, "multipoles and charges must be finite")
+    if abs(sum(site_q)) > 1e-9 * max(1.0, sum(abs(q) for q in site_q)):
+        raise SettingError(f"types[{t}] site charges", site_q, "a molecule must be neutral; "
+                           "make its charges sum to 0")
+    return site_z, site_pots, float(quad), dipole, site_q

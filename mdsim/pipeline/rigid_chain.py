@@ -170,6 +170,10 @@ def set_up_molecular_task(job):
         f"rigid molecules ({what}): {how.get(job.task.get('route'), mc)}, molecular cut-off "
         f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
         f"{gas.describe_heat_capacity_counts()}")
+    from mdsim.sampling.rigid_box import electrostatics_note
+    note = electrostatics_note(gas.molecules, float(study.reduced_pairs().rc_max))
+    if note:
+        job.notes.append(note)
 
 
 def _mixture_note(gas, counts_t):

@@ -92,8 +92,9 @@ def sample_rigid_state_md(molecule, temperature_K, density_mol_m3, *, method="md
     Parameters
     ----------
     molecule : RigidMolecule or list of RigidMolecule
-        Linear, two or more sites, optional axial quadrupole; a list is a
-        mixture of such molecules and atoms, with ``counts_t``.
+        Linear, two or more sites, optional site charges or axial point dipole
+        and quadrupole; a list is a mixture of such molecules and atoms, with
+        ``counts_t``.
     temperature_K : float, K
         The thermostat's target (equilibration, and NVT production).
     density_mol_m3 : float, mol/m^3

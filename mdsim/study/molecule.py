@@ -177,14 +177,16 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
     A gas of rigid molecules (linear molecules with site Lennard-Jones or
-    Mie and an axial point quadrupole, one kind or a mixture with atoms) is
-    simulated by the energy route (canonical Monte Carlo, or thermostatted
-    molecular dynamics with ``sampler = "md"``), the microcanonical route
-    (its final state by fixed-energy molecular dynamics) and the direct
-    route (molecular dynamics of the expansion); one kind of non-linear
-    molecule (site Lennard-Jones or Mie, no charges) by the energy route's
-    canonical Monte Carlo only (its MD stage, "rigid-body-md-nvt", is not yet
-    offered: docs/physics.md section 7a.1).  Spheres pass.
+    Mie, site charges or an axial point dipole and quadrupole, one kind or a
+    mixture with atoms) is simulated by the energy route (canonical Monte
+    Carlo, or thermostatted molecular dynamics with ``sampler = "md"``), the
+    microcanonical route (its final state by fixed-energy molecular
+    dynamics) and the direct route (molecular dynamics of the expansion);
+    one kind of non-linear molecule (site Lennard-Jones or Mie, no charges
+    or multipoles) by the energy route's canonical Monte Carlo only (its MD
+    stage, "rigid-body-md-nvt", is not yet offered: docs/physics.md section
+    7a.1).  Site charges together with point multipoles are refused.
+    Spheres pass.
 
     Parameters
     ----------
@@ -216,12 +218,6 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
         raise StudyError(f"{where}: {what} not yet supported for rigid-molecule potentials "
                          '(form = "rigid-molecule"); use routes = ["energy", "microcanonical", '
                          '"direct"] or the virial routes, routes = []')
-    for mol in gas.molecules:  # a mixture of linear molecules and atoms is simulated too
-        if mol.dipole != 0.0 or bool((mol.charge_s != 0.0).any()):
-            raise StudyError(f"{where}: simulation of rigid molecules with point charges or a "
-                             f"dipole ('{mol.name}') is not yet supported (the rigid Monte Carlo "
-                             "has site Lennard-Jones or Mie and an axial quadrupole); use the "
-                             "virial routes, [simulation] routes = []")
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
     by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
     if nonlinear and (gas.n_species > 1 or by_md):
@@ -230,3 +226,19 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          "molecule is simulated by the energy route's canonical Monte Carlo of "
                          f"one kind of molecule only, not {what}; use routes = [\"energy\"] with "
                          'sampler "auto" or "mc", or the virial routes, [simulation] routes = []')
+    electric = [m.name for m in gas.molecules if m.is_nonlinear and (m.has_charges
+                                                                      or m.has_multipoles)]
+    if electric:
+        raise StudyError(f"{where}: molecule '{electric[0]}' is not linear and carries charges or "
+                         "point multipoles, which the simulation of non-linear rigid molecules "
+                         "does not have yet (site Lennard-Jones or Mie only); use the virial "
+                         "routes, [simulation] routes = []")
+    charged = [m.name for m in gas.molecules if m.has_charges]
+    polar = [m.name for m in gas.molecules if m.has_multipoles]
+    if charged and polar:  # site charges and axial multipoles: no charge-multipole energy
+        who = (f"molecule '{charged[0]}' carries site charges and point multipoles"
+               if charged[0] == polar[0] else f"molecule '{charged[0]}' carries site charges "
+               f"and '{polar[0]}' point multipoles")
+        raise StudyError(f"{where}: {who}; the simulation has no charge-multipole "
+                         "energy (nor have the virial routes): describe every molecule by site "
+                         "charges, or every molecule by point dipoles and quadrupoles")

@@ -84,7 +84,7 @@ def _energy_numpy(air, box, mc, t, x, e):
 def _kernel_args(mc):
     m = mc.model
     return (mc.centre_ni, mc.axis_ni, mc.type_n, mc.box_i, mc.ncell_i, mc.head_c, mc.next_n,
-            m.site_start_t, m.site_z_k, m.params_kk, m.form, m.quad_t, m.rc, m.core ** 2)
+            m.site_start_t, m.site_z_k, m.params_kk, m.form, m.elec_tm, m.rc, m.core ** 2)
 
 
 def test_test_molecule_energy_matches_numpy_for_air(air):

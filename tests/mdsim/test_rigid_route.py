@@ -3,7 +3,7 @@
 Rigid-molecule stages in resumable run files (mdsim.sampling.rigid_stage),
 the task through the pipeline (mdsim.pipeline.rigid_chain), its Delta T
 against CoolProp's nitrogen (Span et al. 2000; test-only), and the
-refusals that remain (charges); air as a mixture of
+refusals that remain (site charges with point multipoles); air as a mixture of
 molecules and an atom against CoolProp's air (Lemmon et al. 2000; test-only).
 """
 import csv
@@ -35,14 +35,15 @@ def energy_study(tmp_path, extra="", routes='["energy"]'):
     return path
 
 
-def coolprop_delta_T(CP):
-    """Delta T of CoolProp's nitrogen from 100 bar at 300 K, the volume doubled at the same U, K."""
+def coolprop_delta_T(CP, fluid="Nitrogen", T=300.0, p=100e5):
+    """Delta T of a CoolProp fluid (nitrogen from 100 bar at 300 K unless told), the volume
+    doubled at the same U, K."""
     from scipy.optimize import brentq
-    rho = CP.PropsSI("Dmolar", "T", 300.0, "P", 100e5, "Nitrogen")
-    u_ref = CP.PropsSI("Umolar", "T", 300.0, "Dmolar", rho, "Nitrogen")
-    T_f = brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho / 2, "Nitrogen") - u_ref,
-                 260.0, 300.0, xtol=1e-9)
-    return T_f - 300.0
+    rho = CP.PropsSI("Dmolar", "T", T, "P", p, fluid)
+    u_ref = CP.PropsSI("Umolar", "T", T, "Dmolar", rho, fluid)
+    T_f = brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho / 2, fluid) - u_ref,
+                 T - 40.0, T, xtol=1e-9)
+    return T_f - T
 
 
 def interrupted_and_uninterrupted(path, stop_at, run, *args):
@@ -146,7 +147,7 @@ def check_route_entropy(row, molecules=None, fractions=(1.0,), ratio=2.0):
 
 @pytest.mark.parametrize("change, match", [
     ('quantum_potential = "feynman-hibbs"', "not to rigid molecules"),
-    ('quadrupole = "1.4397 D angstrom"\ndipole = "0.5 D"', "charges or a dipole"),
+    ("charge_e = 0.1", "site charges and point multipoles"),
 ])
 def test_what_rigid_molecules_cannot_simulate_is_refused(tmp_path, change, match):
     text = energy_study(tmp_path).read_text()
@@ -154,6 +155,11 @@ def test_what_rigid_molecules_cannot_simulate_is_refused(tmp_path, change, match
         text = text.replace('routes = ["energy"]', change)
     elif change.startswith(("sampler", "quantum")):
         text = text.replace('seed = 7', f"seed = 7\n{change}")
+    elif change.startswith("charge_e"):  # opposite charges on the two sites of quadrupolar N2
+        mass = 'mass = "14.0067 g/mol"'
+        head, tail = text.rsplit(mass, 1)
+        minus = change.replace("0.1", "-0.1")
+        text = head.replace(mass, mass + "\n" + change) + mass + "\n" + minus + tail
     else:
         text = text.replace('quadrupole = "1.4397 D angstrom"', change)
     (tmp_path / "bad.toml").write_text(text)

@@ -31,7 +31,7 @@ def _b2_cm3(fluid, T):
     return CP.PropsSI("Bvirial", "T", T, "Dmolar", 1e-6, fluid) * 1e6
 
 
-def _delta_T_reference(fluid, T, p, ratio=2.0):
+def delta_T_reference(fluid, T, p, ratio=2.0):
     rho = CP.PropsSI("Dmolar", "T", T, "P", p, fluid)
     u = CP.PropsSI("Umolar", "T", T, "Dmolar", rho, fluid)
     T_f = brentq(lambda t: CP.PropsSI("Umolar", "T", t, "Dmolar", rho / ratio, fluid) - u,
@@ -64,7 +64,7 @@ def test_nitrogen_config_delta_T_up_to_100_bar(nitrogen_study):
     records = virial_records(nitrogen_study)
     assert [r["state_point"]["pressure_Pa"] for r in records] == [20e5, 50e5, 100e5]
     for rec in records:
-        ref = _delta_T_reference("Nitrogen", 298.15, rec["state_point"]["pressure_Pa"])
+        ref = delta_T_reference("Nitrogen", 298.15, rec["state_point"]["pressure_Pa"])
         got = rec["delta_T_K"]["virial_b2b3"]["value"]
         # measured within 1.5 %; 3 % allows for the model and the MC error of B3 (~0.2 %)
         assert got == pytest.approx(ref, rel=0.03)
@@ -83,7 +83,7 @@ def test_co2_delta_T_at_10_bar(co2):
     study = read_study(CONFIGS / "co2.toml")
     gas = MolecularVirialGas([co2], [1.0], n_draws=50000)
     res = virial_expansion(gas, ideal_heat_capacity(study), 298.15, 2.0, p_i=10e5, order=3)
-    ref = _delta_T_reference("CO2", 298.15, 10e5)
+    ref = delta_T_reference("CO2", 298.15, 10e5)
     # the CO2 model's T dB/dT is 8 % low at room temperature (measured); 10 %
     assert res.delta_T_K == pytest.approx(ref, rel=0.10)
 
@@ -102,7 +102,7 @@ def test_air_as_n2_o2_ar_at_22_bar():
     # fewer draws than the default keep the test short; B3 matters little at 22 bar
     gas = MolecularVirialGas(study.gas.molecules, study.gas.fractions, n_draws=30000)
     res = virial_expansion(gas, ideal_heat_capacity(study), 295.15, 2.0, p_i=22e5, order=3)
-    ref = _delta_T_reference("Air", 295.15, 22e5)
+    ref = delta_T_reference("Air", 295.15, 22e5)
     # measured: -3.07 K against -3.12 K; 3 % of it
     assert res.delta_T_K == pytest.approx(ref, rel=0.03)
     # the trade's figure: about 3 K of cooling from 22 bar (common practice, no source)
@@ -121,7 +121,7 @@ def test_argon_three_body_term_moves_delta_T_toward_the_reference():
     from mdsim.engine.potentials import LennardJones
     T, p = 295.15, 100e5
     rho = CP.PropsSI("Dmolar", "T", T, "P", p, "Argon")
-    ref = _delta_T_reference("Argon", T, p)
+    ref = delta_T_reference("Argon", T, p)
     cv = ConstantHeatCapacity(1.5 * R_GAS)
     dT = {}
     for c9 in (0.0, 518.0 * HARTREE_BOHR9_IN_K_ANGSTROM9):

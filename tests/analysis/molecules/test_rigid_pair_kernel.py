@@ -113,7 +113,7 @@ def _slow_system(molecules_t, type_n, centre_ni, axis_ni, box_i, rc):
     return u / EPS_K
 
 
-def _random_start(rng, box_i, n):
+def random_start(rng, box_i, n):
     """n random centres in a periodic box, every pair at least 1.1 sigma apart."""
     while True:
         centre_ni = rng.uniform(0, 1, (n, 3)) * box_i
@@ -123,15 +123,20 @@ def _random_start(rng, box_i, n):
             return centre_ni
 
 
+def random_box(seed, box_i, n, n_types):
+    """Centres (random_start), random axes and types 0, 1, .. in turn of n molecules."""
+    rng = np.random.default_rng(seed)
+    centre_ni = random_start(rng, box_i, n)
+    axis_ni = np.array([random_unit(rng) for _ in range(n)])
+    return centre_ni, axis_ni, np.arange(n, dtype=np.int64) % n_types
+
+
 def test_box_kernel_against_a_slow_numpy_sum(nitrogen, oxygen):
     # 10 molecules (two types) in a periodic box: energy against the NumPy pair
     # energy; forces and torques against finite differences of that energy
-    rng = np.random.default_rng(5)
     box_i = np.array([4.0, 4.5, 5.0])
     n, rc = 10, 2.2
-    centre_ni = _random_start(rng, box_i, n)
-    axis_ni = np.array([random_unit(rng) for _ in range(n)])
-    type_n = np.array([0, 1] * 5, dtype=np.int64)
+    centre_ni, axis_ni, type_n = random_box(5, box_i, n, 2)
     mols = [nitrogen, oxygen]
     model = _model([nitrogen, oxygen], cutoff=rc)
     nb_nj = np.array([[j for j in range(i + 1, n)] + [0] * (i + 1) for i in range(n)],
@@ -180,7 +185,7 @@ def test_mixture_of_molecules_and_an_atom_in_the_monte_carlo_kernels(nitrogen, o
     rng = np.random.default_rng(11)
     box_i = np.array([5.0, 5.5, 6.0])
     n, rc = 15, 2.4
-    centre_ni = _random_start(rng, box_i, n)
+    centre_ni = random_start(rng, box_i, n)
     axis_ni = np.array([random_unit(rng) for _ in range(n)])
     type_n = np.array([0, 1, 2] * 5, dtype=np.int64)
     mols = [nitrogen, oxygen, argon_atom]
