@@ -54,6 +54,10 @@ class Estimate:
         return out
 
 
+#: Canonical MD methods: they always record a pressure.
+_MD_CANONICAL = ("md-nvt", "rigid-md-nvt", "rigid-body-md-nvt")
+
+
 def summarise(samples, method, n_particles, volume, temperature=None, dof_per_particle=3):
     """Means and standard errors of a run's observables.
 
@@ -105,8 +109,7 @@ def summarise(samples, method, n_particles, volume, temperature=None, dof_per_pa
     if method in CANONICAL:
         T = float(temperature)
         out["temperature"] = Estimate(T, 0.0, math.nan)
-        if method in ("md-nvt", "rigid-md-nvt", "rigid-body-md-nvt") or \
-                np.all(np.isfinite(samples["pressure"])):
+        if method in _MD_CANONICAL or np.all(np.isfinite(samples["pressure"])):
             p = mean_and_stderr(samples["pressure"])
             out["pressure"] = Estimate(p.mean, p.stderr, p.g)
         var = variance_and_stderr(samples["u_full"])
