@@ -154,31 +154,9 @@ class LinearPairModel:
         return site_pair_potential(self.site_potentials, k, m)
 
     def tail(self, density, fraction_t=None):
-        """Isotropic site-site long-range corrections of the plain molecular cut-off.
-
-        Parameters
-        ----------
-        density : float, 1/sigma^3
-            Number density of molecules.
-        fraction_t : array_like, shape=(n_types,), optional
-            Mole fractions of the molecule types (default: one type).
-
-        Returns
-        -------
-        u_tail : float, epsilon
-            Energy per molecule.
-        p_tail : float, epsilon/sigma^3
-
-        Notes
-        -----
-        Every site pair is taken as uncorrelated beyond the centre-centre
-        cut-off rc, with the site-site distance equal to rc:
-        U_tail / N = 2 pi rho sum_ab x_a x_b sum_(k in a, m in b) I_u,km and
-        P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the
-        integrals of :meth:`PairPotential.tail_integrals` (the atomic
-        formulas of Allen and Tildesley, Computer Simulation of Liquids,
-        section 2.8, applied site by site: common practice, no source).
-        The charge, dipole and quadrupole energies of neutral molecules
+        """Isotropic site-site tail of the plain cut: (u_tail per molecule, p_tail), reduced
+        (:func:`mdsim.engine.site_pairs.site_site_tail`, which takes the same ``density``
+        and ``fraction_t``).  The charge, dipole and quadrupole energies of neutral molecules
         average to zero over orientations and get no tail.
         """
         return site_site_tail(self.site_potentials, self.site_start_t, self.rc, density,
