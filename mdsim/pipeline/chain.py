@@ -13,7 +13,9 @@ standard error of Delta T) and ``max_cpu_time``, not the run length:
   Delta T is above the target and CPU budget is left.  ``stopped_by`` says
   which ended it.
 - Standard errors (:func:`production_mean`): the production samples continue
-  a chain whose pilot has settled, so no start is cut off them (cutting a
+  a chain whose pilot has settled, so no start is cut off them (a chain whose
+  pilot had not: only a start that differs beyond its noise,
+  :func:`analysis.block_error.significant_start`; cutting a
   start chosen from the data makes a short series' mean noisier and its
   error smaller: measured at T* = 2, rho* = 0.3 with 256 particles, the
   scatter of 200-sample means was 2.2 times the error reported with the cut,

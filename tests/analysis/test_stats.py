@@ -139,3 +139,25 @@ def test_drifting_series_raises():
     x = np.linspace(0.0, 100.0, 60) + np.random.default_rng(0).normal(0, 1e-3, 60)
     with pytest.raises(ConvergenceError, match="run longer"):
         stats.mean_and_stderr(x)
+
+
+def test_production_mean_keeps_a_slow_fluctuation_and_cuts_a_transient(ar1):
+    """A chain's production whose pilot had not settled: equilibration detection often puts
+    the start of a stationary series with a slow mode late, and cutting there made the mean
+    noisier and its error smaller (analysis.block_error.significant_start).  100 invented
+    AR(1) series, phi 0.98 (g = 99), 1000 samples, true mean 0 (these seeds): with the old
+    cut the median |z| was 1.71 (a series refused as drifting counted as missed: 4 of 100
+    were); now 1.28 measured (for right errors 0.674; about 0.86 without any cut, the short
+    series' own g being low).  The median of 100 scatters by about 0.1: below 1.5.  A decaying start ten standard deviations high is still cut: the mean within
+    4 standard errors of the truth (common practice, no source)."""
+    from analysis.block_error import production_mean
+    z = []
+    for seed in range(100):
+        m, se = production_mean(ar1(0.98, 1000, seed=500 + seed), settled=False)
+        z.append(abs(m) / se)
+    assert float(np.median(z)) < 1.5
+    rng = np.random.default_rng(7)
+    x = np.concatenate([10.0 * np.exp(-np.arange(500) / 50.0) + rng.normal(size=500),
+                        rng.normal(size=5000)])
+    m, se = production_mean(x, settled=False)
+    assert abs(m) < 4 * se and stats.mean_and_stderr(x).t0 > 100
