@@ -27,7 +27,7 @@ from mdsim.engine.integrator import run_in_blocks
 from mdsim.engine.neighbours import NeighbourList, choose_skin
 from mdsim.engine.rigid_integrator import translational_dof
 from mdsim.engine.rigid_md import METHODS
-from mdsim.engine.rigid_md_steps import rigid_time_step
+from mdsim.engine.rigid_md_steps import rigid_time_step, sampler_temperature
 from mdsim.errors import SettingError, SimulationError
 
 __all__ = ["BodyMDSampler"]
@@ -46,8 +46,9 @@ class BodyMDSampler:
     box_i : array_like, shape=(3,), sigma
     inertia_i : array_like, shape=(3,), m sigma^2
         Principal moments of inertia of the body (mass 1, the unit).
-    temperature : float
-        kT, reduced: the start momenta's and the thermostat's.
+    temperature : float or None
+        kT, reduced: the start momenta's and the thermostat's; None for "md-nve"
+        from given ``momenta`` (no thermostat at all).
     seed : int or list of int
     method : {"md-nvt", "md-nve"}
         Production with or without the thermostat (equilibration always has it).
@@ -98,7 +99,7 @@ class BodyMDSampler:
             raise SettingError("box_i", self.box_i.tolist(), f"each edge must exceed twice the "
                                f"cut-off {model.rc:g}; use more molecules or a shorter cut-off")
         self.n = n
-        self.temperature = positive("temperature", temperature, "kT/epsilon")
+        self.temperature = temperature = sampler_temperature(temperature, method, momenta)
         self.rng = _rng.make_state(seed)
         self.type_n = np.zeros(n, dtype=np.int64)
         self.mass_n = np.ones(n)
@@ -116,13 +117,15 @@ class BodyMDSampler:
                 raise SettingError("momenta", "(v_ni, pb_ni)", f"needs two ({n}, 3) finite "
                                    "arrays: velocities and body-frame angular momenta")
         self.nf_trans, self.nf_rot = translational_dof(n), BODY_ROTATIONAL_DOF * n
-        self.time_step = (rigid_time_step(self.temperature, 1.0, inertia.min())
+        t_state = temperature if temperature is not None else self.temperature_now()
+        self.time_step = (rigid_time_step(t_state, 1.0, inertia.min())
                           if time_step is None else positive("time_step", time_step, "reduced"))
         self.thermostat_time = positive("thermostat_time", thermostat_time, "reduced time")
         self.volume = float(np.prod(self.box_i))
         self.u_tail, self.p_tail = model.tail(n / self.volume)
-        skin = choose_skin(n / self.volume, self.temperature, model.rc) if skin is None else skin
+        skin = choose_skin(n / self.volume, t_state, model.rc) if skin is None else skin
         self.nlist = NeighbourList(n, self.box_i, model.rc, skin)
+        self.skin = self.nlist.skin
         self.id_n = np.arange(n, dtype=np.int64)
         self.f_ni, self.tau_ni = np.zeros((n, 3)), np.zeros((n, 3))
         self.obs = np.zeros(5)
@@ -155,6 +158,7 @@ class BodyMDSampler:
     def _advance(self, n_steps, thermostat):
         m = self.model
         c = math.exp(-self.time_step / self.thermostat_time)
+        kT = self.temperature if self.temperature is not None else 0.0  # no thermostat: unused
 
         def block(steps, resume):
             return body_block(
@@ -162,7 +166,7 @@ class BodyMDSampler:
                 self.offset_nsi, self.f_ni, self.tau_ni, self.mass_n, self.inertia_ni,
                 self.nlist.r_ref_ni, 0.25 * self.nlist.skin ** 2, self.type_n, self.box_i,
                 m.site_start_t, m.site_body_ki, m.params_kk, m.form, m.rc, m.shifted,
-                self.nlist.nb_nk, self.nlist.count_n, thermostat, self.temperature,
+                self.nlist.nb_nk, self.nlist.count_n, thermostat, kT,
                 self.nf_trans, self.nf_rot, c, self.rng, self.obs)
         done, status = run_in_blocks(n_steps, block, self.rebuild_list)
         self.step += done
@@ -171,8 +175,35 @@ class BodyMDSampler:
                                   "shorten the time step")
 
     def equilibrate(self, n_steps):
-        """``n_steps`` unrecorded steps with the thermostat."""
-        self._advance(count("equilibration steps", n_steps, 0), True)
+        """``n_steps`` unrecorded steps, the thermostat on when a temperature is set."""
+        self._advance(count("equilibration steps", n_steps, 0), self.temperature is not None)
+
+    def plain_cut_energy(self):
+        """The plain-cut energy of the current configuration (the Monte Carlo model), epsilon
+        (the whole box, without the tail)."""
+        return self._forces(0, np.zeros((self.n, 3)), np.zeros((self.n, 3)))
+
+    def temperature_now(self):
+        """The kinetic temperature 2 K / F of the current momenta, F = 3N - 3 + 3N."""
+        kt, kr = body_kinetic_parts(self.v_ni, self.pb_ni, self.mass_n, self.inertia_ni)
+        return 2.0 * (kt + kr) / (self.nf_trans + self.nf_rot)
+
+    def set_method(self, method):
+        """Switch between "md-nvt" and "md-nve" (NVE production after an NVT start)."""
+        if method not in METHODS:
+            raise SettingError("method", method, f"molecular dynamics offers {', '.join(METHODS)}")
+        if method == "md-nvt" and self.temperature is None:
+            raise SettingError("method", method, "md-nvt needs a temperature; this sampler was "
+                               "made without one")
+        self.method = method
+
+    def scale_momenta(self, factor):
+        """Multiply every velocity and body angular momentum by ``factor`` (> 0): the kinetic
+        energy by factor^2, its split between translations and rotations kept."""
+        factor = positive("factor", factor, "a positive scale of the momenta")
+        self.v_ni *= factor
+        self.pb_ni *= factor
+        self.obs[3:] = body_kinetic_parts(self.v_ni, self.pb_ni, self.mass_n, self.inertia_ni)
 
     def run(self, n_samples, interval):
         """Production: ``n_samples`` samples, one every ``interval`` steps.

@@ -28,7 +28,8 @@ from mdsim.engine.integrator import run_in_blocks
 from mdsim.engine.neighbours import NeighbourList, choose_skin, wrap_positions
 from mdsim.engine.rigid_integrator import (draw_axes, kinetic_parts, rigid_block,
                                            rotational_dof, start_momenta, translational_dof)
-from mdsim.engine.rigid_md_steps import rigid_time_step, temperatures_by_type
+from mdsim.engine.rigid_md_steps import (rigid_time_step, sampler_temperature,
+                                         temperatures_by_type)
 from mdsim.engine.rigid_pair import forces_half
 from mdsim.errors import SettingError, SimulationError, StudyError
 
@@ -143,12 +144,7 @@ class RigidMDSampler:
             raise SettingError("box_i", self.box_i.tolist(), f"each edge must exceed twice the "
                                f"cut-off {model.rc:g} (minimum image); use more molecules or a "
                                "shorter cut-off")
-        if temperature is not None:
-            temperature = positive("temperature", temperature, "kT/epsilon")
-        elif method == "md-nvt" or momenta is None:
-            raise SettingError("temperature", None, "md-nvt and a start without given momenta "
-                               "need kT/epsilon")
-        self.temperature = temperature
+        self.temperature = temperature = sampler_temperature(temperature, method, momenta)
         self.r_ni = r
         self.e_ni = self._axes(axis_ni)
         self.v_ni, self.l_ni = self._momenta(momenta)

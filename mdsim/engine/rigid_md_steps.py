@@ -1,12 +1,15 @@
-"""Rigid-molecule MD: the default time step, the drift of the conserved energy and the kinetic
-temperatures of each molecule type."""
+"""Rigid-molecule MD: the default time step, the sampler's temperature, the drift of the conserved
+energy and the kinetic temperatures of each molecule type."""
 import math
 
 import numpy as np
 
+from mdsim.checks import positive
 from mdsim.engine.integrator import default_time_step, energy_drift
+from mdsim.errors import SettingError
 
-__all__ = ["ROTATION_STEP", "rigid_time_step", "drift_K_per_ns", "temperatures_by_type"]
+__all__ = ["ROTATION_STEP", "rigid_time_step", "sampler_temperature", "drift_K_per_ns",
+           "temperatures_by_type"]
 
 #: Default largest rotation per step at the rms angular speed sqrt(2 kT / I), rad.
 ROTATION_STEP = 0.05
@@ -30,6 +33,21 @@ def rigid_time_step(temperature, mass, inertia):
     rotation = ROTATION_STEP / math.sqrt(2.0 * float(temperature) / float(np.min(
         inertia[inertia > 0.0])))
     return min(default_time_step(temperature, np.atleast_1d(mass)), rotation)
+
+
+def sampler_temperature(temperature, method, momenta):
+    """The kT/epsilon of a rigid-molecule MD sampler: positive, or None for "md-nve" started
+    from given ``momenta`` (then the sampler has no thermostat at all).
+
+    >>> sampler_temperature(8.6, "md-nvt", None), sampler_temperature(None, "md-nve", ([], []))
+    (8.6, None)
+    """
+    if temperature is not None:
+        return positive("temperature", temperature, "kT/epsilon")
+    if method == "md-nvt" or momenta is None:
+        raise SettingError("temperature", None, "md-nvt and a start without given momenta "
+                           "need kT/epsilon")
+    return None
 
 
 def drift_K_per_ns(e_conserved_t, interval, time_step, units):

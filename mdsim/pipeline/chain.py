@@ -164,6 +164,13 @@ class Chain:
         attrs = store.read_attrs(prev.path)
         return {"max_displacement": float(attrs["sampler_final_max_displacement_red"])}
 
+    def pilot_spacing(self, system, n_samples):
+        """(equilibration steps or sweeps, steps or sweeps between samples) of a pilot of
+        ``n_samples`` samples of ``system``."""
+        if self.is_md:
+            return EQUILIBRATION_MD_STEPS, MD_PILOT_INTERVAL
+        return EQUILIBRATION_MC_SWEEPS, 1
+
     def samples(self):
         """The production samples of every stage, concatenated (dict of 1-D arrays)."""
         return {k: np.concatenate([r.samples[k] for r in self.results])
@@ -185,8 +192,7 @@ class Chain:
         from analysis.stats import mean_and_stderr
         job = self.job
         system = self.make_system()
-        n_eq = EQUILIBRATION_MD_STEPS if self.is_md else EQUILIBRATION_MC_SWEEPS
-        interval = MD_PILOT_INTERVAL if self.is_md else 1
+        n_eq, interval = self.pilot_spacing(system, n_samples)
         self.pilot = job.stage(self.pilot_name, system, self.method, self.T_red,
                                self.E_red, n_eq=n_eq, n_samples=n_samples, interval=interval,
                                seed=job.stage_seed(self.id, 0), **self._settings(None))
@@ -205,6 +211,7 @@ class Chain:
             self.interval = max(1, min(MAX_INTERVAL_MC, int(g // 2)))
         # stderr of one unit of run (a sweep or step), scaled from the pilot
         self.pilot_se = float(se)
+        self.pilot_interval = interval
         self.pilot_units = n_samples * interval
         return self
 

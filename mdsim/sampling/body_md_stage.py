@@ -1,50 +1,95 @@
-"""Thermostatted molecular dynamics of non-linear rigid molecules in stage files.
+"""Molecular dynamics of non-linear rigid molecules in stage files, thermostatted or at fixed energy.
 
 :class:`BodyMDStageSampler` wraps :class:`mdsim.engine.body_md.BodyMDSampler`
 in the protocol of :func:`mdsim.sampling.state_point.sample_state_point`
 (built from a :class:`mdsim.sampling.body_stage.BodySystem`, ``equilibrate``,
-``run``, ``get_state``/``set_state``, ``settings``) for the energy route's
-``sampler = "md"`` (method :data:`BODY_MD_METHOD`), with a checkpoint after
-every block that continues the run bit for bit.  Fixed-energy runs (the
-microcanonical and direct routes) are not offered for non-linear molecules
-yet.
+``run``, ``get_state``/``set_state``, ``settings``): the energy route's
+``sampler = "md"`` (method :data:`BODY_MD_METHOD`) and the fixed-energy runs
+of the microcanonical and direct routes (:data:`BODY_MD_NVE_METHOD`), with a
+checkpoint after every block that continues the run bit for bit.  The fixed
+energy, a fresh start's thermostatted equilibration and the scaling of the
+momenta to that energy are those of the linear molecules'
+:class:`mdsim.sampling.rigid_md_stage.RigidMDStageSampler`, with 3N - 3 + 3N
+kinetic degrees of freedom.
 
 Reduced units of the molecule's first site.  Run-file ``positions`` and
 ``velocities`` are the centres and their velocities in the order the system
 gave them; the checkpoint also holds ``quat_nq`` and ``angular_momenta``
 (body frame) in that order, from which a continued stage starts.
 """
-import copy
+import math
+
+import numpy as np
 
 from mdsim.engine.body_md import BodyMDSampler
-from mdsim.engine.body_integrator import BODY_ROTATIONAL_DOF
-from mdsim.engine.rigid_integrator import translational_dof
-from mdsim.errors import SettingError, StudyError
+from mdsim.errors import SettingError
+from mdsim.sampling.rigid_md_stage import RigidMDStageSampler
 
-__all__ = ["BODY_MD_METHOD", "BodyMDStageSampler"]
+__all__ = ["BODY_MD_METHOD", "BODY_MD_NVE_METHOD", "BODY_MD_METHODS", "BodyMDStageSampler",
+           "mean_free_time"]
 
 BODY_MD_METHOD = "rigid-body-md-nvt"
 """The method name of thermostatted MD of non-linear rigid molecules in stage files."""
+BODY_MD_NVE_METHOD = "rigid-body-md-nve"
+"""The method name of fixed-energy MD of non-linear rigid molecules in stage files."""
+BODY_MD_METHODS = {BODY_MD_METHOD: "md-nvt", BODY_MD_NVE_METHOD: "md-nve"}
+"""The stage methods of MD of non-linear rigid molecules and the engine method of each."""
 
 
-class BodyMDStageSampler:
-    """Thermostatted MD of a :class:`~mdsim.sampling.body_stage.BodySystem` behind the protocol.
+def mean_free_time(system, temperature):
+    """The mean time between collisions of a molecule of a :class:`BodySystem`, reduced.
 
     Parameters
     ----------
     system : BodySystem
-        Its model is run in its shifted-energy form; its ``v_ni`` and
-        ``pb_ni`` (velocities, body-frame angular momenta), when set, start
-        the run, otherwise they are drawn at ``temperature``.
+        Its density and the sites of its (one kind of) molecule.
     temperature : float
-        kT, reduced (the thermostat's target).
-    energy : None
-        Refused when given (thermostatted only).
-    seed : int or list of int
-    method : str
-        :data:`BODY_MD_METHOD`.
-    time_step, thermostat_time, skin : float, optional
-        Reduced; defaults of :class:`~mdsim.engine.body_md.BodyMDSampler`.
+        kT, reduced.
+
+    Returns
+    -------
+    float
+        t_c = 1 / (sqrt(2) pi d^2 rho v_mean) with v_mean = sqrt(8 kT / (pi m)),
+        in the reduced time unit (m = 1).
+
+    Notes
+    -----
+    The mean free time of hard spheres of diameter d (Chapman and
+    Cowling, The Mathematical Theory of Non-Uniform Gases, 3rd ed. 1970,
+    section 5.21), with d the diameter of the sphere that holds every site
+    with half its sigma: twice the largest distance of a site from the
+    centre plus the largest site sigma.  It sets how long MD of a dilute gas
+    of these molecules must run to forget its start and to measure its
+    correlation time (:mod:`mdsim.pipeline.rigid_chain`): the energy of
+    propane at rho sigma^3 = 0.02 relaxes from the lattice in about 1.5 t_c
+    and decorrelates over about 0.8 t_c (measured).
+
+    Examples
+    --------
+    Two sites 0.5 sigma apart (d = 1.5 sigma) at rho sigma^3 = 0.02, kT = 2 epsilon:
+
+    >>> from types import SimpleNamespace
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> model = SimpleNamespace(site_body_ki=np.array([[0.25, 0.0, 0.0], [-0.25, 0.0, 0.0]]),
+    ...                         site_potentials=[LennardJones(1.0, 1.0)])
+    >>> round(mean_free_time(SimpleNamespace(model=model, density=0.02), 2.0), 4)
+    2.2163
+    """
+    model = system.model
+    reach = float(np.max(np.linalg.norm(model.site_body_ki, axis=1)))
+    d = 2.0 * reach + max(p.sigma for p in model.site_potentials)
+    v_mean = math.sqrt(8.0 * float(temperature) / math.pi)
+    return 1.0 / (math.sqrt(2.0) * math.pi * d * d * float(system.density) * v_mean)
+
+
+class BodyMDStageSampler(RigidMDStageSampler):
+    """MD of a :class:`~mdsim.sampling.body_stage.BodySystem` behind the protocol.
+
+    As :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler` (parameters,
+    the fixed energy, settings), with the orientations as quaternions, the
+    body-frame angular momenta ``pb_ni`` of the system as its start momenta
+    (with ``v_ni``) and F = 3N - 3 + 3N kinetic degrees of freedom; one kind
+    of molecule.  ``method`` is one of :data:`BODY_MD_METHODS`.
 
     Examples
     --------
@@ -60,44 +105,30 @@ class BodyMDStageSampler:
     >>> s.equilibrate(20)
     >>> sorted(s.run(2, 5))[:3]
     ['e_conserved', 'kinetic', 'kinetic_rot']
+    >>> s = BodyMDStageSampler(body_system(bent, 300.0, 2000.0, 27, 3.0, seed=1), energy=8.0,
+    ...                        seed=2, method=BODY_MD_NVE_METHOD, start_temperature=6.0)
+    >>> s.equilibrate(20)
+    >>> out = s.run(1, 1)
+    >>> round(float(out["u_full"][0] + out["kinetic"][0]), 3), s.kinetic_dof()  # the energy
+    (8.0, 159)
     """
 
-    def __init__(self, system, temperature=None, energy=None, seed=0, method=BODY_MD_METHOD,
-                 time_step=None, thermostat_time=0.5, skin=None):
-        if method != BODY_MD_METHOD or temperature is None or energy is not None:
-            raise StudyError(f"setting 'method' = {method!r}: non-linear rigid molecules are "
-                             f"run by thermostatted MD ({BODY_MD_METHOD!r}) at a set temperature")
+    methods = BODY_MD_METHODS
+
+    @staticmethod
+    def start_momenta(system):
+        """The system's (velocities, body-frame angular momenta) to start from, or None."""
+        if system.v_ni is not None and getattr(system, "pb_ni", None) is not None:
+            return system.v_ni, system.pb_ni
+        return None
+
+    def engine(self, system, **settings):
+        """The engine's sampler of the system (:class:`mdsim.engine.body_md.BodyMDSampler`)."""
         if system.model.n_types > 1:
             raise SettingError("system", f"{system.model.n_types} kinds of molecule", "MD of "
                                "non-linear molecules takes one kind of molecule")
-        self.method, self.system = method, system
-        self.model = copy.copy(system.model)
-        self.model.shifted = 1  # the dynamics need the shifted energy (mdsim.engine.body_md)
-        self.dof_per_particle = int(system.dof_per_particle)
-        momenta = None
-        if system.v_ni is not None and getattr(system, "pb_ni", None) is not None:
-            momenta = (system.v_ni, system.pb_ni)
-        self.md = BodyMDSampler(self.model, system.r_ni, system.quat_nq, system.box_i,
-                                system.inertia_i, temperature=temperature, seed=seed,
-                                time_step=time_step, thermostat_time=thermostat_time, skin=skin,
-                                momenta=momenta)
-
-    @property
-    def kinetic_dof_total(self):
-        """3N - 3 + 3N: the kinetic degrees of freedom of the box."""
-        return translational_dof(self.md.n) + BODY_ROTATIONAL_DOF * self.md.n
-
-    def equilibrate(self, n_steps):
-        """Unrecorded thermostatted steps."""
-        self.md.equilibrate(n_steps)
-
-    def run(self, n_samples, interval):
-        """Production samples: the engine's series plus "kinetic" (K / N) and
-        "temperature_inst" (2K / (6N - 3))."""
-        out = self.md.run(n_samples, interval)
-        out["kinetic"] = out["kinetic_trans"] + out["kinetic_rot"]
-        out["temperature_inst"] = 2.0 * self.md.n / self.kinetic_dof_total * out["kinetic"]
-        return out
+        return BodyMDSampler(self.model, system.r_ni, system.quat_nq, system.box_i,
+                             system.inertia_i, **settings)
 
     def positions(self):
         """The molecular centres in the system's order, shape=(n, 3), sigma."""
@@ -121,15 +152,3 @@ class BodyMDStageSampler:
         engine = {k: v for k, v in state.items() if k not in ("quat_nq", "angular_momenta")}
         engine["quat_nq"] = engine.pop("engine_quat_nq")
         self.md.set_state(engine)
-
-    def settings(self):
-        """Settings as plain numbers and strings (for HDF5 attributes)."""
-        md = self.md
-        return {"method": self.method, "temperature_red": float(md.temperature),
-                "n_particles": int(md.n), "density_red": float(self.system.density),
-                "dof_per_particle": self.dof_per_particle,
-                "kinetic_dof_total": int(self.kinetic_dof_total),
-                "time_step_red": float(md.time_step),
-                "thermostat_time_red": float(md.thermostat_time),
-                "skin_red": float(md.nlist.skin), "cutoff_red": float(md.model.rc),
-                "u_tail_red": float(md.u_tail), "p_tail_red": float(md.p_tail)}

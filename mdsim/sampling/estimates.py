@@ -118,7 +118,7 @@ def summarise(samples, method, n_particles, volume, temperature=None, dof_per_pa
             d = mean_and_stderr(np.asarray(samples["u_full"]) - samples["u_effective"])
             c_v, s_c = c_v - 2.0 * d.mean / T, math.hypot(s_c, 2.0 * d.stderr / T)
         out["c_v_res"] = Estimate(c_v, s_c, var.g)
-    elif method in ("md-nve", "rigid-md-nve"):
+    elif method in ("md-nve", "rigid-md-nve", "rigid-body-md-nve"):
         t = mean_and_stderr(samples["temperature_inst"])
         out["temperature"] = Estimate(t.mean, t.stderr, t.g)
         p = mean_and_stderr(samples["pressure"])

@@ -96,19 +96,21 @@ class RigidMDStageSampler:
     21.0
     """
 
+    methods = MD_METHODS
+    """The stage methods this sampler runs and the engine method of each."""
+
     def __init__(self, system, temperature=None, energy=None, seed=0, method="rigid-md-nvt",
                  time_step=None, thermostat_time=0.5, start_temperature=None, skin=None):
-        if method not in MD_METHODS:
+        if method not in self.methods:
             raise StudyError(f"setting 'method' = {method!r}: rigid-molecule MD offers "
-                             f"{', '.join(MD_METHODS)}")
-        nve = method == "rigid-md-nve"
-        momenta = None
-        if system.v_ni is not None and system.l_ni is not None:
-            momenta = (system.v_ni, system.l_ni)
+                             f"{', '.join(self.methods)}")
+        nvt_name, nve_name = self.methods
+        nve = self.methods[method] == "md-nve"
+        momenta = self.start_momenta(system)
         if (nve and (temperature is not None or (energy is None and momenta is None))) or (
                 not nve and (temperature is None or energy is not None)):
-            raise SettingError("method", method, "rigid-md-nvt takes a temperature, "
-                               "rigid-md-nve an energy per molecule or the system's momenta "
+            raise SettingError("method", method, f"{nvt_name} takes a temperature, "
+                               f"{nve_name} an energy per molecule or the system's momenta "
                                "(not a temperature)")
         self.method, self.system = method, system
         self.model = copy.copy(system.model)
@@ -121,13 +123,24 @@ class RigidMDStageSampler:
                 raise SettingError("start_temperature", None, "a fresh rigid-md-nve run "
                                    "equilibrates with the thermostat first: give kT/epsilon")
             temperature = start_temperature
-        self.md = RigidMDSampler(self.model, system.r_ni, system.axis_ni, system.box_i,
-                                 mass_t=system.mass_t, inertia_t=system.inertia_t,
-                                 type_n=system.type_n,
-                                 temperature=temperature, seed=seed,
-                                 method="md-nvt" if self.fresh_nve else MD_METHODS[method],
-                                 time_step=time_step, thermostat_time=thermostat_time,
-                                 skin=skin, momenta=momenta)
+        self.md = self.engine(system, temperature=temperature, seed=seed,
+                              method="md-nvt" if self.fresh_nve else self.methods[method],
+                              time_step=time_step, thermostat_time=thermostat_time, skin=skin,
+                              momenta=momenta)
+
+    @staticmethod
+    def start_momenta(system):
+        """The system's (velocities, angular momenta) to start from, or None."""
+        if system.v_ni is not None and system.l_ni is not None:
+            return system.v_ni, system.l_ni
+        return None
+
+    def engine(self, system, **settings):
+        """The engine's sampler of the system (:class:`mdsim.engine.rigid_md.RigidMDSampler`)
+        in the shifted-energy model."""
+        return RigidMDSampler(self.model, system.r_ni, system.axis_ni, system.box_i,
+                              mass_t=system.mass_t, inertia_t=system.inertia_t,
+                              type_n=system.type_n, **settings)
 
     def equilibrate(self, n_steps):
         """Unrecorded steps: thermostatted for NVT and a fresh NVE start (then set to the

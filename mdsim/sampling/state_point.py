@@ -8,7 +8,7 @@ sampler protocol (``MCSampler`` for "mc-nvt"/"mc-nve", ``MDSampler`` for
 :class:`~mdsim.sampling.rigid_insertion_stage.RigidInsertionStageSampler`,
 "rigid-mc-nvt-insertion", :class:`~mdsim.sampling.body_stage.BodyMCStageSampler`
 and :class:`~mdsim.sampling.body_md_stage.BodyMDStageSampler` for non-linear
-molecules, "rigid-body-mc-nvt" and "rigid-body-md-nvt", and
+molecules, "rigid-body-mc-nvt" and "rigid-body-md-nvt"/"rigid-body-md-nve", and
 :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler`,
 "rigid-md-nvt"/"rigid-md-nve"), streams the samples into one HDF5 run file
 (:mod:`mdsim.sampling.store`) with a checkpoint after every block, and resumes an
@@ -46,6 +46,7 @@ METHODS = {
                                "RigidInsertionStageSampler"),
     "rigid-body-mc-nvt": ("mdsim.sampling.body_stage", "BodyMCStageSampler"),
     "rigid-body-md-nvt": ("mdsim.sampling.body_md_stage", "BodyMDStageSampler"),
+    "rigid-body-md-nve": ("mdsim.sampling.body_md_stage", "BodyMDStageSampler"),
     "rigid-md-nvt": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
     "rigid-md-nve": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
 }

@@ -182,11 +182,12 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     Carlo, or thermostatted molecular dynamics with ``sampler = "md"``), the
     microcanonical route (its final state by fixed-energy molecular
     dynamics) and the direct route (molecular dynamics of the expansion);
-    one kind of non-linear molecule (site Lennard-Jones or Mie, no charges
-    or multipoles) by the energy route's canonical Monte Carlo only (its MD
-    stage, "rigid-body-md-nvt", is not yet offered: docs/physics.md section
-    7a.1).  Site charges together with point multipoles are refused.
-    Spheres pass.
+    so is one kind of non-linear molecule (site Lennard-Jones or Mie, no
+    charges or multipoles), by the same routes and samplers with its
+    rigid-body stages ("rigid-body-mc-nvt", "rigid-body-md-nvt",
+    "rigid-body-md-nve": docs/physics.md section 7a.1); a mixture with
+    non-linear molecules is refused.  Site charges together with point
+    multipoles are refused.  Spheres pass.
 
     Parameters
     ----------
@@ -219,13 +220,10 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          '(form = "rigid-molecule"); use routes = ["energy", "microcanonical", '
                          '"direct"] or the virial routes, routes = []')
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
-    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
-    if nonlinear and (gas.n_species > 1 or by_md):
-        what = "a mixture" if gas.n_species > 1 else " and ".join(by_md)
-        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and a non-linear "
-                         "molecule is simulated by the energy route's canonical Monte Carlo of "
-                         f"one kind of molecule only, not {what}; use routes = [\"energy\"] with "
-                         'sampler "auto" or "mc", or the virial routes, [simulation] routes = []')
+    if nonlinear and gas.n_species > 1:
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the simulations "
+                         "of non-linear molecules take one kind of molecule, not a mixture; use "
+                         "the virial routes, [simulation] routes = []")
     electric = [m.name for m in gas.molecules if m.is_nonlinear and (m.has_charges
                                                                       or m.has_multipoles)]
     if electric:

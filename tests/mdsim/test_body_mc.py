@@ -289,16 +289,23 @@ def test_propane_energy_route_against_its_virial_route_and_coolprop(tmp_path, mo
     assert "canonical Monte Carlo with translation and rotation moves" in report_md
 
 
-@pytest.mark.parametrize("routes, extra, match", [
-    ('["energy", "microcanonical"]', "", "not linear.*not microcanonical"),
-    ('["direct"]', "", "not linear.*not direct"),
-    # the MD stage of the energy route exists (tests/mdsim/test_body_md.py) but is not
-    # offered: at 20 bar (rho sigma^3 = 0.02) its chain was still drifting after the
-    # route's 2000 equilibration steps (measured u_full -0.85 in the pilot, -1.10 in the
-    # third stage, Monte Carlo -1.03 epsilon)
-    ('["energy"]', 'sampler = "md"', "not linear.*not sampler"),
-])
-def test_what_nonlinear_molecules_cannot_simulate_yet_is_refused(tmp_path, routes, extra, match):
+def test_nonlinear_molecules_are_planned_by_every_simulation_route(tmp_path):
+    # the energy route by Monte Carlo or MD, the microcanonical and direct routes by rigid-body
+    # MD (tests/mdsim/test_body_routes.py); those two take the model's classical c_v_ig only,
+    # so the study's vibrational part is 0 R here
     from mdsim.pipeline.plan import plan_tasks
-    with pytest.raises(StudyError, match=match):
-        plan_tasks(read_study(propane_study(tmp_path, routes, extra)))
+    path = propane_study(tmp_path, '["energy", "microcanonical", "direct"]', 'sampler = "md"')
+    path.write_text(path.read_text().replace('"propane_ideal_cv.csv"', '"0 R"').replace(
+        'counts = "all motions"', 'counts = "vibrations"'))
+    tasks = plan_tasks(read_study(path))
+    assert [(t["route"], t["sampler"]) for t in tasks] == [
+        ("energy", "md"), ("microcanonical", "md"), ("direct", "md")]
+
+
+def test_a_nonlinear_study_with_its_vibrations_is_refused_by_the_fixed_energy_routes(tmp_path):
+    # propane's whole c_v_ig (about 10 R at 400 K) is not the rigid model's 3 R: the fixed-energy
+    # routes, whose MD carries no vibrations, refuse it and name the energy route
+    from mdsim.pipeline.plan import plan_tasks
+    with pytest.raises(StudyError, match="the microcanonical route assumes a constant classical"
+                       ".*use the energy route"):
+        plan_tasks(read_study(propane_study(tmp_path, '["microcanonical"]')))

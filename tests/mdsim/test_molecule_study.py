@@ -55,11 +55,11 @@ def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
 
 
 @pytest.mark.parametrize("name, route, match, line", [
-    # every simulation route takes rigid linear molecules (tests/mdsim/test_rigid_route.py,
-    # test_rigid_nve.py); a non-linear one only the energy route's Monte Carlo
-    # (tests/mdsim/test_body_mc.py), the virial routes answer the others
-    ("propane", "direct", "molecule 'propane' is not linear.*routes = \\[\\]",
-     "canonical Monte Carlo of one kind of molecule only, not direct"),
+    # every simulation route takes rigid molecules, linear or not (tests/mdsim/test_rigid_route.py,
+    # test_rigid_nve.py, test_body_routes.py); the fixed-energy ones only with the model's
+    # classical c_v_ig, which propane's whole c_v_ig (vibrations included) is not
+    ("propane", "direct", "the direct route assumes a constant classical c_v_ig",
+     "remove 'direct' from routes and use the energy route"),
 ])
 def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys, name, route, match, line):
     text = (CONFIGS / f"{name}.toml").read_text()

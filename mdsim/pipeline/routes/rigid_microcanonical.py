@@ -1,14 +1,16 @@
-"""The microcanonical route for a gas of rigid linear molecules: fixed-energy MD at rho_f.
+"""The microcanonical route for a gas of rigid molecules: fixed-energy MD at rho_f.
 
 The initial state is sampled as for the energy route (canonical Monte
 Carlo of the molecules with the pressure iteration,
 :func:`mdsim.pipeline.initial_state.run_initial_state`).  Its energy per
 molecule, E = <u_full>(T_i, rho_i) + (F/2 - 1) kT_i / N with F = 3N - 3 +
-2 N_rot kinetic degrees of freedom (3 translations per molecule and 2
-rotations per linear rotor, the atoms of a mixture having none, less the
-conserved total momentum), is the energy of the final state,
+(rotations) kinetic degrees of freedom (3 translations per molecule, 2
+rotations per linear rotor and 3 per non-linear molecule, the atoms of a
+mixture having none, less the conserved total momentum:
+:func:`mdsim.pipeline.rigid_chain.box_kinetic_dof`), is the energy of the final state,
 sampled by molecular dynamics at fixed energy (``rigid-md-nve``,
-:mod:`mdsim.sampling.rigid_md_stage`) at rho_f, its pilot started from a
+:mod:`mdsim.sampling.rigid_md_stage`; ``rigid-body-md-nve`` of non-linear
+molecules, :mod:`mdsim.sampling.body_md_stage`) at rho_f, its pilot started from a
 lattice equilibrated with the thermostat at the B2 + B3 guess of T_f and
 then set to E.  T_f
 is Ray's temperature of that run over the same F, which gives T_i back
@@ -35,7 +37,7 @@ molecule (a mixture: the mole-fraction mean with (3/2) R for its atoms); a study
 ``initial-state-*`` and ``final-state-nve-*``.
 """
 from analysis.stats import mean_and_stderr
-from mdsim.pipeline.chain import MD_PILOT_INTERVAL, mean_se, stage_share
+from mdsim.pipeline.chain import mean_se, stage_share
 from mdsim.pipeline.initial_state import run_initial_state, sampled_pressure
 from mdsim.pipeline.routes.microcanonical import kinetic_series, sample_to_target
 from mdsim.pipeline.stage_names import FINAL_STATE_NVE
@@ -88,7 +90,7 @@ def _pilot(nve):
     """
     nve.run_pilot(NVE_PILOT_SAMPLES)
     m = mean_and_stderr(nve.pilot.samples["kinetic"], False)
-    nve.interval = MD_PILOT_INTERVAL * max(1, int(m.g // 2))
+    nve.interval = nve.pilot_interval * max(1, int(m.g // 2))
     nve.pilot_se = float(m.stderr)
     return nve
 
@@ -117,8 +119,9 @@ def run_rigid_microcanonical(job):
     E_red = float(mi + (0.5 * F - 1.0) / n * T_i_red)
     job.notes.append(
         f"microcanonical route (rigid molecules): E per molecule = <u_full>(T_i, rho_i) + "
-        f"(F/2 - 1) kT_i / N with F = 3N - 3 + 2 N_rot = {F} (3 translations per molecule and 2 "
-        "rotations per linear rotor, the total momentum conserved); the final state by "
+        f"(F/2 - 1) kT_i / N with F = {F} kinetic degrees of freedom (3 translations per "
+        "molecule, 2 rotations per linear rotor and 3 per non-linear molecule, the total "
+        "momentum conserved); the final state by "
         "molecular dynamics at that energy, T_f by Ray's estimator over the same F")
     # one time step for every stage (the rule at T_i, above T_f), and the pilot's start
     start = {"time_step": job.md_time_step(T_i_red),
