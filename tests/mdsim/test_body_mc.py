@@ -238,8 +238,10 @@ def propane_study(tmp_path, routes='["energy"]', extra=""):
     return path
 
 
-def run_propane_study(tmp_path, monkeypatch, extra=""):
-    """The propane study by the energy route through the pipeline: (run_dir, results rows)."""
+def run_propane_study(tmp_path, monkeypatch, extra="", edit=None):
+    """The propane study by the energy route through the pipeline: (run_dir, results rows).
+    ``edit``: a function of the study's text that returns the text to run (other routes,
+    molecules, c_v)."""
     import mdsim.pipeline.report as report
     from analysis.molecules import MolecularVirialGas
     from mdsim.pipeline.run_study import run_study
@@ -251,8 +253,10 @@ def run_propane_study(tmp_path, monkeypatch, extra=""):
     defaults[0] = 30000
     monkeypatch.setattr(MolecularVirialGas.__init__, "__defaults__", tuple(defaults))
     run_dir = tmp_path / "run"
-    run_study(read_study(propane_study(tmp_path, extra=extra)), run_dir, workers=1, quiet=True,
-              plots=False)
+    path = propane_study(tmp_path, extra=extra)
+    if edit is not None:
+        path.write_text(edit(path.read_text()))
+    run_study(read_study(path), run_dir, workers=1, quiet=True, plots=False)
     return run_dir, {r["route"]: r for r in csv.DictReader((run_dir / "results.csv").open())}
 
 
