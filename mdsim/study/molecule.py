@@ -182,10 +182,12 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     Carlo, or thermostatted molecular dynamics with ``sampler = "md"``), the
     microcanonical route (its final state by fixed-energy molecular
     dynamics) and the direct route (molecular dynamics of the expansion);
-    one kind of non-linear molecule (site Lennard-Jones or Mie, no charges
-    or multipoles) by the energy route's canonical Monte Carlo only (its MD
-    stage, "rigid-body-md-nvt", is not yet offered: docs/physics.md section
-    7a.1).  Site charges together with point multipoles are refused.
+    a gas with non-linear molecules, one kind or a mixture with atoms and
+    linear molecules (every species a rigid body, site Lennard-Jones or Mie,
+    no charges or multipoles), by the energy route's canonical Monte Carlo
+    only, with the route entropy from test-body insertion (its MD stage,
+    "rigid-body-md-nvt", is not yet offered: docs/physics.md section 7a.1).
+    Site charges together with point multipoles are refused.
     Spheres pass.
 
     Parameters
@@ -220,19 +222,21 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          '"direct"] or the virial routes, routes = []')
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
     by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
-    if nonlinear and (gas.n_species > 1 or by_md):
-        what = "a mixture" if gas.n_species > 1 else " and ".join(by_md)
-        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and a non-linear "
-                         "molecule is simulated by the energy route's canonical Monte Carlo of "
-                         f"one kind of molecule only, not {what}; use routes = [\"energy\"] with "
-                         'sampler "auto" or "mc", or the virial routes, [simulation] routes = []')
-    electric = [m.name for m in gas.molecules if m.is_nonlinear and (m.has_charges
-                                                                      or m.has_multipoles)]
-    if electric:
-        raise StudyError(f"{where}: molecule '{electric[0]}' is not linear and carries charges or "
-                         "point multipoles, which the simulation of non-linear rigid molecules "
-                         "does not have yet (site Lennard-Jones or Mie only); use the virial "
-                         "routes, [simulation] routes = []")
+    if nonlinear and by_md:
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and a gas with a "
+                         "non-linear molecule is simulated by the energy route's canonical Monte "
+                         "Carlo only (one kind, or mixed with atoms and linear molecules), not "
+                         f"{' and '.join(by_md)}; use routes = [\"energy\"] with sampler "
+                         '"auto" or "mc", or the virial routes, [simulation] routes = []')
+    # with a non-linear molecule every species is a rigid body (site Lennard-Jones or Mie)
+    electric = [m.name for m in gas.molecules if m.has_charges or m.has_multipoles]
+    if nonlinear and electric:
+        who = ("is not linear and carries" if electric[0] in nonlinear else
+               f"is mixed with the non-linear '{nonlinear[0]}' and carries")
+        raise StudyError(f"{where}: molecule '{electric[0]}' {who} charges or point "
+                         "multipoles, which the simulation of non-linear rigid molecules and "
+                         "their mixtures does not have yet (site Lennard-Jones or Mie only); use "
+                         "the virial routes, [simulation] routes = []")
     charged = [m.name for m in gas.molecules if m.has_charges]
     polar = [m.name for m in gas.molecules if m.has_multipoles]
     if charged and polar:  # site charges and axial multipoles: no charge-multipole energy
