@@ -182,12 +182,14 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     Carlo, or thermostatted molecular dynamics with ``sampler = "md"``), the
     microcanonical route (its final state by fixed-energy molecular
     dynamics) and the direct route (molecular dynamics of the expansion);
-    so is one kind of non-linear molecule (site Lennard-Jones or Mie, no
-    charges or multipoles), by the same routes and samplers with its
-    rigid-body stages ("rigid-body-mc-nvt", "rigid-body-md-nvt",
-    "rigid-body-md-nve": docs/physics.md section 7a.1); a mixture with
-    non-linear molecules is refused.  Site charges together with point
-    multipoles are refused.  Spheres pass.
+    so is a gas with non-linear molecules (site Lennard-Jones or Mie, no
+    charges or multipoles, every species a rigid body): one kind of
+    non-linear molecule by the same routes and samplers with its rigid-body
+    stages ("rigid-body-mc-nvt", "rigid-body-md-nvt", "rigid-body-md-nve"),
+    a mixture of them with atoms and linear molecules by the energy route's
+    canonical Monte Carlo only, with the route entropy from test-body
+    insertion (docs/physics.md section 7a.1).  Site charges together with
+    point multipoles are refused.  Spheres pass.
 
     Parameters
     ----------
@@ -220,17 +222,23 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          '(form = "rigid-molecule"); use routes = ["energy", "microcanonical", '
                          '"direct"] or the virial routes, routes = []')
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
-    if nonlinear and gas.n_species > 1:
-        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and the simulations "
-                         "of non-linear molecules take one kind of molecule, not a mixture; use "
+    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
+    if nonlinear and gas.n_species > 1 and by_md:  # MD of non-linear molecules: one kind
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear and mixed with other "
+                         "species; such a mixture is simulated by the energy route's canonical "
+                         f"Monte Carlo only, not {' and '.join(by_md)} (molecular dynamics of "
+                         "non-linear molecules takes one kind of molecule); use routes = "
+                         '["energy"] with sampler "auto" or "mc", or the virial routes, '
+                         "[simulation] routes = []")
+    # with a non-linear molecule every species is a rigid body (site Lennard-Jones or Mie)
+    electric = [m.name for m in gas.molecules if m.has_charges or m.has_multipoles]
+    if nonlinear and electric:
+        who = ("is not linear and carries" if electric[0] in nonlinear else
+               f"is mixed with the non-linear '{nonlinear[0]}' and carries")
+        raise StudyError(f"{where}: molecule '{electric[0]}' {who} charges or point "
+                         "multipoles, which the simulation of non-linear rigid molecules and "
+                         "their mixtures does not have yet (site Lennard-Jones or Mie only); use "
                          "the virial routes, [simulation] routes = []")
-    electric = [m.name for m in gas.molecules if m.is_nonlinear and (m.has_charges
-                                                                      or m.has_multipoles)]
-    if electric:
-        raise StudyError(f"{where}: molecule '{electric[0]}' is not linear and carries charges or "
-                         "point multipoles, which the simulation of non-linear rigid molecules "
-                         "does not have yet (site Lennard-Jones or Mie only); use the virial "
-                         "routes, [simulation] routes = []")
     charged = [m.name for m in gas.molecules if m.has_charges]
     polar = [m.name for m in gas.molecules if m.has_multipoles]
     if charged and polar:  # site charges and axial multipoles: no charge-multipole energy
