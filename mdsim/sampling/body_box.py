@@ -15,6 +15,7 @@ from analysis.molecules.reduced import reduced_body_type
 from mdsim.checks import count, positive
 from mdsim.engine.body_mc import body_lattice_start
 from mdsim.engine.body_model import BodyPairModel
+from mdsim.sampling.rigid_box import COULOMB
 from mdsim.units import ReducedUnits
 
 __all__ = ["BodyBox", "body_box", "reduced_principal_inertia"]
@@ -77,7 +78,8 @@ def body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
     Parameters
     ----------
     molecule : RigidMolecule
-        Any shape, site Lennard-Jones or Mie (no charges or multipoles).
+        Any shape, site Lennard-Jones or Mie with optional site charges (plain
+        Coulomb inside the molecular cut-off, docs/physics.md section 7b.4).
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3
     n_molecules : int
@@ -111,7 +113,8 @@ def body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
     site = molecule.sites[0].potential
     units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
     model = BodyPairModel([reduced_body_type(molecule, site.epsilon, site.sigma)],
-                          positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted)
+                          positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted,
+                          coulomb=COULOMB)
     box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, quat_nq = body_lattice_start(n, box_i, seed)
     return BodyBox(T, rho, units.temperature_to_reduced(T), units, model,

@@ -81,8 +81,8 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     ----------
     molecule : RigidMolecule or list of RigidMolecule
         Linear, two or more sites, optional site charges or axial point dipole
-        and quadrupole, or non-linear (site Lennard-Jones or Mie only:
-        :mod:`mdsim.engine.body_mc`); a list is a mixture of linear molecules
+        and quadrupole, or non-linear (site Lennard-Jones or Mie and
+        optional site charges: :mod:`mdsim.engine.body_mc`); a list is a mixture of linear molecules
         and atoms, with ``counts_t``.
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3

@@ -182,10 +182,13 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     Carlo, or thermostatted molecular dynamics with ``sampler = "md"``), the
     microcanonical route (its final state by fixed-energy molecular
     dynamics) and the direct route (molecular dynamics of the expansion);
-    one kind of non-linear molecule (site Lennard-Jones or Mie, no charges
-    or multipoles) by the energy route's canonical Monte Carlo only (its MD
-    stage, "rigid-body-md-nvt", is not yet offered: docs/physics.md section
-    7a.1).  Site charges together with point multipoles are refused.
+    one kind of non-linear molecule (site Lennard-Jones or Mie with
+    optional site charges, plain Coulomb inside the molecular cut-off as
+    for linear molecules: docs/physics.md section 7b.4) by the energy
+    route's canonical Monte Carlo only (its MD stage, "rigid-body-md-nvt",
+    is not yet offered: docs/physics.md section 7a.1).  Point multipoles on
+    a non-linear molecule are refused (they need an axis), and site charges
+    together with point multipoles.
     Spheres pass.
 
     Parameters
@@ -226,13 +229,12 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          "molecule is simulated by the energy route's canonical Monte Carlo of "
                          f"one kind of molecule only, not {what}; use routes = [\"energy\"] with "
                          'sampler "auto" or "mc", or the virial routes, [simulation] routes = []')
-    electric = [m.name for m in gas.molecules if m.is_nonlinear and (m.has_charges
-                                                                      or m.has_multipoles)]
-    if electric:
-        raise StudyError(f"{where}: molecule '{electric[0]}' is not linear and carries charges or "
-                         "point multipoles, which the simulation of non-linear rigid molecules "
-                         "does not have yet (site Lennard-Jones or Mie only); use the virial "
-                         "routes, [simulation] routes = []")
+    axial = [m.name for m in gas.molecules if m.is_nonlinear and m.has_multipoles]
+    if axial:  # RigidMolecule refuses them too; the rigid-body kernels have no axis
+        raise StudyError(f"{where}: molecule '{axial[0]}' is not linear and carries a point "
+                         "dipole or quadrupole, which sits on a linear molecule's axis; a "
+                         "non-linear molecule has none: describe its electrostatics by site "
+                         "charges (charge_e)")
     charged = [m.name for m in gas.molecules if m.has_charges]
     polar = [m.name for m in gas.molecules if m.has_multipoles]
     if charged and polar:  # site charges and axial multipoles: no charge-multipole energy
