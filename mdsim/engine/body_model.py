@@ -19,8 +19,8 @@ import numpy as np
 
 from mdsim.engine.body_pair import body_forces_half
 from mdsim.engine.body_rotation import rotate_sites
-from mdsim.engine.site_pairs import (check_coulomb, check_neutral, coulomb_rows, site_site_tail,
-                                     site_table)
+from mdsim.engine.site_pairs import (check_coulomb, check_neutral, coulomb_rows,
+                                     site_insertion_tail, site_site_tail, site_table)
 from mdsim.errors import SettingError, SimulationError
 
 __all__ = ["BodyPairModel"]
@@ -148,6 +148,12 @@ class BodyPairModel:
         (:func:`mdsim.engine.site_pairs.site_site_tail`)."""
         return site_site_tail(self.site_potentials, self.site_start_t, self.rc, density,
                               fraction_t)
+
+    def insertion_tail(self, density, fraction_t=None, type_a=0):
+        """Tail energy of one inserted body of type ``type_a``, epsilon
+        (:func:`mdsim.engine.site_pairs.site_insertion_tail`)."""
+        return site_insertion_tail(self.site_potentials, self.site_start_t, self.rc, density,
+                                   fraction_t, type_a)
 
     def pair(self, d_i, quat_a, quat_b, type_a=0, type_b=0):
         """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).

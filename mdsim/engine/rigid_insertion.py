@@ -32,7 +32,7 @@ from mdsim.engine import rng as _rng
 from mdsim.engine.rigid_mc_kernels import molecule_energy
 from mdsim.errors import SettingError
 
-__all__ = ["rigid_insertion_sums", "insertion_sums_of"]
+__all__ = ["rigid_insertion_sums", "insertion_sums_of", "check_insertion_request"]
 
 
 @njit(cache=True)
@@ -121,15 +121,29 @@ def insertion_sums_of(mc, type_a, n_trials, rng_state):
     True
     """
     m = mc.model
+    a, n_trials = check_insertion_request(m.n_types, type_a, n_trials, rng_state)
+    return rigid_insertion_sums(mc.centre_ni, mc.axis_ni, mc.type_n, mc.box_i, mc.ncell_i,
+                                mc.head_c, mc.next_n, m.site_start_t, m.site_z_k, m.params_kk,
+                                m.form, m.elec_tm, m.rc, m.core ** 2, a,
+                                1.0 / mc.temperature, n_trials, rng_state)
+
+
+def check_insertion_request(n_types, type_a, n_trials, rng_state):
+    """The type and the number of test molecules of an insertion call, checked.
+
+    Returns
+    -------
+    (int, int)
+        ``type_a`` and ``n_trials``; a type outside the model, a count below 1
+        or a random state not made by :func:`mdsim.engine.rng.make_state` is a
+        :class:`SettingError`.
+    """
     a = int(type_a)
-    if not 0 <= a < m.n_types:
-        raise SettingError("type_a", type_a, f"types of the model are 0 to {m.n_types - 1}")
+    if not 0 <= a < n_types:
+        raise SettingError("type_a", type_a, f"types of the model are 0 to {n_types - 1}")
     n_trials = count("insertions", n_trials, 1, "test molecules per call")
     state = np.asarray(rng_state)
     if state.dtype != np.uint64 or state.shape != (_rng.STATE_WORDS,):
         raise SettingError("rng_state", state.shape, "needs a random state from "
                            "mdsim.engine.rng.make_state")
-    return rigid_insertion_sums(mc.centre_ni, mc.axis_ni, mc.type_n, mc.box_i, mc.ncell_i,
-                                mc.head_c, mc.next_n, m.site_start_t, m.site_z_k, m.params_kk,
-                                m.form, m.elec_tm, m.rc, m.core ** 2, a,
-                                1.0 / mc.temperature, n_trials, rng_state)
+    return a, n_trials

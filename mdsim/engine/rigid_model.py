@@ -12,9 +12,9 @@ import math
 
 import numpy as np
 
-from mdsim.engine.site_pairs import (check_coulomb, check_fractions, check_neutral,
-                                     coulomb_rows, site_pair_potential, site_site_tail,
-                                     site_table, type_pair_tail_integrals)
+from mdsim.engine.site_pairs import (check_coulomb, check_neutral, coulomb_rows,
+                                     site_insertion_tail, site_pair_potential, site_site_tail,
+                                     site_table)
 from mdsim.engine.rigid_pair import forces_half
 from mdsim.errors import SettingError, SimulationError
 
@@ -143,31 +143,9 @@ class LinearPairModel:
                               fraction_t)
 
     def insertion_tail(self, density, fraction_t=None, type_a=0):
-        """Long-range tail energy of one inserted molecule of type ``type_a``, epsilon.
-
-        Parameters
-        ----------
-        density : float, 1/sigma^3
-            Number density of molecules.
-        fraction_t : array_like, shape=(n_types,), optional
-            Mole fractions of the molecule types (default: one type).
-        type_a : int
-            Type of the inserted molecule.
-
-        Returns
-        -------
-        float
-            dU_tail,a = 4 pi rho sum_b x_b sum_(k in a, m in b) I_u,km, epsilon.
-
-        Notes
-        -----
-        With U_tail = (2 pi / V) sum_ab N_a N_b S_ab (:meth:`tail`, S_ab the
-        site-site integrals summed over the sites of a and b), one more
-        molecule of type a changes U_tail by (4 pi / V) sum_b N_b S_ab in the
-        thermodynamic limit: twice the tail energy per molecule of a pure
-        fluid (Frenkel and Smit, Understanding Molecular Simulation, 2nd ed.,
-        section 7.2.1, mu_tail = 2 u_tail, applied site by site as
-        :meth:`tail` does).
+        """Long-range tail energy of one inserted molecule of type ``type_a``, epsilon
+        (:func:`mdsim.engine.site_pairs.site_insertion_tail`: twice the tail energy per
+        molecule of a pure fluid).
 
         Examples
         --------
@@ -176,19 +154,8 @@ class LinearPairModel:
         >>> round(float(m.insertion_tail(0.1) / m.tail(0.1)[0]), 12)
         2.0
         """
-        x_t = self._fractions(fraction_t)
-        a = int(type_a)
-        if not 0 <= a < self.n_types:
-            raise SettingError("type_a", type_a, f"types are 0 to {self.n_types - 1}")
-        s_u = sum(x_t[b] * self._site_tail_integrals(a, b)[0] for b in range(self.n_types))
-        return float(4.0 * math.pi * float(density) * s_u)
-
-    def _fractions(self, fraction_t):
-        return check_fractions(fraction_t, self.n_types)
-
-    def _site_tail_integrals(self, a, b):
-        """Sums over the sites k of type a and m of type b of the tail integrals at rc."""
-        return type_pair_tail_integrals(self.site_potentials, self.site_start_t, self.rc, a, b)
+        return site_insertion_tail(self.site_potentials, self.site_start_t, self.rc, density,
+                                   fraction_t, type_a)
 
     def pair(self, d_i, axis_a_i, axis_b_i, type_a=0, type_b=0):
         """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).

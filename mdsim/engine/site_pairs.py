@@ -20,9 +20,9 @@ from mdsim.engine.potentials import LennardJones, Mie, combine
 from mdsim.engine.rigid_pair import CHARGES, DAMPING, DSF_OFFSET, DSF_SLOPE, N_PAIR_PARAM
 from mdsim.errors import SettingError
 
-__all__ = ["site_table", "site_pair_potential", "site_site_tail", "type_pair_tail_integrals",
-           "check_fractions", "COULOMB_METHODS", "check_coulomb", "check_neutral",
-           "coulomb_rows"]
+__all__ = ["site_table", "site_pair_potential", "site_site_tail", "site_insertion_tail",
+           "type_pair_tail_integrals", "check_fractions", "COULOMB_METHODS", "check_coulomb",
+           "check_neutral", "coulomb_rows"]
 
 #: The site charges' energy inside the molecular cut-off: plain Coulomb, or the damped
 #: shifted force (docs/physics.md section 7b.4).
@@ -122,6 +122,47 @@ def site_site_tail(pots, site_start_t, rc, density, fraction_t=None):
             s_w += x_t[a] * x_t[b] * i_w
     rho = float(density)
     return float(2.0 * math.pi * rho * s_u), float(-2.0 * math.pi / 3.0 * rho * rho * s_w)
+
+
+def site_insertion_tail(pots, site_start_t, rc, density, fraction_t, type_a):
+    """Long-range tail energy of one inserted molecule of type ``type_a``, epsilon.
+
+    Parameters
+    ----------
+    pots, site_start_t, rc, density, fraction_t
+        As for :func:`site_site_tail`.
+    type_a : int
+        Type of the inserted molecule.
+
+    Returns
+    -------
+    float
+        dU_tail,a = 4 pi rho sum_b x_b sum_(k in a, m in b) I_u,km, epsilon.
+
+    Notes
+    -----
+    With U_tail = (2 pi / V) sum_ab N_a N_b S_ab (:func:`site_site_tail`, S_ab
+    the site-site integrals summed over the sites of a and b), one more
+    molecule of type a changes U_tail by (4 pi / V) sum_b N_b S_ab in the
+    thermodynamic limit: twice the tail energy per molecule of a pure fluid
+    (Frenkel and Smit, Understanding Molecular Simulation, 2nd ed., section
+    7.2.1, mu_tail = 2 u_tail, applied site by site as :func:`site_site_tail`
+    does).
+
+    >>> pots = [LennardJones(1.0, 1.0)] * 2
+    >>> start = np.array([0, 2])
+    >>> tail = site_insertion_tail(pots, start, 3.0, 0.1, None, 0)
+    >>> round(float(tail / site_site_tail(pots, start, 3.0, 0.1)[0]), 12)
+    2.0
+    """
+    n_types = len(site_start_t) - 1
+    x_t = check_fractions(fraction_t, n_types)
+    a = int(type_a)
+    if not 0 <= a < n_types:
+        raise SettingError("type_a", type_a, f"types are 0 to {n_types - 1}")
+    s_u = sum(x_t[b] * type_pair_tail_integrals(pots, site_start_t, rc, a, b)[0]
+              for b in range(n_types))
+    return float(4.0 * math.pi * float(density) * s_u)
 
 
 def type_pair_tail_integrals(pots, site_start_t, rc, a, b):

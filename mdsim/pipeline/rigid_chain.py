@@ -24,7 +24,7 @@ from mdsim.pipeline.chain import Chain
 from mdsim.sampling import store
 from mdsim.sampling.rigid_md_stage import MD_METHODS
 from mdsim.sampling.body_md_stage import BODY_MD_METHOD
-from mdsim.sampling.body_stage import BODY_METHOD, body_system
+from mdsim.sampling.body_stage import BODY_METHOD, body_mixture_system
 from mdsim.sampling.rigid_stage import METHOD, mixture_system
 
 __all__ = ["RigidChain", "rigid_system_maker", "set_up_molecular_task", "rigid_method",
@@ -55,6 +55,8 @@ class RigidChain(Chain):
         state, _ = store.read_checkpoint(prev.path)
         if "quat_nq" in state:  # a non-linear molecule's orientations (and MD's momenta)
             system.quat_nq = state["quat_nq"].astype(float)
+            if "type_n" in state:  # a mixture's types, as its Monte Carlo keeps them
+                system.type_n = np.asarray(state["type_n"], dtype=np.int64)
             if "angular_momenta" in state:
                 system.pb_ni = state["angular_momenta"].astype(float)
             return system
@@ -113,10 +115,10 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
         if note not in job.notes:
             job.notes.append(note)
 
-    if is_nonlinear_gas(job.study.gas):
+    if is_nonlinear_gas(job.study.gas):  # every species a rigid body
         def make():
-            return body_system(molecules[0], T, rho_mol_m3, int(sum(counts_t)), rc,
-                               job.start_seed(tag))
+            return body_mixture_system(molecules, counts_t, T, rho_mol_m3, rc,
+                                       job.start_seed(tag))
         return make
 
     def make():
@@ -125,8 +127,9 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
 
 
 def is_nonlinear_gas(gas):
-    """True for a gas of non-linear rigid molecules (one kind: the simulations take no mixture
-    of them, :func:`mdsim.study.molecule.check_simulation_supported`)."""
+    """True for a gas with non-linear rigid molecules (one kind, or a mixture of them with atoms
+    and linear molecules, simulated as rigid bodies by Monte Carlo only,
+    :func:`mdsim.study.molecule.check_simulation_supported`)."""
     return gas.molecules is not None and any(m.is_nonlinear for m in gas.molecules)
 
 

@@ -10,8 +10,10 @@ microcanonical run, the direct route's relaxed box), at T_f itself
 turns each into s_res, :func:`analysis.sampled_entropy.route_entropy` into
 Delta s.  A gas of rigid molecules inserts test molecules (centre uniform in
 the box, axis uniform on the sphere) of each type in the rigid Monte Carlo
-(method ``rigid-mc-nvt-insertion``) from the last configuration of the
-route's rigid chain, Monte Carlo or MD alike (docs/physics.md section 7a.6).
+(method ``rigid-mc-nvt-insertion``; test bodies turned uniformly over the
+rotations, ``rigid-body-mc-nvt-insertion``, for non-linear molecules) from the
+last configuration of the route's rigid chain, Monte Carlo or MD alike
+(docs/physics.md sections 6.3 and 7a.6).
 Where insertion does not serve (a dense liquid), Delta s is
 reported as not available with the reason; it is never replaced by the
 virial value.
@@ -118,10 +120,14 @@ def _insertion_kind(job, system):
     energy of one inserted particle of each: test particles for spheres
     (:mod:`mdsim.engine.insertion`), test molecules of each type, turned at random, for
     rigid molecules and the atoms of their mixtures
-    (:mod:`mdsim.sampling.rigid_insertion_stage`)."""
+    (:mod:`mdsim.sampling.rigid_insertion_stage`), test bodies turned uniformly over the
+    rotations for a gas with non-linear molecules (:mod:`mdsim.sampling.body_insertion_stage`)."""
     if job.study.gas.molecules is not None:
+        from mdsim.sampling.body_insertion_stage import BODY_INSERTION_METHOD
         from mdsim.sampling.rigid_insertion_stage import METHOD, insertion_tails
-        return METHOD, system.fractions_t, insertion_tails(system)
+        bodies = getattr(system, "quat_nq", None) is not None  # a BodySystem
+        return (BODY_INSERTION_METHOD if bodies else METHOD), system.fractions_t, \
+            insertion_tails(system)
     from mdsim.engine.insertion import METHOD, insertion_tail
     return METHOD, system.fractions_a, [insertion_tail(system, a)
                                         for a in range(system.pairs.n_species)]
@@ -156,10 +162,6 @@ def sample_route_entropy(job, res):
     """
     if job.initial_chain is None or job.final_chain is None:
         return _unavailable("the route kept no chain at one of its end states")
-    from mdsim.pipeline.rigid_chain import is_nonlinear_gas
-    if is_nonlinear_gas(job.study.gas):
-        return _unavailable("not available for non-linear rigid molecules: the test-molecule "
-                            "insertion turns a linear molecule's axis, not a rigid body")
     if job.feynman_hibbs:
         return _unavailable("the Feynman-Hibbs potential depends on temperature, and the "
                             "test-particle estimate of the residual entropy is not built for "

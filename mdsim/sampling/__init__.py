@@ -21,7 +21,8 @@ run files: :mod:`~mdsim.sampling.rigid_stage` (Monte Carlo) and
 :mod:`~mdsim.sampling.rigid_insertion_stage` (Monte Carlo with test-molecule insertions,
 for the residual chemical potential and entropy).
 Non-linear rigid molecules: their box (:mod:`~mdsim.sampling.body_box`) and
-their Monte Carlo as stages (:mod:`~mdsim.sampling.body_stage`).
+their Monte Carlo as stages (:mod:`~mdsim.sampling.body_stage`), with test-body
+insertions (:mod:`~mdsim.sampling.body_insertion_stage`).
 """
 from mdsim.sampling.coexistence import CoexistencePoint, coexistence_point
 from mdsim.sampling.estimates import Estimate, summarise

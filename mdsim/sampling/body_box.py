@@ -1,4 +1,5 @@
-"""A cubic box of one kind of non-linear rigid molecule at (T, rho) in reduced units: the set-up
+"""A cubic box of non-linear rigid molecules (one kind, or a mixture with atoms and linear
+molecules, each a rigid body) at (T, rho) in reduced units: the set-up
 of its Monte Carlo (:mod:`mdsim.sampling.body_stage`) and of :func:`mdsim.sampling.rigid.sample_rigid_state`.
 
 The reduced units are those of the molecule's first site (its epsilon and
@@ -15,10 +16,10 @@ from analysis.molecules.reduced import reduced_body_type
 from mdsim.checks import count, positive
 from mdsim.engine.body_mc import body_lattice_start
 from mdsim.engine.body_model import BodyPairModel
-from mdsim.sampling.rigid_box import COULOMB
+from mdsim.sampling.rigid_box import COULOMB, ordered_types
 from mdsim.units import ReducedUnits
 
-__all__ = ["BodyBox", "body_box", "reduced_principal_inertia"]
+__all__ = ["BodyBox", "body_box", "body_mixture_box", "reduced_principal_inertia"]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -107,16 +108,58 @@ def body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
     >>> round(b.temperature, 3), b.quat_nq.shape, round(float(b.box_i[0]), 3)
     (6.0, (27, 4), 9.399)
     """
+    n = count("n_molecules", n_molecules, 2, "molecules in the box")
+    return body_mixture_box([molecule], [n], temperature_K, density_mol_m3, cutoff, seed,
+                            shifted)
+
+
+def body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed,
+                     shifted=False):
+    """The :class:`BodyBox` of a mixture with non-linear molecules at (T, rho): every species a
+    rigid body.
+
+    Parameters
+    ----------
+    molecules : list of RigidMolecule
+        One per type: non-linear molecules, linear ones (their sites on the
+        body's axis) and atoms (one site at the centre, never turned), site
+        Lennard-Jones or Mie with optional site charges (no point
+        multipoles); unlike sites by Lorentz-Berthelot
+        (:mod:`mdsim.engine.site_pairs`).
+    counts_t : list of int
+        Molecules of each type (each >= 0, at least 2 in all).
+    temperature_K, density_mol_m3, cutoff, seed, shifted
+        As for :func:`body_box`; the seed also orders the types on the lattice,
+        as :func:`mdsim.sampling.rigid_box.mixture_box` does.
+
+    Returns
+    -------
+    BodyBox
+        ``inertia_i`` is the first type's (molecular dynamics takes one kind).
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(50.0, 3.0)
+    >>> bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.016),
+    ...                               Site(lj, (0.8, 0.6, 0.0), 0.001),
+    ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
+    >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.039948)])
+    >>> b = body_mixture_box([bent, ar], [20, 7], 300.0, 2000.0, 3.0, seed=1)
+    >>> np.bincount(b.type_n).tolist(), b.model.rotates_t.tolist()
+    ([20, 7], [1, 0])
+    """
     T = positive("temperature_K", temperature_K, "a temperature in K")
     rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
-    n = count("n_molecules", n_molecules, 2, "molecules in the box")
-    site = molecule.sites[0].potential
-    units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecule.molar_mass_kg_mol)
-    model = BodyPairModel([reduced_body_type(molecule, site.epsilon, site.sigma)],
+    type_n = ordered_types(counts_t, len(molecules), seed)
+    site = molecules[0].sites[0].potential
+    units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecules[0].molar_mass_kg_mol)
+    model = BodyPairModel([reduced_body_type(m, site.epsilon, site.sigma) for m in molecules],
                           positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted,
                           coulomb=COULOMB)
-    box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
-    centre_ni, quat_nq = body_lattice_start(n, box_i, seed)
+    box_i = np.full(3, (len(type_n) / units.density_to_reduced(rho)) ** (1.0 / 3.0))
+    centre_ni, quat_nq = body_lattice_start(len(type_n), box_i, seed)
     return BodyBox(T, rho, units.temperature_to_reduced(T), units, model,
-                   reduced_principal_inertia(molecule, units), box_i, centre_ni, quat_nq,
-                   np.zeros(n, dtype=np.int64))
+                   reduced_principal_inertia(molecules[0], units), box_i, centre_ni, quat_nq,
+                   type_n)

@@ -1,4 +1,5 @@
-"""Non-linear rigid molecules in stage files: a system and a Monte Carlo sampler behind the protocol.
+"""Non-linear rigid molecules (one kind, or a mixture with atoms and linear molecules) in stage
+files: a system and a Monte Carlo sampler behind the protocol.
 
 The counterpart of :mod:`mdsim.sampling.rigid_stage` for molecules whose
 sites are not on one line: :class:`BodySystem` holds the arrays of a box of
@@ -16,10 +17,11 @@ import dataclasses
 
 import numpy as np
 
-from mdsim.sampling.body_box import body_box
+from mdsim.sampling.body_box import body_box, body_mixture_box
 from mdsim.sampling.rigid_stage import RigidMCStageSampler, RigidSystem
 
-__all__ = ["BODY_METHOD", "BodySystem", "BodyMCStageSampler", "body_system"]
+__all__ = ["BODY_METHOD", "BodySystem", "BodyMCStageSampler", "body_system",
+           "body_mixture_system"]
 
 BODY_METHOD = "rigid-body-mc-nvt"
 """The method name of canonical Monte Carlo of non-linear rigid molecules in stage files."""
@@ -68,6 +70,30 @@ def body_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, se
     box = body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
     return BodySystem(box.model, box.box_i, box.centre_ni, None, int(molecule.kinetic_dof),
                       box.type_n, quat_nq=box.quat_nq, inertia_i=box.inertia_i)
+
+
+def body_mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed):
+    """A :class:`BodySystem` of a mixture with non-linear molecules, every species a rigid body
+    (:func:`mdsim.sampling.body_box.body_mixture_box`: lattice centres, the types in a seeded
+    random order, random orientations); arguments as there.
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules import RigidMolecule, Site
+    >>> lj = LennardJones(50.0, 3.0)
+    >>> bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.016),
+    ...                               Site(lj, (0.8, 0.6, 0.0), 0.001),
+    ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
+    >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.039948)])
+    >>> s = body_mixture_system([bent, ar], [20, 7], 300.0, 2000.0, 3.0, seed=1)
+    >>> s.n_particles, s.dof_per_particle, np.bincount(s.type_n).tolist()
+    (27, 6, [20, 7])
+    """
+    box = body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed)
+    return BodySystem(box.model, box.box_i, box.centre_ni, None,
+                      max(int(m.kinetic_dof) for m in molecules), box.type_n,
+                      quat_nq=box.quat_nq, inertia_i=box.inertia_i)
 
 
 class BodyMCStageSampler(RigidMCStageSampler):

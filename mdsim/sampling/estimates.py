@@ -16,7 +16,7 @@ __all__ = ["Estimate", "summarise", "CANONICAL"]
 
 #: methods with a set temperature (the canonical ensemble)
 CANONICAL = ("mc-nvt", "md-nvt", "mc-nvt-insertion", "rigid-mc-nvt", "rigid-mc-nvt-insertion",
-             "rigid-body-mc-nvt", "rigid-body-md-nvt",
+             "rigid-body-mc-nvt", "rigid-body-mc-nvt-insertion", "rigid-body-md-nvt",
              "rigid-md-nvt")
 
 

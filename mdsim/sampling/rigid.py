@@ -1,5 +1,5 @@
 """One state point of a gas of rigid molecules (linear ones or their mixture with atoms, or
-one kind of non-linear molecule) by canonical Monte Carlo.
+non-linear ones and their mixtures with atoms and linear molecules) by canonical Monte Carlo.
 
 :func:`sample_rigid_state` puts ``n_molecules`` molecules of a
 :class:`~analysis.molecules.RigidMolecule` in a cubic box at the density
@@ -17,7 +17,7 @@ from analysis.stats import mean_and_stderr, variance_and_stderr
 from mdsim.engine.body_mc import BodyMCSampler
 from mdsim.engine.rigid_mc import RigidMCSampler
 from mdsim.numbers import value_with_error
-from mdsim.sampling.body_box import body_box
+from mdsim.sampling.body_box import body_mixture_box
 from mdsim.sampling.rigid_box import mixture_box, rigid_box
 
 __all__ = ["RigidStateEstimate", "sample_rigid_state"]
@@ -81,9 +81,10 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     ----------
     molecule : RigidMolecule or list of RigidMolecule
         Linear, two or more sites, optional site charges or axial point dipole
-        and quadrupole, or non-linear (site Lennard-Jones or Mie and
-        optional site charges: :mod:`mdsim.engine.body_mc`); a list is a mixture of linear molecules
-        and atoms, with ``counts_t``.
+        and quadrupole, or non-linear (site Lennard-Jones or Mie and optional
+        site charges: :mod:`mdsim.engine.body_mc`); a list is a mixture of
+        linear molecules and atoms, with ``counts_t``, or of non-linear
+        molecules with atoms and linear molecules (every species a rigid body).
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3
     n_molecules : int
@@ -111,8 +112,10 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     >>> est.u_res_J_mol < 0, 0.9e7 < est.pressure_Pa < 1.1e7
     (True, True)
     """
-    if counts_t is None and molecule.is_nonlinear:  # a rigid body: orientations as quaternions
-        box = body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
+    mols = [molecule] if counts_t is None else list(molecule)
+    if any(m.is_nonlinear for m in mols):  # rigid bodies: orientations as quaternions
+        box = body_mixture_box(mols, [n_molecules] if counts_t is None else counts_t,
+                               temperature_K, density_mol_m3, cutoff, seed)
         sampler = BodyMCSampler(box.model, box.centre_ni, box.quat_nq, box.type_n, box.box_i,
                                 temperature=box.temperature, seed=[seed, 1])
     else:

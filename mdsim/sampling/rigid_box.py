@@ -19,7 +19,7 @@ from mdsim.errors import SettingError
 from mdsim.units import ReducedUnits
 
 __all__ = ["RigidBox", "rigid_box", "mixture_box", "reduced_inertia", "centre_core",
-           "COULOMB", "electrostatics_note"]
+           "COULOMB", "electrostatics_note", "ordered_types"]
 
 #: The site charges' energy in simulations (:class:`LinearPairModel` ``coulomb``): plain
 #: Coulomb inside the molecular cut-off, which met Ewald 4 to 10 times more closely than the
@@ -181,12 +181,8 @@ def mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed
     """
     T = positive("temperature_K", temperature_K, "a temperature in K")
     rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
-    counts_t = [count(f"counts_t[{t}]", c, 0, "molecules of a type") for t, c in
-                enumerate(counts_t)]
-    if len(counts_t) != len(molecules):
-        raise SettingError("counts_t", counts_t, f"needs one count per molecule "
-                           f"({len(molecules)})")
-    n = count("n_molecules", sum(counts_t), 2, "molecules in the box")
+    type_n = ordered_types(counts_t, len(molecules), seed)
+    n = len(type_n)
     site = molecules[0].sites[0].potential
     units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecules[0].molar_mass_kg_mol)
     model = LinearPairModel([reduced_linear_type(m, site.epsilon, site.sigma) for m in molecules],
@@ -197,11 +193,26 @@ def mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed
     inertia_t = np.array([reduced_inertia(m, units) for m in molecules])
     box_i = np.full(3, (n / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, axis_ni = lattice_start(n, box_i, seed)
-    type_n = np.repeat(np.arange(len(counts_t), dtype=np.int64), counts_t)
-    if len(counts_t) > 1:  # a pure gas keeps its start (no draw)
-        type_n = np.random.default_rng([*np.atleast_1d(seed).tolist(), 1]).permutation(type_n)
     return RigidBox(T, rho, units.temperature_to_reduced(T), units, model, mass_t, inertia_t,
                     box_i, centre_ni, axis_ni, type_n)
+
+
+def ordered_types(counts_t, n_types, seed):
+    """The type of each molecule of a mixture's box: ``counts_t`` checked, then in a seeded
+    random order (a pure gas keeps its order: no draw).
+
+    >>> ordered_types([3, 1], 2, seed=1).tolist()
+    [0, 0, 0, 1]
+    """
+    counts_t = [count(f"counts_t[{t}]", c, 0, "molecules of a type") for t, c in
+                enumerate(counts_t)]
+    if len(counts_t) != n_types:
+        raise SettingError("counts_t", counts_t, f"needs one count per molecule ({n_types})")
+    count("n_molecules", sum(counts_t), 2, "molecules in the box")
+    type_n = np.repeat(np.arange(len(counts_t), dtype=np.int64), counts_t)
+    if len(counts_t) > 1:
+        type_n = np.random.default_rng([*np.atleast_1d(seed).tolist(), 1]).permutation(type_n)
+    return type_n
 
 
 def electrostatics_note(molecules, cutoff):

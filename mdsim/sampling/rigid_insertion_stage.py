@@ -21,7 +21,6 @@ from mdsim.engine.insertion import (insertion_stream, run_with_insertions,
                                     saved_insertion_stream)
 from mdsim.engine.rigid_insertion import insertion_sums_of
 from mdsim.errors import StudyError
-from mdsim.sampling.rigid_stage import METHOD as MC_METHOD
 from mdsim.sampling.rigid_stage import RigidMCStageSampler
 
 __all__ = ["METHOD", "RigidInsertionStageSampler", "insertion_tails"]
@@ -93,17 +92,24 @@ class RigidInsertionStageSampler(RigidMCStageSampler):
     (['acceptance', 'insertion_factor_0', 'insertion_factor_sq_0'], True)
     """
 
+    insertion_method = METHOD
+    """The stage method this class runs (its Monte Carlo alone: ``method_name``)."""
+
     def __init__(self, system, temperature=None, energy=None, seed=0, method=METHOD,
                  insertions=None, max_displacement=0.3, max_angle=0.5):
-        if method != METHOD or temperature is None or energy is not None:
+        if method != self.insertion_method or temperature is None or energy is not None:
             raise StudyError(f"setting 'method' = {method!r}: test-molecule insertion runs "
-                             f"canonical Monte Carlo ({METHOD!r}) at a set temperature")
-        super().__init__(system, temperature, None, seed, MC_METHOD, max_displacement,
+                             f"canonical Monte Carlo ({self.insertion_method!r}) at a set "
+                             "temperature")
+        super().__init__(system, temperature, None, seed, self.method_name, max_displacement,
                          max_angle)
-        self.method = METHOD
+        self.method = self.insertion_method
         self.insertions = count("insertions", system.n_particles if insertions is None
                                 else insertions, 1, "test molecules per type and sample")
         self.insertion_state = insertion_stream(seed)
+
+    insertion_sums = staticmethod(insertion_sums_of)
+    """The insertion kernel's wrapper: (sampler, type, n, stream) -> the two sums."""
 
     def run(self, n_samples, interval):
         """The Monte Carlo observables plus ``pressure_conf`` and the insertion factors."""
@@ -111,7 +117,7 @@ class RigidInsertionStageSampler(RigidMCStageSampler):
         mc = self.mc
         out = run_with_insertions(
             lambda: mc.run(1, interval),
-            lambda a: insertion_sums_of(mc, a, self.insertions, self.insertion_state),
+            lambda a: self.insertion_sums(mc, a, self.insertions, self.insertion_state),
             mc.model.n_types, n_samples, self.insertions)
         out["pressure_conf"] = out["pressure"] - self.system.density * mc.temperature
         return out
@@ -124,13 +130,13 @@ class RigidInsertionStageSampler(RigidMCStageSampler):
 
     def set_state(self, state):
         """Continue from a dictionary made by :meth:`get_state`."""
-        stream = saved_insertion_stream(state, "RigidInsertionStageSampler")
+        stream = saved_insertion_stream(state, type(self).__name__)
         super().set_state(state)
         self.insertion_state = stream
 
     def settings(self):
         """The Monte Carlo settings plus the insertions and the inserted molecules' tails."""
         out = super().settings()
-        out.update(method=METHOD, insertions_per_species=int(self.insertions),
+        out.update(method=self.insertion_method, insertions_per_species=int(self.insertions),
                    insertion_tail_red=np.array(insertion_tails(self.system)))
         return out

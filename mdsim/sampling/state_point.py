@@ -8,7 +8,9 @@ sampler protocol (``MCSampler`` for "mc-nvt"/"mc-nve", ``MDSampler`` for
 :class:`~mdsim.sampling.rigid_insertion_stage.RigidInsertionStageSampler`,
 "rigid-mc-nvt-insertion", :class:`~mdsim.sampling.body_stage.BodyMCStageSampler`
 and :class:`~mdsim.sampling.body_md_stage.BodyMDStageSampler` for non-linear
-molecules, "rigid-body-mc-nvt" and "rigid-body-md-nvt", and
+molecules, "rigid-body-mc-nvt" and "rigid-body-md-nvt", with test-body insertions
+:class:`~mdsim.sampling.body_insertion_stage.BodyInsertionStageSampler`,
+"rigid-body-mc-nvt-insertion", and
 :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler`,
 "rigid-md-nvt"/"rigid-md-nve"), streams the samples into one HDF5 run file
 (:mod:`mdsim.sampling.store`) with a checkpoint after every block, and resumes an
@@ -45,6 +47,8 @@ METHODS = {
     "rigid-mc-nvt-insertion": ("mdsim.sampling.rigid_insertion_stage",
                                "RigidInsertionStageSampler"),
     "rigid-body-mc-nvt": ("mdsim.sampling.body_stage", "BodyMCStageSampler"),
+    "rigid-body-mc-nvt-insertion": ("mdsim.sampling.body_insertion_stage",
+                                    "BodyInsertionStageSampler"),
     "rigid-body-md-nvt": ("mdsim.sampling.body_md_stage", "BodyMDStageSampler"),
     "rigid-md-nvt": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),
     "rigid-md-nve": ("mdsim.sampling.rigid_md_stage", "RigidMDStageSampler"),

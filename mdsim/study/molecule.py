@@ -182,13 +182,16 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     Carlo, or thermostatted molecular dynamics with ``sampler = "md"``), the
     microcanonical route (its final state by fixed-energy molecular
     dynamics) and the direct route (molecular dynamics of the expansion);
-    one kind of non-linear molecule (site Lennard-Jones or Mie with
-    optional site charges, plain Coulomb inside the molecular cut-off as
-    for linear molecules: docs/physics.md section 7b.4) by the energy
-    route's canonical Monte Carlo only (its MD stage, "rigid-body-md-nvt",
-    is not yet offered: docs/physics.md section 7a.1).  Point multipoles on
-    a non-linear molecule are refused (they need an axis), and site charges
-    together with point multipoles.
+    a gas with non-linear molecules, one kind or a mixture with atoms and
+    linear molecules (every species a rigid body, site Lennard-Jones or Mie
+    with optional site charges, plain Coulomb inside the molecular cut-off
+    as for linear molecules: docs/physics.md section 7b.4), by the energy
+    route's canonical Monte Carlo only, with the route entropy from
+    test-body insertion (its MD stage, "rigid-body-md-nvt", is not yet
+    offered: docs/physics.md section 7a.1).  Point multipoles in a gas with
+    a non-linear molecule are refused (they sit on a linear molecule's axis,
+    which a rigid body's kernels do not have), and site charges together
+    with point multipoles.
     Spheres pass.
 
     Parameters
@@ -223,18 +226,22 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          '"direct"] or the virial routes, routes = []')
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
     by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
-    if nonlinear and (gas.n_species > 1 or by_md):
-        what = "a mixture" if gas.n_species > 1 else " and ".join(by_md)
-        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and a non-linear "
-                         "molecule is simulated by the energy route's canonical Monte Carlo of "
-                         f"one kind of molecule only, not {what}; use routes = [\"energy\"] with "
-                         'sampler "auto" or "mc", or the virial routes, [simulation] routes = []')
-    axial = [m.name for m in gas.molecules if m.is_nonlinear and m.has_multipoles]
-    if axial:  # RigidMolecule refuses them too; the rigid-body kernels have no axis
-        raise StudyError(f"{where}: molecule '{axial[0]}' is not linear and carries a point "
-                         "dipole or quadrupole, which sits on a linear molecule's axis; a "
-                         "non-linear molecule has none: describe its electrostatics by site "
-                         "charges (charge_e)")
+    if nonlinear and by_md:
+        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear, and a gas with a "
+                         "non-linear molecule is simulated by the energy route's canonical Monte "
+                         "Carlo only (one kind, or mixed with atoms and linear molecules), not "
+                         f"{' and '.join(by_md)}; use routes = [\"energy\"] with sampler "
+                         '"auto" or "mc", or the virial routes, [simulation] routes = []')
+    # with a non-linear molecule every species is a rigid body: site charges, no axial multipoles
+    axial = [m.name for m in gas.molecules if m.has_multipoles]
+    if nonlinear and axial:
+        who = ("is not linear and carries" if axial[0] in nonlinear else
+               f"is mixed with the non-linear '{nonlinear[0]}' and carries")
+        raise StudyError(f"{where}: molecule '{axial[0]}' {who} a point dipole or quadrupole, "
+                         "which sits on a linear molecule's axis; with a non-linear molecule "
+                         "every species is simulated as a rigid body, which has none: describe "
+                         "its electrostatics by site charges (charge_e), or use the virial "
+                         "routes, [simulation] routes = []")
     charged = [m.name for m in gas.molecules if m.has_charges]
     polar = [m.name for m in gas.molecules if m.has_multipoles]
     if charged and polar:  # site charges and axial multipoles: no charge-multipole energy

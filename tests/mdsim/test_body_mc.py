@@ -305,6 +305,32 @@ def test_propane_energy_route_against_its_virial_route_and_coolprop(tmp_path, mo
     assert dT > ref
     report_md = (run_dir / "report.md").read_text()
     assert "canonical Monte Carlo with translation and rotation moves" in report_md
+    check_propane_route_entropy(row)
+
+
+def check_propane_route_entropy(row):
+    """The route's Delta s (test-body insertion at its end states) against the model's B2 + B3
+    equation of state between the same end states, Delta s = int c_v_ig / T dT + R ln 2 +
+    s_res(T_f, rho_f) - s_res(T_i, rho_i), c_v_ig propane's whole table (its vibrations
+    included), integrated here by quadrature."""
+    from scipy.integrate import quad
+    from analysis.molecules import MolecularVirialGas
+    from mdsim.study.statepoints import ideal_heat_capacity
+    from mdsim.units import R_GAS
+    cv_ig = ideal_heat_capacity(read_study(CONFIGS / "propane.toml"))
+    gas = MolecularVirialGas([read_study(CONFIGS / "propane.toml").gas.molecules[0]], [1.0],
+                             n_draws=30000)
+    T_i, T_f, rho_i, rho_f = (float(row[k]) for k in (
+        "initial_temperature_K", "final_temperature_K", "initial_density_mol_m3",
+        "final_density_mol_m3"))
+    ideal = quad(lambda t: float(cv_ig.cv(t)) / t, T_i, T_f)[0]
+    want = (ideal + R_GAS * math.log(2.0) + gas.s_res_J_molK(T_f, rho_f, 3)
+            - gas.s_res_J_molK(T_i, rho_i, 3))
+    ds, ds_se = (float(row[k]) for k in ("entropy_generated_J_molK",
+                                         "entropy_generated_stderr_J_molK"))
+    # 4 standard errors (the B4 term of s_res and the Monte Carlo error of B3 are far below)
+    assert 0.0 < ds_se < 0.3
+    assert ds == pytest.approx(want, abs=4.0 * ds_se)
 
 
 @pytest.mark.parametrize("routes, extra, match", [

@@ -59,7 +59,8 @@ def test_bad_molecule_studies_are_refused(tmp_path, old, new, match):
     # test_rigid_nve.py); a non-linear one only the energy route's Monte Carlo
     # (tests/mdsim/test_body_mc.py), the virial routes answer the others
     ("propane", "direct", "molecule 'propane' is not linear.*routes = \\[\\]",
-     "canonical Monte Carlo of one kind of molecule only, not direct"),
+     "canonical Monte Carlo only (one kind, or mixed with atoms and linear molecules), "
+     "not direct"),
 ])
 def test_simulation_routes_are_refused_in_one_line(tmp_path, capsys, name, route, match, line):
     text = (CONFIGS / f"{name}.toml").read_text()
