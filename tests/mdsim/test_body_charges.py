@@ -79,6 +79,34 @@ def test_pair_energy_against_the_virial_routes_pair_energy(dme, which):
     assert max(coulomb_sizes) > 0.1
 
 
+def test_a_charged_mixture_pair_against_the_virial_routes_pair_energy(dme):
+    # a mixture of bodies (mdsim.sampling.body_box.body_mixture_box): dimethyl ether with the
+    # invented charged body, unlike sites by Lorentz-Berthelot and the cross charges; the
+    # kernel's energy of an unlike pair against pair_energy_rotated (tolerance 1e-9 relative)
+    from analysis.molecules.pair_energy import pair_energy_rotated
+    from analysis.molecules.reduced import principal_frame
+    from mdsim.engine.body_rotation import random_orientations, rotation_matrices
+    from mdsim.sampling.body_box import body_mixture_box
+    other = invented_body()
+    box = body_mixture_box([dme, other], [3, 2], T_K, 1000.0, 4.0, seed=1)
+    model, units = box.model, box.units
+    assert model.charged
+    frames = [principal_frame(m)[1] for m in (dme, other)]
+    coms = [m.centre_of_mass_v() for m in (dme, other)]
+    sigma = units.sigma_m * 1e10
+    rng = np.random.default_rng(12)
+    q = random_orientations(20, seed=13)
+    for k in range(10):
+        d = rng.normal(size=3)
+        d *= (1.0 + 2.5 * rng.random()) / np.linalg.norm(d)
+        u = model.pair(d, q[2 * k], q[2 * k + 1], type_a=0, type_b=1)[0] * units.epsilon_K
+        rot_a = rotation_matrices(q[2 * k]) @ frames[0].T
+        rot_b = rotation_matrices(q[2 * k + 1]) @ frames[1].T
+        d_site = d * sigma - rot_b @ coms[1] + rot_a @ coms[0]
+        assert u == pytest.approx(float(pair_energy_rotated(dme, other, d_site, rot_a, rot_b)),
+                                  rel=1e-9)
+
+
 @pytest.mark.parametrize("shifted, coulomb", [(False, "cut"), (True, "cut"), (True, "dsf")])
 def test_forces_and_torques_are_the_derivatives_of_the_energy(shifted, coulomb):
     # central differences of the (shifted) pair energy with the site charges: the force on b
