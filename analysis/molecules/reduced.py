@@ -7,7 +7,7 @@ Q* = Q / sqrt(4 pi epsilon_0 epsilon sigma^5), dipole
 mu* = mu / sqrt(4 pi epsilon_0 epsilon sigma^3) and site charges
 q* = q / sqrt(4 pi epsilon_0 epsilon sigma); the rigid-body kernels
 (:mod:`mdsim.engine.body_pair`) take the site positions in the principal-axes
-frame (sigma) and the site potentials.  This module turns a
+frame (sigma), the site potentials and the same site charges.  This module turns a
 :class:`~analysis.molecules.model.RigidMolecule` (kelvin, angstrom, e,
 e angstrom, e angstrom^2) into those numbers.
 """
@@ -19,7 +19,7 @@ from analysis.molecules.electrostatics import COULOMB_K_ANGSTROM
 from analysis.molecules.model import LINEAR_TOLERANCE_ANGSTROM
 from mdsim.errors import StudyError
 
-__all__ = ["reduced_linear_type", "principal_frame", "reduced_body_type"]
+__all__ = ["reduced_linear_type", "principal_frame", "reduced_body_type", "reduced_charges"]
 
 
 def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
@@ -88,9 +88,32 @@ def reduced_linear_type(molecule, energy_unit_K, length_unit_angstrom):
     pots = [s.potential.scaled(scale, length) for s in molecule.sites]
     quad = molecule.quadrupole * math.sqrt(COULOMB_K_ANGSTROM / (scale * length ** 5))
     dipole = molecule.dipole * math.sqrt(COULOMB_K_ANGSTROM / (scale * length ** 3))
-    charges = [float(q) * math.sqrt(COULOMB_K_ANGSTROM / (scale * length))
-               for q in molecule.charge_s]
-    return site_z, pots, float(quad), float(dipole), charges
+    return site_z, pots, float(quad), float(dipole), reduced_charges(molecule, scale, length)
+
+
+def reduced_charges(molecule, energy_unit_K, length_unit_angstrom):
+    """The site charges of a molecule in reduced units, q* = q sqrt(C / (epsilon sigma)).
+
+    C = e^2 / (4 pi epsilon_0 k angstrom) (``COULOMB_K_ANGSTROM``), so
+    that two reduced charges at reduced distance r interact with
+    q1* q2* / r epsilon.
+
+    Returns
+    -------
+    list of float
+
+    Examples
+    --------
+    >>> from mdsim.engine.potentials import LennardJones
+    >>> from analysis.molecules.model import RigidMolecule, Site
+    >>> lj = LennardJones(50.0, 3.0)
+    >>> ab = RigidMolecule("AB", [Site(lj, (0, 0, -0.5), 0.01, 0.2),
+    ...                           Site(lj, (0, 0, 0.5), 0.01, -0.2)])
+    >>> [round(q, 4) for q in reduced_charges(ab, 50.0, 3.0)]  # 0.2 sqrt(167101 / 150)
+    [6.6753, -6.6753]
+    """
+    scale = math.sqrt(COULOMB_K_ANGSTROM / (float(energy_unit_K) * float(length_unit_angstrom)))
+    return [float(q) * scale for q in molecule.charge_s]
 
 
 def principal_frame(molecule):
@@ -136,13 +159,15 @@ def principal_frame(molecule):
 
 
 def reduced_body_type(molecule, energy_unit_K, length_unit_angstrom):
-    """``(site_positions, site_potentials)`` of a rigid molecule of any shape in reduced units.
+    """``(site_positions, site_potentials, site_charges)`` of a rigid molecule of any shape in
+    reduced units.
 
     Parameters
     ----------
     molecule : RigidMolecule
-        Sites with Lennard-Jones or Mie potentials; no point multipoles or
-        site charges (the rigid-body kernels have neither yet).
+        Sites with Lennard-Jones or Mie potentials and optional site
+        charges; no point multipoles (they sit on a linear molecule's axis,
+        which a rigid body's kernels do not know).
     energy_unit_K, length_unit_angstrom : float
         epsilon/k and sigma of the reduced units.
 
@@ -153,11 +178,13 @@ def reduced_body_type(molecule, energy_unit_K, length_unit_angstrom):
         (:func:`principal_frame`).
     site_potentials : list of PairPotential
         In reduced units.
+    site_charges : list of float
+        :func:`reduced_charges`.
 
     Raises
     ------
     StudyError
-        For point multipoles or site charges.
+        For point multipoles.
 
     Examples
     --------
@@ -167,14 +194,15 @@ def reduced_body_type(molecule, energy_unit_K, length_unit_angstrom):
     >>> bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.016),
     ...                               Site(lj, (0.8, 0.6, 0.0), 0.001),
     ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
-    >>> pos, pots = reduced_body_type(bent, 50.0, 3.0)
-    >>> pos.shape, pots[0].epsilon, round(float(np.linalg.norm(pos[1] - pos[2])), 4)
-    ((3, 3), 1.0, 0.5333)
+    >>> pos, pots, charges = reduced_body_type(bent, 50.0, 3.0)
+    >>> pos.shape, pots[0].epsilon, round(float(np.linalg.norm(pos[1] - pos[2])), 4), charges
+    ((3, 3), 1.0, 0.5333, [0.0, 0.0, 0.0])
     """
-    if molecule.has_multipoles or molecule.has_charges:
-        raise StudyError(f"molecule '{molecule.name}': point multipoles and site charges are not "
-                         "yet simulated for rigid bodies (site Lennard-Jones or Mie only); "
-                         "remove them or use the virial routes")
+    if molecule.has_multipoles:
+        raise StudyError(f"molecule '{molecule.name}': point dipoles and quadrupoles sit on a "
+                         "linear molecule's axis, and the rigid-body kernels have no axis; "
+                         "describe the molecule by site charges (charge_e) instead")
     scale, length = float(energy_unit_K), float(length_unit_angstrom)
     body_si, _ = principal_frame(molecule)
-    return body_si / length, [s.potential.scaled(scale, length) for s in molecule.sites]
+    return (body_si / length, [s.potential.scaled(scale, length) for s in molecule.sites],
+            reduced_charges(molecule, scale, length))

@@ -10,7 +10,8 @@ Metropolis acceptance min(1, exp(-dU / kT)) keeps detailed balance (Allen
 and Tildesley, Computer Simulation of Liquids, 2nd ed. 2017, section 4.7).
 
 The energy is the site-site pair energy of :mod:`mdsim.engine.body_pair`
-with the plain molecular cut-off; the neighbours come from the linked cells
+(site potentials and, when the model carries them, the site charges'
+Coulomb energies) with the plain molecular cut-off; the neighbours come from the linked cells
 on the centres of :mod:`mdsim.engine.mc_cells`.
 
 Array suffixes: ``_n`` body, ``_q`` quaternion component, ``_s`` site of

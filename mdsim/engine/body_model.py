@@ -2,8 +2,10 @@
 
 :class:`BodyPairModel` checks a list of body types (body-frame site
 positions in the principal-axes frame, centre of mass at the origin, with
-like-site Lennard-Jones or Mie potentials), builds the model arrays (site
-pairs mixed by Lorentz-Berthelot, :mod:`mdsim.engine.site_pairs`), turns
+like-site Lennard-Jones or Mie potentials and optional site charges of a
+neutral body), builds the model arrays (site pairs mixed by
+Lorentz-Berthelot, with the Coulomb columns of charged sites,
+:mod:`mdsim.engine.site_pairs`), turns
 orientations into lab-frame site offsets, gives the isotropic site-site
 tail correction and evaluates one pair for checks.  Reduced units, as in
 :mod:`mdsim.engine.body_pair`.
@@ -17,7 +19,8 @@ import numpy as np
 
 from mdsim.engine.body_pair import body_forces_half
 from mdsim.engine.body_rotation import rotate_sites
-from mdsim.engine.site_pairs import site_insertion_tail, site_site_tail, site_table
+from mdsim.engine.site_pairs import (check_coulomb, check_neutral, coulomb_rows,
+                                     site_insertion_tail, site_site_tail, site_table)
 from mdsim.errors import SettingError, SimulationError
 
 __all__ = ["BodyPairModel"]
@@ -28,23 +31,37 @@ class BodyPairModel:
 
     Parameters
     ----------
-    types : list of (site_positions, site_potentials)
+    types : list of (site_positions, site_potentials[, site_charges])
         One entry per body type: the body-frame site positions, shape
         (n_sites, 3), sigma (principal-axes frame, centre of mass at the
-        origin), and their like-site potentials (:class:`LennardJones` or
-        :class:`Mie`, reduced units).
+        origin), their like-site potentials (:class:`LennardJones` or
+        :class:`Mie`, reduced units) and optionally their reduced charges
+        q* (0 if left out; a body's charges must sum to 0).
     cutoff : float, sigma
         Molecular (centre-centre) cut-off.
     shifted : bool
         Shifted-energy model (for molecular dynamics) instead of the plain
         cut (:mod:`mdsim.engine.body_pair`).
+    coulomb : {"cut", "dsf"}
+        The site charges' energy inside the molecular cut-off, as for linear
+        molecules (:class:`mdsim.engine.rigid_model.LinearPairModel`): plain
+        Coulomb q q / r ("cut", the more accurate against Ewald for neutral
+        molecules, docs/physics.md section 7b.4) or the damped shifted force
+        ("dsf", Fennell and Gezelter 2006, Rc the cut-off).
+    damping : float, 1/sigma
+        alpha of the damped shifted force ("dsf" only).
 
     Attributes
     ----------
     site_start_t : ndarray, shape=(n_types + 1,), int64
     site_body_ki : ndarray, shape=(n_sites, 3), float64, sigma
     params_kk, form, rc, shifted
-        The arguments of the kernels.
+        The arguments of the kernels (``params_kk`` carries the Coulomb
+        columns only when some site is charged).
+    charge_k : ndarray, shape=(n_sites,)
+        Reduced site charges.
+    charged : bool
+        True when some site carries a charge.
     max_sites : int
         The most sites of any type (the middle axis of ``offset_nsi``).
     rotates_t : ndarray, shape=(n_types,), int64
@@ -61,18 +78,34 @@ class BodyPairModel:
     >>> u, force_b, torque_a, torque_b = m.pair([0.0, 0.0, 1.5], q, q)
     >>> round(u, 4), bool(force_b[2] < 0.0)  # attracted at 1.5 sigma
     (-2.5983, True)
+
+    With site charges (+0.5, -0.25, -0.25) the pair gains their Coulomb energy:
+
+    >>> mq = BodyPairModel([(pos, [LennardJones(1.0, 1.0)] * 3, [0.5, -0.25, -0.25])], 4.0)
+    >>> round(mq.pair([0.0, 0.0, 1.5], q, q)[0] - u, 4)
+    0.0018
     """
 
-    def __init__(self, types, cutoff, shifted=False):
-        bodies = []
-        for t, (positions, site_pots) in enumerate(types):
+    def __init__(self, types, cutoff, shifted=False, coulomb="cut", damping=0.0):
+        bodies, charges = [], []
+        for t, entry in enumerate(types):
+            if len(entry) not in (2, 3):
+                raise SettingError(f"types[{t}]", len(entry), "needs (site_positions, "
+                                   "site_potentials[, site_charges])")
+            positions, site_pots = entry[:2]
             pos = np.asarray(positions, dtype=float)
             if pos.ndim != 2 or pos.shape[1] != 3 or pos.shape[0] != len(site_pots) or \
                     not np.all(np.isfinite(pos)):
                 raise SettingError(f"types[{t}]", np.shape(positions), "needs finite site "
                                    "positions of shape (n_sites, 3), one potential per site")
+            site_q = [float(v) for v in entry[2]] if len(entry) == 3 else [0.0] * len(pos)
+            if len(site_q) != len(pos):
+                raise SettingError(f"types[{t}] site charges", site_q, f"needs one charge per "
+                                   f"site ({len(pos)})")
+            check_neutral(f"types[{t}]", site_q)
             bodies.append(pos)
-        self.site_potentials, self.params_kk, self.form, self.site_start_t = site_table(
+            charges += site_q
+        self.site_potentials, lj_rows, self.form, self.site_start_t = site_table(
             [t[1] for t in types])
         self.site_body_ki = np.ascontiguousarray(np.concatenate(bodies))
         self.max_sites = max(len(b) for b in bodies)
@@ -83,6 +116,12 @@ class BodyPairModel:
             raise SettingError("cutoff", cutoff, "must be a positive number of sigma")
         self.rc = rc
         self.shifted = int(bool(shifted))
+        self.coulomb, self.damping = check_coulomb(coulomb, damping)
+        self.charge_k = np.array(charges)
+        self.charged = bool(np.any(self.charge_k != 0.0))
+        # without charges the rows stay those of the pair potentials: the kernels skip Coulomb
+        self.params_kk = (coulomb_rows(lj_rows, self.charge_k, rc, self.coulomb, self.damping)
+                          if self.charged else lj_rows)
 
     @property
     def n_types(self):

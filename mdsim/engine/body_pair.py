@@ -7,8 +7,12 @@ origin), which the orientation turns into lab-frame offsets from the centre
 (:mod:`mdsim.engine.body_rotation`).  The kernels take those lab-frame
 offsets, kept per body in ``offset_nsi`` and updated when a body turns.
 Each pair of sites of two bodies interacts through a Lennard-Jones or Mie
-pair potential (the one scalar kernel :func:`mdsim.engine.forms.pair_eval`).
-Reduced units: energies in epsilon, lengths in sigma.
+pair potential (the one scalar kernel :func:`mdsim.engine.forms.pair_eval`)
+plus, for two charged sites, their Coulomb energy, plain or damped
+shifted-force (the one scalar kernel
+:func:`mdsim.engine.damped_coulomb.dsf_term`, as for linear molecules,
+:mod:`mdsim.engine.rigid_pair`).  Reduced units: energies in epsilon,
+lengths in sigma, charges q* = q / sqrt(4 pi epsilon_0 epsilon sigma).
 
 The cut-off is molecular, as for linear molecules
 (:mod:`mdsim.engine.rigid_pair`): a pair whose centres are closer than
@@ -16,13 +20,18 @@ The cut-off is molecular, as for linear molecules
 Monte Carlo, with the isotropic site-site tail added by the caller) or
 shifted energy (``shifted = 1``, molecular dynamics): u(d) - u(rc d/|d|)
 at the same orientations, whose forces and torques are its exact
-derivatives and whose shift adds nothing to the virial.
+derivatives and whose shift adds nothing to the virial.  The site charges
+take the same treatment as the site potentials (docs/physics.md section
+7b.4): no tail, since the Coulomb energy of two neutral molecules averages
+to zero over orientations.
 
 Model arrays (built by :class:`mdsim.engine.body_model.BodyPairModel`):
 ``site_start_t`` int64 (n_types + 1,): the sites of body type t are
 ``site_start_t[t]:site_start_t[t + 1]``; ``params_kk`` float64 (n_sites,
-n_sites, N_PARAM): the parameter row of each site pair; ``form``: FORM_LJ
-or FORM_MIE.
+n_sites, N_PARAM) without charges, (n_sites, n_sites, N_PAIR_PARAM) with
+them: the parameter row of each site pair, followed by its Coulomb columns
+(:data:`mdsim.engine.rigid_pair.CHARGES` ..., the layout of the linear
+molecules); ``form``: FORM_LJ or FORM_MIE.
 
 Array suffixes: ``_n`` body, ``_s`` site of one body, ``_i`` Cartesian
 coordinate, ``_t`` body type, ``_k`` site (of all types), ``_j`` slot in a
@@ -33,10 +42,65 @@ import math
 import numpy as np
 from numba import njit
 
+from mdsim.engine.damped_coulomb import dsf_term
 from mdsim.engine.forms import FORM_LJ, FORM_MIE, pair_eval
 from mdsim.engine.pair_potential import NO_TABLE
+from mdsim.engine.rigid_pair import CHARGES, DAMPING, DSF_OFFSET, DSF_SLOPE, add_terms
 
-__all__ = ["body_pair_terms", "body_pair_forces", "body_forces_half"]
+__all__ = ["body_site_terms", "body_pair_terms", "body_coulomb_terms", "body_pair_forces",
+           "body_forces_half"]
+
+
+@njit(cache=True, inline="always")
+def body_site_terms(form, coulomb, with_force, dx, dy, dz, off_a_si, off_b_si, ta, tb,
+                    site_start_t, params_kk):
+    """The site-site sum of :func:`body_pair_terms`: the pair potentials (``coulomb`` False)
+    or the site charges' Coulomb energies (``coulomb`` True), each a constant at its call
+    site, so that the loop of uncharged bodies carries no Coulomb code.  Arguments and
+    results as there."""
+    u = fx = fy = fz = 0.0
+    tax = tay = taz = tbx = tby = tbz = 0.0
+    ka0 = site_start_t[ta]
+    kb0 = site_start_t[tb]
+    for s in range(site_start_t[ta + 1] - ka0):
+        sx, sy, sz = off_a_si[s, 0], off_a_si[s, 1], off_a_si[s, 2]
+        for m in range(site_start_t[tb + 1] - kb0):
+            p = params_kk[ka0 + s, kb0 + m]
+            if coulomb and p[CHARGES] == 0.0:
+                continue
+            mx, my, mz = off_b_si[m, 0], off_b_si[m, 1], off_b_si[m, 2]
+            rx, ry, rz = dx + mx - sx, dy + my - sy, dz + mz - sz
+            r2 = rx * rx + ry * ry + rz * rz
+            if coulomb:
+                e, f = dsf_term(p[CHARGES], r2, p[DAMPING], p[DSF_OFFSET], p[DSF_SLOPE])
+            else:
+                e, f = pair_eval(form, p, NO_TABLE, r2)
+            u += e
+            if with_force:
+                gx, gy, gz = f * rx, f * ry, f * rz
+                fx += gx
+                fy += gy
+                fz += gz
+                tbx += my * gz - mz * gy
+                tby += mz * gx - mx * gz
+                tbz += mx * gy - my * gx
+                tax -= sy * gz - sz * gy
+                tay -= sz * gx - sx * gz
+                taz -= sx * gy - sy * gx
+    return u, fx, fy, fz, tax, tay, taz, tbx, tby, tbz
+
+
+@njit(cache=True)
+def body_coulomb_terms(with_force, dx, dy, dz, off_a_si, off_b_si, ta, tb, site_start_t,
+                       params_kk):
+    """The site charges' Coulomb part of :func:`body_pair_terms` alone (a call of its own, not
+    inlined, so that the kernels of uncharged bodies keep their size and speed).
+
+    ``params_kk`` must carry the Coulomb columns (module docstring); the
+    other arguments and the results as in :func:`body_pair_terms`.
+    """
+    return body_site_terms(FORM_LJ, True, with_force, dx, dy, dz, off_a_si, off_b_si, ta, tb,
+                           site_start_t, params_kk)
 
 
 @njit(cache=True, inline="always")
@@ -73,31 +137,18 @@ def body_pair_terms(form, with_force, dx, dy, dz, off_a_si, off_b_si, ta, tb, si
     r_km = d + s_m - s_k the site force on m is g = -u'(r) r_km / r, the
     torque on b gains s_m x g and that on a loses s_k x g (Allen and
     Tildesley, Computer Simulation of Liquids, 2nd ed. 2017, section 3.3).
+    Two charged sites add the energy of
+    :func:`mdsim.engine.damped_coulomb.dsf_term`: plain Coulomb q q / r
+    (its constants 0) or the damped shifted force (Fennell and Gezelter,
+    J. Chem. Phys. 124, 234104 (2006), eqs. 19-20, with Rc the molecular
+    cut-off), with the same force and torque rule.
     """
-    u = fx = fy = fz = 0.0
-    tax = tay = taz = tbx = tby = tbz = 0.0
-    ka0 = site_start_t[ta]
-    kb0 = site_start_t[tb]
-    for s in range(site_start_t[ta + 1] - ka0):
-        sx, sy, sz = off_a_si[s, 0], off_a_si[s, 1], off_a_si[s, 2]
-        for m in range(site_start_t[tb + 1] - kb0):
-            mx, my, mz = off_b_si[m, 0], off_b_si[m, 1], off_b_si[m, 2]
-            rx, ry, rz = dx + mx - sx, dy + my - sy, dz + mz - sz
-            e, f = pair_eval(form, params_kk[ka0 + s, kb0 + m], NO_TABLE,
-                             rx * rx + ry * ry + rz * rz)
-            u += e
-            if with_force:
-                gx, gy, gz = f * rx, f * ry, f * rz
-                fx += gx
-                fy += gy
-                fz += gz
-                tbx += my * gz - mz * gy
-                tby += mz * gx - mx * gz
-                tbz += mx * gy - my * gx
-                tax -= sy * gz - sz * gy
-                tay -= sz * gx - sx * gz
-                taz -= sx * gy - sy * gx
-    return u, fx, fy, fz, tax, tay, taz, tbx, tby, tbz
+    out = body_site_terms(form, False, with_force, dx, dy, dz, off_a_si, off_b_si, ta, tb,
+                          site_start_t, params_kk)
+    if params_kk.shape[2] > CHARGES:  # the model carries site charges
+        return add_terms(out, body_coulomb_terms(with_force, dx, dy, dz, off_a_si, off_b_si,
+                                                 ta, tb, site_start_t, params_kk))
+    return out
 
 
 @njit(cache=True)

@@ -12,12 +12,10 @@ import math
 
 import numpy as np
 
-from mdsim.engine.damped_coulomb import dsf_constants
-from mdsim.engine.forms import N_PARAM
-from mdsim.engine.site_pairs import (site_insertion_tail, site_pair_potential, site_site_tail,
+from mdsim.engine.site_pairs import (check_coulomb, check_neutral, coulomb_rows,
+                                     site_insertion_tail, site_pair_potential, site_site_tail,
                                      site_table)
-from mdsim.engine.rigid_pair import (CHARGES, DAMPING, DSF_OFFSET, DSF_SLOPE, N_PAIR_PARAM,
-                                     forces_half)
+from mdsim.engine.rigid_pair import forces_half
 from mdsim.errors import SettingError, SimulationError
 
 __all__ = ["LinearPairModel"]
@@ -111,14 +109,8 @@ class LinearPairModel:
             raise SettingError("types", "site charges and point multipoles", "the kernels have "
                                "no charge-multipole energy; give every molecule charges, or "
                                "every molecule multipoles")
-        if coulomb not in ("cut", "dsf"):
-            raise SettingError("coulomb", coulomb, 'must be "cut" or "dsf"')
-        self.coulomb = coulomb
-        self.damping = float(damping)
-        if not 0.0 <= self.damping < math.inf or (coulomb == "cut" and self.damping):
-            raise SettingError("damping", damping, 'must be a finite alpha >= 0 in 1/sigma, '
-                               'and 0 with coulomb = "cut"')
-        self.params_kk = self._pair_rows(rc, lj_rows)
+        self.coulomb, self.damping = check_coulomb(coulomb, damping)
+        self.params_kk = coulomb_rows(lj_rows, self.charge_k, rc, self.coulomb, self.damping)
         self.rotates_t = np.array([int(np.any(self.elec_tm[t, :2] != 0.0) or np.any(
             self.site_z_k[starts[t]:starts[t + 1]] != 0.0)) for t in range(len(moments))],
             dtype=np.int64)
@@ -127,18 +119,6 @@ class LinearPairModel:
         self.core = float(core)
         if not 0.0 <= self.core < rc:
             raise SettingError("core", core, f"must lie in [0, cut-off {rc:g}) sigma")
-
-    def _pair_rows(self, rc, lj_rows):
-        """params_kk: each site pair's potential row (``lj_rows``), then its Coulomb columns."""
-        n_k = len(self.site_potentials)
-        rows = np.zeros((n_k, n_k, N_PAIR_PARAM))
-        # plain Coulomb is the DSF term with alpha, offset and slope 0
-        offset, slope = dsf_constants(self.damping, rc) if self.coulomb == "dsf" else (0.0, 0.0)
-        rows[:, :, :N_PARAM] = lj_rows
-        rows[:, :, CHARGES] = np.outer(self.charge_k, self.charge_k)
-        rows[:, :, DAMPING], rows[:, :, DSF_OFFSET], rows[:, :, DSF_SLOPE] = (
-            self.damping, offset, slope)
-        return rows
 
     @property
     def n_types(self):
@@ -231,7 +211,5 @@ def _type_entry(t, entry):
     values = [float(quad), dipole, *site_q]
     if not all(math.isfinite(v) for v in values):
         raise SettingError(f"types[{t}]", values, "multipoles and charges must be finite")
-    if abs(sum(site_q)) > 1e-9 * max(1.0, sum(abs(q) for q in site_q)):
-        raise SettingError(f"types[{t}] site charges", site_q, "a molecule must be neutral; "
-                           "make its charges sum to 0")
+    check_neutral(f"types[{t}]", site_q)
     return site_z, site_pots, float(quad), dipole, site_q

@@ -4,8 +4,9 @@ Shared by the models of linear molecules (:mod:`mdsim.engine.rigid_model`)
 and of rigid bodies of any shape (:mod:`mdsim.engine.body_model`): their
 sites interact through Lennard-Jones or Mie potentials, like sites by their
 own potential and unlike sites by the Lorentz-Berthelot rules of
-:func:`mdsim.engine.potentials.combine` (the one home of the rule).
-Reduced units.
+:func:`mdsim.engine.potentials.combine` (the one home of the rule), and
+charged sites through the Coulomb columns of the same table (plain or damped
+shifted-force, :mod:`mdsim.engine.rigid_pair`).  Reduced units.
 
 Array suffixes: ``_t`` molecule type, ``_k`` site (of all types).
 """
@@ -13,12 +14,19 @@ import math
 
 import numpy as np
 
-from mdsim.engine.forms import FORM_LJ, FORM_MIE
+from mdsim.engine.damped_coulomb import dsf_constants
+from mdsim.engine.forms import FORM_LJ, FORM_MIE, N_PARAM
 from mdsim.engine.potentials import LennardJones, Mie, combine
+from mdsim.engine.rigid_pair import CHARGES, DAMPING, DSF_OFFSET, DSF_SLOPE, N_PAIR_PARAM
 from mdsim.errors import SettingError
 
 __all__ = ["site_table", "site_pair_potential", "site_site_tail", "site_insertion_tail",
-           "type_pair_tail_integrals", "check_fractions"]
+           "type_pair_tail_integrals", "check_fractions", "COULOMB_METHODS", "check_coulomb",
+           "check_neutral", "coulomb_rows"]
+
+#: The site charges' energy inside the molecular cut-off: plain Coulomb, or the damped
+#: shifted force (docs/physics.md section 7b.4).
+COULOMB_METHODS = ("cut", "dsf")
 
 
 def site_table(types_pots):
@@ -177,3 +185,69 @@ def check_fractions(fraction_t, n_types):
         raise SettingError("fraction_t", fraction_t, f"needs {n_types} mole fractions "
                            ">= 0 that sum to 1")
     return x_t
+
+
+def check_coulomb(coulomb, damping):
+    """The checked choice of the site charges' energy: ``(coulomb, damping)``.
+
+    ``coulomb`` is "cut" (plain Coulomb q q / r inside the molecular
+    cut-off) or "dsf" (the damped shifted force, damping alpha in 1/sigma;
+    0 with "cut").
+    """
+    if coulomb not in COULOMB_METHODS:
+        raise SettingError("coulomb", coulomb, 'must be "cut" or "dsf"')
+    alpha = float(damping)
+    if not 0.0 <= alpha < math.inf or (coulomb == "cut" and alpha):
+        raise SettingError("damping", damping, 'must be a finite alpha >= 0 in 1/sigma, '
+                           'and 0 with coulomb = "cut"')
+    return coulomb, alpha
+
+
+def check_neutral(where, site_q):
+    """Raise unless the site charges ``site_q`` of one molecule (reduced) are finite and sum to 0.
+
+    >>> check_neutral("types[0]", [0.5, -0.25, -0.25])
+    """
+    if not all(math.isfinite(q) for q in site_q):
+        raise SettingError(f"{where} site charges", list(site_q), "charges must be finite")
+    if abs(sum(site_q)) > 1e-9 * max(1.0, sum(abs(q) for q in site_q)):
+        raise SettingError(f"{where} site charges", list(site_q), "a molecule must be "
+                           "neutral; make its charges sum to 0")
+
+
+def coulomb_rows(lj_rows, charge_k, rc, coulomb, alpha):
+    """The site-pair table with its Coulomb columns after the pair potential's.
+
+    Parameters
+    ----------
+    lj_rows : ndarray, shape=(n_sites, n_sites, N_PARAM)
+        The pair potentials' rows (:func:`site_table`).
+    charge_k : array_like, shape=(n_sites,)
+        Reduced site charges.
+    rc : float, sigma
+        The molecular cut-off (Rc of the damped shifted force).
+    coulomb, alpha
+        :func:`check_coulomb`'s result.
+
+    Returns
+    -------
+    ndarray, shape=(n_sites, n_sites, N_PAIR_PARAM)
+        Each row: the pair potential, then the product of the two charges,
+        alpha and the two constants of
+        :func:`mdsim.engine.damped_coulomb.dsf_constants` (all three 0 for
+        plain Coulomb, which is the damped shifted force with them 0).
+
+    Examples
+    --------
+    >>> rows = coulomb_rows(np.zeros((2, 2, N_PARAM)), [0.5, -0.5], 3.0, "cut", 0.0)
+    >>> rows.shape[2] == N_PAIR_PARAM, float(rows[0, 1, CHARGES])
+    (True, -0.25)
+    """
+    q = np.asarray(charge_k, dtype=float)
+    n_k = len(q)
+    rows = np.zeros((n_k, n_k, N_PAIR_PARAM))
+    offset, slope = dsf_constants(alpha, rc) if coulomb == "dsf" else (0.0, 0.0)
+    rows[:, :, :N_PARAM] = lj_rows
+    rows[:, :, CHARGES] = np.outer(q, q)
+    rows[:, :, DAMPING], rows[:, :, DSF_OFFSET], rows[:, :, DSF_SLOPE] = alpha, offset, slope
+    return rows

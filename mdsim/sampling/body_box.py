@@ -16,7 +16,7 @@ from analysis.molecules.reduced import reduced_body_type
 from mdsim.checks import count, positive
 from mdsim.engine.body_mc import body_lattice_start
 from mdsim.engine.body_model import BodyPairModel
-from mdsim.sampling.rigid_box import ordered_types
+from mdsim.sampling.rigid_box import COULOMB, ordered_types
 from mdsim.units import ReducedUnits
 
 __all__ = ["BodyBox", "body_box", "body_mixture_box", "reduced_principal_inertia"]
@@ -79,7 +79,8 @@ def body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed,
     Parameters
     ----------
     molecule : RigidMolecule
-        Any shape, site Lennard-Jones or Mie (no charges or multipoles).
+        Any shape, site Lennard-Jones or Mie with optional site charges (plain
+        Coulomb inside the molecular cut-off, docs/physics.md section 7b.4).
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3
     n_molecules : int
@@ -122,7 +123,8 @@ def body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff,
     molecules : list of RigidMolecule
         One per type: non-linear molecules, linear ones (their sites on the
         body's axis) and atoms (one site at the centre, never turned), site
-        Lennard-Jones or Mie only; unlike sites by Lorentz-Berthelot
+        Lennard-Jones or Mie with optional site charges (no point
+        multipoles); unlike sites by Lorentz-Berthelot
         (:mod:`mdsim.engine.site_pairs`).
     counts_t : list of int
         Molecules of each type (each >= 0, at least 2 in all).
@@ -154,7 +156,8 @@ def body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff,
     site = molecules[0].sites[0].potential
     units = ReducedUnits(site.epsilon, site.sigma * 1e-10, molecules[0].molar_mass_kg_mol)
     model = BodyPairModel([reduced_body_type(m, site.epsilon, site.sigma) for m in molecules],
-                          positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted)
+                          positive("cutoff", cutoff, "a cut-off in sigma"), shifted=shifted,
+                          coulomb=COULOMB)
     box_i = np.full(3, (len(type_n) / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, quat_nq = body_lattice_start(len(type_n), box_i, seed)
     return BodyBox(T, rho, units.temperature_to_reduced(T), units, model,

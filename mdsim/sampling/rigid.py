@@ -81,10 +81,10 @@ def sample_rigid_state(molecule, temperature_K, density_mol_m3, *, n_molecules=2
     ----------
     molecule : RigidMolecule or list of RigidMolecule
         Linear, two or more sites, optional site charges or axial point dipole
-        and quadrupole, or non-linear (site Lennard-Jones or Mie only:
-        :mod:`mdsim.engine.body_mc`); a list is a mixture of linear molecules
-        and atoms, with ``counts_t``, or of non-linear molecules with atoms and
-        linear molecules (every species a rigid body).
+        and quadrupole, or non-linear (site Lennard-Jones or Mie and optional
+        site charges: :mod:`mdsim.engine.body_mc`); a list is a mixture of
+        linear molecules and atoms, with ``counts_t``, or of non-linear
+        molecules with atoms and linear molecules (every species a rigid body).
     temperature_K : float, K
     density_mol_m3 : float, mol/m^3
     n_molecules : int

@@ -182,14 +182,17 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     Carlo, or thermostatted molecular dynamics with ``sampler = "md"``), the
     microcanonical route (its final state by fixed-energy molecular
     dynamics) and the direct route (molecular dynamics of the expansion);
-    so is a gas with non-linear molecules (site Lennard-Jones or Mie, no
-    charges or multipoles, every species a rigid body): one kind of
-    non-linear molecule by the same routes and samplers with its rigid-body
-    stages ("rigid-body-mc-nvt", "rigid-body-md-nvt", "rigid-body-md-nve"),
-    a mixture of them with atoms and linear molecules by the energy route's
-    canonical Monte Carlo only, with the route entropy from test-body
-    insertion (docs/physics.md section 7a.1).  Site charges together with
-    point multipoles are refused.  Spheres pass.
+    so is a gas with non-linear molecules (every species a rigid body, site
+    Lennard-Jones or Mie with optional site charges, plain Coulomb inside
+    the molecular cut-off as for linear molecules: docs/physics.md section
+    7b.4): one kind of non-linear molecule by the same routes and samplers
+    with its rigid-body stages ("rigid-body-mc-nvt", "rigid-body-md-nvt",
+    "rigid-body-md-nve"), a mixture of them with atoms and linear molecules
+    by the energy route's canonical Monte Carlo only, with the route entropy
+    from test-body insertion (docs/physics.md section 7a.1).  Point
+    multipoles in a gas with a non-linear molecule are refused (they sit on
+    a linear molecule's axis, which a rigid body's kernels do not have), and
+    site charges together with point multipoles.  Spheres pass.
 
     Parameters
     ----------
@@ -230,15 +233,16 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          "non-linear molecules takes one kind of molecule); use routes = "
                          '["energy"] with sampler "auto" or "mc", or the virial routes, '
                          "[simulation] routes = []")
-    # with a non-linear molecule every species is a rigid body (site Lennard-Jones or Mie)
-    electric = [m.name for m in gas.molecules if m.has_charges or m.has_multipoles]
-    if nonlinear and electric:
-        who = ("is not linear and carries" if electric[0] in nonlinear else
+    # with a non-linear molecule every species is a rigid body: site charges, no axial multipoles
+    axial = [m.name for m in gas.molecules if m.has_multipoles]
+    if nonlinear and axial:
+        who = ("is not linear and carries" if axial[0] in nonlinear else
                f"is mixed with the non-linear '{nonlinear[0]}' and carries")
-        raise StudyError(f"{where}: molecule '{electric[0]}' {who} charges or point "
-                         "multipoles, which the simulation of non-linear rigid molecules and "
-                         "their mixtures does not have yet (site Lennard-Jones or Mie only); use "
-                         "the virial routes, [simulation] routes = []")
+        raise StudyError(f"{where}: molecule '{axial[0]}' {who} a point dipole or quadrupole, "
+                         "which sits on a linear molecule's axis; with a non-linear molecule "
+                         "every species is simulated as a rigid body, which has none: describe "
+                         "its electrostatics by site charges (charge_e), or use the virial "
+                         "routes, [simulation] routes = []")
     charged = [m.name for m in gas.molecules if m.has_charges]
     polar = [m.name for m in gas.molecules if m.has_multipoles]
     if charged and polar:  # site charges and axial multipoles: no charge-multipole energy

@@ -50,36 +50,42 @@ def test_pair_energy_against_the_virial_routes_pair_energy(propane):
     # the kernel (principal-axes sites, quaternions, reduced units) against the analysis
     # layer's pair_energy_rotated (site frame of the study, rotation matrices, kelvin): the
     # same sum of site terms, so equal to round-off (tolerance 1e-9 relative)
-    site = propane.sites[0].potential
-    model = propane_model(propane, 100.0)
-    _, frame = principal_frame(propane)
-    com = propane.centre_of_mass_v()
-    rng = np.random.default_rng(3)
-    q = random_orientations(40, seed=4)
+    for u, ref, _ in kernel_and_analysis_energies(propane_model(propane, 100.0), propane,
+                                                  seed=3, r_min=1.1, r_span=2.0):
+        assert u == pytest.approx(ref, rel=1e-9)
+
+
+def kernel_and_analysis_energies(model, mol, seed, r_min, r_span):
+    """(kernel energy, pair_energy_rotated, (d, qa, qb)) in K for 20 random pairs of ``mol``,
+    centres r_min to r_min + r_span sigma apart, orientations uniform."""
+    site = mol.sites[0].potential
+    _, frame = principal_frame(mol)
+    com = mol.centre_of_mass_v()
+    rng = np.random.default_rng(seed)
+    q = random_orientations(40, seed=seed + 1)
+    out = []
     for k in range(20):
         d = rng.normal(size=3)
-        d *= (1.1 + 2.0 * rng.random()) / np.linalg.norm(d)  # centres 1.1 to 3.1 sigma apart
+        d *= (r_min + r_span * rng.random()) / np.linalg.norm(d)
         u = model.pair(d, q[2 * k], q[2 * k + 1])[0] * site.epsilon
         rot_a = rotation_matrices(q[2 * k]) @ frame.T
         rot_b = rotation_matrices(q[2 * k + 1]) @ frame.T
         # site = centre + R_body p_body = (centre - R com) + R p_site: the site frame's origins
         d_site = d * site.sigma - rot_b @ com + rot_a @ com
-        ref = float(pair_energy_rotated(propane, propane, d_site, rot_a, rot_b))
-        assert u == pytest.approx(ref, rel=1e-9)
+        out.append((u, float(pair_energy_rotated(mol, mol, d_site, rot_a, rot_b)),
+                    (d, q[2 * k], q[2 * k + 1])))
+    return out
 
 
-@pytest.mark.parametrize("shifted", [False, True])
-def test_forces_and_torques_are_the_derivatives_of_the_energy(propane, shifted):
-    # central differences of the (shifted) pair energy: the force on b is -dU/dd, the torque
-    # on a body -dU/dangle of a turn about a lab axis through its centre; h = 1e-5, error
-    # O(h^2) times the third derivative: tolerance 1e-6 relative to the largest component
-    model = propane_model(propane, 2.5, shifted=shifted)
-    q = random_orientations(6, seed=7)
-    rng = np.random.default_rng(8)
+def assert_derivatives(model, seed, distance):
+    """Forces and torques of ``model.pair`` against central differences of its energy at three
+    random pairs of orientations, centres ``distance`` apart; returns the last (qa, qb, d)."""
+    q = random_orientations(6, seed=seed)
+    rng = np.random.default_rng(seed + 1)
     h = 1e-5
     for k in range(3):
         d = rng.normal(size=3)
-        d *= 1.3 / np.linalg.norm(d)
+        d *= distance / np.linalg.norm(d)
         qa, qb = q[2 * k], q[2 * k + 1]
         u, f_b, t_a, t_b = model.pair(d, qa, qb)
         num_f = np.array([-(model.pair(d + h * e, qa, qb)[0] - model.pair(d - h * e, qa, qb)[0])
@@ -93,6 +99,16 @@ def test_forces_and_torques_are_the_derivatives_of_the_energy(propane, shifted):
         scale = max(np.abs(f_b).max(), np.abs(t_a).max(), np.abs(t_b).max())
         for got, want in ((f_b, num_f), (t_a, num_ta), (t_b, num_tb)):
             assert np.allclose(got, want, rtol=0, atol=1e-6 * scale)
+    return qa, qb, d
+
+
+@pytest.mark.parametrize("shifted", [False, True])
+def test_forces_and_torques_are_the_derivatives_of_the_energy(propane, shifted):
+    # central differences of the (shifted) pair energy: the force on b is -dU/dd, the torque
+    # on a body -dU/dangle of a turn about a lab axis through its centre; h = 1e-5, error
+    # O(h^2) times the third derivative: tolerance 1e-6 relative to the largest component
+    model = propane_model(propane, 2.5, shifted=shifted)
+    qa, qb, d = assert_derivatives(model, seed=7, distance=1.3)
     if shifted:  # the shifted energy is 0 at the cut-off
         assert model.pair(2.5 * d / np.linalg.norm(d) * (1 - 1e-12), qa, qb)[0] == \
             pytest.approx(0.0, abs=1e-9)
@@ -100,12 +116,14 @@ def test_forces_and_torques_are_the_derivatives_of_the_energy(propane, shifted):
 
 def reference_forces(model, centre_ni, offset_nsi, box_i):
     """Energy, virial, forces and torques of all pairs (plain cut): a slow, obvious NumPy loop
-    with the Lennard-Jones sites written out and mixed by Lorentz-Berthelot here."""
+    with the Lennard-Jones sites written out and mixed by Lorentz-Berthelot here, and the
+    site charges' plain Coulomb q q / r."""
     n = len(centre_ni)
     eps = np.array([p.epsilon for p in model.site_potentials])
     sig = np.array([p.sigma for p in model.site_potentials])
     e_km = np.sqrt(np.outer(eps, eps))
     s_km = 0.5 * (sig[:, None] + sig[None, :])
+    qq_km = np.outer(model.charge_k, model.charge_k)
     u = w = 0.0
     f_ni, t_ni = np.zeros((n, 3)), np.zeros((n, 3))
     for i in range(n):
@@ -117,8 +135,8 @@ def reference_forces(model, centre_ni, offset_nsi, box_i):
             r_kmi = d + offset_nsi[j][None, :, :] - offset_nsi[i][:, None, :]
             r = np.linalg.norm(r_kmi, axis=-1)
             x6 = (s_km / r) ** 6
-            u += np.sum(4 * e_km * (x6 * x6 - x6))
-            g_kmi = (24 * e_km * (2 * x6 * x6 - x6) / r ** 2)[..., None] * r_kmi  # on j's sites
+            u += np.sum(4 * e_km * (x6 * x6 - x6) + qq_km / r)
+            g_kmi = ((24 * e_km * (2 * x6 * x6 - x6) + qq_km / r) / r ** 2)[..., None] * r_kmi
             f = g_kmi.sum(axis=(0, 1))
             f_ni[j] += f
             f_ni[i] -= f
