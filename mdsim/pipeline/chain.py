@@ -12,17 +12,13 @@ standard error of Delta T) and ``max_cpu_time``, not the run length:
   chain continued from the last configuration) while the standard error of
   Delta T is above the target and CPU budget is left.  ``stopped_by`` says
   which ended it.
-- Standard errors (:func:`production_mean`): the production samples continue
-  a chain whose pilot has settled, so no start is cut off them (a chain whose
-  pilot had not: only a start that differs beyond its noise,
-  :func:`analysis.block_error.significant_start`; cutting a
-  start chosen from the data makes a short series' mean noisier and its
-  error smaller: measured at T* = 2, rho* = 0.3 with 256 particles, the
-  scatter of 200-sample means was 2.2 times the error reported with the cut,
-  1.6 times without); and the error is at least the block-averaging one
-  (``ERROR_BLOCKS`` blocks), which sees a slow mode that the statistical
-  inefficiency of a short series misses (there, Monte Carlo's g of the
-  energy grows from 5 to 22 sweeps as blocks grow from 10 to 1000 sweeps).
+- Standard errors (:func:`production_mean`): no start is cut off the
+  production of a chain whose pilot has settled, and off one whose pilot had
+  not only a start that differs beyond its noise
+  (:func:`analysis.block_error.significant_start`); the error is at least the
+  block-averaging one (``ERROR_BLOCKS`` blocks), which sees a slow mode the
+  statistical inefficiency of a short series misses (measured in
+  docs/physics.md section 3.1).
 
 Determinism: every decision is made from completed stage files and the
 seeds alone, so a task that is killed and run again gives the same numbers,
