@@ -73,7 +73,11 @@ CHARGES, DAMPING, DSF_OFFSET, DSF_SLOPE = range(N_PARAM, N_PARAM + 4)
 N_PAIR_PARAM = N_PARAM + 4
 
 
-@njit(cache=True, inline="always")
+# axial_term and multipole_terms are plain calls, not inlined in numba's IR: inlining them
+# into every kernel made the rigid kernels' first compile 2 to 3 times slower (79 s against 28 s
+# for tests/analysis/molecules/test_rigid_pair_kernel.py with an empty cache) and the kernels
+# no faster (mdsim.bench.rigid: 47-50 ns per site pair either way)
+@njit(cache=True)
 def axial_term(with_force, power, pre, ang, d_ca, d_cb, d_ab, inv_r, nx, ny, nz, ca, cb, ax, ay,
                az, bx, by, bz):
     """One multipole term u = pre ang(c_a, c_b, e_a.e_b), pre proportional to r^-power, with
@@ -98,7 +102,7 @@ def axial_term(with_force, power, pre, ang, d_ca, d_cb, d_ab, inv_r, nx, ny, nz,
             -(by * gbz - bz * gby), -(bz * gbx - bx * gbz), -(bx * gby - by * gbx))
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True)
 def multipole_terms(with_force, dx, dy, dz, ax, ay, az, bx, by, bz, mu_a, th_a, mu_b, th_b):
     """Energy, force on b and torques of the axial point dipoles and quadrupoles of two molecules.
 
