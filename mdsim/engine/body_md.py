@@ -307,7 +307,14 @@ class BodyMDSampler:
         self.step = int(state["step"])
         self.method = str(state["method"])
         self.time_step = float(state["time_step"])
-        self.nlist.build(np.array(state["r_ref_ni"], dtype=float))
+        # the list as it was built, from the build-time centres in cell order: their sort sets
+        # the cell boundaries the build reads (without it a box of 3 or more cells a side
+        # would be listed from the start configuration's boundaries)
+        r_ref = np.array(state["r_ref_ni"], dtype=float)
+        if not np.array_equal(self.nlist.sort_order(r_ref), np.arange(self.n)):
+            raise SettingError("state", "r_ref_ni", "not in cell order for this box; the state "
+                               "belongs to another sampler")
+        self.nlist.build(r_ref)
 
     def in_given_order(self, name):
         """A per-body array (``"r_ni"`` wrapped into the box, ``"quat_nq"``, ``"v_ni"``,

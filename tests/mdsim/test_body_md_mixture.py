@@ -13,6 +13,7 @@ kernels carry none) keeps the linear bodies' axial momentum at 0 and shares the 
 between their rotations and the translations.
 """
 import math
+from types import SimpleNamespace
 from pathlib import Path
 
 import numpy as np
@@ -195,3 +196,37 @@ def test_linear_bodies_keep_no_axial_spin_and_share_the_energy(propane, nitrogen
         assert abs(diff.mean()) < 4.0 * se, (diff.mean(), se)
         assert se < 0.1 * b.temperature
     assert math.isfinite(md.temperature_now())
+
+
+def test_a_mixture_stage_resumes_bit_for_bit_and_continues_its_types(tmp_path, propane,
+                                                                     nitrogen):
+    # a fixed-energy stage of 32 propane + 16 nitrogen + 16 argon (a box of 4 neighbour cells
+    # a side, so the engine sorts the bodies): interrupted and resumed equal to an
+    # uninterrupted run (the checkpoint holds the engine's cell-ordered types, and the resumed
+    # neighbour list the build-time cell boundaries); F and the
+    # instantaneous temperature count 3 rotations per propane, 2 per nitrogen, none per argon
+    # (a fact of the trade); the next stage starts from the types in the system's order
+    from mdsim.pipeline.rigid_chain import RigidChain
+    from mdsim.sampling import store
+    from mdsim.sampling.body_md_stage import BODY_MD_NVE_METHOD
+    from mdsim.sampling.body_stage import body_mixture_system
+    from test_body_mc import interrupted_and_uninterrupted
+
+    def system():
+        return body_mixture_system([propane, nitrogen, ARGON], [32, 16, 16], 400.0, 700.0, 3.0,
+                                   seed=5)
+    run = dict(n_equilibration=300, n_samples=60, interval=10, seed=[3, 1], checkpoint_every=20,
+               start_temperature=4.1, energy=9.7)
+    path = tmp_path / "mix.h5"
+    interrupted_and_uninterrupted(path, system, BODY_MD_NVE_METHOD, None, run)
+    f = 3 * 64 - 3 + 3 * 32 + 2 * 16
+    assert store.read_attrs(path)["sampler_kinetic_dof_total"] == f
+    s = store.read_samples(path)
+    assert np.allclose(s["temperature_inst"], 2.0 * 64 * s["kinetic"] / f, rtol=1e-12)
+    state, _ = store.read_checkpoint(path)
+    assert np.array_equal(state["type_n"], system().type_n)
+    assert not np.array_equal(state["engine_type_n"], state["type_n"])  # the cell order
+    chain = RigidChain.__new__(RigidChain)  # only its continue_system, on a fresh system
+    chain.make_system = system
+    nxt = chain.continue_system(SimpleNamespace(path=path))
+    assert np.array_equal(nxt.type_n, system().type_n)
