@@ -230,3 +230,19 @@ def test_a_mixture_stage_resumes_bit_for_bit_and_continues_its_types(tmp_path, p
     chain.make_system = system
     nxt = chain.continue_system(SimpleNamespace(path=path))
     assert np.array_equal(nxt.type_n, system().type_n)
+
+
+def test_routes_count_the_rotations_the_dynamics_count(tmp_path):
+    # the microcanonical and direct routes' F (pipeline.rigid_chain.box_kinetic_dof, from the
+    # study's counts) is the MD's own 3N - 3 + F_rot: 3 rotations per propane, none per argon
+    # atom (a fact of the trade); 64 bodies of the invented mixture: 48 propane + 16 argon
+    from mdsim.pipeline.rigid_chain import box_kinetic_dof
+    from mdsim.sampling.body_stage import body_mixture_system
+    from test_body_insertion import MIXTURE
+    (tmp_path / "mix.toml").write_text(MIXTURE.replace("ROUTES", '["energy"]'))
+    study = read_study(tmp_path / "mix.toml")
+    f = box_kinetic_dof(SimpleNamespace(study=study, n_particles=64))
+    assert f == 3 * 64 - 3 + 3 * 48
+    system = body_mixture_system(study.gas.molecules, study.counts(64), 400.0, 646.0, 3.0,
+                                 seed=1)
+    assert 3 * 64 - 3 + system.rotational_dof == f
