@@ -14,7 +14,7 @@ import numpy as np
 
 from analysis.molecules.second import (DEFAULT_ORIENTATION_NODES, DEFAULT_RADIAL_NODES,
                                        pair_grid)
-from analysis.molecules.rotations import sphere_rule
+from analysis.molecules.rotations import SPHERE_DEGREES, sphere_rule
 from analysis.molecules.second_rotations import DEFAULT_ROTATION_DEGREE
 from analysis.molecules.third import DEFAULT_DRAWS, TripletDraws
 from analysis import inputs
@@ -25,10 +25,14 @@ from mdsim.checks import positive_array
 from mdsim.errors import StudyError
 from mdsim.units import R_GAS
 
-__all__ = ["MolecularVirialGas"]
+__all__ = ["MolecularVirialGas", "ROTATION_DEGREE_TOLERANCE"]
 
 # Scalar temperatures whose coefficients are kept (cleared when full).
 _MEMO_SIZE = 256
+#: Relative change of B2 from the rotation degree to the next above which a charged non-linear
+#: pair's quadrature is reported as not converged (about a tenth of the few-percent accuracy of
+#: such models' B2, tests/analysis/molecules/test_dimethyl_ether.py).
+ROTATION_DEGREE_TOLERANCE = 5e-3
 
 
 class MolecularVirialGas(VirialGas):
@@ -50,6 +54,14 @@ class MolecularVirialGas(VirialGas):
     rotation_degree : int, optional
         Lebedev degree of B2 of a pair with a non-linear molecule
         (:class:`analysis.molecules.second_rotations.RotationGrid`).
+    convergence_temperature_K : float, optional, K
+        Where a non-linear molecule carries site charges, B2 of each of its
+        pairs is computed at this temperature with ``rotation_degree`` and
+        with the next Lebedev degree, and a warning names every pair whose
+        B2 moves by more than :data:`ROTATION_DEGREE_TOLERANCE` (such pairs
+        converge slowly in the degree, docs/physics.md section 7a.2).  Give
+        the lowest temperature of interest; left out, a warning says that
+        the convergence was not measured.
 
     Notes
     -----
@@ -71,7 +83,7 @@ class MolecularVirialGas(VirialGas):
 
     def __init__(self, molecules, fractions, n_draws=DEFAULT_DRAWS, seed=1,
                  n_orientation=DEFAULT_ORIENTATION_NODES, n_radial=DEFAULT_RADIAL_NODES,
-                 rotation_degree=DEFAULT_ROTATION_DEGREE):
+                 rotation_degree=DEFAULT_ROTATION_DEGREE, convergence_temperature_K=None):
         self.molecules = list(molecules)
         if not self.molecules:
             raise StudyError("'molecules': give at least one molecule")
@@ -86,20 +98,49 @@ class MolecularVirialGas(VirialGas):
         self.de_boer = np.zeros(ns)
         if any(m.is_nonlinear for m in self.molecules):
             sphere_rule(rotation_degree, "rotation_degree")  # a bad degree is refused now
-        charged = [m.name for m in self.molecules
-                   if m.is_nonlinear and bool(np.any(m.charge_s != 0.0))]
-        if charged:
-            warnings.warn(
-                f"{', '.join(charged)}: B2 of a non-linear molecule with site charges is not "
-                f"converged at rotation degree {rotation_degree} (a three-site water model moved "
-                "by 1-2 % from degree 11 to 15, docs/physics.md section 7a.2): its B2, B3 and "
-                "every number that follows may be off by a few percent", UserWarning,
-                stacklevel=2)
         self._grid_settings = (n_orientation, n_radial, rotation_degree)
         self._draw_settings = (n_draws, seed)
         self._grids = {}
         self._draws = None
         self._memo = {}
+        self._warn_unconverged_rotations(convergence_temperature_K)
+
+    def _charged_nonlinear_pairs(self):
+        """Species pairs (a, b), a <= b, of which one is a non-linear molecule with charges."""
+        charged = [m.is_nonlinear and bool(np.any(m.charge_s != 0.0)) for m in self.molecules]
+        ns = len(self.molecules)
+        return [(a, b) for a in range(ns) for b in range(a, ns) if charged[a] or charged[b]]
+
+    def _warn_unconverged_rotations(self, T):
+        """The warning of ``convergence_temperature_K`` (class docstring)."""
+        pairs = self._charged_nonlinear_pairs()
+        if not pairs:
+            return
+        n_orientation, n_radial, degree = self._grid_settings
+        names = [f"{self.molecules[a].name}-{self.molecules[b].name}" for a, b in pairs]
+        if T is None:
+            warnings.warn(
+                f"{', '.join(names)}: B2 of a non-linear molecule with site charges converges "
+                f"slowly in the rotation degree ({degree} here; docs/physics.md section 7a.2), "
+                "and its convergence was not measured (give convergence_temperature_K)",
+                UserWarning, stacklevel=3)
+            return
+        T = float(positive_array("convergence_temperature_K", T, "a temperature in K"))
+        finer = min((d for d in SPHERE_DEGREES if d > degree), default=None)
+        if finer is None:
+            return
+        for (a, b), name in zip(pairs, names):
+            b2 = self._grid(a, b).b2(T)[0]
+            b2_finer = pair_grid(self.molecules[a], self.molecules[b], n_orientation, n_radial,
+                                 finer).b2(T)[0]
+            change = abs(b2_finer - b2) / abs(b2_finer)
+            if change > ROTATION_DEGREE_TOLERANCE:
+                warnings.warn(
+                    f"{name}: B2 at {T:.6g} K moves by {100 * change:.2g} % from rotation "
+                    f"degree {degree} to {finer}: the quadrature of this charged non-linear "
+                    "pair is not converged (docs/physics.md section 7a.2); its B2, B3 and every "
+                    "number that follows may be off by about that much", UserWarning,
+                    stacklevel=3)
 
     def _grid(self, a, b):
         if (a, b) not in self._grids:

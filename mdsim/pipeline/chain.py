@@ -36,7 +36,7 @@ from mdsim.sampling import store
 
 __all__ = ["Chain", "sampler_kind", "mean_se", "production_mean", "production_pressure", "run_to",
            "settle", "solve_or_extend",
-           "stage_share", "split_share", "SAFETY", "MIN_STAGE_SAMPLES", "MIN_CHAIN_SAMPLES",
+           "stage_share", "SAFETY", "MIN_STAGE_SAMPLES", "MIN_CHAIN_SAMPLES",
            "ERROR_BLOCKS", "MAX_STAGES_PER_CHAIN", "UNSETTLED_BUDGET"]
 
 PILOT_SAMPLES = 200
@@ -72,26 +72,6 @@ def stage_share(task, per_kelvin_red):
     change per reduced temperature unit (a heat capacity in k, or f/2).
     """
     return SAFETY * task.target_K / task.eps_K * per_kelvin_red / math.sqrt(2.0)
-
-
-def split_share(total_se, cost_a, cost_b):
-    """Standard errors of two independent means whose combined error is ``total_se``, at least cost.
-
-    Reaching a standard error s costs C / s^2 CPU seconds for a chain of
-    cost coefficient C (:func:`mdsim.pipeline.routes.sampler_choice.cost_coefficient`);
-    the least total cost with s_a^2 + s_b^2 = total_se^2 puts
-    s_a^2 = total_se^2 sqrt(C_a) / (sqrt(C_a) + sqrt(C_b)) (a Lagrange
-    multiplier; common practice in allocating samples, no source).  Without
-    two finite positive coefficients the split is even.
-
-    >>> [round(s, 4) for s in split_share(1.0, 4.0, 1.0)]  # the dearer chain gets more error
-    [0.8165, 0.5774]
-    >>> [round(s, 4) for s in split_share(1.0, float("inf"), 1.0)]
-    [0.7071, 0.7071]
-    """
-    ok = all(math.isfinite(c) and c > 0.0 for c in (cost_a, cost_b))
-    w_a = math.sqrt(cost_a) / (math.sqrt(cost_a) + math.sqrt(cost_b)) if ok else 0.5
-    return total_se * math.sqrt(w_a), total_se * math.sqrt(1.0 - w_a)
 
 
 class Chain:

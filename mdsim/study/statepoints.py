@@ -190,8 +190,10 @@ def virial_gas(study):
 
     A gas of rigid molecules gets an
     :class:`analysis.molecules.MolecularVirialGas` (B by orientation
-    quadrature, C by Monte Carlo integration).  Built once per study
-    object; the de Boer check's warnings are kept in
+    quadrature, C by Monte Carlo integration; the convergence of B2 of
+    charged non-linear molecules in the rotation degree measured at the
+    study's coldest initial temperature).  Built once per study object;
+    the de Boer check's and that measurement's warnings are kept in
     ``study._virial_warnings`` (see :func:`virial_warnings`).
     """
     gas = getattr(study, "_virial_gas", None)
@@ -201,7 +203,9 @@ def virial_gas(study):
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             if study.gas.molecules is not None:
-                gas = MolecularVirialGas(study.gas.molecules, study.gas.fractions)
+                coldest = min(sp.temperature_K for sp in state_points(study))
+                gas = MolecularVirialGas(study.gas.molecules, study.gas.fractions,
+                                         convergence_temperature_K=coldest)
             else:
                 gas = VirialGas(study.gas.pairs_K_angstrom, study.gas.fractions,
                                 study.gas.molar_masses_kg_mol,

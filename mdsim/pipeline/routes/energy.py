@@ -10,7 +10,7 @@ MBAR reweighting over two or more temperatures brackets the balance
 The sampler of each density is Monte Carlo or MD, whichever the pilots find
 cheaper (``sampler = "auto"``, :mod:`mdsim.pipeline.routes.sampler_choice`),
 or the one the study names.  The target is split between the two end states
-so that reaching it costs least (:func:`mdsim.pipeline.chain.split_share`,
+so that reaching it costs least (:func:`mdsim.pipeline.routes.sampler_choice.split_share`,
 from the pilots' run costs, :func:`mdsim.pipeline.routes.sampler_choice.run_cost`: samples, not
 CPU seconds, so that every run of a task takes the same decisions), with the final state's heat capacity
 c_v_ig + c_v_res (its pilot's fluctuation estimate) turning the target in
@@ -29,11 +29,11 @@ import math
 import numpy as np
 
 from mdsim.errors import ConvergenceError
-from mdsim.pipeline.chain import (mean_se, production_pressure, run_to, solve_or_extend,
-                                  split_share)
+from mdsim.pipeline.chain import mean_se, production_pressure, run_to, solve_or_extend
 from mdsim.pipeline.initial_state import run_initial_state
 from mdsim.pipeline.routes.sampler_choice import (COMPARE_ABOVE_CPU_S, SAMPLER_METHODS,
-                                                  piloted_chain, run_cost, state_md_settings)
+                                                  piloted_chain, run_cost, split_share,
+                                                  state_md_settings)
 from mdsim.pipeline.stage_names import INITIAL_STATE, final_density_guess, stage_name
 from mdsim.sampling import store
 from mdsim.units import R_GAS

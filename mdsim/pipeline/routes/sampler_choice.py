@@ -41,7 +41,8 @@ from mdsim.pipeline.chain import Chain
 from mdsim.pipeline.start_cache import StartCache
 
 __all__ = ["THERMOSTAT_STEPS", "CHOICE_PILOT_SAMPLES", "COMPARE_ABOVE_CPU_S", "SAMPLER_METHODS",
-           "DENSE_SKIN", "DILUTE_SKIN", "md_skin", "md_settings", "state_md_settings", "piloted_chain", "cost_coefficient", "run_cost"]
+           "DENSE_SKIN", "DILUTE_SKIN", "md_skin", "md_settings", "state_md_settings", "piloted_chain", "cost_coefficient", "run_cost",
+           "split_share"]
 
 THERMOSTAT_STEPS = 4
 """The energy route's MD thermostat relaxation time, in time steps."""
@@ -230,3 +231,23 @@ def piloted_chain(job, label, chain_id, make_system, T_red, sampler, share_hint)
                       sampler="md" if md_chain.cost < mc.cost else "mc")
     atomic_write_text(path, json.dumps(choice))
     return chains[choice["sampler"]], choice
+
+
+def split_share(total_se, cost_a, cost_b):
+    """Standard errors of two independent means whose combined error is ``total_se``, at least cost.
+
+    Reaching a standard error s costs C / s^2 CPU seconds for a chain of
+    cost coefficient C (:func:`cost_coefficient`);
+    the least total cost with s_a^2 + s_b^2 = total_se^2 puts
+    s_a^2 = total_se^2 sqrt(C_a) / (sqrt(C_a) + sqrt(C_b)) (a Lagrange
+    multiplier; common practice in allocating samples, no source).  Without
+    two finite positive coefficients the split is even.
+
+    >>> [round(s, 4) for s in split_share(1.0, 4.0, 1.0)]  # the dearer chain gets more error
+    [0.8165, 0.5774]
+    >>> [round(s, 4) for s in split_share(1.0, float("inf"), 1.0)]
+    [0.7071, 0.7071]
+    """
+    ok = all(math.isfinite(c) and c > 0.0 for c in (cost_a, cost_b))
+    w_a = math.sqrt(cost_a) / (math.sqrt(cost_a) + math.sqrt(cost_b)) if ok else 0.5
+    return total_se * math.sqrt(w_a), total_se * math.sqrt(1.0 - w_a)

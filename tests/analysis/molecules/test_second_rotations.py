@@ -114,21 +114,32 @@ def test_b3_of_a_bent_molecule_within_its_error(argon_atom):
     assert TripletDraws([argon_atom], n_draws=2000, seed=2).rot_nvv is None
 
 
-def test_charged_non_linear_molecules_carry_a_convergence_warning():
-    # measured (docs/physics.md 7a.2): a charged three-site water-like model's B2 moves by
-    # 1-2 % between Lebedev degrees 11 and 15, so its numbers are printed with a warning;
-    # an uncharged non-linear molecule (TINY) and a charged linear one do not warn
+def test_charged_non_linear_molecules_have_their_rotation_degree_convergence_measured():
+    # a charged non-linear pair's B2 converges slowly in the Lebedev degree (docs/physics.md
+    # 7a.2: a three-site water-like model moves 1-2 % from degree 11 to 15), so the gas measures
+    # the change to the next degree at the temperature it is given and warns above 0.5 %.
+    # Reference: the two quadratures themselves (pair_grid at degrees 5 and 7 of this toy model,
+    # +-0.8 e sites 0.3 angstrom apart: B2 -3.8577 and -4.0006 angstrom^3 at 3000 K, a 3.6 %
+    # change; 0.6414 and 0.6384 at 10000 K, 0.46 %).  Without a temperature it says the
+    # convergence was not measured; an uncharged non-linear molecule (TINY) and a charged linear
+    # one are not checked and do not warn
     import warnings as _w
     from analysis.molecules import MolecularVirialGas
     lj = LennardJones(1.0, 1.0)
     bent = RigidMolecule("bent", [Site(lj, (0.0, 0.0, 0.0), 0.01, charge_e=-0.8),
                                   Site(lj, (0.3, 0.0, 0.0), 0.001, charge_e=0.4),
                                   Site(lj, (0.0, 0.3, 0.0), 0.001, charge_e=0.4)])
-    with pytest.warns(UserWarning, match="bent: B2 of a non-linear molecule with site charges"):
-        MolecularVirialGas([bent], [1.0], n_draws=100)
+    with pytest.warns(UserWarning, match=r"bent-bent: B2 at 3000 K moves by 3\.6 % from "
+                      "rotation degree 5 to 7"):
+        MolecularVirialGas([bent], [1.0], n_draws=100, rotation_degree=5,
+                           convergence_temperature_K=3000.0)
+    with pytest.warns(UserWarning, match="bent-bent: .* convergence was not measured"):
+        MolecularVirialGas([bent], [1.0], n_draws=100, rotation_degree=5)
     rod = RigidMolecule("rod", [Site(lj, (0.0, 0.0, -0.5), 0.01, charge_e=0.1),
                                 Site(lj, (0.0, 0.0, 0.5), 0.01, charge_e=-0.1)])
     with _w.catch_warnings():
         _w.simplefilter("error")
+        MolecularVirialGas([bent], [1.0], n_draws=100, rotation_degree=5,
+                           convergence_temperature_K=10000.0)
         MolecularVirialGas([TINY], [1.0], n_draws=100)
         MolecularVirialGas([rod], [1.0], n_draws=100)
