@@ -32,8 +32,8 @@ molecules): :mod:`~mdsim.engine.body_rotation` (quaternions),
 forces, torques; the site-pair table and tail shared with the linear model in
 :mod:`~mdsim.engine.site_pairs`), :mod:`~mdsim.engine.body_mc_kernels` and
 :mod:`~mdsim.engine.body_mc` (Monte Carlo), :mod:`~mdsim.engine.body_insertion`
-(test-body insertion), :mod:`~mdsim.engine.body_integrator`
-and :mod:`~mdsim.engine.body_md` (molecular dynamics).
+(test-body insertion), :mod:`~mdsim.engine.body_integrator`,
+:mod:`~mdsim.engine.body_inertia` and :mod:`~mdsim.engine.body_md` (molecular dynamics).
 """
 from pathlib import Path as _Path
 

@@ -208,8 +208,7 @@ def plan_tasks(study):
     settings = simulation_settings(study)
     if settings["routes"]:
         check_simulation_supported(study.gas, f"study file '{study.path}', [simulation] routes = "
-                                   f"{list(settings['routes'])}", settings["routes"],
-                                   settings["sampler"])
+                                   f"{list(settings['routes'])}", settings["routes"])
     cv_ig = ideal_heat_capacity(study)
     tasks = []
     for sp in study.state_points():  # checked even when no route simulates

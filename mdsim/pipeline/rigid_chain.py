@@ -156,7 +156,7 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
 
 def is_nonlinear_gas(gas):
     """True for a gas with non-linear rigid molecules (one kind, or a mixture of them with atoms
-    and linear molecules, simulated as rigid bodies by Monte Carlo only,
+    and linear molecules, every species simulated as a rigid body,
     :func:`mdsim.study.molecule.check_simulation_supported`)."""
     return gas.molecules is not None and any(m.is_nonlinear for m in gas.molecules)
 

@@ -34,8 +34,11 @@ class BodyBox:
         kT/epsilon.
     units : mdsim.units.ReducedUnits
     model : mdsim.engine.body_model.BodyPairModel
-    inertia_i : ndarray, shape=(3,), m sigma^2
-        Principal moments of inertia (ascending), reduced.
+    mass_t : ndarray, shape=(n_types,)
+        Masses of the types in the first type's (the unit of mass).
+    inertia_ti : ndarray, shape=(n_types, 3), m sigma^2
+        Principal moments of inertia of each type (ascending), reduced: (0,
+        I, I) for a linear molecule, 0 for an atom.
     box_i : ndarray, shape=(3,), sigma
     centre_ni : ndarray, shape=(n, 3), sigma
         Centres on a simple cubic lattice.
@@ -49,11 +52,17 @@ class BodyBox:
     temperature: float
     units: ReducedUnits
     model: BodyPairModel
-    inertia_i: np.ndarray
+    mass_t: np.ndarray
+    inertia_ti: np.ndarray
     box_i: np.ndarray
     centre_ni: np.ndarray
     quat_nq: np.ndarray
     type_n: np.ndarray
+
+    @property
+    def inertia_i(self):
+        """The first type's principal moments, m sigma^2 (one kind: the molecule's)."""
+        return self.inertia_ti[0]
 
 
 def reduced_principal_inertia(molecule, units):
@@ -135,7 +144,6 @@ def body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff,
     Returns
     -------
     BodyBox
-        ``inertia_i`` is the first type's (molecular dynamics takes one kind).
 
     Examples
     --------
@@ -147,8 +155,10 @@ def body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff,
     ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
     >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.039948)])
     >>> b = body_mixture_box([bent, ar], [20, 7], 300.0, 2000.0, 3.0, seed=1)
-    >>> np.bincount(b.type_n).tolist(), b.model.rotates_t.tolist()
-    ([20, 7], [1, 0])
+    >>> np.bincount(b.type_n).tolist(), b.model.rotates_t.tolist(), b.inertia_ti[1].tolist()
+    ([20, 7], [1, 0], [0.0, 0.0, 0.0])
+    >>> round(float(b.mass_t[1]), 4)  # argon's mass in the bent molecule's
+    2.2193
     """
     T = positive("temperature_K", temperature_K, "a temperature in K")
     rho = positive("density_mol_m3", density_mol_m3, "a molar density in mol/m^3")
@@ -160,6 +170,7 @@ def body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff,
                           coulomb=COULOMB)
     box_i = np.full(3, (len(type_n) / units.density_to_reduced(rho)) ** (1.0 / 3.0))
     centre_ni, quat_nq = body_lattice_start(len(type_n), box_i, seed)
-    return BodyBox(T, rho, units.temperature_to_reduced(T), units, model,
-                   reduced_principal_inertia(molecules[0], units), box_i, centre_ni, quat_nq,
-                   type_n)
+    mass_t = np.array([m.molar_mass_kg_mol for m in molecules]) / molecules[0].molar_mass_kg_mol
+    inertia_ti = np.array([reduced_principal_inertia(m, units) for m in molecules])
+    return BodyBox(T, rho, units.temperature_to_reduced(T), units, model, mass_t, inertia_ti,
+                   box_i, centre_ni, quat_nq, type_n)

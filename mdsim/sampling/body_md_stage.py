@@ -1,4 +1,5 @@
-"""Molecular dynamics of non-linear rigid molecules in stage files, thermostatted or at fixed energy.
+"""Molecular dynamics of non-linear rigid molecules (one kind, or a mixture with linear molecules
+and atoms, every species a rigid body) in stage files, thermostatted or at fixed energy.
 
 :class:`BodyMDStageSampler` wraps :class:`mdsim.engine.body_md.BodyMDSampler`
 in the protocol of :func:`mdsim.sampling.state_point.sample_state_point`
@@ -9,20 +10,21 @@ of the microcanonical and direct routes (:data:`BODY_MD_NVE_METHOD`), with a
 checkpoint after every block that continues the run bit for bit.  The fixed
 energy, a fresh start's thermostatted equilibration and the scaling of the
 momenta to that energy are those of the linear molecules'
-:class:`mdsim.sampling.rigid_md_stage.RigidMDStageSampler`, with 3N - 3 + 3N
-kinetic degrees of freedom.
+:class:`mdsim.sampling.rigid_md_stage.RigidMDStageSampler`, with 3N - 3 + F_rot
+kinetic degrees of freedom (F_rot: 3 per non-linear molecule, 2 per linear
+one, none for an atom).
 
-Reduced units of the molecule's first site.  Run-file ``positions`` and
-``velocities`` are the centres and their velocities in the order the system
-gave them; the checkpoint also holds ``quat_nq`` and ``angular_momenta``
-(body frame) in that order, from which a continued stage starts.
+Reduced units of the first molecule's first site and the first molecule's
+mass.  Run-file ``positions`` and ``velocities`` are the centres and their
+velocities in the order the system gave them; the checkpoint also holds
+``quat_nq``, ``angular_momenta`` (body frame) and ``type_n`` in that order,
+from which a continued stage starts.
 """
 import math
 
 import numpy as np
 
 from mdsim.engine.body_md import BodyMDSampler
-from mdsim.errors import SettingError
 from mdsim.sampling.rigid_md_stage import RigidMDStageSampler
 
 __all__ = ["BODY_MD_METHOD", "BODY_MD_NVE_METHOD", "BODY_MD_METHODS", "BodyMDStageSampler",
@@ -42,7 +44,8 @@ def mean_free_time(system, temperature):
     Parameters
     ----------
     system : BodySystem
-        Its density and the sites of its (one kind of) molecule.
+        Its density, the sites of its molecules and, for a mixture, their
+        masses and types.
     temperature : float
         kT, reduced.
 
@@ -50,7 +53,7 @@ def mean_free_time(system, temperature):
     -------
     float
         t_c = 1 / (sqrt(2) pi d^2 rho v_mean) with v_mean = sqrt(8 kT / (pi m)),
-        in the reduced time unit (m = 1).
+        in the reduced time unit (m = 1 for one kind; a mixture's mean mass).
 
     Notes
     -----
@@ -58,7 +61,9 @@ def mean_free_time(system, temperature):
     Cowling, The Mathematical Theory of Non-Uniform Gases, 3rd ed. 1970,
     section 5.21), with d the diameter of the sphere that holds every site
     with half its sigma: twice the largest distance of a site from the
-    centre plus the largest site sigma.  It sets how long MD of a dilute gas
+    centre plus the largest site sigma (of a mixture, the largest molecule's:
+    a rough scale for the spacing of samples, not a transport property).
+    It sets how long MD of a dilute gas
     of these molecules must run to forget its start and to measure its
     correlation time (:mod:`mdsim.pipeline.rigid_chain`): the energy of
     propane at rho sigma^3 = 0.02 relaxes from the lattice in about 1.5 t_c
@@ -78,7 +83,9 @@ def mean_free_time(system, temperature):
     model = system.model
     reach = float(np.max(np.linalg.norm(model.site_body_ki, axis=1)))
     d = 2.0 * reach + max(p.sigma for p in model.site_potentials)
-    v_mean = math.sqrt(8.0 * float(temperature) / math.pi)
+    mass_t = getattr(system, "mass_t", None)
+    mass = 1.0 if mass_t is None else float(np.mean(np.asarray(mass_t)[system.type_n]))
+    v_mean = math.sqrt(8.0 * float(temperature) / (math.pi * mass))
     return 1.0 / (math.sqrt(2.0) * math.pi * d * d * float(system.density) * v_mean)
 
 
@@ -88,8 +95,10 @@ class BodyMDStageSampler(RigidMDStageSampler):
     As :class:`~mdsim.sampling.rigid_md_stage.RigidMDStageSampler` (parameters,
     the fixed energy, settings), with the orientations as quaternions, the
     body-frame angular momenta ``pb_ni`` of the system as its start momenta
-    (with ``v_ni``) and F = 3N - 3 + 3N kinetic degrees of freedom; one kind
-    of molecule.  ``method`` is one of :data:`BODY_MD_METHODS`.
+    (with ``v_ni``) and F = 3N - 3 + F_rot kinetic degrees of freedom
+    (:attr:`~mdsim.sampling.body_stage.BodySystem.rotational_dof`); one kind of
+    molecule or a mixture (the system's ``mass_t``, ``inertia_ti`` and
+    ``type_n``).  ``method`` is one of :data:`BODY_MD_METHODS`.
 
     Examples
     --------
@@ -124,11 +133,9 @@ class BodyMDStageSampler(RigidMDStageSampler):
 
     def engine(self, system, **settings):
         """The engine's sampler of the system (:class:`mdsim.engine.body_md.BodyMDSampler`)."""
-        if system.model.n_types > 1:
-            raise SettingError("system", f"{system.model.n_types} kinds of molecule", "MD of "
-                               "non-linear molecules takes one kind of molecule")
         return BodyMDSampler(self.model, system.r_ni, system.quat_nq, system.box_i,
-                             system.inertia_i, **settings)
+                             system.inertia_ti, mass_t=system.mass_t, type_n=system.type_n,
+                             **settings)
 
     def positions(self):
         """The molecular centres in the system's order, shape=(n, 3), sigma."""
@@ -139,16 +146,21 @@ class BodyMDStageSampler(RigidMDStageSampler):
         return self.md.in_given_order("v_ni")
 
     def get_state(self):
-        """The engine's state (bit for bit) plus the orientations and body-frame angular
-        momenta in the system's order, from which a continued stage starts."""
+        """The engine's state (bit for bit) plus the orientations, body-frame angular momenta
+        and types in the system's order, from which a continued stage starts."""
         state = self.md.get_state()
-        state["engine_quat_nq"] = state.pop("quat_nq")  # the engine's own (cell) order
+        for name in ("quat_nq", "type_n"):  # the engine's own (cell) order
+            state[f"engine_{name}"] = state.pop(name)
         state["quat_nq"] = self.md.in_given_order("quat_nq")
+        state["type_n"] = self.md.in_given_order("type_n")
         state["angular_momenta"] = self.md.in_given_order("pb_ni")
         return state
 
     def set_state(self, state):
         """Continue from a dictionary made by :meth:`get_state`."""
-        engine = {k: v for k, v in state.items() if k not in ("quat_nq", "angular_momenta")}
-        engine["quat_nq"] = engine.pop("engine_quat_nq")
+        engine = {k: v for k, v in state.items()
+                  if k not in ("quat_nq", "type_n", "angular_momenta")}
+        for name in ("quat_nq", "type_n"):
+            if f"engine_{name}" in engine:
+                engine[name] = engine.pop(f"engine_{name}")
         self.md.set_state(engine)

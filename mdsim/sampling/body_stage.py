@@ -17,6 +17,7 @@ import dataclasses
 
 import numpy as np
 
+from mdsim.engine.body_integrator import body_rotational_dof
 from mdsim.sampling.body_box import body_box, body_mixture_box
 from mdsim.sampling.rigid_stage import RigidMCStageSampler, RigidSystem
 
@@ -36,18 +37,26 @@ class BodySystem(RigidSystem):
     ----------
     quat_nq : ndarray, shape=(n, 4)
         Orientations (:mod:`mdsim.engine.body_rotation`).
-    inertia_i : ndarray, shape=(3,), m sigma^2
-        Principal moments of inertia.
+    inertia_ti : ndarray, shape=(n_types, 3), m sigma^2
+        Principal moments of inertia of each type (0, I, I for a linear
+        molecule, 0 for an atom).
     pb_ni : ndarray, shape=(n, 3), optional
         Body-frame angular momenta to start MD from (a continued stage).
-    model, box_i, r_ni, dof_per_particle, type_n
+    model, box_i, r_ni, dof_per_particle, type_n, mass_t
         As for :class:`RigidSystem` (the model a
-        :class:`mdsim.engine.body_model.BodyPairModel`, 3 + 3 degrees of freedom).
+        :class:`mdsim.engine.body_model.BodyPairModel`; 3 + 3 degrees of
+        freedom per non-linear molecule, the most of a mixture's).
     """
 
     quat_nq: np.ndarray = None
-    inertia_i: np.ndarray = None
+    inertia_ti: np.ndarray = None
     pb_ni: np.ndarray = None
+
+    @property
+    def rotational_dof(self):
+        """The rotations of the box: 3 per non-linear molecule, 2 per linear one, 0 per atom
+        (:func:`mdsim.engine.body_integrator.body_rotational_dof`)."""
+        return body_rotational_dof(self.inertia_ti[self.type_n])
 
 
 def body_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed):
@@ -69,7 +78,8 @@ def body_system(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, se
     """
     box = body_box(molecule, temperature_K, density_mol_m3, n_molecules, cutoff, seed)
     return BodySystem(box.model, box.box_i, box.centre_ni, None, int(molecule.kinetic_dof),
-                      box.type_n, quat_nq=box.quat_nq, inertia_i=box.inertia_i)
+                      box.type_n, mass_t=box.mass_t, quat_nq=box.quat_nq,
+                      inertia_ti=box.inertia_ti)
 
 
 def body_mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed):
@@ -87,13 +97,13 @@ def body_mixture_system(molecules, counts_t, temperature_K, density_mol_m3, cuto
     ...                               Site(lj, (-0.8, 0.6, 0.0), 0.001)])
     >>> ar = RigidMolecule("Ar", [Site(LennardJones(116.79, 3.3952), (0, 0, 0), 0.039948)])
     >>> s = body_mixture_system([bent, ar], [20, 7], 300.0, 2000.0, 3.0, seed=1)
-    >>> s.n_particles, s.dof_per_particle, np.bincount(s.type_n).tolist()
-    (27, 6, [20, 7])
+    >>> s.n_particles, s.dof_per_particle, np.bincount(s.type_n).tolist(), s.rotational_dof
+    (27, 6, [20, 7], 60)
     """
     box = body_mixture_box(molecules, counts_t, temperature_K, density_mol_m3, cutoff, seed)
     return BodySystem(box.model, box.box_i, box.centre_ni, None,
                       max(int(m.kinetic_dof) for m in molecules), box.type_n,
-                      quat_nq=box.quat_nq, inertia_i=box.inertia_i)
+                      mass_t=box.mass_t, quat_nq=box.quat_nq, inertia_ti=box.inertia_ti)
 
 
 class BodyMCStageSampler(RigidMCStageSampler):

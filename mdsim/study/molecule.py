@@ -173,7 +173,7 @@ def mean_kinetic_dof(fractions, molecules):
 MOLECULE_ROUTES = ("energy", "microcanonical", "direct")
 
 
-def check_simulation_supported(gas, where, routes=None, sampler="auto"):
+def check_simulation_supported(gas, where, routes=None):
     """Raise for a simulation the engine cannot run for a gas of rigid molecules.
 
     A gas of rigid molecules (linear molecules with site Lennard-Jones or
@@ -185,14 +185,15 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     so is a gas with non-linear molecules (every species a rigid body, site
     Lennard-Jones or Mie with optional site charges, plain Coulomb inside
     the molecular cut-off as for linear molecules: docs/physics.md section
-    7b.4): one kind of non-linear molecule by the same routes and samplers
-    with its rigid-body stages ("rigid-body-mc-nvt", "rigid-body-md-nvt",
-    "rigid-body-md-nve"), a mixture of them with atoms and linear molecules
-    by the energy route's canonical Monte Carlo only, with the route entropy
-    from test-body insertion (docs/physics.md section 7a.1).  Point
-    multipoles in a gas with a non-linear molecule are refused (they sit on
-    a linear molecule's axis, which a rigid body's kernels do not have), and
-    site charges together with point multipoles.  Spheres pass.
+    7b.4), one kind or a mixture of them with atoms and linear molecules, by
+    the same routes and samplers with its rigid-body stages
+    ("rigid-body-mc-nvt", "rigid-body-md-nvt", "rigid-body-md-nve"; in MD 3
+    rotations per non-linear molecule, 2 per linear one, none for an atom),
+    with the energy route's entropy from test-body insertion
+    (docs/physics.md section 7a.1).  Point multipoles in a gas with a
+    non-linear molecule are refused (they sit on a linear molecule's axis,
+    which a rigid body's kernels do not have), and site charges together
+    with point multipoles.  Spheres pass.
 
     Parameters
     ----------
@@ -202,9 +203,6 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
     routes : sequence of str, optional
         The simulation routes asked for; None for a simulation of spheres
         (which a gas of molecules cannot give).
-    sampler : str
-        ``[simulation] sampler`` ("auto", "mc" or "md"; "auto" is Monte Carlo for rigid
-        molecules, "md" thermostatted molecular dynamics).
 
     Raises
     ------
@@ -225,14 +223,6 @@ def check_simulation_supported(gas, where, routes=None, sampler="auto"):
                          '(form = "rigid-molecule"); use routes = ["energy", "microcanonical", '
                          '"direct"] or the virial routes, routes = []')
     nonlinear = [m.name for m in gas.molecules if m.is_nonlinear]
-    by_md = [r for r in routes if r != "energy"] + (['sampler = "md"'] if sampler == "md" else [])
-    if nonlinear and gas.n_species > 1 and by_md:  # MD of non-linear molecules: one kind
-        raise StudyError(f"{where}: molecule '{nonlinear[0]}' is not linear and mixed with other "
-                         "species; such a mixture is simulated by the energy route's canonical "
-                         f"Monte Carlo only, not {' and '.join(by_md)} (molecular dynamics of "
-                         "non-linear molecules takes one kind of molecule); use routes = "
-                         '["energy"] with sampler "auto" or "mc", or the virial routes, '
-                         "[simulation] routes = []")
     # with a non-linear molecule every species is a rigid body: site charges, no axial multipoles
     axial = [m.name for m in gas.molecules if m.has_multipoles]
     if nonlinear and axial:

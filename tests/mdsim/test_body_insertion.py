@@ -231,8 +231,7 @@ seed = 7
 
 
 @pytest.mark.parametrize("routes, change, match", [
-    ('["energy", "microcanonical"]', None, "not linear.*not microcanonical"),
-    ('["energy"]', ('potential = { form = "lennard-jones", epsilon = "116.79 K", sigma = '
+    ('["energy", "microcanonical", "direct"]', ('potential = { form = "lennard-jones", epsilon = "116.79 K", sigma = '
                     '"3.3952 angstrom" }', 'potential = { form = "rigid-molecule", '
                     'quadrupole = "1 D angstrom", sites = [{ form = "lennard-jones", epsilon = '
                     '"116.79 K", sigma = "3.3952 angstrom", position_angstrom = [0.0, 0.0, '
@@ -252,11 +251,10 @@ def test_what_a_mixture_with_a_nonlinear_molecule_cannot_simulate_is_refused(
         plan_tasks(read_study(tmp_path / "mix.toml"))
 
 
-def test_a_mixture_with_a_nonlinear_molecule_is_taken_by_the_energy_routes_monte_carlo(
-        tmp_path):
+def test_a_mixture_with_a_nonlinear_molecule_is_taken_by_every_simulation_route(tmp_path):
+    # Monte Carlo and MD (tests/mdsim/test_body_md_mixture.py) of every species as a body
     from mdsim.study.molecule import check_simulation_supported
     (tmp_path / "mix.toml").write_text(MIXTURE.replace("ROUTES", '["energy"]'))
     gas = read_study(tmp_path / "mix.toml").gas
-    assert check_simulation_supported(gas, "mix.toml", ["energy"], "auto") is None
-    with pytest.raises(StudyError, match="not linear.*not sampler"):
-        check_simulation_supported(gas, "mix.toml", ["energy"], "md")
+    assert check_simulation_supported(gas, "mix.toml", ["energy", "microcanonical",
+                                                        "direct"]) is None

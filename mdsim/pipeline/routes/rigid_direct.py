@@ -9,9 +9,9 @@ and angular momenta) left in place, then fixed-energy rigid MD
 molecules run the same stages of :mod:`mdsim.sampling.body_md_stage`
 (``rigid-body-md-nvt``, ``rigid-body-md-nve``; orientations as quaternions,
 body-frame angular momenta).  The kinetic degrees of freedom are
-F = 3N - 3 + 2 N_rot (3 translations per molecule and 2 rotations per
-linear rotor, none for the atoms of a mixture, the total momentum
-conserved), F = 6N - 3 for non-linear molecules: in the temperature series
+F = 3N - 3 + F_rot (3 translations per molecule, the total momentum
+conserved, and 2 rotations per linear rotor, 3 per non-linear molecule,
+none for the atoms of a mixture): in the temperature series
 (``temperature_inst`` = 2K / F), in the canonical energy the run starts at
 and in the solver (:func:`analysis.expansion.direct_route`).
 """
@@ -22,7 +22,6 @@ import numpy as np
 
 from mdsim.errors import SimulationError
 from mdsim.pipeline.rigid_chain import RigidChain
-from mdsim.engine.body_integrator import BODY_ROTATIONAL_DOF
 from mdsim.engine.rigid_integrator import translational_dof
 from mdsim.pipeline.routes.direct import WallRemovedChain
 from mdsim.sampling.body_md_stage import BODY_MD_NVE_METHOD, BodyMDStageSampler
@@ -60,16 +59,15 @@ class RigidWallRemovedChain(WallRemovedChain, RigidChain):
 
     def lightest_mass(self):
         """The lightest molecule's mass in the reduced units (the first molecule's mass)."""
-        if self.nonlinear:  # one kind of molecule, the unit of mass
-            return 1.0
         return float(np.min(self.base.mass_t[np.unique(self.base.type_n)]))
 
     def kinetic_dof(self):
         """3N - 3 + 2 N_rot (:func:`mdsim.sampling.rigid_md_stage.kinetic_dof_total`), or
-        3N - 3 + 3N for non-linear molecules."""
+        3N - 3 + F_rot with non-linear molecules
+        (:attr:`mdsim.sampling.body_stage.BodySystem.rotational_dof`)."""
         n = self.base.n_particles
         if self.nonlinear:
-            return translational_dof(n) + BODY_ROTATIONAL_DOF * n
+            return translational_dof(n) + self.base.rotational_dof
         return kinetic_dof_total(n, self.base.n_rotors)
 
     def start_at_canonical_energy(self, system, start):
