@@ -147,13 +147,13 @@ class BodyPairModel:
         """Isotropic site-site tail of the plain cut: (u_tail per body, p_tail), reduced
         (:func:`mdsim.engine.site_pairs.site_site_tail`)."""
         return site_site_tail(self.site_potentials, self.site_start_t, self.rc, density,
-                              fraction_t)
+                              fraction_t, np.linalg.norm(self.site_body_ki, axis=1))
 
     def insertion_tail(self, density, fraction_t=None, type_a=0):
         """Tail energy of one inserted body of type ``type_a``, epsilon
         (:func:`mdsim.engine.site_pairs.site_insertion_tail`)."""
         return site_insertion_tail(self.site_potentials, self.site_start_t, self.rc, density,
-                                   fraction_t, type_a)
+                                   fraction_t, type_a, np.linalg.norm(self.site_body_ki, axis=1))
 
     def pair(self, d_i, quat_a, quat_b, type_a=0, type_b=0):
         """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).

@@ -140,7 +140,7 @@ class LinearPairModel:
         average to zero over orientations and get no tail.
         """
         return site_site_tail(self.site_potentials, self.site_start_t, self.rc, density,
-                              fraction_t)
+                              fraction_t, np.abs(self.site_z_k))
 
     def insertion_tail(self, density, fraction_t=None, type_a=0):
         """Long-range tail energy of one inserted molecule of type ``type_a``, epsilon
@@ -155,7 +155,7 @@ class LinearPairModel:
         2.0
         """
         return site_insertion_tail(self.site_potentials, self.site_start_t, self.rc, density,
-                                   fraction_t, type_a)
+                                   fraction_t, type_a, np.abs(self.site_z_k))
 
     def pair(self, d_i, axis_a_i, axis_b_i, type_a=0, type_b=0):
         """Energy, force on b and torques on a and b of one pair (0 beyond the cut-off).

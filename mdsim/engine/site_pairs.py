@@ -16,6 +16,7 @@ import numpy as np
 
 from mdsim.engine.damped_coulomb import dsf_constants
 from mdsim.engine.forms import FORM_LJ, FORM_MIE, N_PARAM
+from mdsim.engine.molecular_tail import orientation_averaged_tail
 from mdsim.engine.potentials import LennardJones, Mie, combine
 from mdsim.engine.rigid_pair import CHARGES, DAMPING, DSF_OFFSET, DSF_SLOPE, N_PAIR_PARAM
 from mdsim.errors import SettingError
@@ -77,7 +78,7 @@ def site_pair_potential(pots, k, m):
     return a if a == b else combine(a, b)
 
 
-def site_site_tail(pots, site_start_t, rc, density, fraction_t=None):
+def site_site_tail(pots, site_start_t, rc, density, fraction_t=None, reach_k=None):
     """Isotropic site-site long-range corrections of a plain molecular cut-off.
 
     Parameters
@@ -91,6 +92,9 @@ def site_site_tail(pots, site_start_t, rc, density, fraction_t=None):
         Number density of molecules.
     fraction_t : array_like, shape=(n_types,), optional
         Mole fractions of the molecule types (default: one type).
+    reach_k : array_like, shape=(n_sites,), sigma, optional
+        Each site's distance from its molecule's centre of mass (default:
+        every site at the centre, an atom).
 
     Returns
     -------
@@ -100,14 +104,16 @@ def site_site_tail(pots, site_start_t, rc, density, fraction_t=None):
 
     Notes
     -----
-    Every site pair is taken as uncorrelated beyond the centre-centre
-    cut-off rc, with the site-site distance equal to rc:
+    Every pair of molecules is taken as uncorrelated beyond the
+    centre-centre cut-off rc, over positions and rotations:
     U_tail / N = 2 pi rho sum_ab x_a x_b sum_(k in a, m in b) I_u,km and
-    P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the
-    integrals of :meth:`PairPotential.tail_integrals` (the atomic
+    P_tail = -(2 pi / 3) rho^2 sum_ab x_a x_b sum_km I_w,km, the atomic
     formulas of Allen and Tildesley, Computer Simulation of Liquids,
-    section 2.8, applied site by site: common practice, no source).
-    Point multipoles average to zero over orientations and get no tail.
+    section 2.8, with the site-site potential averaged over both
+    molecules' rotations (:func:`mdsim.engine.molecular_tail.orientation_averaged_tail`;
+    for sites at the centres :meth:`PairPotential.tail_integrals`).
+    Point multipoles and neutral sets of site charges average to zero over
+    the rotations and get no tail.
 
     >>> u, p = site_site_tail([LennardJones(1.0, 1.0)], np.array([0, 1]), 3.0, 0.5)
     >>> round(float(u), 4), round(float(p), 4)  # LJ atom: (8/9) pi rho (rc^-9 - 3 rc^-3), ...
@@ -117,19 +123,19 @@ def site_site_tail(pots, site_start_t, rc, density, fraction_t=None):
     s_u = s_w = 0.0
     for a in range(len(x_t)):
         for b in range(len(x_t)):
-            i_u, i_w = type_pair_tail_integrals(pots, site_start_t, rc, a, b)
+            i_u, i_w = type_pair_tail_integrals(pots, site_start_t, rc, a, b, reach_k)
             s_u += x_t[a] * x_t[b] * i_u
             s_w += x_t[a] * x_t[b] * i_w
     rho = float(density)
     return float(2.0 * math.pi * rho * s_u), float(-2.0 * math.pi / 3.0 * rho * rho * s_w)
 
 
-def site_insertion_tail(pots, site_start_t, rc, density, fraction_t, type_a):
+def site_insertion_tail(pots, site_start_t, rc, density, fraction_t, type_a, reach_k=None):
     """Long-range tail energy of one inserted molecule of type ``type_a``, epsilon.
 
     Parameters
     ----------
-    pots, site_start_t, rc, density, fraction_t
+    pots, site_start_t, rc, density, fraction_t, reach_k
         As for :func:`site_site_tail`.
     type_a : int
         Type of the inserted molecule.
@@ -160,19 +166,26 @@ def site_insertion_tail(pots, site_start_t, rc, density, fraction_t, type_a):
     a = int(type_a)
     if not 0 <= a < n_types:
         raise SettingError("type_a", type_a, f"types are 0 to {n_types - 1}")
-    s_u = sum(x_t[b] * type_pair_tail_integrals(pots, site_start_t, rc, a, b)[0]
+    s_u = sum(x_t[b] * type_pair_tail_integrals(pots, site_start_t, rc, a, b, reach_k)[0]
               for b in range(n_types))
     return float(4.0 * math.pi * float(density) * s_u)
 
 
-def type_pair_tail_integrals(pots, site_start_t, rc, a, b):
-    """Sums over the sites k of type a and m of type b of the tail integrals at rc
-    (:meth:`PairPotential.tail_integrals`): (S_u, S_w)."""
+def type_pair_tail_integrals(pots, site_start_t, rc, a, b, reach_k=None):
+    """Sums over the sites k of type a and m of type b of the tail integrals beyond the
+    molecular cut-off rc, averaged over the rotations
+    (:func:`mdsim.engine.molecular_tail.orientation_averaged_tail`; sites at the
+    centres, ``reach_k`` None: :meth:`PairPotential.tail_integrals`): (S_u, S_w)."""
     s_u = s_w = 0.0
     st = site_start_t
     for k in range(st[a], st[a + 1]):
         for m in range(st[b], st[b + 1]):
-            i_u, i_w = site_pair_potential(pots, k, m).tail_integrals(rc)
+            pot = site_pair_potential(pots, k, m)
+            if reach_k is None or (reach_k[k] == 0.0 and reach_k[m] == 0.0):
+                i_u, i_w = pot.tail_integrals(rc)
+            else:
+                i_u, i_w = orientation_averaged_tail(pot, float(reach_k[k]), float(reach_k[m]),
+                                                     rc)
             s_u += i_u
             s_w += i_w
     return s_u, s_w
