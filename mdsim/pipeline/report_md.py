@@ -123,6 +123,21 @@ def _quantum_line(study):
     return "- Quantum effects: classical statistics throughout (no quantum correction asked for)."
 
 
+def _model_limits_line(study):
+    """The report's line on what the interaction model leaves out."""
+    if study.gas.molecules is not None:
+        return ("- Rigid molecules: Lennard-Jones or Mie sites (with the study's site charges "
+                "or point multipoles) on rigid bodies: no vibration in the simulated model, no "
+                "polarisability, no three-body forces; B3 is the additive third virial "
+                "coefficient of the same model.")
+    if study.gas.three_body_c9_K_A9:
+        return ("- Pair potential plus the Axilrod-Teller triple-dipole term in the B2 + B3 "
+                "route's B3 (its non-additive part); the simulation routes sample the pair "
+                "potential alone.")
+    return ("- Pair-additive, spherical potential: three-body forces are neglected; B3 is the "
+            "additive third virial coefficient of the same pair potential.")
+
+
 def _assumptions(study, cv):
     """What every number of the report assumes."""
     counts = study.gas.describe_heat_capacity_counts()
@@ -132,13 +147,17 @@ def _assumptions(study, cv):
         "carries only translation (3/2 R); rotations and vibrations enter only through this "
         "c_v_ig, so a wrong c_v_ig gives a wrong Delta T (3/2 R for a diatomic gas overstates "
         "its cooling by about 2/3).",
-        "- Pair-additive, spherical potential: three-body forces are neglected; B3 is the "
-        "additive third virial coefficient of the same pair potential.",
+        _model_limits_line(study),
         _quantum_line(study),
-        "- Long-range part: the potential is cut at the cut-off and the analytic tail correction "
-        "of the full potential added to energies and pressures; the direct route (NVE MD of "
-        "the truncated and shifted potential) is corrected to the full potential by the change "
-        "of <U_full - U_model> between the end states over the heat capacity.",
+        ("- Long-range part: the molecules' centre-centre distance is cut at the cut-off and "
+         "the tail of molecules uncorrelated beyond it (each site-site potential averaged over "
+         "both molecules' rotations) added to energies and pressures"
+         if study.gas.molecules is not None else
+         "- Long-range part: the potential is cut at the cut-off and the analytic tail "
+         "correction of the full potential added to energies and pressures")
+        + "; the direct route (NVE MD of the truncated and shifted potential) is corrected to "
+        "the full potential by the change of <U_full - U_model> between the end states over "
+        "the heat capacity.",
         "- The virial routes truncate the series after B2 and after B3; where the two differ "
         "noticeably the series is running out and only a simulation route can be trusted.",
         "- Error bars are one standard error from the statistical inefficiency of each sampled "

@@ -130,7 +130,8 @@ def rigid_system_maker(job, rho_mol_m3, tag, temperature_K=None):
     """A function making a fresh rigid system of the task at a density (seeded start).
 
     The molecular cut-off is the study's ``[potential] cutoff`` (sigma of the
-    first site), with the isotropic site-site tail (:mod:`mdsim.engine.rigid_mc`).
+    first site), with the tail of molecules uncorrelated beyond it
+    (:mod:`mdsim.engine.molecular_tail`).
     A mixture's box holds the study's mole fractions rounded to whole
     molecules (:meth:`mdsim.study.reader.Study.counts`).
     """
@@ -201,7 +202,8 @@ def set_up_molecular_task(job):
            "direct": f"{md}, thermostatted at the initial state, then at fixed energy"}
     job.notes.append(
         f"rigid molecules ({what}): {how.get(job.task.get('route'), mc)}, molecular cut-off "
-        f"{float(study.reduced_pairs().rc_max):g} sigma with the isotropic site-site tail; "
+        f"{float(study.reduced_pairs().rc_max):g} sigma with the tail of uncorrelated molecules "
+        "(site-site potentials averaged over both rotations); "
         f"{gas.describe_heat_capacity_counts()}")
     from mdsim.sampling.rigid_box import electrostatics_note
     note = electrostatics_note(gas.molecules, float(study.reduced_pairs().rc_max))
